@@ -1,0 +1,5 @@
+"""lowgmap physics: low-gravity two-phase conduit models.
+
+Pure functions and small frozen dataclasses, SI units inside. Nothing here imports a user-interface
+package (panel, bokeh, pint): units are converted at the edges in :mod:`app`.
+"""

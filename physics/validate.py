@@ -1,0 +1,88 @@
+"""Input checks shared by every physics module.
+
+Each check raises :class:`ValueError` (or :class:`TypeError`) whose message names the field, the value
+and what is allowed, e.g. ``contact_angle must be within [0, 180] deg, got 210 deg``.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+__all__ = ["finite", "positive", "non_negative", "in_range", "angle_deg_in_range"]
+
+
+def _fmt(value) -> str:
+    try:
+        return f"{float(value):.6g}"
+    except (TypeError, ValueError):
+        return repr(value)
+
+
+def finite(name: str, value, unit: str = "") -> float:
+    """Return ``value`` as a float; raise if it is not a finite real number."""
+    if isinstance(value, bool):
+        raise TypeError(f"{name} must be a number{_u(unit)}, got a boolean ({value!r})")
+    try:
+        x = float(value)
+    except (TypeError, ValueError):
+        raise TypeError(f"{name} must be a number{_u(unit)}, got {value!r}") from None
+    if not math.isfinite(x):
+        raise ValueError(f"{name} must be a finite number{_u(unit)}, got {value!r}")
+    return x
+
+
+def _u(unit: str) -> str:
+    return f" [{unit}]" if unit else ""
+
+
+def positive(name: str, value, unit: str = "") -> float:
+    """Return ``value`` as a float; raise unless it is finite and > 0."""
+    x = finite(name, value, unit)
+    if x <= 0:
+        raise ValueError(f"{name} must be > 0{_u(unit)}, got {_fmt(x)} {unit}".rstrip())
+    return x
+
+
+def non_negative(name: str, value, unit: str = "") -> float:
+    """Return ``value`` as a float; raise unless it is finite and >= 0."""
+    x = finite(name, value, unit)
+    if x < 0:
+        raise ValueError(f"{name} must be >= 0{_u(unit)}, got {_fmt(x)} {unit}".rstrip())
+    return x
+
+
+def in_range(name: str, value, lo: float, hi: float, unit: str = "", *,
+             lo_open: bool = False, hi_open: bool = False) -> float:
+    """Return ``value`` as a float; raise unless lo <= value <= hi (bounds optionally open)."""
+    x = finite(name, value, unit)
+    bad = (x < lo or (lo_open and x == lo)) or (x > hi or (hi_open and x == hi))
+    if bad:
+        lb = "(" if lo_open else "["
+        rb = ")" if hi_open else "]"
+        raise ValueError(
+            f"{name} must be within {lb}{_fmt(lo)}, {_fmt(hi)}{rb} {unit}".rstrip()
+            + f", got {_fmt(x)} {unit}".rstrip()
+        )
+    return x
+
+
+def angle_deg_in_range(name: str, value_rad, lo_deg: float, hi_deg: float, *,
+                       lo_open: bool = False, hi_open: bool = False):
+    """Check an angle given in radians against a range stated in degrees (the message uses degrees).
+
+    Accepts a scalar or an array; returns it unchanged (as float or float array).
+    """
+    arr = np.asarray(value_rad, dtype=float)
+    if not np.all(np.isfinite(arr)):
+        raise ValueError(f"{name} must be finite, got {value_rad!r}")
+    deg = np.degrees(arr)
+    lo_bad = deg < lo_deg - 1e-12 if not lo_open else deg <= lo_deg
+    hi_bad = deg > hi_deg + 1e-12 if not hi_open else deg >= hi_deg
+    bad = lo_bad | hi_bad
+    if np.any(bad):
+        worst = float(np.atleast_1d(deg)[np.atleast_1d(bad)][0])
+        lb = "(" if lo_open else "["
+        rb = ")" if hi_open else "]"
+        raise ValueError(f"{name} must be within {lb}{lo_deg:g}, {hi_deg:g}{rb} deg, got {worst:.6g} deg")
+    return float(arr) if arr.ndim == 0 else arr
