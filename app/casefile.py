@@ -41,7 +41,7 @@ AXES_KINDS = ("flow", "superficial_velocity", "reynolds", "weber", "flow_ratio")
 _SECTION_FIELDS: dict[str, dict[str, str]] = {
     "circle": {"diameter": "length"},
     "rectangle": {"width": "length", "height": "length"},
-    "regular_polygon": {"sides": "int", "side": "length"},
+    "regular_polygon": {"n_sides": "int", "side": "length"},
     "groove": {"half_angle": "angle", "depth": "length"},
     "wedge_channel": {"half_angle": "angle", "wall_length": "length"},
     "polygon": {"vertices": "vertices", "open_edges": "int_list?"},
@@ -62,7 +62,10 @@ class Problem:
 
     def __str__(self) -> str:
         where = f"line {self.line}: " if self.line else ""
-        return f"{where}{self.path}: {self.message}"
+        written = ""
+        if isinstance(self.value, str) and self.value not in self.message:
+            written = f" (written: {self.value!r})"
+        return f"{where}{self.path}: {self.message}{written}"
 
 
 class CaseFileError(ValueError):
@@ -177,6 +180,14 @@ class _Collector:
             msg = str(exc)
             if msg.startswith(path + ": "):
                 msg = msg[len(path) + 2:]
+            # A model error naming a field ("wetting.contact_angle must be ...", "circle.diameter must
+            # be ...") is filed under that key of this table when the file has it.
+            m = (re.match(r"^(?:[A-Za-z_]+\.)?([A-Za-z_]+)\s+(must|is|has|should)\b", msg))
+            if m and f"{path}.{m.group(1)}" in self.lines:
+                path = f"{path}.{m.group(1)}"
+                msg = msg[m.start(2):]
+                if isinstance(value, dict):
+                    value = value.get(m.group(1), value)
             self.add(path, msg, value)
             return None
 
@@ -326,7 +337,7 @@ def _build_section(col: _Collector, data: dict):
     builders = {
         "circle": lambda: sections.Circle(params["diameter"]),
         "rectangle": lambda: sections.Rectangle(params["width"], params["height"]),
-        "regular_polygon": lambda: sections.RegularPolygon(params["sides"], params["side"]),
+        "regular_polygon": lambda: sections.RegularPolygon(params["n_sides"], params["side"]),
         "groove": lambda: sections.Groove(params["half_angle"], params["depth"]),
         "wedge_channel": lambda: sections.WedgeChannel(params["half_angle"], params["wall_length"]),
         "polygon": lambda: sections.Polygon(params["vertices"], params.get("open_edges", ())),

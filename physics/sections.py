@@ -145,6 +145,11 @@ class Section(ABC):
         """Indices of the open edges of :meth:`outline` (edge k joins vertex k to k+1)."""
         return ()
 
+    @property
+    def length_scale_name(self) -> str:
+        """Plain-words name of :attr:`length_scale` for reports (e.g. "depth")."""
+        return "hydraulic diameter"
+
     # ---- shared -----------------------------------------------------------------------------
     @property
     def hydraulic_diameter(self) -> float:
@@ -216,6 +221,7 @@ class Section(ABC):
             "hydraulic_diameter_m": float(self.hydraulic_diameter),
             "inscribed_radius_m": float(self.inscribed_radius),
             "length_scale_m": float(self.length_scale),
+            "length_scale_name": self.length_scale_name,
             "open_edges": [int(i) for i in self.open_edges()],
             "corners": [
                 {
@@ -323,6 +329,10 @@ class Circle(Section):
     def length_scale(self) -> float:
         """Diameter D [m]."""
         return self.diameter
+
+    @property
+    def length_scale_name(self) -> str:
+        return "diameter"
 
     def outline(self) -> np.ndarray:
         t = np.linspace(0.0, 2.0 * np.pi, CIRCLE_OUTLINE_VERTICES, endpoint=False)
@@ -556,6 +566,10 @@ class Groove(Section):
         """Depth d [m]."""
         return self.depth
 
+    @property
+    def length_scale_name(self) -> str:
+        return "depth"
+
     def outline(self) -> np.ndarray:
         b = self.depth * math.tan(self.half_angle)
         return np.array([[0.0, 0.0], [b, self.depth], [-b, self.depth]], dtype=float)
@@ -633,6 +647,10 @@ class WedgeChannel(Section):
     def length_scale(self) -> float:
         """Wall (plate) length L [m]."""
         return self.wall_length
+
+    @property
+    def length_scale_name(self) -> str:
+        return "wall length"
 
     def outline(self) -> np.ndarray:
         s, c = math.sin(self.half_angle), math.cos(self.half_angle)
@@ -921,3 +939,7 @@ class Polygon(Section):
             d = np.abs((v[:, 0] - a[0]) * t[1] - (v[:, 1] - a[1]) * t[0])
             return float(d.max())
         return self.hydraulic_diameter
+
+    @property
+    def length_scale_name(self) -> str:
+        return "depth normal to the open side" if len(self.open_edge_indices) == 1 else "hydraulic diameter"

@@ -63,13 +63,10 @@ def section_report(case: Case) -> dict:
         "contact_angle_deg": math.degrees(theta),
         "corners": corners,
         "gravity": {
-            "g_m_s2": case.g, "g_over_g0": case.g_over_g0, "length_name": _length_name(sec),
+            "g_m_s2": case.g, "g_over_g0": case.g_over_g0, "length_name": sec.length_scale_name,
             "length_m": L, "bond_number": bo, "gravity_negligible": bo < GRAVITY_NEGLIGIBLE_BOND,
             "verdict": verdict,
         },
         "notes": notes,
     }
 
-
-def _length_name(sec) -> str:
-    return "the hydraulic diameter" if not sec.is_open else "the channel depth"

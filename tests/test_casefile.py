@@ -1,0 +1,194 @@
+"""Case files: load, validate (all problems at once, with key paths and lines), save atomically."""
+import math
+import os
+from pathlib import Path
+
+import pytest
+import tomlkit
+from hypothesis import HealthCheck, given, settings, strategies as st
+
+from app.casefile import (SAMPLE_DIR, CaseFileError, dumps_case, load_case, loads_case, sample_case_path,
+                          save_case)
+
+SAMPLES = sorted(SAMPLE_DIR.glob("*.toml"))
+
+GOOD = """\
+schema_version = 1
+title = "unit-test tube"
+revision = "B"
+
+[fluid]
+liquid = "water"
+gas = "air"
+temperature = "20 degC"
+pressure = "101.325 kPa"
+
+[section]
+kind = "circle"
+diameter = "12.7 mm"
+
+[wetting]
+contact_angle = "30 deg"
+
+[conduit]
+length = "1 m"
+residual_acceleration = "1e-5 g0"
+
+[chart]
+liquid_flow = ["10 mL/min", "10 L/min"]
+gas_flow = ["10 mL/min", "10 L/min"]
+
+[operating_point]
+liquid_flow = "1 L/min"
+gas_flow = "100 sccm"
+"""
+
+
+def test_there_are_at_least_three_invented_samples():
+    assert len(SAMPLES) >= 3
+    for p in SAMPLES:
+        text = p.read_text()
+        assert "INVENTED" in text.upper(), p
+        assert load_case(p).invented, p
+
+
+@pytest.mark.parametrize("path", SAMPLES, ids=lambda p: p.stem)
+def test_every_sample_case_loads(path):
+    doc = load_case(path)
+    c = doc.case
+    assert c.length > 0 and c.g >= 0
+    assert c.fluid.sigma > 0 and c.section.area > 0
+    assert doc.path == path
+
+
+def test_good_case_values_are_si():
+    doc = loads_case(GOOD)
+    c = doc.case
+    assert c.section.hydraulic_diameter == pytest.approx(0.0127)
+    assert c.wetting.contact_angle == pytest.approx(math.radians(30))
+    assert c.g == pytest.approx(9.80665e-5)  # 1e-5 g0, g0 = 9.80665 m/s^2 (CGPM 1901)
+    assert c.operating_point.ql == pytest.approx(1e-3 / 60)
+    # 100 sccm at 20 degC, 101.325 kPa: ideal gas, reference 0 degC / 1 atm (SEMI E12)
+    assert c.operating_point.qg == pytest.approx(100e-6 / 60 * 293.15 / 273.15)
+    assert c.revision == "B"
+
+
+def _problems(text):
+    with pytest.raises(CaseFileError) as info:
+        loads_case(text)
+    return info.value.problems
+
+
+def test_broken_case_reports_every_problem_with_path_value_and_line():
+    bad = (GOOD.replace('diameter = "12.7 mm"', 'diameter = "-3 mm"')
+               .replace('contact_angle = "30 deg"', 'contact_angle = "210 deg"')
+               .replace('length = "1 m"', 'length = "2 s"')
+               .replace('liquid = "water"', 'liquid = "unobtainium"'))
+    probs = _problems(bad)
+    paths = {p.path for p in probs}
+    assert {"section.diameter", "wetting.contact_angle", "conduit.length", "fluid"} <= paths, probs
+    by = {p.path: p for p in probs}
+    assert "210" in by["wetting.contact_angle"].message and "180" in by["wetting.contact_angle"].message
+    assert "time" in by["conduit.length"].message and "length" in by["conduit.length"].message
+    assert "unobtainium" in by["fluid"].message
+    assert "-3" in by["section.diameter"].message or "-0.003" in by["section.diameter"].message
+    assert by["conduit.length"].line == 19
+    assert by["wetting.contact_angle"].line == 16
+    assert by["section.diameter"].line == 13
+
+
+def test_missing_tables_and_keys_are_named():
+    text = 'schema_version = 1\n[fluid]\nliquid = "water"\n'
+    probs = _problems(text)
+    msgs = {p.path: p.message for p in probs}
+    assert "fluid.temperature" in msgs
+    for table in ("section", "wetting", "conduit"):
+        assert "missing table" in msgs[table]
+
+
+def test_unknown_keys_and_schema_version():
+    probs = _problems(GOOD.replace("schema_version = 1", "schema_version = 99\ncolour = \"red\""))
+    msgs = {p.path: p.message for p in probs}
+    assert "unsupported version" in msgs["schema_version"]
+    assert "unknown key" in msgs["colour"]
+    assert _problems(GOOD.replace("schema_version = 1\n", ""))[0].path == "schema_version"
+
+
+def test_syntax_error_names_line():
+    probs = _problems(GOOD.replace('revision = "B"', 'revision = "B'))
+    assert probs[0].path == "(syntax)" and probs[0].line == 3
+
+
+def test_standard_flow_rejected_for_liquid():
+    probs = _problems(GOOD.replace('liquid_flow = "1 L/min"', 'liquid_flow = "100 sccm"'))
+    assert probs[0].path == "operating_point.liquid_flow"
+    assert "only valid for a gas" in probs[0].message
+
+
+def test_bad_section_kind_and_polygon():
+    probs = _problems(GOOD.replace('kind = "circle"', 'kind = "blob"'))
+    assert probs[0].path == "section.kind" and "circle" in probs[0].message
+    poly = GOOD.replace('kind = "circle"\ndiameter = "12.7 mm"',
+                        'kind = "polygon"\nvertices_unit = "mm"\nvertices = [[0, 0], [1, 1], [1, 0], [0, 1]]')
+    probs = _problems(poly)
+    assert probs[0].path.startswith("section") and "cross" in probs[0].message.lower()
+
+
+def test_chart_range_order_and_margin():
+    probs = _problems(GOOD.replace('liquid_flow = ["10 mL/min", "10 L/min"]', 'liquid_flow = ["10 L/min", "1 L/min"]')
+                      + 'required_margin = "150 %"\n'.replace("required", "x_required"))
+    paths = {p.path for p in probs}
+    assert "chart" in paths
+
+
+def test_round_trip_is_exact_and_atomic(tmp_path):
+    src = sample_case_path()
+    doc = load_case(src)
+    out = tmp_path / "copy.toml"
+    doc.save(out)
+    assert out.read_text() == src.read_text()  # byte-exact, comments kept
+    assert load_case(out).case == doc.case
+
+
+def test_save_is_atomic_when_interrupted(tmp_path, monkeypatch):
+    target = tmp_path / "case.toml"
+    target.write_text("original")
+    data = tomlkit.parse(GOOD)
+
+    def boom(*a, **k):
+        raise KeyboardInterrupt("simulated interruption")
+
+    monkeypatch.setattr(os, "replace", boom)
+    with pytest.raises(KeyboardInterrupt):
+        save_case(data, target)
+    assert target.read_text() == "original"
+    assert [p.name for p in tmp_path.iterdir()] == ["case.toml"]  # no temporary file left behind
+
+
+def test_missing_file_is_a_clear_error(tmp_path):
+    with pytest.raises(CaseFileError, match="no such file"):
+        load_case(tmp_path / "nope.toml")
+
+
+_names = st.text(alphabet=st.characters(whitelist_categories=("L", "N"), whitelist_characters=" -_"),
+                 min_size=1, max_size=30)
+
+
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(title=_names, diameter=st.floats(0.1, 100.0), theta=st.floats(0.0, 179.0),
+       length=st.floats(0.01, 10.0), g=st.floats(0.0, 1.0), ql=st.floats(1.0, 100.0))
+def test_round_trip_property(title, diameter, theta, length, g, ql):
+    data = tomlkit.parse(GOOD)
+    data["title"] = title
+    data["section"]["diameter"] = f"{diameter!r} mm"
+    data["wetting"]["contact_angle"] = f"{theta!r} deg"
+    data["conduit"]["length"] = f"{length!r} m"
+    data["conduit"]["residual_acceleration"] = f"{g!r} g0"
+    data["operating_point"]["liquid_flow"] = f"{ql!r} mL/min"
+    text = dumps_case(data)
+    doc = loads_case(text)
+    again = loads_case(dumps_case(doc.data))
+    assert dumps_case(again.data) == text
+    assert again.case == doc.case
+    assert doc.case.section.hydraulic_diameter == pytest.approx(diameter * 1e-3)
+    assert doc.case.title == title
