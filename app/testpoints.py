@@ -41,6 +41,7 @@ from __future__ import annotations
 
 import csv
 import io
+import itertools
 import math
 import os
 import re
@@ -242,8 +243,8 @@ def read_test_points(source, *, mapping: dict | None = None, regime_map: dict | 
         browser upload). Excel is recognised by the .xlsx/.xlsm suffix or by the zip signature of the bytes.
     mapping : dict, optional
         ``{"file column": "canonical field"}`` for headers lowgmap does not recognise; the value may carry
-        a unit that overrides the header's, e.g. ``{"Qliq": "liquid_flow [mL/min]"}``; ``None`` as value
-        ignores the column. Keys match the header exactly, then ignoring case, then without its unit.
+        a unit that overrides the header's, e.g. ``{"Qliq": "liquid_flow [mL/min]"}``; ``None`` (or
+        ``"ignore"``) as value ignores the column. Keys match the header exactly, then ignoring case, then without its unit.
     regime_map : dict, optional
         ``{"file label": "chart regime name"}`` (labels matched ignoring case and repeated spaces).
     pressure, temperature : float [Pa], [K] or text with unit (``"1.2 bar"``, ``"20 degC"``)
@@ -319,7 +320,12 @@ def read_test_points(source, *, mapping: dict | None = None, regime_map: dict | 
         raise TestPointError(f"the header (line {header_row}) is followed by no data rows", source_name)
 
     data_rows = np.asarray(rows[1:], dtype=np.int64)
-    frame = pd.DataFrame(records[1:])
+    body = records[1:]
+    lengths = set(map(len, body))
+    if len(lengths) > 1:  # pad short rows (missing trailing fields) with empty cells
+        longest = max(lengths)
+        body = [r if len(r) == longest else r + [""] * (longest - len(r)) for r in body]
+    frame = pd.DataFrame(body)
     width = len(header)
     problems: list[RowProblem] = []
     bad = np.zeros(len(data_rows), dtype=bool)
@@ -328,12 +334,11 @@ def read_test_points(source, *, mapping: dict | None = None, regime_map: dict | 
     if frame.shape[1] > width:
         extra = frame.iloc[:, width:].fillna("").astype(str)
         has_extra = (extra.apply(lambda c: c.str.strip() != "")).any(axis=1).to_numpy()
-        n_fields = frame.notna().sum(axis=1).to_numpy()
+        n_fields = np.fromiter(map(len, records[1:]), dtype=np.int64, count=len(data_rows))
         for i in np.flatnonzero(has_extra):
             hint = " (a decimal comma in a comma-separated file? quote the number or use ';' as delimiter)" \
                 if delim == "," else ""
-            problems.append(RowProblem(int(data_rows[i]), "(row)", str(delim or "").join(
-                "" if v is None else str(v) for v in records[1 + i]),
+            problems.append(RowProblem(int(data_rows[i]), "(row)", str(delim or "").join(records[1 + i]),
                 f"has {int(n_fields[i])} values but the header has {width} columns{hint}"))
         bad |= has_extra
 
@@ -468,10 +473,10 @@ def _collapse_spaces(s: pd.Series) -> pd.Series:
 
 def _not_number_message(fld: str, value: str, decimal: str, delim) -> str:
     msg = f"{fld} is not a number: {value!r}"
-    if _NUM_WITH_TEXT.match(value):
-        msg += " (write the unit in the column header, not in the cell)"
-    elif decimal == "." and re.fullmatch(_COMMA_DECIMAL, value):
+    if decimal == "." and re.fullmatch(_COMMA_DECIMAL, value):
         msg += " (decimal comma? pass decimal=',' or use ';' as delimiter)"
+    elif _NUM_WITH_TEXT.match(value):
+        msg += " (write the unit in the column header, not in the cell)"
     return msg
 
 
@@ -561,11 +566,12 @@ def _resolve_columns(header: list[str], mapping: dict, header_row: int):
             problems.insert(0, f"no header: the first line (line {header_row}) holds numbers, not column names; "
                                f"start the file with a header such as: {TEMPLATE_HEADER}")
         else:
-            names = "; ".join(f"{f}: {', '.join(repr(a) for a in [f, *FIELDS[f].aliases][:6])}" for f in missing)
+            names = "; ".join(f"{f}: {', '.join(repr(a) for a in [f, *FIELDS[f].aliases])}" for f in missing)
+            example = f"{missing[0]} [{FIELDS[missing[0]].example_unit}]"
             problems.append(
                 f"required column(s) missing: {', '.join(missing)}. The header (line {header_row}) has "
-                f"{listing}. Accepted names ({names}) with the unit in brackets, e.g. "
-                f"'liquid_flow [mL/min]'; or map a column, e.g. mapping={{'your column': 'liquid_flow [mL/min]'}}")
+                f"{listing}. Accepted names, ignoring case, spaces and punctuation ({names}), with the unit in "
+                f"brackets, e.g. {example!r}; or map a column, e.g. mapping={{'your column': {example!r}}}")
     return cols, ignored, problems
 
 
@@ -725,7 +731,7 @@ def _sniff(lines: list[str]) -> str:
 def _csv_records(text: str, delimiter, label):
     text = text.replace("\r\n", "\n").replace("\r", "\n")
     text = _COMMENT_LINE.sub("", text)  # comment lines become blank lines, so line numbers stay right
-    first = [ln for ln in text.split("\n", 200)[:200] if ln.strip()][:21]
+    first = list(itertools.islice((ln for ln in text.split("\n") if ln.strip()), 21))
     if not first:
         return [], [], delimiter or ","
     delim = delimiter or _sniff(first)

@@ -1,0 +1,50 @@
+"""Documentation checks: the theory manual is generated and complete; the README keeps its promises."""
+import re
+import sys
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT / "physics" / "manual"))
+import build as manual_build  # noqa: E402
+
+
+def test_theory_manual_is_up_to_date():
+    assert (ROOT / "physics" / "README.md").read_text(encoding="utf-8") == manual_build.render(), \
+        "physics/README.md is stale: run `python physics/manual/build.py`"
+
+
+def test_every_registered_boundary_model_is_in_the_manual():
+    from physics.boundary import model_names
+
+    text = (ROOT / "physics" / "README.md").read_text(encoding="utf-8")
+    missing = [name for name in model_names() if name not in text]
+    assert not missing, f"models without a theory-manual entry: {missing}"
+
+
+def _quick_start_commands():
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    start = text.index("## Quick start")
+    end = text.index("\n## ", start + 5)
+    return re.findall(r"```bash\n(.*?)\n```", text[start:end], flags=re.S)
+
+
+def test_readme_quick_start_has_exactly_two_commands():
+    cmds = _quick_start_commands()
+    assert len(cmds) == 2 and all("\n" not in c for c in cmds), cmds
+    assert "pytest" in cmds[1] and "lowgmap" in cmds[0]
+
+
+def test_ci_runs_the_readme_test_command():
+    ci = (ROOT / ".ci" / "run").read_text()
+    assert "ci:test-command" in ci
+    text = (ROOT / "README.md").read_text()
+    after = text.split("<!-- ci:test-command -->", 1)[1]
+    assert re.search(r"```bash\n(.*?)\n```", after, flags=re.S).group(1) == _quick_start_commands()[1]
+
+
+def test_caution_is_stated():
+    from app import CAUTION
+
+    readme = (ROOT / "README.md").read_text()
+    assert "not a substitute for qualification testing" in readme
+    assert "qualification testing" in CAUTION and "standards" in CAUTION
