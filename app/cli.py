@@ -198,5 +198,7 @@ def _register_optional_commands() -> None:
             _EXTRA_COMMANDS.append(reg)
 
 
-if __name__ == "__main__":  # pragma: no cover
-    sys.exit(main())
+if __name__ == "__main__":  # pragma: no cover - `python -m app.cli`
+    from app.cli import main as _main  # the package module, so its exception classes are the ones raised
+
+    sys.exit(_main())
