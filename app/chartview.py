@@ -165,7 +165,7 @@ def chart_view(chart, *, axes: str = "flow", log_axes: bool = True, ql_unit: str
 def _label_point(ql, qg) -> tuple[float, float]:
     """A point well inside the polygon (pole of inaccessibility in log-log space)."""
     try:
-        from shapely import polylabel
+        from shapely.ops import polylabel
         from shapely.geometry import Polygon
 
         poly = Polygon(np.column_stack([np.log10(ql), np.log10(qg)]))

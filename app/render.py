@@ -93,8 +93,11 @@ def _draw(fig, view: ChartView, title, title_block, point_label, extra_points):
         if r.hatch:
             ax.fill(r.x, r.y, facecolor="none", edgecolor=r.colour, hatch=r.hatch, linewidth=0, alpha=0.8, zorder=1)
         if r.show_label:
-            ax.text(r.label_x, r.label_y, r.name, ha="center", va="center", fontsize=10, weight="bold",
-                    color="#111111", zorder=6,
+            fx = _axis_fraction(view, r.label_x, 0)
+            ha = "right" if fx > 0.72 else ("left" if fx < 0.28 else "center")
+            name = r.name if len(r.name) <= 24 else _wrap(r.name, 24)
+            ax.text(r.label_x, r.label_y, name, ha=ha, va="center", fontsize=10, weight="bold",
+                    color="#111111", zorder=6, multialignment="center",
                     bbox=dict(boxstyle="round,pad=0.25", facecolor="white", edgecolor="none", alpha=0.75))
         if r.name not in regime_done:
             regime_done.add(r.name)
@@ -171,6 +174,15 @@ def _title_block(fig, rows, top):
             fig.text(0.20, y, line, fontsize=7.8, va="top")
             y -= line_h
     fig.text(0.075, 0.02, "CAUTION: " + CAUTION, fontsize=8, weight="bold", color="#8B0000")
+
+
+def _axis_fraction(view, value, axis: int) -> float:
+    import math
+
+    lo, hi = view.x_range if axis == 0 else view.y_range
+    if view.log_axes:
+        return (math.log10(value) - math.log10(lo)) / (math.log10(hi) - math.log10(lo))
+    return (value - lo) / (hi - lo)
 
 
 def _region_label_fractions(view):

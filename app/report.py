@@ -46,7 +46,8 @@ def case_rows(doc, chart=None, margins=None) -> list[tuple[str, str]]:
                                         f"Q_G {format_flow(op.qg, st.gas_flow_unit)}"
                      + (f" -> {chart.regime_at(op.ql, op.qg)}" if chart is not None else "")))
     if margins is not None:
-        lim = margins.limiting_boundary or "none in range"
+        lim = next((b.label for b in margins.boundaries if b.name == margins.limiting_boundary),
+                   margins.limiting_boundary or "no boundary in the chart range")
         rows.append(("symmetric margin", f"±{100 * margins.symmetric_margin:.1f} % (limited by {lim}); "
                                          f"required ±{100 * st.required_margin:.0f} %"))
     return rows

@@ -262,7 +262,7 @@ class ExplicitBoundary(BoundaryModel):
 BOUNDARY_MODELS: dict[str, BoundaryModel] = {}
 
 #: Modules whose import registers the built-in models (loaded on first look-up).
-_BUILTIN_MODULES = ("physics.tube_models",)
+_BUILTIN_MODULES = ("physics.tube_models", "physics.corner_models")
 _builtins_loaded = False
 
 

@@ -297,7 +297,7 @@ def test_build_errors():
 
 
 def test_open_section_gets_no_tube_models():
-    chart = Chart.build(make_case(Groove(math.radians(30.0), 0.002)))
+    chart = Chart.build(make_case(Groove(math.radians(30.0), 0.002)), models=())
     assert chart.boundaries == () and chart.regions == () and chart.regime_names == ()
     assert any("No boundary model applies" in w and "Open section (groove)" in w for w in chart.warnings)
     assert chart.classify(np.array([1e-5, 1e-4]), 1e-5).tolist() == ["", ""]

@@ -6,7 +6,7 @@ import pytest
 
 from app.casefile import load_case, loads_case, sample_case_path
 from app.cli import main
-from app.cli_chart import build_chart_export
+from app.exports import chart_bytes
 from physics.chart import Chart
 
 
@@ -49,8 +49,8 @@ def test_bad_output_suffix_is_rejected(tmp_path, capsys):
 
 
 def test_export_is_deterministic(tube_doc, tmp_path):
-    _, _, a = build_chart_export(tube_doc, None, fmt="svg")
-    _, _, b = build_chart_export(tube_doc, None, fmt="svg")
+    a = chart_bytes(tube_doc, "svg")
+    b = chart_bytes(tube_doc, "svg")
     assert a == b
 
 

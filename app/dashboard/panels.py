@@ -1,0 +1,390 @@
+"""Operating point, margin table, test points and export panels of the dashboard."""
+from __future__ import annotations
+
+import html
+import io
+
+import numpy as np
+import panel as pn
+import param
+
+from .. import CAUTION
+from ..units import UnitError, convert
+
+__all__ = ["PointPanel", "MarginTable", "TestPointsPanel", "ExportPanel", "margin_table_html"]
+
+
+def _factor_text(f) -> str:
+    if f is None or not np.isfinite(f):
+        return "—"
+    if f >= 10:
+        return f"{f:.3g} (×{f:.3g})"
+    pct = (f - 1.0) * 100.0
+    return f"{f:.3g} ({pct:+.0f} %)"
+
+
+def margin_table_html(margins, required: float) -> str:
+    """The margin table as HTML: one row per boundary, the symmetric margin with its limiting line.
+
+    Factors are Q_cross/Q along each axis (the other flow held); a row is highlighted when the
+    boundary lies closer than the required margin on either axis.
+    """
+    if margins is None:
+        return "<p>No regimes on this chart: no margins.</p>"
+    m = margins.symmetric_margin
+    low = m is not None and m < required
+    head = (f"<div class='margin-summary{' below-required' if low else ''}' data-margin='{m:.9g}' "
+            f"data-regime='{html.escape(margins.regime)}' data-ql='{margins.ql:.12g}' data-qg='{margins.qg:.12g}' "
+            f"data-limiting='{html.escape(margins.limiting_boundary or '')}'>"
+            f"Regime at the point: <b>{html.escape(margins.regime)}</b><br>"
+            f"Symmetric margin: <b class='sym-margin'>±{100 * m:.1f} %</b> "
+            f"(limited by {html.escape(_label_of(margins, margins.limiting_boundary))}); "
+            f"required ±{100 * required:.0f} %"
+            + (" — <b>BELOW REQUIRED MARGIN</b>" if low else "") + "</div>")
+    rows = []
+    for b in margins.boundaries:
+        close = any(f is not None and np.isfinite(f) and ((f >= 1 and f < 1 + required) or (f < 1 and f > 1 - required))
+                    for f in (b.ql_factor_up, b.ql_factor_down, b.qg_factor_up, b.qg_factor_down))
+        cls = "margin-row" + (" too-close" if close and b.role == "regions" else "")
+        dist = "—" if b.log_distance is None or not np.isfinite(b.log_distance) else f"{b.log_distance:.3f}"
+        rows.append(
+            f"<tr class='{cls}' data-name='{html.escape(b.name)}' data-ql-up='{_num(b.ql_factor_up)}' "
+            f"data-ql-down='{_num(b.ql_factor_down)}' data-qg-up='{_num(b.qg_factor_up)}' "
+            f"data-qg-down='{_num(b.qg_factor_down)}'>"
+            f"<td>{html.escape(b.label)}{'' if b.role == 'regions' else ' <i>(comparison)</i>'}</td>"
+            f"<td>{_factor_text(b.ql_factor_up)}</td><td>{_factor_text(b.ql_factor_down)}</td>"
+            f"<td>{_factor_text(b.qg_factor_up)}</td><td>{_factor_text(b.qg_factor_down)}</td><td>{dist}</td></tr>")
+    table = ("<table class='margin-table'><thead><tr><th>boundary</th><th>Q_L up</th><th>Q_L down</th>"
+             "<th>Q_G up</th><th>Q_G down</th><th>log<sub>10</sub> distance</th></tr></thead><tbody>"
+             + "".join(rows) + "</tbody></table>"
+             "<p class='margin-note'>Factor = flow at the crossing / present flow, the other flow held "
+             "(1.8 = may rise 80 %); — = no crossing inside the chart range.</p>")
+    return head + table
+
+
+def _num(f) -> str:
+    return "" if f is None or not np.isfinite(f) else f"{f:.9g}"
+
+
+def _label_of(margins, name) -> str:
+    if not name:
+        return "no boundary in the chart range"
+    for b in margins.boundaries:
+        if b.name == name:
+            return b.label
+    return str(name)
+
+
+MARGIN_CSS = """
+.margin-table {border-collapse: collapse; font-size: 12px; width: 100%;}
+.margin-table th, .margin-table td {border: 1px solid #ccc; padding: 3px 6px; text-align: right;}
+.margin-table td:first-child, .margin-table th:first-child {text-align: left;}
+.margin-table tr.too-close td {background: #fde0dc;}
+.margin-summary {font-size: 14px; margin-bottom: 6px; padding: 6px; border-radius: 4px; background: #eef6ee;}
+.margin-summary.below-required {background: #fde0dc; border: 2px solid #C00000;}
+.margin-note {font-size: 11px; color: #555;}
+"""
+
+
+class PointPanel(pn.viewable.Viewer):
+    """Typed operating-point fields (with units), live readout, robust-point and uncertainty controls."""
+
+    def __init__(self, session, chart_pane, **params):
+        super().__init__(**params)
+        self.session = session
+        self.chart_pane = chart_pane
+        st = session.doc.settings
+        self.ql_input = pn.widgets.TextInput(name=f"Liquid flow rate", sizing_mode="stretch_width",
+                                             css_classes=["ql-input"])
+        self.qg_input = pn.widgets.TextInput(name=f"Gas flow rate (sccm, slpm allowed)", sizing_mode="stretch_width",
+                                             css_classes=["qg-input"])
+        self.message = pn.pane.Alert("", alert_type="danger", visible=False, css_classes=["point-problem"],
+                                     sizing_mode="stretch_width")
+        self.readout = pn.pane.Markdown(chart_pane.param.readout, css_classes=["point-readout"],
+                                        sizing_mode="stretch_width")
+        self.required = pn.widgets.FloatSlider(name="Required margin ± [%]", start=0, end=90, step=1,
+                                               value=round(100 * st.required_margin), sizing_mode="stretch_width")
+        self.required.param.watch(lambda e: setattr(session, "required_margin", e.new / 100.0), "value")
+        self.uncertainty = pn.widgets.Checkbox(name="Show flow-rate uncertainty box", value=False)
+        self.uncertainty.param.watch(lambda e: setattr(session, "show_uncertainty", e.new), "value")
+        self.regime_select = pn.widgets.Select(name="Regime for the robust point", options=[],
+                                               sizing_mode="stretch_width")
+        self.robust_button = pn.widgets.Button(name="Move to the most robust point", button_type="primary",
+                                               sizing_mode="stretch_width")
+        self.robust_button.on_click(self._robust)
+        self._sync_fields()
+        for w in (self.ql_input, self.qg_input):
+            w.param.watch(self._typed, "value")
+        session.param.watch(lambda *_: self._sync_fields(), ["ql", "qg", "revision_counter"])
+
+    def _sync_fields(self):
+        s = self.session
+        st = s.doc.settings
+        self._syncing = True
+        try:
+            if s.ql is not None:
+                self.ql_input.value = f"{convert(s.ql, 'flow', st.liquid_flow_unit):.4g} {st.liquid_flow_unit}"
+                self.qg_input.value = f"{convert(s.qg, 'flow', st.gas_flow_unit):.4g} {st.gas_flow_unit}"
+            names = list(s.chart.regime_names)
+            self.regime_select.options = names
+            intended = st.intended_regime
+            if names and self.regime_select.value not in names:
+                self.regime_select.value = intended if intended in names else (s.regime_at(s.ql, s.qg) or names[0])
+        finally:
+            self._syncing = False
+
+    def _typed(self, event):
+        if getattr(self, "_syncing", False):
+            return
+        try:
+            ql, qg = self.session.parse_point_text(self.ql_input.value, self.qg_input.value)
+        except (UnitError, ValueError) as exc:
+            self.message.object = f"{exc} — the operating point was not moved."
+            self.message.visible = True
+            return
+        self.message.visible = False
+        self.session.move_point(ql, qg)
+
+    def _robust(self, event):
+        try:
+            rp = self.session.robust_point(self.regime_select.value)
+        except (ValueError, RuntimeError) as exc:
+            self.message.object = f"No robust point: {exc}"
+            self.message.visible = True
+            return
+        self.message.visible = False
+        return rp
+
+    def __panel__(self):
+        return pn.Column(pn.pane.Markdown("#### Operating point"), self.readout, self.ql_input, self.qg_input,
+                         self.message, self.required, self.uncertainty, self.regime_select, self.robust_button,
+                         sizing_mode="stretch_width")
+
+
+class MarginTable(pn.viewable.Viewer):
+    """Margins of the operating point to every boundary (recomputed on release, never on drag)."""
+
+    def __init__(self, session, **params):
+        super().__init__(**params)
+        self.session = session
+        self.pane = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["margin-pane"],
+                                 stylesheets=[MARGIN_CSS])
+        session.param.watch(lambda *_: self.refresh(), ["margins", "required_margin"])
+        self.refresh()
+
+    def refresh(self):
+        self.pane.object = margin_table_html(self.session.margins, self.session.required_margin)
+
+    def __panel__(self):
+        return pn.Column(pn.pane.Markdown("#### Margins to every boundary"), self.pane, sizing_mode="stretch_width")
+
+
+class TestPointsPanel(pn.viewable.Viewer):
+    """Upload test points (CSV/Excel), map columns when needed, draw them and summarise agreement."""
+
+    MAX_BYTES = 20_000_000
+
+    def __init__(self, session, chart_pane, **params):
+        super().__init__(**params)
+        self.session = session
+        self.chart_pane = chart_pane
+        self.upload = pn.widgets.FileInput(accept=".csv,.tsv,.txt,.xlsx", multiple=False,
+                                           css_classes=["points-upload"], sizing_mode="stretch_width")
+        self.upload.param.watch(self._on_upload, "value")
+        self.preview = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["points-preview"])
+        self.summary = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["points-summary"])
+        self.problems = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["points-problems"])
+        self.mapping_box = pn.Column(sizing_mode="stretch_width", visible=False)
+        self._raw: bytes | None = None
+        self._name = ""
+        self.points = None
+        session.param.watch(lambda *_: self._redraw(), ["revision_counter"])
+
+    def _on_upload(self, event):
+        if not event.new:
+            return
+        data = event.new if isinstance(event.new, bytes) else str(event.new).encode()
+        if len(data) > self.MAX_BYTES:
+            self.problems.object = (f"<p class='err'>File too large ({len(data) / 1e6:.1f} MB); the limit is "
+                                    f"{self.MAX_BYTES / 1e6:.0f} MB.</p>")
+            return
+        self._raw = data
+        self._name = self.upload.filename or "uploaded file"
+        self.load(mapping=None)
+
+    def load(self, mapping=None, regime_map=None):
+        from ..testpoints import TestPointError, read_test_points
+
+        f = self.session.doc.case.fluid
+        self._show_preview()
+        try:
+            tps = read_test_points(self._raw, name=self._name, mapping=mapping, regime_map=regime_map,
+                                   pressure=f.pressure, temperature=f.temperature)
+        except TestPointError as exc:
+            self.points = None
+            self.chart_pane._held(self.chart_pane.show_test_points, None, [], {})
+            self.summary.object = ""
+            items = "".join(f"<li>{html.escape(str(p))}</li>" for p in getattr(exc, "problems", [])) or \
+                f"<li>{html.escape(str(exc))}</li>"
+            self.problems.object = f"<p><b>The file could not be read:</b></p><ul>{items}</ul>"
+            self._offer_mapping()
+            return
+        self.mapping_box.visible = False
+        self.points = tps
+        rej = [p for p in tps.problems if getattr(p, "severity", "error") == "error"]
+        warn = [p for p in tps.problems if getattr(p, "severity", "error") != "error"]
+        rows = "".join(f"<tr><td>{p.row}</td><td>{html.escape(str(p.column))}</td>"
+                       f"<td>{html.escape(str(p.value))}</td><td>{html.escape(p.message)}</td></tr>" for p in rej)
+        text = ""
+        if rej:
+            text += (f"<p><b>{len(rej)} row problem(s); those rows are left out, the others kept:</b></p>"
+                     "<table class='bad-rows'><tr><th>row</th><th>column</th><th>value</th><th>reason</th></tr>"
+                     + rows + "</table>")
+        if warn:
+            text += "<p>Notes: " + "; ".join(html.escape(str(p)) for p in warn[:10]) + "</p>"
+        self.problems.object = text
+        self._redraw()
+
+    def _show_preview(self):
+        try:
+            text = self._raw.decode("utf-8-sig", errors="replace")
+        except Exception:  # binary (Excel)
+            text = ""
+        lines = text.splitlines()[:8]
+        self.preview.object = ("<p><b>" + html.escape(self._name) + "</b> (first lines, the file is not changed)"
+                               "</p><pre style='font-size:11px;max-height:140px;overflow:auto'>"
+                               + html.escape("\n".join(lines)) + "</pre>") if lines else ""
+
+    def _offer_mapping(self):
+        text = self._raw.decode("utf-8-sig", errors="replace") if self._raw else ""
+        header = next((ln for ln in text.splitlines() if ln.strip() and not ln.lstrip().startswith("#")), "")
+        delim = max([",", ";", "\t"], key=header.count)
+        cols = [c.strip().strip('"') for c in header.split(delim)] if header else []
+        if not cols:
+            self.mapping_box.visible = False
+            return
+        self._map_widgets = {}
+        widgets = [pn.pane.Markdown("**Map the file's columns** (choose the column and its unit):")]
+        for field, unit in (("liquid_flow", "mL/min"), ("gas_flow", "mL/min"), ("observed_regime", None),
+                            ("platform", None), ("test_id", None)):
+            sel = pn.widgets.Select(name=field.replace("_", " "), options=["(none)"] + cols,
+                                    css_classes=[f"map-{field}"])
+            u = pn.widgets.TextInput(name="unit", value=unit or "", visible=unit is not None,
+                                     css_classes=[f"map-{field}-unit"])
+            self._map_widgets[field] = (sel, u)
+            widgets.append(pn.Row(sel, u))
+        apply = pn.widgets.Button(name="Apply column mapping", button_type="primary", css_classes=["map-apply"])
+        apply.on_click(self._apply_mapping)
+        widgets.append(apply)
+        self.mapping_box.objects = widgets
+        self.mapping_box.visible = True
+
+    def _apply_mapping(self, event):
+        mapping = {}
+        for field, (sel, u) in self._map_widgets.items():
+            if sel.value and sel.value != "(none)":
+                mapping[sel.value] = f"{field} [{u.value}]" if u.visible and u.value.strip() else field
+        self.load(mapping=mapping)
+
+    def _redraw(self):
+        tps = self.points
+        if tps is None:
+            return
+        chart = self.session.chart
+        pts = tps.points
+        predicted = list(chart.classify(pts["ql_m3_s"].to_numpy(), pts["qg_m3_s"].to_numpy())) if len(pts) else []
+        from ..chartview import regime_style
+
+        styles = {name: regime_style(i)[0] for i, name in enumerate(chart.regime_names)}
+        self.chart_pane._held(self.chart_pane.show_test_points, pts, predicted, styles)
+        obs = pts["observed_regime"].fillna("").astype(str).tolist()
+        labelled = [(o, p) for o, p in zip(obs, predicted) if o]
+        agree = sum(o == p for o, p in labelled)
+        unknown = sorted({o for o, _ in labelled if o not in chart.regime_names})
+        n = len(labelled)
+        frac = agree / n if n else float("nan")
+        per = {}
+        for o, p in labelled:
+            per.setdefault(o, [0, 0])
+            per[o][0] += o == p
+            per[o][1] += 1
+        rows = "".join(f"<tr><td>{html.escape(k)}</td><td>{a} of {t}</td></tr>" for k, (a, t) in sorted(per.items()))
+        self.summary.object = (
+            f"<div class='agreement' data-agree='{agree}' data-total='{n}'>"
+            f"<b>Agreement:</b> {agree} of {n} labelled points ({100 * frac:.0f} %) fall in the regime they "
+            f"were observed in; {len(pts)} points drawn, disagreements outlined in red."
+            + (f"<br>Labels not on this chart (count as disagreement until mapped): "
+               f"{html.escape(', '.join(unknown))}" if unknown else "")
+            + f"<table><tr><th>observed regime</th><th>chart agrees</th></tr>{rows}</table></div>")
+
+    def __panel__(self):
+        return pn.Column(pn.pane.Markdown("#### Test points (CSV or Excel)"), self.upload, self.preview,
+                         self.mapping_box, self.summary, self.problems, sizing_mode="stretch_width")
+
+
+class ExportPanel(pn.viewable.Viewer):
+    """Downloads for the design review: chart (PNG/SVG/PDF), review report (HTML) and the case file."""
+
+    def __init__(self, session, test_points_panel=None, **params):
+        super().__init__(**params)
+        self.session = session
+        self.tp = test_points_panel
+        self.buttons = []
+        for fmt in ("png", "svg", "pdf"):
+            self.buttons.append(pn.widgets.FileDownload(
+                callback=lambda fmt=fmt: self._chart(fmt), filename=f"regime_chart.{fmt}",
+                label=f"Chart ({fmt.upper()})", button_type="default", css_classes=[f"export-{fmt}"],
+                sizing_mode="stretch_width"))
+        self.buttons.append(pn.widgets.FileDownload(callback=self._report, filename="review_report.html",
+                                                    label="Review report (HTML)", css_classes=["export-report"],
+                                                    sizing_mode="stretch_width"))
+        self.buttons.append(pn.widgets.FileDownload(callback=self._case, filename="case.toml",
+                                                    label="Case file (TOML)", css_classes=["export-case"],
+                                                    sizing_mode="stretch_width"))
+        self.case_upload = pn.widgets.FileInput(accept=".toml", css_classes=["case-upload"],
+                                                sizing_mode="stretch_width")
+        self.case_upload.param.watch(self._open_case, "value")
+
+    def _current_doc(self):
+        from ..casefile import loads_case
+
+        return loads_case(self.session.case_text(), source=self.session.source_name,
+                          base_dir=self.session.base_dir)
+
+    def _test_point_marks(self):
+        if self.tp is None or self.tp.points is None:
+            return None
+        return self.tp.points.points
+
+    def _chart(self, fmt: str):
+        from ..exports import chart_bytes
+
+        data = chart_bytes(self._current_doc(), fmt, test_points=self._test_point_marks(),
+                           log_axes=self.session_log())
+        return io.BytesIO(data)
+
+    def session_log(self):
+        return None
+
+    def _report(self):
+        from ..exports import report_html
+
+        return io.BytesIO(report_html(self._current_doc(), test_points=self._test_point_marks()).encode("utf-8"))
+
+    def _case(self):
+        return io.BytesIO(self.session.case_text().encode("utf-8"))
+
+    def _open_case(self, event):
+        if not event.new:
+            return
+        try:
+            text = event.new.decode("utf-8-sig")
+        except UnicodeDecodeError:
+            self.session.problems = {"case": ["the uploaded case file is not UTF-8 text"]}
+            return
+        self.session.load_text(text, self.case_upload.filename or "uploaded case")
+
+    def __panel__(self):
+        return pn.Column(pn.pane.Markdown("#### Export for review"), *self.buttons,
+                         pn.pane.Markdown("**Open a case file** (.toml):"), self.case_upload,
+                         sizing_mode="stretch_width")

@@ -1,0 +1,195 @@
+"""Tests of physics.bubbles: film thickness, bubble size, spacing and merging, migration, taper path."""
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from physics import bubbles as bb
+from physics.sections import Circle, Groove, Polygon, WedgeChannel
+
+# --- film thickness ---------------------------------------------------------------------------------
+
+
+def test_bretherton_film_check_value():
+    # Bretherton (1961), h/R = 1.3375 Ca^(2/3); reference list section 4 check value [calc]: Ca 1e-3 -> 0.013375
+    assert bb.bretherton_film(1e-3) == pytest.approx(0.013375, rel=1e-12)
+
+
+def test_aussillous_quere_film_check_value():
+    # Aussillous & Quere (2000), h/R = 1.34 Ca^(2/3)/(1 + 3.35 Ca^(2/3)); reference list [calc]: Ca 1e-2 -> 0.05383
+    assert bb.aussillous_quere_film(1e-2) == pytest.approx(0.05383, abs=5e-6)
+
+
+def test_film_laws_agree_at_small_ca_and_saturate_at_large_ca():
+    # limiting cases of the interpolation (closed forms): ratio 1.34/1.3375 as Ca -> 0; h/R -> 1.34/3.35
+    ca = np.array([1e-9, 1e-7])
+    assert np.allclose(bb.aussillous_quere_film(ca) / bb.bretherton_film(ca), 1.34 / 1.3375, rtol=1e-4)
+    assert bb.aussillous_quere_film(1e9) == pytest.approx(1.34 / 3.35, rel=1e-5)
+    assert np.isnan(bb.bretherton_film(-1.0)) and np.isnan(bb.aussillous_quere_film(-1.0))
+
+
+# --- bubble size at injection ---------------------------------------------------------------------------
+
+def test_squeezing_law_hand_point():
+    # Garstecki et al. (2006), Lab Chip 6:437: L/w = 1 + a Q_G/Q_L; a = 1, Q_G/Q_L = 0.5 -> 1.5 (hand computed)
+    assert bb.squeezing_length(2e-6, 1e-6, a=1.0) == pytest.approx(1.5, rel=1e-15)
+    # a = 2.3, Q_G/Q_L = 4 -> 10.2
+    assert bb.squeezing_length(1e-7, 4e-7, a=2.3) == pytest.approx(10.2, rel=1e-14)
+    # plug w x h x L (hand computed): w = 0.1 mm, h = 0.05 mm, L/w = 3 -> 1.5e-12 m^3
+    assert bb.squeezing_volume(1.0, 2.0, 1e-4, 5e-5, a=1.0) == pytest.approx(1.5e-12, rel=1e-12)
+
+
+def test_size_frequency_spacing_closed_forms():
+    v = bb.sphere_volume(2e-3)
+    assert v == pytest.approx(math.pi * 8e-9 / 6, rel=1e-15)            # pi d^3 / 6
+    assert bb.equivalent_diameter(v) == pytest.approx(2e-3, rel=1e-14)
+    # f = Q_G / V; lambda = j / f = V (Q_L + Q_G) / (A Q_G) (closed forms, hand numbers)
+    assert bb.bubble_frequency(3e-8, 1e-9) == pytest.approx(30.0, rel=1e-14)
+    assert bb.bubble_spacing(3e-7, 1e-7, 2e-9, 1e-5) == pytest.approx(2e-9 * 4e-7 / (1e-5 * 1e-7), rel=1e-14)
+    assert np.isinf(bb.bubble_spacing(1e-6, 0.0, 1e-9, 1e-5))          # no gas: bubbles infinitely far apart
+    assert np.isnan(bb.bubble_spacing(-1e-6, 1e-7, 1e-9, 1e-5))
+
+
+def test_merged_volume_is_continuous_at_onset_and_grows_with_merging_ratio():
+    d = 1e-3
+    v = bb.sphere_volume(d)
+    lam = np.array([4e-3, 2e-3 * (1 + 1e-12), 2e-3, 1e-3, 0.25e-3])   # k_m d = 2e-3
+    vm = bb.merged_volume(v, d, lam, 2.0)
+    assert np.allclose(vm[:3], v, rtol=1e-9)                             # N <= 1: no merging
+    assert vm[3] == pytest.approx(2 * v) and vm[4] == pytest.approx(8 * v)
+    assert bb.merging_ratio(d, np.inf, 2.0) == 0.0
+
+
+def test_void_fraction_density_residence_time():
+    # drift-flux void fraction without drift (Dukler et al. 1988 form): Q_G / (C0 (Q_L + Q_G))
+    assert bb.homogeneous_void_fraction(1.0, 1.0, c0=1.25) == pytest.approx(0.4, rel=1e-15)
+    assert bb.mixture_density(3.0, 1.0, 1000.0, 1.0) == pytest.approx(750.25, rel=1e-15)
+    # l A / (Q_L + Q_G): liquid speed in the liquid-filled area Q_L / (A (1 - alpha)), alpha = Q_G/(Q_L + Q_G)
+    ql, qg, area, length = 2e-6, 1e-6, 1e-5, 0.3
+    alpha = qg / (ql + qg)
+    assert bb.residence_time(length, area, ql, qg) == pytest.approx(length / (ql / (area * (1 - alpha))), rel=1e-14)
+
+
+# --- migration force balance ------------------------------------------------------------------------------
+
+def test_migration_capillary_number_single_drag_limits():
+    # closed forms of the force balance with one drag term each (theory manual, our derivation)
+    taper, theta = 0.4, math.radians(20.0)
+    drive = 2.0 * math.cos(theta) * taper
+    hs = bb.migration_capillary_number(taper, theta, film_drag=0.0, form_drag=0.0)
+    assert hs == pytest.approx(drive / 12.0, rel=1e-13)
+    # inertia alone: (C_D/pi)(h/a) La Ca^2 = drive
+    ine = bb.migration_capillary_number(taper, theta, 0.5, 1e6, hele_shaw_drag=0.0, film_drag=0.0, form_drag=1.5)
+    assert ine == pytest.approx(math.sqrt(drive / (1.5 / math.pi * 0.5 * 1e6)), rel=1e-12)
+
+
+def test_migration_force_balance_residual_with_independent_film_law():
+    # the solved Ca satisfies c_cap cos(theta) h' = c_HS Ca + 4 c_f Ca / f(Ca) + (C_D/pi)(h/a) La Ca^2,
+    # f from aussillous_quere_film (Aussillous & Quere 2000)
+    taper = np.array([0.05, 0.2, 1.0, 1.7])
+    hr, la = np.array([0.3, 1.0, 2.0, 0.7]), np.array([0.0, 1e3, 1e5, 3e6])
+    ca = bb.migration_capillary_number(taper, 0.1, hr, la, capillary_coefficient=1.7, hele_shaw_drag=9.0,
+                                       film_drag=0.6, form_drag=0.8)
+    rhs = 9.0 * ca + 4 * 0.6 * ca / bb.aussillous_quere_film(ca) + 0.8 / math.pi * hr * la * ca ** 2
+    assert np.allclose(rhs, 1.7 * math.cos(0.1) * taper, rtol=1e-11)
+
+
+def test_migration_without_drive_is_zero_and_errors():
+    assert bb.migration_capillary_number(-0.1) == 0.0
+    assert bb.migration_capillary_number(0.5, math.radians(90.0)) == pytest.approx(0.0, abs=1e-15)
+    with pytest.raises(ValueError, match="at least one of hele_shaw_drag"):
+        bb.migration_capillary_number(0.5, hele_shaw_drag=0.0, film_drag=0.0, form_drag=0.0)
+    with pytest.raises(ValueError, match="film_drag"):
+        bb.migration_capillary_number(0.5, film_drag=-1.0)
+    with pytest.raises(ValueError, match="mu must be > 0"):
+        bb.migration_speed(0.02, 0.0, 0.01)
+    with pytest.raises(ValueError, match="width must be > 0"):
+        bb.squeezing_volume(1e-6, 1e-6, 0.0)
+
+
+@settings(max_examples=60, deadline=None)
+@given(taper=st.floats(0.01, 2.0), factor=st.floats(1.01, 5.0), film=st.floats(0.0, 1.0),
+       la=st.floats(0.0, 1e7), hr=st.floats(0.05, 5.0))
+def test_migration_trends(taper, factor, film, la, hr):
+    # force balance: a steeper taper pushes harder (faster); more film drag or inertia slows the bubble
+    ca = bb.migration_capillary_number(taper, 0.0, hr, la, film_drag=film)
+    assert bb.migration_capillary_number(taper * factor, 0.0, hr, la, film_drag=film) > ca
+    assert bb.migration_capillary_number(taper, 0.0, hr, la * factor + 1.0, film_drag=film) < ca
+    if film < 0.99:
+        assert bb.migration_capillary_number(taper, 0.0, hr, la, film_drag=min(1.0, film + 0.01)) < ca
+
+
+# --- taper path ---------------------------------------------------------------------------------------------
+
+@pytest.mark.parametrize("section, depth", [
+    (Groove(math.radians(15.0), 0.004), 0.004),
+    (WedgeChannel(math.radians(30.0), 0.01), 0.01 * math.cos(math.radians(30.0))),
+])
+def test_taper_path_of_v_groove_and_wedge_is_exact(section, depth):
+    # geometry of a straight wedge (closed form): h = 2 s sin(alpha), open side at S = depth
+    p = bb.taper_path(section)
+    a = section.half_angle
+    assert p.length == pytest.approx(depth, rel=1e-12)
+    assert np.allclose(p.gap, 2 * p.s * math.sin(a), rtol=1e-12, atol=1e-15)
+    assert np.allclose(p.open_distance, depth - p.s, rtol=1e-12, atol=1e-15)
+    assert np.allclose(p.taper, 2 * math.sin(a), rtol=1e-9)
+    assert p.half_angle == pytest.approx(a, rel=1e-15) and p.area == pytest.approx(section.area, rel=1e-15)
+
+
+def test_taper_path_of_a_polygon_groove_equals_the_groove():
+    g = Groove(math.radians(20.0), 0.003)
+    poly = Polygon(g.outline(), open_edges=(1,))
+    a, b = bb.taper_path(g), bb.taper_path(poly)
+    assert np.allclose(a.gap, b.gap, rtol=1e-12, atol=1e-16) and a.length == pytest.approx(b.length, rel=1e-12)
+
+
+def test_taper_path_of_a_shallow_rectangular_slot():
+    # rectangle 4 x 1 open on top: the 45 deg bisector of a bottom corner meets the open side at (1, 1);
+    # on it the nearest walls are the bottom and the side: h = 2 s sin(45 deg) (closed form)
+    poly = Polygon([(0, 0), (4, 0), (4, 1), (0, 1)], open_edges=(2,))
+    p = bb.taper_path(poly)
+    assert p.length == pytest.approx(math.sqrt(2.0), rel=1e-12)
+    assert np.allclose(p.gap, math.sqrt(2.0) * p.s, rtol=1e-12, atol=1e-15)
+
+
+def test_closed_sections_have_no_taper_path():
+    assert bb.taper_path(Circle(0.01)) is None
+    assert bb.taper_path(Polygon([(0, 0), (1, 0), (1, 1), (0, 1)])) is None
+
+
+@pytest.mark.parametrize("injection, k_c", [(0.0, 1.0), (0.5, 1.0), (0.5, 0.6), (0.3, 2.5), (0.9, 1.0)])
+def test_reach_diameter_closed_form(injection, k_c):
+    # our geometry (theory manual): a bubble pushed from s_inj stops where k_c h = d unless it touches the
+    # open side first: d_reach = min(2 k_c S sin a / (1 + k_c sin a), 2 (S - s_inj))
+    a, S = math.radians(12.0), 0.005
+    p = bb.taper_path(Groove(a, S))
+    exact = min(2 * k_c * S * math.sin(a) / (1 + k_c * math.sin(a)), 2 * (S - injection * S))
+    assert p.reach_diameter(injection, k_c) == pytest.approx(exact, rel=1e-9)
+    # with k_c = 1 the first term is the inscribed-circle diameter of the groove (sections.Groove)
+    if k_c == 1.0 and injection < 0.5:
+        assert p.reach_diameter(injection, 1.0) == pytest.approx(2 * Groove(a, S).inscribed_radius, rel=1e-9)
+
+
+def test_migration_time_closed_form_and_domain():
+    # Hele-Shaw drag only: U = sigma c_cap h' / (c_HS mu) constant along a wedge; t = (S - d/2 - s_inj)/U
+    a, S = math.radians(20.0), 0.004
+    p = bb.taper_path(Groove(a, S))
+    sigma, mu = 0.02, 0.01
+    U = sigma * 2.0 * 2 * math.sin(a) / (12.0 * mu)
+    d = np.array([0.0026, 0.003, 0.004, 0.0059])
+    t = bb.migration_time(p, d, injection=0.25, rho=950.0, mu=mu, sigma=sigma, film_drag=0.0, form_drag=0.0)
+    assert np.allclose(t, (S - d / 2 - 0.25 * S) / U, rtol=1e-9)
+    # too small to reach (NaN), touching the open side at injection (0)
+    small, touching = bb.migration_time(p, [1e-4, 0.0061], injection=0.25, rho=950.0, mu=mu, sigma=sigma)
+    assert math.isnan(small) and touching == 0.0
+
+
+def test_migration_time_scales_with_viscosity_in_the_viscous_limit():
+    # no inertia: Ca depends on geometry only, so t ~ mu / sigma (visco-capillary time)
+    p = bb.taper_path(Groove(math.radians(10.0), 0.006))
+    kw = dict(injection=0.2, rho=1000.0, form_drag=0.0)
+    t1 = bb.migration_time(p, 0.005, mu=0.01, sigma=0.02, **kw)
+    t2 = bb.migration_time(p, 0.005, mu=0.03, sigma=0.05, **kw)
+    assert t2 / t1 == pytest.approx(3.0 * 0.02 / 0.05, rel=1e-10)

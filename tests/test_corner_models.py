@@ -1,0 +1,441 @@
+"""Tests of physics.corner_models and of the partition regime scheme of physics.chart."""
+import dataclasses
+import math
+
+import numpy as np
+import pytest
+from hypothesis import assume, given, settings
+from hypothesis import strategies as st
+from matplotlib.path import Path
+
+from physics import corner_models as cm
+from physics.boundary import PowerLawBoundary, get_model, model_names, usable_models
+from physics.case import Case, FlowRange, ModelChoice
+from physics.chart import DEFAULT_MODELS, Chart, PartitionScheme, RegimeInfo
+from physics.fluids import FluidPair
+from physics.open_channel import WedgeChannel as OpenWedge
+from physics.open_channel import critical_flow_rate
+from physics.sections import Circle, Groove, Polygon, WedgeChannel
+from physics.wetting import Wetting
+
+# A 5 cSt silicone oil and air (property values typical, from memory; they are inputs here, not checks).
+OIL = FluidPair("silicone oil 5 cSt", "air", 298.15, 101325.0, 913.0, 4.565e-3, 0.0197, 1.184, 1.85e-5,
+                "typical, from memory", "typical, from memory")
+ALPHA = math.radians(10.0)
+DEPTH = 0.01
+RANGE = FlowRange(1e-9, 1e-4, 1e-10, 1e-4)
+G = 1e-6 * 9.80665
+ALL = cm.CORNER_MODEL_NAMES
+SEPARATED = {cm.ISOLATED_SEPARATED, cm.MERGING_SEPARATED}
+
+
+def make_case(section=None, theta=0.0, length=0.05, fluid=OIL, g=G, flow_range=RANGE, models=()):
+    return Case(fluid, section or Groove(ALPHA, DEPTH), Wetting(theta), length, g, flow_range, models=models)
+
+
+def with_constants(consts, names=ALL):
+    """ModelChoice list giving each model the constants of ``consts`` it has."""
+    out = []
+    for n in names:
+        own = {c.name for c in get_model(n).constants}
+        out.append(ModelChoice.of(n, {k: v for k, v in consts.items() if k in own}))
+    return tuple(out)
+
+
+def log_area(px, py):
+    x, y = np.log10(px), np.log10(py)
+    return 0.5 * abs(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)))
+
+
+def random_points(n, rng, fr=RANGE):
+    return (10 ** rng.uniform(math.log10(fr.ql_min), math.log10(fr.ql_max), n),
+            10 ** rng.uniform(math.log10(fr.qg_min), math.log10(fr.qg_max), n))
+
+
+def near_a_line(chart, ql, qg, dist=3e-3):
+    """Points within ``dist`` (fraction of the log box) of a drawn boundary: tolerance band of the sampling."""
+    fr = chart.case.flow_range
+    sx, sy = math.log10(fr.ql_max / fr.ql_min), math.log10(fr.qg_max / fr.qg_min)
+    px, py = np.log10(ql) / sx, np.log10(qg) / sy
+    near = np.zeros(ql.shape, dtype=bool)
+    for b in chart.boundaries:
+        ok = np.isfinite(b.ql)
+        bx, by = np.log10(b.ql[ok]) / sx, np.log10(b.qg[ok]) / sy
+        d = np.min(np.hypot(px[:, None] - bx[None, :], py[:, None] - by[None, :]), axis=1)
+        near |= d < dist
+    return near
+
+
+@pytest.fixture(scope="module")
+def chart():
+    """The invented wedge-separator sample: every line of the family bounds a region on it."""
+    from app.casefile import load_case, sample_case_path
+
+    return Chart.build(load_case(sample_case_path("wedge_separator")).case)
+
+
+# --- registry, defaults, scheme ---------------------------------------------------------------------------
+
+def test_family_is_registered_and_is_the_open_default():
+    assert set(ALL) <= set(model_names())
+    assert DEFAULT_MODELS["open"] == ALL
+    for name in ALL:
+        m = get_model(name)
+        assert m.scheme is cm.SCHEME and m.citation and m.constants
+        for c in m.constants:                       # every constant exposed with its source and range
+            assert c.source and c.low <= c.default <= c.high
+    reasons = usable_models(make_case())
+    assert all(reasons[n] is None for n in ALL)
+    closed = usable_models(make_case(Circle(0.01)))
+    assert all("closed section" in closed[n] for n in ALL)
+
+
+def test_default_chart_of_a_groove():
+    ch = Chart.build(make_case())
+    assert ch.scheme is cm.SCHEME and ch.regime_names == tuple(r.name for r in cm.REGIMES)
+    assert [b.name for b in ch.boundaries] == list(ALL) and [m.name for m, _ in ch.region_models] == list(ALL)
+    assert all(b.role == "regions" for b in ch.boundaries)
+
+
+def test_partition_chart_attributes(chart):
+    assert chart.scheme is cm.SCHEME
+    assert chart.regime_names == tuple(r.name for r in cm.REGIMES)
+    assert [m.name for m, _ in chart.region_models] == list(ALL)
+    assert [b.role for b in chart.boundaries] == ["regions"] * 5
+    assert chart.separates_gas == {r.name: r.separates_gas for r in cm.REGIMES}
+    assert {n for n, s in chart.separates_gas.items() if s} == SEPARATED
+    assert any("separate all the gas" in w for w in chart.warnings)
+    assert chart.bounding_models(cm.INGESTION) == (0, 1, 2, 3, 4)
+    assert chart.regime_info(cm.BLOW_THROUGH).separates_gas is False
+
+
+def test_drawn_lines_lie_on_their_models_and_separate_two_regimes(chart):
+    case = chart.case
+    fr = case.flow_range
+    sx, sy = math.log10(fr.ql_max / fr.ql_min), math.log10(fr.qg_max / fr.qg_min)
+    for b, (m, consts) in zip(chart.boundaries, chart.region_models):
+        ok = np.isfinite(b.ql)
+        assert ok.sum() >= 2, b.name
+        g = m.implicit(case, b.ql[ok], b.qg[ok], **dict(consts))
+        fin = np.isfinite(g)
+        assert fin.mean() > 0.9 and np.max(np.abs(g[fin])) < 1e-6, b.name
+        # drawn segments have different regimes on their two sides: probes 1e-3 of the box off each chord
+        # middle (5 x the chord tolerance), away from line crossings
+        x, y = np.log10(b.ql) / sx, np.log10(b.qg) / sy
+        xm, ym = 0.5 * (x[:-1] + x[1:]), 0.5 * (y[:-1] + y[1:])
+        dx, dy = np.diff(x), np.diff(y)
+        n = np.hypot(dx, dy)
+        seg = np.isfinite(xm) & (n > 0)
+        for i in chart.intersections:
+            seg &= np.hypot(xm - math.log10(i.ql) / sx, ym - math.log10(i.qg) / sy) > 5e-3
+        n = np.where(n > 0, n, 1.0)
+        nx, ny = -dy / n, dx / n
+        a = chart.classify(10 ** ((xm + 1e-3 * nx) * sx), 10 ** ((ym + 1e-3 * ny) * sy))
+        c = chart.classify(10 ** ((xm - 1e-3 * nx) * sx), 10 ** ((ym - 1e-3 * ny) * sy))
+        assert seg.sum() >= 3 and np.all(a[seg] != c[seg]), b.name
+
+
+def test_regions_tile_the_chart_and_agree_with_classify(chart):
+    fr = chart.case.flow_range
+    box = math.log10(fr.ql_max / fr.ql_min) * math.log10(fr.qg_max / fr.qg_min)
+    assert sum(log_area(r.polygon_ql, r.polygon_qg) for r in chart.regions) == pytest.approx(box, rel=1e-9)
+    rng = np.random.default_rng(3)
+    ql, qg = random_points(4000, rng, fr)
+    names = chart.classify(ql, qg)
+    far = ~near_a_line(chart, ql, qg)
+    pts = np.column_stack([np.log10(ql), np.log10(qg)])
+    covered = np.zeros(ql.size, dtype=bool)
+    for r in chart.regions:
+        inside = Path(np.column_stack([np.log10(r.polygon_ql), np.log10(r.polygon_qg)])).contains_points(pts)
+        assert np.all(names[inside & far] == r.name)
+        covered |= inside
+    assert covered.mean() > 0.999
+    assert {r.name for r in chart.regions} == set(np.unique(names))
+
+
+def test_intersections_lie_on_both_lines(chart):
+    models = {m.name: (m, dict(c)) for m, c in chart.region_models}
+    assert len(chart.intersections) >= 4
+    for x in chart.intersections:
+        for name in (x.first, x.second):
+            m, c = models[name]
+            g = m.implicit(chart.case, x.ql, x.qg, **c)
+            assert not np.isfinite(g) or abs(g) < 1e-6, (name, g)
+
+
+def test_classify_shapes_and_bad_points(chart):
+    assert chart.classify(1e-6, 1e-8).shape == ()
+    assert chart.classify(np.full((3, 4), 1e-6), np.logspace(-9, -5, 4)).shape == (3, 4)
+    out = chart.classify(np.array([-1.0, np.nan, 1e-6]), np.array([1e-7, 1e-7, 0.0]))
+    assert out.tolist() == ["", "", ""]
+    assert chart.regime_at(1e-6, 1e-8) in chart.regime_names
+
+
+def test_chart_stays_immutable_and_replaceable(chart):
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        chart.warnings = ()
+    light = dataclasses.replace(chart, boundaries=(), regions=())        # as the uncertainty module does
+    rng = np.random.default_rng(1)
+    ql, qg = random_points(200, rng, chart.case.flow_range)
+    assert np.array_equal(light.classify(ql, qg), chart.classify(ql, qg))
+
+
+def test_comparison_line_on_a_partition_chart():
+    rig = PowerLawBoundary("rig_line", 1.0, 1.0, "below", "above", label="rig data")
+    ch = Chart.build(make_case(models=tuple(ModelChoice.of(n) for n in ALL)))
+    with_rig = Chart.build(make_case(), models=[*ALL, rig])
+    assert [b.role for b in with_rig.boundaries][-1] == "comparison"
+    assert with_rig.boundaries[-1].ql.size > 2
+    rng = np.random.default_rng(2)
+    ql, qg = random_points(500, rng)
+    assert np.array_equal(ch.classify(ql, qg), with_rig.classify(ql, qg))
+
+
+# --- hand-computed lines ---------------------------------------------------------------------------------
+
+def test_blow_through_line_closed_form():
+    # void fraction r/(C0 (1 + r)) = alpha_c -> r = C0 alpha_c / (1 - C0 alpha_c) (Dukler et al. 1988 form)
+    m = get_model("corner_blow_through")
+    assert m.ratio_roots(make_case())[0] == pytest.approx(4.0, rel=1e-12)
+    assert m.ratio_roots(make_case(), alpha_c=0.5, c0=1.2)[0] == pytest.approx(1.5, rel=1e-12)
+    with pytest.raises(ValueError, match="c0 \\* alpha_c must be < 1"):
+        m.resolve_constants({"alpha_c": 0.9, "c0": 1.2})
+
+
+def test_merging_line_closed_form_for_a_fixed_bubble():
+    # N = k_m d A r / (V (1 + r)) = 1 with V = pi d^3/6 (hand algebra): r/(1 + r) = pi d^2 / (6 k_m A)
+    case = make_case()
+    d, k = 0.3 * DEPTH, 2.5
+    q = math.pi * d ** 2 / (6 * k * case.section.area)
+    r = get_model("corner_merging").ratio_roots(case, bubble_diameter_ratio=0.3, merge_length_ratio=k)
+    assert r == [pytest.approx(q / (1 - q), rel=1e-10)]
+
+
+def test_confinement_line_closed_form_with_the_squeezing_law():
+    # d(r) = w (6 (1 + a r)/pi)^(1/3) = d_reach (Garstecki squeezing law, plug volume w^3 L/w)
+    case = make_case()
+    w, a = 0.22 * DEPTH, 1.5
+    d_reach = 2 * DEPTH * math.sin(ALPHA) / (1 + math.sin(ALPHA))       # injection at mid-depth, k_c = 1
+    r_exact = ((d_reach / w) ** 3 * math.pi / 6 - 1) / a
+    consts = dict(injector_width_ratio=w / DEPTH, squeeze_a=a, merge_length_ratio=1.0)
+    assert 0 < r_exact < 1
+    # precondition: bubbles do not merge there (else the merged size counts)
+    assert cm.bubble_state(case, 1e-6, r_exact * 1e-6, **consts)["merging_ratio"] < 1
+    r = get_model("corner_confinement").ratio_roots(case, **consts)
+    assert r == [pytest.approx(r_exact, rel=1e-9)]
+    # with merging the merged (larger) bubbles reach the open side at a lower ratio
+    consts["merge_length_ratio"] = 20.0
+    assert get_model("corner_confinement").ratio_roots(case, **consts)[0] < r_exact
+
+
+def test_separation_line_closed_form():
+    # Hele-Shaw drag only, fixed bubble: U = sigma c_cap cos(theta) h'/(c_HS mu), h' = 2 sin(alpha);
+    # t_mig = (S - d/2 - s_inj)/U; Q_L = l A / (s_f t_mig (1 + r))   (theory manual, hand algebra)
+    theta = math.radians(20.0)
+    case = make_case(theta=theta)
+    c = dict(bubble_diameter_ratio=0.5, injection_position=0.2, film_drag=0.0, form_drag=0.0, safety_factor=1.7)
+    U = OIL.sigma * 2.0 * math.cos(theta) * 2 * math.sin(ALPHA) / (12.0 * OIL.mu_l)
+    t = (DEPTH - 0.25 * DEPTH - 0.2 * DEPTH) / U
+    r = np.array([1e-3, 1e-2])
+    exact = 0.05 * case.section.area / (1.7 * t * (1 + r))
+    assert np.allclose(cm.separation_liquid_flow(case, r, **c), exact, rtol=1e-9)
+    # on the line the implicit function is zero (below: separated)
+    m = get_model("corner_separation")
+    cc = m.resolve_constants(c)
+    assert np.allclose(m.implicit(case, exact, r * exact, **cc), 0.0, atol=1e-9)
+    assert np.all(m.implicit(case, 0.9 * exact, 0.9 * r * exact, **cc) < 0)
+
+
+def test_ingestion_line_against_the_open_channel_model():
+    # the line is Q_crit of physics.open_channel (wedge of plate length d / cos(alpha)) loaded by the mixture
+    case = make_case()
+    ch = OpenWedge(ALPHA, DEPTH / math.cos(ALPHA), 0.0)
+    q_liquid = critical_flow_rate(ch, 0.05, rho=OIL.rho_l, mu=OIL.mu_l, sigma=OIL.sigma).Q_crit
+    assert cm.ingestion_liquid_flow(case, 1e-9, gas_effect=0.0) == pytest.approx(q_liquid, rel=1e-12)
+    assert cm.ingestion_liquid_flow(case, 50.0, gas_effect=0.0) == pytest.approx(q_liquid, rel=1e-12)
+    # mixture at r = 0.3: Q_L + Q_G = Q_crit(rho_m), rho_m = (rho_L + r rho_G)/(1 + r); table interpolation
+    r = 0.3
+    rho_m = (OIL.rho_l + r * OIL.rho_g) / (1 + r)
+    q_mix = critical_flow_rate(ch, 0.05, rho=rho_m, mu=OIL.mu_l, sigma=OIL.sigma).Q_crit
+    assert cm.ingestion_liquid_flow(case, r) * (1 + r) == pytest.approx(q_mix, rel=2e-3)
+
+
+# --- limiting cases ----------------------------------------------------------------------------------------
+
+def test_zero_gas_flow_limit():
+    case = make_case()
+    ql = 1e-7
+    st_ = cm.bubble_state(case, ql, 1e-30)
+    w = 0.2 * DEPTH                                    # default injector width ratio
+    # Garstecki squeezing law at Q_G -> 0: L = w, plug volume w^3
+    assert st_["volume"] == pytest.approx(w ** 3, rel=1e-12)
+    assert st_["merging_ratio"] < 1e-15 and st_["effective_volume"] == pytest.approx(w ** 3, rel=1e-12)
+    assert st_["spacing"] > 1e15 and st_["frequency"] < 1e-15
+    # the ingestion line tends to the liquid-only critical flow rate, whatever the gas effect
+    ch = OpenWedge(ALPHA, DEPTH / math.cos(ALPHA), 0.0)
+    q_liquid = critical_flow_rate(ch, 0.05, rho=OIL.rho_l, mu=OIL.mu_l, sigma=OIL.sigma).Q_crit
+    assert cm.ingestion_liquid_flow(case, 1e-12) == pytest.approx(q_liquid, rel=1e-9)
+    chart = Chart.build(case)
+    regimes = chart.classify(np.logspace(-9, -4, 30), 1e-25)
+    assert set(regimes.tolist()) <= {cm.ISOLATED_CARRIED, cm.ISOLATED_SEPARATED, cm.INGESTION}
+    assert chart.regime_at(0.5 * q_liquid, 1e-25) != cm.INGESTION
+    assert chart.regime_at(2.0 * q_liquid, 1e-25) == cm.INGESTION
+
+
+def test_bubbles_much_smaller_than_the_gap_never_separate():
+    consts = dict(bubble_diameter_ratio=0.005)
+    ch = Chart.build(make_case(models=with_constants(consts, (ALL[0], ALL[1], ALL[3], ALL[4]))))
+    rng = np.random.default_rng(4)
+    ql, qg = random_points(5000, rng)
+    assert not set(ch.classify(ql, qg).tolist()) & SEPARATED
+    sep = get_model("corner_separation")
+    assert np.all(np.isnan(sep.implicit(ch.case, ql, qg, **sep.resolve_constants(consts))))
+    # with merging, only merged (grown) bubbles can separate
+    full = Chart.build(make_case(models=with_constants(consts)))
+    names = full.classify(ql, qg)
+    assert cm.ISOLATED_SEPARATED not in names.tolist()
+
+
+def test_very_long_conduit_separates_every_confined_bubble():
+    names = (ALL[0], ALL[1], ALL[2])
+    ch = Chart.build(make_case(length=1e5), models=names)
+    rng = np.random.default_rng(5)
+    ql, qg = random_points(5000, rng)
+    conf = get_model("corner_confinement")
+    confined = conf.implicit(ch.case, ql, qg, **conf.defaults) >= 0
+    assert confined.any() and (~confined).any()
+    got = ch.classify(ql, qg)
+    assert np.all(np.isin(got[confined], list(SEPARATED)))
+    assert not np.isin(got[~confined], list(SEPARATED)).any()
+
+
+def test_concus_finn_failure_draws_no_capillary_lines():
+    # Concus & Finn (1969): the corner wets only for theta + alpha < 90 deg; here 85 + 10 = 95 deg
+    case = make_case(theta=math.radians(85.0))
+    ch = Chart.build(case)
+    assert ch.boundaries == () and ch.regions == () and ch.regime_names == ()
+    cf = [w for w in ch.warnings if "Concus–Finn" in w]
+    assert len(cf) == 1 and "not drawn" in cf[0] and all(get_model(n).label in cf[0] for n in ALL)
+    assert any("No boundary model applies" in w for w in ch.warnings)
+    for name in ALL:
+        assert "Concus–Finn" in get_model(name).applies_to(case)
+    # chosen explicitly (as in a case file): still no line and the same plain sentence, not an error
+    explicit = Chart.build(case, models=["corner_separation", "corner_merging"])
+    assert explicit.boundaries == () and any("Concus–Finn" in w for w in explicit.warnings)
+    # wetting again (theta + alpha = 79 deg): the models apply
+    assert all(r is None for n, r in usable_models(make_case(theta=math.radians(69.0))).items() if n in ALL)
+
+
+# --- invariance and trends ---------------------------------------------------------------------------------
+
+def test_similarity_leaves_the_chart_unchanged_in_dimensionless_axes():
+    # lengths x lam, sigma x s, rho x p, mu x m with Oh = mu/sqrt(rho sigma L) fixed (m^2 = p s lam);
+    # flows scale as L^2 sigma/mu, gravity keeps the Bond number. Reynolds axes must coincide.
+    lam, s, p = 3.0, 2.0, 1.5
+    m = math.sqrt(p * s * lam)
+    q = lam ** 2 * s / m
+    fluid2 = dataclasses.replace(OIL, rho_l=OIL.rho_l * p, mu_l=OIL.mu_l * m, sigma=OIL.sigma * s,
+                                 rho_g=OIL.rho_g * p, mu_g=OIL.mu_g * m)
+    fr2 = FlowRange(*(q * v for v in (RANGE.ql_min, RANGE.ql_max, RANGE.qg_min, RANGE.qg_max)))
+    a = Chart.build(make_case())
+    b = Chart.build(make_case(Groove(ALPHA, DEPTH * lam), length=0.05 * lam, fluid=fluid2,
+                              g=G * s / (p * lam ** 2), flow_range=fr2))
+    ra, rb = a.axes("reynolds"), b.axes("reynolds")
+    assert a.regime_names == b.regime_names
+    for ca, cb in zip(a.boundaries, b.boundaries):
+        xa, ya = ra(ca.ql, ca.qg)
+        xb, yb = rb(cb.ql, cb.qg)
+        assert xa.shape == xb.shape
+        assert np.allclose(xa, xb, rtol=1e-6, equal_nan=True) and np.allclose(ya, yb, rtol=1e-6, equal_nan=True)
+    rng = np.random.default_rng(6)
+    ql, qg = random_points(3000, rng)
+    xa, ya = ra(ql, qg)
+    same = a.classify(ql, qg) == b.classify(*rb.to_flow(xa, ya))
+    assert same.mean() > 0.999
+
+
+@settings(max_examples=25, deadline=None)
+@given(alpha=st.floats(4.0, 30.0), depth=st.floats(1e-3, 3e-2), mu=st.floats(1e-3, 0.1),
+       sigma=st.floats(0.01, 0.075), rho=st.floats(700.0, 1500.0), inj=st.floats(0.0, 0.6),
+       size=st.floats(0.0, 0.8), log_r=st.floats(-3.0, 1.0), factor=st.floats(1.1, 4.0))
+def test_separation_boundary_trends(alpha, depth, mu, sigma, rho, inj, size, log_r, factor):
+    # force balance: t_res ~ l, so a longer conduit moves the line to higher liquid flow (exactly ~ l);
+    # a more viscous liquid migrates more slowly and moves it to lower liquid flow
+    fluid = dataclasses.replace(OIL, rho_l=rho, mu_l=mu, sigma=sigma)
+    case = make_case(Groove(math.radians(alpha), depth), fluid=fluid)
+    c = dict(bubble_diameter_ratio=size, injection_position=inj)
+    r = 10.0 ** log_r
+    q = cm.separation_liquid_flow(case, r, **c)
+    assume(np.isfinite(q))                 # bubbles that never reach the open side: no line at this ratio
+    longer = cm.separation_liquid_flow(make_case(Groove(math.radians(alpha), depth), fluid=fluid,
+                                                 length=0.05 * factor), r, **c)
+    assert longer == pytest.approx(factor * q, rel=1e-9)
+    viscous = make_case(Groove(math.radians(alpha), depth), fluid=dataclasses.replace(fluid, mu_l=mu * factor))
+    assert cm.separation_liquid_flow(viscous, r, **c) < q
+
+
+# --- sections, errors, samples -------------------------------------------------------------------------------
+
+def test_wedge_channel_and_polygon_sections():
+    w = Chart.build(make_case(WedgeChannel(ALPHA, DEPTH / math.cos(ALPHA))))
+    g = Chart.build(make_case())
+    for bw, bg in zip(w.boundaries, g.boundaries):       # the same V-groove described two ways
+        assert np.allclose(bw.ql, bg.ql, rtol=1e-9, equal_nan=True)
+    # a V with a vertical slot above: no open-channel model, the ingestion line is left out with a reason
+    slot = Polygon([(0, 0), (0.004, 0.01), (0.004, 0.015), (-0.004, 0.015), (-0.004, 0.01)], open_edges=(2,))
+    ch = Chart.build(make_case(slot))
+    assert [b.name for b in ch.boundaries] == list(ALL[:4])
+    assert any(w.startswith("Left out ingestion") and "no open-channel" in w for w in ch.warnings)
+    assert cm.open_channel_of(slot, 0.0) is None
+    assert type(cm.open_channel_of(Polygon([(0, 0), (2, 0), (2, 1), (0, 1)], open_edges=(2,)), 0.0)).__name__ \
+        == "RectangularGroove"
+    # parallel plates (a rectangle open on two opposite sides): no taper, but the flow-rate limit applies
+    plates = Polygon([(0, 0), (0.01, 0), (0.01, 0.004), (0, 0.004)], open_edges=(1, 3))
+    reasons = usable_models(make_case(plates))
+    assert reasons["open_channel_ingestion"] is None
+    assert all("no wall corner" in reasons[n] for n in ALL[:4])
+
+
+def test_closed_sections_and_bad_constants():
+    closed = make_case(Circle(0.01))
+    assert "closed section" in get_model("corner_separation").applies_to(closed)
+    with pytest.raises(ValueError, match="does not apply to this case: closed section"):
+        Chart.build(closed, models=list(ALL))
+    with pytest.raises(ValueError, match=r"corner_separation: constant injection_position must be within"):
+        Chart.build(make_case(models=(ModelChoice.of("corner_separation", {"injection_position": 1.5}),)))
+    with pytest.raises(ValueError, match="corner models do not apply"):
+        cm.separation_liquid_flow(closed, 0.1)
+
+
+def test_shared_constants_that_differ_are_reported():
+    models = with_constants({"injection_position": 0.3}, (ALL[0],)) + tuple(ModelChoice.of(n) for n in ALL[1:])
+    ch = Chart.build(make_case(models=models))
+    assert any("injection_position" in w and "each line uses its own value" in w for w in ch.warnings)
+
+
+def test_partition_scheme_rule_and_reachable_regimes():
+    sch = PartitionScheme("two lines", ("a", "b"),
+                          (RegimeInfo("low"), RegimeInfo("mid", True), RegimeInfo("high"), RegimeInfo("never")),
+                          lambda v: np.where(v["a"] < 0, "low", np.where(v.get("b", -1.0) < 0, "mid", "high")))
+    a = PowerLawBoundary("a", 1e-2, 1.0, "x", "y")
+    b = PowerLawBoundary("b", 1.0, 1.0, "x", "y")
+    a.scheme = b.scheme = sch
+    ch = Chart.build(make_case(), models=[b, a])
+    assert [m.name for m, _ in ch.region_models] == ["a", "b"]
+    assert ch.regime_names == ("low", "mid", "high") and ch.separates_gas["mid"]
+    assert ch.regime_at(1e-6, 1e-9) == "low" and ch.regime_at(1e-6, 1e-7) == "mid"
+    assert ch.regime_at(1e-6, 1e-5) == "high"
+    box = math.log10(RANGE.ql_max / RANGE.ql_min) * math.log10(RANGE.qg_max / RANGE.qg_min)
+    assert sum(log_area(r.polygon_ql, r.polygon_qg) for r in ch.regions) == pytest.approx(box, rel=1e-9)
+
+
+def test_wedge_separator_sample_shows_every_regime():
+    from app.casefile import load_case, sample_case_path
+
+    doc = load_case(sample_case_path("wedge_separator"))
+    assert doc.invented
+    ch = Chart.build(doc.case)
+    assert {r.name for r in ch.regions} == {r.name for r in cm.REGIMES}
+    assert all(np.isfinite(b.ql).sum() >= 2 for b in ch.boundaries)
+    op = doc.case.operating_point
+    assert ch.separates_gas[ch.regime_at(op.ql, op.qg)]
