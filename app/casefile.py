@@ -504,6 +504,64 @@ def _build_models(col: _Collector, data: dict) -> tuple[ModelChoice, ...]:
     return tuple(out)
 
 
+def _build_custom_boundaries(col: _Collector, data: dict) -> tuple:
+    """[[custom_boundaries]]: empirical lines, converted to SI and checked with the physics builder.
+
+    power_law: Q_G = a Q_L^b with both flows in ``flow_unit`` (default m^3/s); table: ``points`` as
+    [Q_L, Q_G] pairs, text with units or numbers in ``flow_unit``. Stored in SI.
+    """
+    from physics.boundary import boundary_from_spec
+
+    entries = data.get("custom_boundaries", [])
+    if not isinstance(entries, list):
+        col.add("custom_boundaries", "must be an array of tables ([[custom_boundaries]])", entries)
+        return ()
+    out = []
+    for i, e in enumerate(entries):
+        path = f"custom_boundaries[{i}]"
+        if not isinstance(e, dict):
+            col.add(path, "must be a table", e)
+            continue
+        spec = {k: v for k, v in e.items() if k != "flow_unit"}
+        unit = e.get("flow_unit", "m^3/s")
+        try:
+            c = to_si(f"1 {unit}", "flow", f"{path}.flow_unit")
+        except UnitError as exc:
+            col.add(f"{path}.flow_unit", str(exc).split(": ", 1)[-1], unit)
+            continue
+        ok = True
+        if e.get("kind") == "power_law" and _is_number(e.get("a")) and _is_number(e.get("b")):
+            spec["a"] = float(e["a"]) * c ** (1.0 - float(e["b"]))
+            if "ql_range" in e:
+                rng = e["ql_range"]
+                if not (isinstance(rng, list) and len(rng) == 2):
+                    col.add(f"{path}.ql_range", "must be [low, high] with units", rng)
+                    ok = False
+                else:
+                    vals = [col.run(f"{path}.ql_range", lambda v=v: to_si(v, "flow", f"{path}.ql_range",
+                                                                          default_unit=unit), v) for v in rng]
+                    ok = ok and None not in vals
+                    spec["ql_range"] = vals
+        elif e.get("kind") == "table" and isinstance(e.get("points"), list):
+            pts = []
+            for j, pair in enumerate(e["points"]):
+                if not (isinstance(pair, list) and len(pair) == 2):
+                    col.add(f"{path}.points[{j}]", "must be a [liquid flow, gas flow] pair", pair)
+                    ok = False
+                    continue
+                xy = [col.run(f"{path}.points[{j}]", lambda v=v: to_si(v, "flow", f"{path}.points[{j}]",
+                                                                       default_unit=unit), v) for v in pair]
+                if None in xy:
+                    ok = False
+                pts.append(xy)
+            spec["points"] = pts
+        if not ok:
+            continue
+        if col.run(path, lambda spec=spec: boundary_from_spec(spec), e) is not None:
+            out.append(spec)
+    return tuple(out)
+
+
 _TOP_KEYS = {"schema_version", "title", "revision", "author", "description", "invented", "fluid", "section",
              "wetting", "conduit", "chart", "operating_point", "models", "custom_boundaries", "test_points",
              "history"}
@@ -539,6 +597,7 @@ def build_case(data: dict, *, text: str = "", base_dir: Path | None = None, sour
         pass  # already reported as a missing table
     op, uncertainties = _build_operating_point(col, plain, fluid)
     models = _build_models(col, plain)
+    custom = _build_custom_boundaries(col, plain)
     tp = plain.get("test_points", {})
     files: list[Path] = []
     if tp:
@@ -557,7 +616,7 @@ def build_case(data: dict, *, text: str = "", base_dir: Path | None = None, sour
             fluid=fluid, section=section, wetting=wetting, length=length, g=g, flow_range=flow_range,
             operating_point=op, models=models, title=plain.get("title", "untitled case"),
             revision=plain.get("revision", "A"), author=plain.get("author", ""),
-            extra=(("custom_boundaries", _freeze(plain.get("custom_boundaries", []))),)))
+            extra=(("custom_boundaries", _freeze(list(custom))),)))
     if col.problems or case is None:
         if not col.problems:
             col.add("(case)", "incomplete case")

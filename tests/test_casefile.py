@@ -192,3 +192,61 @@ def test_round_trip_property(title, diameter, theta, length, g, ql):
     assert again.case == doc.case
     assert doc.case.section.hydraulic_diameter == pytest.approx(diameter * 1e-3)
     assert doc.case.title == title
+
+
+def test_custom_boundaries_with_units_are_converted_and_checked():
+    from physics.boundary import case_boundaries
+    from physics.chart import Chart
+
+    text = GOOD + '''
+[[models]]
+name = "rig_line"
+
+[[custom_boundaries]]
+name = "rig_line"
+kind = "power_law"
+a = 0.5
+b = 1.0
+flow_unit = "L/min"
+regime_below = "few bubbles"
+regime_above = "many bubbles"
+
+[[custom_boundaries]]
+name = "rig_table"
+kind = "table"
+points = [["1 L/min", "0.1 L/min"], ["10 L/min", "2 L/min"]]
+regime_below = "few bubbles"
+regime_above = "many bubbles"
+'''
+    doc = loads_case(text)
+    lines = case_boundaries(doc.case)
+    # Q_G = 0.5 Q_L with both in L/min is Q_G = 0.5 Q_L in SI when b = 1 (unit-free ratio)
+    q = 2e-4
+    assert lines["rig_line"].qg_of_ql(doc.case, q) == pytest.approx(0.5 * q)
+    assert lines["rig_table"].qg_of_ql(doc.case, 1e-3 / 60) == pytest.approx(0.1e-3 / 60)
+    chart = Chart.build(doc.case)
+    assert chart.regime_names == ("few bubbles", "many bubbles")
+
+
+def test_custom_boundary_problems_are_named():
+    text = GOOD + '''
+[[custom_boundaries]]
+name = "bad"
+kind = "table"
+points = [["1 L/min", "0.1 s"]]
+regime_below = "a"
+regime_above = "b"
+
+[[custom_boundaries]]
+name = "bad2"
+kind = "power_law"
+a = 1.0
+b = 1.0
+flow_unit = "furlong"
+regime_below = "a"
+regime_above = "b"
+'''
+    probs = _problems(text)
+    paths = {p.path for p in probs}
+    assert "custom_boundaries[0].points[0]" in paths
+    assert "custom_boundaries[1].flow_unit" in paths
