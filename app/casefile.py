@@ -23,6 +23,7 @@ import tomlkit
 from tomlkit.exceptions import ParseError
 
 from physics.case import Case, FlowRange, ModelChoice, OperatingPoint
+from physics.uncertainty import TARGETS as _UNCERTAIN_TARGETS, Uncertainty
 
 from .units import UnitError, check_unit, parse_flow, to_si
 
@@ -47,8 +48,6 @@ _SECTION_FIELDS: dict[str, dict[str, str]] = {
     "polygon": {"vertices": "vertices", "open_edges": "int_list?"},
 }
 
-_UNCERTAIN_TARGETS = ("liquid_flow", "gas_flow", "surface_tension", "liquid_density", "liquid_viscosity",
-                      "gas_density", "contact_angle", "size", "length", "half_angle")
 
 
 @dataclass(frozen=True)
@@ -76,16 +75,6 @@ class CaseFileError(ValueError):
         self.source = source
         lines = "\n".join(f"  - {p}" for p in problems)
         super().__init__(f"{source}: {len(problems)} problem(s)\n{lines}")
-
-
-@dataclass(frozen=True)
-class Uncertainty:
-    """Uncertainty of one input: distribution, size and whether it is relative (fraction) or absolute (SI)."""
-
-    target: str
-    distribution: str  # "normal" (size = 1 standard deviation) or "uniform" (size = half-width)
-    size: float
-    relative: bool
 
 
 @dataclass(frozen=True)
@@ -452,7 +441,8 @@ def _build_operating_point(col: _Collector, data: dict, fluid):
 
 _UNC_KINDS = {"liquid_flow": "flow", "gas_flow": "flow", "surface_tension": "surface_tension",
               "liquid_density": "density", "liquid_viscosity": "viscosity", "gas_density": "density",
-              "contact_angle": "angle", "size": "length", "length": "length", "half_angle": "angle"}
+              "gas_viscosity": "viscosity", "contact_angle": "angle", "size": "length", "length": "length",
+              "half_angle": "angle", "residual_acceleration": "acceleration"}
 
 
 def _parse_uncertainty(key: str, spec, path: str) -> Uncertainty:

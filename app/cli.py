@@ -186,7 +186,8 @@ def _register_optional_commands() -> None:
     """Import the command modules that add sub-commands (chart, corner, serve, ...)."""
     import importlib
 
-    for mod in ("app.cli_chart", "app.cli_corner", "app.cli_margin", "app.cli_serve"):
+    for mod in ("app.cli_chart", "app.cli_corner", "app.cli_margin", "app.cli_serve", "app.cli_points",
+                "app.cli_design"):
         try:
             m = importlib.import_module(mod)
         except ModuleNotFoundError as exc:

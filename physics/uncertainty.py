@@ -15,11 +15,18 @@ chart, fully vectorised. Property and geometry uncertainties move the lines. Reb
 for each of 10 000 samples would cost tens of seconds, so the property/geometry inputs are drawn
 K times (K = ceil(N/16) by default, ``chart_draws``) and each draw is shared by N/K consecutive
 samples with their own flow draws. For each draw only what the margins need is recomputed: the
-case, its classification (the nominal chart's models and constants with the drawn case, same
-regime sequence) and the region lines near the points. The approximation is in the sampling, not
-in the physics: every sample is evaluated exactly for its draw, but the property part of the
-variance is sampled K times, not N. The standard error is therefore computed from the K groups
-(ratio-estimator formula), so it stays honest and still falls as 1/sqrt(N) when K grows with N.
+case, its classification (the nominal chart's models, constants and regime scheme with the drawn
+case) and the region lines near the points (sampled to 1e-6 decade; under schemes other than the
+sequence rule also split at their crossings and probed for the regimes they separate). The
+approximation is in the sampling, not in the physics: every sample is evaluated exactly for its
+draw, but the property part of the variance is sampled K times, not N. The standard error is
+therefore computed from the K groups (ratio-estimator formula), so it stays honest and still falls
+as 1/sqrt(N) when K grows with N.
+
+Cost: a draw costs what the models need to set up a new case. The closed-tube lines cost well
+under a millisecond, so 10 000 samples take about 0.3 s; models that build tables for each case
+(e.g. the open-channel critical flow, several seconds per case) make each draw that expensive:
+choose a small ``chart_draws`` for them (the standard error says what that costs in precision).
 
 Distributions: "normal" (``size`` = one standard deviation) or "uniform" (``size`` = half-width);
 ``relative`` sizes are fractions of the nominal value, absolute ones are in SI units (radians

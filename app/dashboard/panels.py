@@ -287,35 +287,43 @@ class TestPointsPanel(pn.viewable.Viewer):
         self.load(mapping=mapping)
 
     def _redraw(self):
+        from physics.agreement import agreement
+
+        from ..chartview import regime_style
+
         tps = self.points
         if tps is None:
             return
         chart = self.session.chart
         pts = tps.points
-        predicted = list(chart.classify(pts["ql_m3_s"].to_numpy(), pts["qg_m3_s"].to_numpy())) if len(pts) else []
-        from ..chartview import regime_style
-
+        res = agreement(chart, tps)  # the same function as `lowgmap compare`
+        predicted = [p.predicted for p in res.points]
         styles = {name: regime_style(i)[0] for i, name in enumerate(chart.regime_names)}
         self.chart_pane._held(self.chart_pane.show_test_points, pts, predicted, styles)
-        obs = pts["observed_regime"].fillna("").astype(str).tolist()
-        labelled = [(o, p) for o, p in zip(obs, predicted) if o]
-        agree = sum(o == p for o, p in labelled)
-        unknown = sorted({o for o, _ in labelled if o not in chart.regime_names})
-        n = len(labelled)
-        frac = agree / n if n else float("nan")
-        per = {}
-        for o, p in labelled:
-            per.setdefault(o, [0, 0])
-            per[o][0] += o == p
-            per[o][1] += 1
-        rows = "".join(f"<tr><td>{html.escape(k)}</td><td>{a} of {t}</td></tr>" for k, (a, t) in sorted(per.items()))
+        ca, cv = res.confusion_all, res.confusion_valid
+        n_valid = sum(p.valid for p in res.points)
+
+        def pct(f):
+            return "—" if f is None else f"{100 * f:.0f} %"
+
+        invalid = [p for p in res.points if not p.valid]
+        reasons = "".join(f"<li>{html.escape(p.test_id)}: {html.escape('; '.join(p.reasons))}</li>"
+                          for p in invalid[:8])
+        more = f"<li>… and {len(invalid) - 8} more</li>" if len(invalid) > 8 else ""
+        matrix = html.escape(ca.format()) if ca.compared else ""
         self.summary.object = (
-            f"<div class='agreement' data-agree='{agree}' data-total='{n}'>"
-            f"<b>Agreement:</b> {agree} of {n} labelled points ({100 * frac:.0f} %) fall in the regime they "
-            f"were observed in; {len(pts)} points drawn, disagreements outlined in red."
-            + (f"<br>Labels not on this chart (count as disagreement until mapped): "
-               f"{html.escape(', '.join(unknown))}" if unknown else "")
-            + f"<table><tr><th>observed regime</th><th>chart agrees</th></tr>{rows}</table></div>")
+            f"<div class='agreement' data-agree='{ca.agreeing}' data-total='{ca.compared}' "
+            f"data-valid='{n_valid}'>"
+            f"<b>Agreement:</b> {ca.agreeing} of {ca.compared} labelled points ({pct(ca.fraction)}) fall in the "
+            f"regime they were observed in; valid points only: {cv.agreeing} of {cv.compared} "
+            f"({pct(cv.fraction)}). {len(pts)} points drawn; disagreements outlined in red."
+            + (f"<br>Labels not on this chart (left out until mapped): "
+               f"{html.escape(', '.join(f'{u[0]} ({u[1]})' for u in res.unknown_labels))}" if res.unknown_labels else "")
+            + (f"<br><b>{len(invalid)} point(s) cannot support a low-gravity conclusion:</b><ul>{reasons}{more}</ul>"
+               if invalid else "")
+            + (f"<details><summary>confusion matrix (rows observed, columns chart)</summary>"
+               f"<pre style='font-size:11px'>{matrix}</pre></details>" if matrix else "")
+            + "</div>")
 
     def __panel__(self):
         return pn.Column(pn.pane.Markdown("#### Test points (CSV or Excel)"), self.upload, self.preview,

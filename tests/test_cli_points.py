@@ -1,0 +1,154 @@
+"""`lowgmap compare` and `lowgmap calibrate` (app.cli_points): wiring, files written, errors.
+
+The numbers shown come from physics.agreement and physics.calibration (tested there); these tests check
+that the commands report them, that a calibrated case is a loadable next revision with its history, and
+that bad input gives exit code 2 with a message. The sample test points are invented demonstration
+data (see the file's header); they are inputs here, not check values.
+"""
+import json
+import shutil
+
+import pytest
+
+from app.casefile import load_case, sample_case_path
+from app.cli import main
+from app.cli_points import next_revision, parse_regime_map
+from physics.chart import Chart
+
+CASE = str(sample_case_path())
+POINTS = str(sample_case_path().parent / "drop_tower_points.csv")
+MAP = ["--map", "annular=annular (gas core)"]
+SHORT = ["--length", "0.1 m"]            # observed 0.1 m after the inlet: some drop-tube points are valid
+BS = "bubble_slug_dukler_1988"
+
+
+def run(capsys, *argv):
+    code = main(list(argv))
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_compare_json(capsys):
+    code, out, _ = run(capsys, "compare", CASE, POINTS, *MAP, *SHORT, "--json")
+    assert code == 0
+    d = json.loads(out)
+    assert d["n_points"] == 25 and d["revision"] == "A"
+    assert d["unknown_labels"] == [{"label": "slug-annular transition", "count": 4}]
+    cm = d["confusion_all"]
+    assert cm["compared"] == 21 and sum(map(sum, cm["counts"])) == 25
+    assert d["fraction_all"] == pytest.approx(cm["agreeing"] / cm["compared"])
+    assert d["n_valid"] == sum(p["valid"] for p in d["points"])
+    assert d["criteria"]["observation_length_m"] == pytest.approx(0.1)
+    assert d["criteria"]["bond_max_source"] == "Brauner (1990)"
+    for p in d["points"]:
+        assert p["valid"] == (not p["reasons"])
+    listed = {q["test_id"] for b in d["by_boundary"] for q in b["points"]}
+    assert listed == {p["test_id"] for p in d["points"] if p["agrees"] is False}
+
+
+def test_compare_text_and_criteria_options(capsys):
+    code, out, _ = run(capsys, "compare", CASE, POINTS, "--safety-factor", "1", "--bond-max", "0.5")
+    assert code == 0
+    assert "Confusion matrix, valid points" in out and "Disagreeing points by boundary" in out
+    assert "Bond number < 0.5" in out and "low-g time >= 1 x required" in out
+    assert "'annular' (6)" in out                                   # unmapped labels are listed
+    assert "Preliminary design aid" in out
+
+
+def test_calibrate_writes_the_next_revision_with_history(capsys, tmp_path):
+    new = tmp_path / "calibrated.toml"
+    code, out, _ = run(capsys, "calibrate", CASE, POINTS, *MAP, *SHORT, "--fit", f"{BS}.alpha_c", "-o", str(new),
+                       "--json")
+    assert code == 0
+    d = json.loads(out)
+    (c,) = d["constants"]
+    assert c["model"] == BS and c["constant"] == "alpha_c" and c["start"] == pytest.approx(0.45)
+    lo, hi = c["interval_95"]
+    assert lo <= c["value"] <= hi
+    assert d["revision_before"] == "A" and d["revision_after"] == "B" and d["written"] == str(new)
+    assert d["cv_method"] and d["agreement_after"] >= d["agreement_before"]
+    doc = load_case(new)                                             # loads with the case-file reader
+    assert doc.case.revision == "B"
+    hist = doc.data["history"]
+    assert len(hist) == 1 and hist[0]["revision"] == "A" and "date" in hist[0]
+    before = {m["name"]: m.get("constants", {}) for m in hist[0]["models"]}
+    assert before[BS]["alpha_c"] == pytest.approx(0.45) and before[BS]["c0"] == pytest.approx(1.2)
+    chart = Chart.build(doc.case)
+    assert dict(chart.region_models[0][1])["alpha_c"] == pytest.approx(c["value"], rel=1e-5)
+    assert [m.name for m, _ in chart.comparison_models] == [m.name for m, _ in
+                                                           Chart.build(load_case(CASE).case).comparison_models]
+    assert load_case(CASE).case.revision == "A"                      # the input is untouched
+    # a second calibration moves on to C and keeps both earlier revisions
+    newer = tmp_path / "c.toml"
+    code, out, _ = run(capsys, "calibrate", str(new), POINTS, *MAP, *SHORT, "--all-points", "--fit",
+                       "slug_annular_dukler_1988.alpha_c", "-o", str(newer))
+    assert code == 0 and "revision C" in out
+    doc = load_case(newer)
+    assert [h["revision"] for h in doc.data["history"]] == ["A", "B"]
+
+
+def test_calibrate_empirical_boundary(capsys, tmp_path):
+    new = tmp_path / "empirical.toml"
+    code, out, _ = run(capsys, "calibrate", CASE, POINTS, *MAP, *SHORT, "--all-points", "--empirical",
+                       "dispersed bubbles|elongated bubbles / slugs", "-o", str(new), "--json")
+    assert code == 0
+    fit = json.loads(out)
+    doc = load_case(new)
+    assert doc.case.revision == "B"
+    (cb,) = doc.data["custom_boundaries"]
+    assert cb["kind"] == "power_law" and "fitted from test points" in cb["label"]
+    assert cb["flow_unit"] == "L/min" and cb["name"] == fit["boundary_name"]   # the case's liquid-flow unit
+    chart = Chart.build(doc.case)
+    line = chart.region_models[0][0]
+    assert line.name == cb["name"]                                 # defines the bubble-slug regions now
+    q = 3e-6                                                       # read back in SI: the fitted line
+    assert line.qg_of_ql(doc.case, q) == pytest.approx(fit["a"] * q ** fit["b"], rel=1e-4)
+    assert line.ql_range == pytest.approx(tuple(fit["ql_range_m3_s"]), rel=1e-5)
+    assert BS in [m.name for m, _ in chart.comparison_models]
+    assert doc.data["history"][0]["revision"] == "A"
+
+
+def test_calibrate_keeps_test_point_files_reachable(capsys, tmp_path):
+    src = tmp_path / "a"
+    src.mkdir()
+    shutil.copy(POINTS, src / "points.csv")
+    text = sample_case_path().read_text(encoding="utf-8") + '\n[test_points]\nfiles = ["points.csv"]\n'
+    (src / "case.toml").write_text(text, encoding="utf-8")
+    out_dir = tmp_path / "b" / "c"
+    code, _, _ = run(capsys, "calibrate", str(src / "case.toml"), str(src / "points.csv"), *MAP, *SHORT,
+                     "--fit", f"{BS}.alpha_c", "-o", str(out_dir / "new.toml"))
+    assert code == 0
+    doc = load_case(out_dir / "new.toml")
+    assert all(f.exists() for f in doc.test_point_files) and len(doc.test_point_files) == 1
+
+
+@pytest.mark.parametrize("argv,needle", [
+    (["--fit", "no_such_model.alpha_c"], "unknown model 'no_such_model'"),
+    (["--fit", f"{BS}.alpha_x"], "has no constant 'alpha_x'"),
+    (["--fit", "slug_annular_dukler_1988.alpha_c"], "no valid test points observed as 'annular (gas core)'"),
+    (["--fit", f"{BS}.alpha_c", "--empirical", "a|b"], "either --fit"),
+    ([], "either --fit"),
+    (["--empirical", "dispersed bubbles"], "two different names"),
+    (["--fit", f"{BS}.alpha_c", "--map", "annular"], "LABEL=REGIME"),
+    (["--fit", f"{BS}.alpha_c", "--safety-factor", "0.5"], "safety_factor"),
+])
+def test_calibrate_errors(capsys, argv, needle):
+    code, _, err = run(capsys, "calibrate", CASE, POINTS, *SHORT, *argv)
+    assert code == 2
+    assert needle in err
+
+
+def test_file_errors(capsys, tmp_path):
+    code, _, err = run(capsys, "compare", CASE, str(tmp_path / "none.csv"))
+    assert code == 2 and "test-point file not found" in err
+    existing = tmp_path / "exists.toml"
+    existing.write_text("x", encoding="utf-8")
+    code, _, err = run(capsys, "calibrate", CASE, POINTS, *MAP, *SHORT, "--fit", f"{BS}.alpha_c", "-o",
+                       str(existing))
+    assert code == 2 and "--force" in err
+    assert existing.read_text(encoding="utf-8") == "x"
+
+
+def test_helpers():
+    assert next_revision("A") == "B" and next_revision("Z") == "AA" and next_revision("B9") == "B10"
+    assert parse_regime_map(["a = b=c"]) == {"a": "b=c"}
