@@ -198,7 +198,20 @@ class TestPointsPanel(pn.viewable.Viewer):
         self._raw: bytes | None = None
         self._name = ""
         self.points = None
-        session.param.watch(lambda *_: self._redraw(), ["revision_counter"])
+        self.fit_choice = pn.widgets.MultiChoice(name="Constants to fit to the test points (at most 4)",
+                                                 options=[], max_items=4, sizing_mode="stretch_width",
+                                                 css_classes=["fit-choice"])
+        self.fit_all = pn.widgets.Checkbox(name="Use all labelled points (not only the valid ones)", value=False,
+                                           css_classes=["fit-all"])
+        self.fit_button = pn.widgets.Button(name="Calibrate", button_type="primary", css_classes=["fit-run"])
+        self.fit_button.on_click(self._calibrate)
+        self.fit_result = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["fit-result"])
+        self.apply_button = pn.widgets.Button(name="Apply as the next case revision", button_type="success",
+                                              visible=False, css_classes=["fit-apply"])
+        self.apply_button.on_click(self._apply_fit)
+        self._calibration = None
+        self._refresh_fit_options()
+        session.param.watch(lambda *_: (self._redraw(), self._refresh_fit_options()), ["revision_counter"])
 
     def _on_upload(self, event):
         if not event.new:
@@ -325,9 +338,70 @@ class TestPointsPanel(pn.viewable.Viewer):
                f"<pre style='font-size:11px'>{matrix}</pre></details>" if matrix else "")
             + "</div>")
 
+    # ------------------------------------------------------------------------------- calibration
+    def _refresh_fit_options(self):
+        opts = []
+        for model, _ in self.session.chart.region_models:
+            opts += [f"{model.name}.{c.name}" for c in model.constants]
+        self.fit_choice.options = opts
+        self.fit_choice.value = [v for v in self.fit_choice.value if v in opts]
+
+    def _calibrate(self, event=None):
+        from physics.calibration import calibrate
+
+        if self.points is None:
+            self.fit_result.object = "<p>Load test points first.</p>"
+            return
+        if not self.fit_choice.value:
+            self.fit_result.object = "<p>Choose at least one constant to fit.</p>"
+            return
+        try:
+            cal = calibrate(self.session.chart, self.points, list(self.fit_choice.value),
+                            use="all" if self.fit_all.value else "valid")
+        except ValueError as exc:
+            self._calibration = None
+            self.apply_button.visible = False
+            self.fit_result.object = f"<p class='err'><b>Cannot calibrate:</b> {html.escape(str(exc))}</p>"
+            return
+        self._calibration = cal
+        rows = "".join(
+            f"<tr data-key='{html.escape(c.key)}' data-value='{c.value:.9g}'><td>{html.escape(c.key)}</td>"
+            f"<td>{c.start:.4g}</td><td><b>{c.value:.4g}</b></td>"
+            f"<td>[{_fmt_num(c.interval[0])}, {_fmt_num(c.interval[1])}]</td></tr>" for c in cal.constants)
+        cv = "—" if cal.cv_agreement is None else f"{100 * cal.cv_agreement:.0f} %"
+        warn = "".join(f"<li>{html.escape(w)}</li>" for w in cal.warnings)
+        self.fit_result.object = (
+            f"<div class='calibration'><table><tr><th>constant</th><th>before</th><th>fitted</th>"
+            f"<th>95 % interval ({html.escape(cal.interval_method)})</th></tr>{rows}</table>"
+            f"<p>{cal.n_points} points; agreement {100 * cal.agreement_before:.0f} % → "
+            f"{100 * cal.agreement_after:.0f} %; cross-validated ({html.escape(cal.cv_method)}): {cv}</p>"
+            + (f"<ul>{warn}</ul>" if warn else "") + "</div>")
+        self.apply_button.visible = True
+
+    def _apply_fit(self, event=None):
+        from ..casefile import dumps_case
+        from ..cli_points import calibrated_document
+
+        if self._calibration is None:
+            return
+        doc = self.session.doc
+        data, revision = calibrated_document(doc, self._calibration, points_name=self._name)
+        if self.session.load_text(dumps_case(data), self.session.source_name):
+            self.fit_result.object += f"<p><b>Applied: the case is now revision {html.escape(revision)}</b> " \
+                                      "(the previous constants are kept in its [[history]]).</p>"
+            self.apply_button.visible = False
+            self._calibration = None
+
     def __panel__(self):
         return pn.Column(pn.pane.Markdown("#### Test points (CSV or Excel)"), self.upload, self.preview,
-                         self.mapping_box, self.summary, self.problems, sizing_mode="stretch_width")
+                         self.mapping_box, self.summary, self.problems,
+                         pn.pane.Markdown("**Calibrate boundary constants to these points**"), self.fit_choice,
+                         self.fit_all, self.fit_button, self.fit_result, self.apply_button,
+                         sizing_mode="stretch_width")
+
+
+def _fmt_num(x) -> str:
+    return "—" if x is None or not np.isfinite(x) else f"{x:.4g}"
 
 
 class ExportPanel(pn.viewable.Viewer):

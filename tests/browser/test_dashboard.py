@@ -204,3 +204,29 @@ def test_two_sessions_do_not_share_state(browser, server):
     finally:
         a_ctx.close()
         b_ctx.close()
+
+
+def test_calibration_from_uploaded_points_becomes_next_revision(page, chart):
+    from app.testpoints import read_test_points
+    from physics.calibration import calibrate
+
+    page.locator(".points-upload input[type=file]").first.set_input_files(
+        str(ROOT / "sample_cases" / "drop_tower_points.csv"))
+    page.locator(".agreement").first.wait_for()
+    page.locator(".fit-all input").first.check()
+    choice = page.locator(".fit-choice input").first
+    choice.click()
+    choice.fill("bubble_slug_dukler_1988.alpha_c")
+    choice.press("Enter")
+    page.locator(".fit-run button").first.click()
+    row = page.locator(".calibration tr[data-key='bubble_slug_dukler_1988.alpha_c']").first
+    row.wait_for(timeout=60_000)
+    expected = calibrate(chart, read_test_points(ROOT / "sample_cases" / "drop_tower_points.csv"),
+                         ["bubble_slug_dukler_1988.alpha_c"], use="all")
+    assert float(row.get_attribute("data-value")) == pytest.approx(expected.constants[0].value, rel=1e-6)
+    page.locator(".fit-apply button").first.click()
+    page.get_by_text("the case is now revision B").wait_for()
+    with page.expect_download() as info:
+        page.locator(".export-case a, .export-case button").first.click()
+    text = open(info.value.path(), encoding="utf-8").read()
+    assert 'revision = "B"' in text and "[[history]]" in text
