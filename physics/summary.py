@@ -4,6 +4,7 @@ from __future__ import annotations
 import math
 
 from .case import Case
+from .groups import eotvos
 from .wetting import concus_finn_critical_contact_angle, concus_finn_wets
 
 __all__ = ["bond_number", "section_report", "GRAVITY_NEGLIGIBLE_BOND"]
@@ -13,24 +14,8 @@ __all__ = ["bond_number", "section_report", "GRAVITY_NEGLIGIBLE_BOND"]
 GRAVITY_NEGLIGIBLE_BOND = 1.0
 
 
-def bond_number(delta_rho, g, length, sigma):
-    r"""Bond (Eötvös) number: gravity against surface tension on a length.
-
-    .. math:: Bo = \frac{\Delta\rho\, g\, L^2}{\sigma}
-
-    Parameters
-    ----------
-    delta_rho : float   density difference liquid - gas [kg/m^3]
-    g : float           acceleration [m/s^2]
-    length : float      length scale [m]
-    sigma : float       surface tension [N/m]
-
-    Examples
-    --------
-    >>> round(bond_number(998.2 - 1.2, 9.80665, 0.01, 0.0728), 2)  # water, 1 cm, 1 g
-    13.43
-    """
-    return delta_rho * g * length ** 2 / sigma
+#: Bond number = Eötvös number; one formula, kept in :mod:`physics.groups`.
+bond_number = eotvos
 
 
 def section_report(case: Case) -> dict:
