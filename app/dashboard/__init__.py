@@ -49,13 +49,17 @@ def create_app(case_path: str | Path | None = None):
                            stylesheets=[_CSS], css_classes=["caution"])
     invented = (pn.pane.Markdown("*This sample case is an invented scenario for demonstration.*")
                 if doc.invented else pn.pane.Markdown(""))
-    main = pn.Column(
-        caution,
+    from .design_tab import DesignTab
+
+    chart_tab = pn.Column(
         pn.Row(pn.Column(chart, warnings, sizing_mode="stretch_width", min_width=600),
                pn.Column(point, margins, width=500), sizing_mode="stretch_width"),
         pn.Row(pn.Column(points, sizing_mode="stretch_width"), pn.Column(export, width=300),
                sizing_mode="stretch_width"),
-        sizing_mode="stretch_width")
+        name="Regime chart", sizing_mode="stretch_width")
+    design = pn.Column(DesignTab(session), name="Design map", sizing_mode="stretch_width")
+    main = pn.Column(caution, pn.Tabs(chart_tab, design, sizing_mode="stretch_width", css_classes=["main-tabs"]),
+                     sizing_mode="stretch_width")
     template = pn.template.BootstrapTemplate(
         title=f"lowgmap {__version__} — low-gravity regime charts", sidebar=[invented, setup], main=[main],
         sidebar_width=380, header_background="#1f3b57")

@@ -230,3 +230,15 @@ def test_calibration_from_uploaded_points_becomes_next_revision(page, chart):
         page.locator(".export-case a, .export-case button").first.click()
     text = open(info.value.path(), encoding="utf-8").read()
     assert 'revision = "B"' in text and "[[history]]" in text
+
+
+def test_design_tab_runs_a_small_map(page):
+    page.locator(".bk-tab", has_text="Design map").first.click()
+    steps = page.locator(".design-steps")
+    steps.first.wait_for()
+    page.locator(".design-run button").first.click()
+    summary = page.locator(".design-summary").first
+    summary.wait_for(timeout=90_000)
+    n = int(summary.get_attribute("data-designs"))
+    assert n >= 9  # at least a 3 x 3 grid was evaluated
+    assert page.locator(".design-map img").count() >= 1
