@@ -14,7 +14,7 @@ import numpy as np
 from .units import convert
 
 __all__ = ["REGIME_COLOURS", "REGIME_HATCHES", "LINE_COLOURS", "CurveView", "RegionView", "ChartView",
-           "chart_view", "regime_style"]
+           "chart_view", "regime_style", "line_label_positions"]
 
 #: Colour-blind-safe qualitative palette (Okabe & Ito, "Color Universal Design", 2008), light to dark.
 REGIME_COLOURS = ("#56B4E9", "#E69F00", "#009E73", "#F0E442", "#CC79A7", "#0072B2", "#D55E00", "#999999")
@@ -175,3 +175,55 @@ def _label_point(ql, qg) -> tuple[float, float]:
         return 10.0 ** p.x, 10.0 ** p.y
     except Exception:  # degenerate sliver: fall back to the vertex mean in log space
         return 10.0 ** float(np.mean(np.log10(ql))), 10.0 ** float(np.mean(np.log10(qg)))
+
+
+def _fractions(view: ChartView, x, y):
+    x = np.asarray(x, float)
+    y = np.asarray(y, float)
+    if view.log_axes:
+        fx = (np.log10(x) - np.log10(view.x_range[0])) / np.log10(view.x_range[1] / view.x_range[0])
+        fy = (np.log10(y) - np.log10(view.y_range[0])) / np.log10(view.y_range[1] / view.y_range[0])
+    else:
+        fx = (x - view.x_range[0]) / (view.x_range[1] - view.x_range[0])
+        fy = (y - view.y_range[0]) / (view.y_range[1] - view.y_range[0])
+    return fx, fy
+
+
+def _from_fractions(view: ChartView, fx: float, fy: float) -> tuple[float, float]:
+    if view.log_axes:
+        lx0, lx1 = np.log10(view.x_range)
+        ly0, ly1 = np.log10(view.y_range)
+        return 10.0 ** (lx0 + fx * (lx1 - lx0)), 10.0 ** (ly0 + fy * (ly1 - ly0))
+    return (view.x_range[0] + fx * (view.x_range[1] - view.x_range[0]),
+            view.y_range[0] + fy * (view.y_range[1] - view.y_range[0]))
+
+
+def line_label_positions(view: ChartView) -> dict[str, tuple[float, float]]:
+    """Where to write each boundary's short label: on the line, as far as possible from region labels
+    and from labels already placed (greedy, in axes fractions). Shared by the export and the dashboard."""
+    placed = []
+    for r in view.regions:
+        if r.show_label:
+            fx, fy = _fractions(view, [r.label_x], [r.label_y])
+            placed.append((float(fx[0]), float(fy[0])))
+    out: dict[str, tuple[float, float]] = {}
+    for c in view.curves:
+        ok = np.isfinite(c.x) & np.isfinite(c.y)
+        if ok.sum() < 2:
+            continue
+        fx, fy = _fractions(view, c.x[ok], c.y[ok])
+        idx = np.flatnonzero((fx > 0.06) & (fx < 0.80) & (fy > 0.05) & (fy < 0.93))
+        if idx.size == 0:
+            continue
+        t = np.linspace(0.0, 1.0, 41)
+        cand_fx = np.interp(t, np.linspace(0, 1, idx.size), fx[idx])
+        cand_fy = np.interp(t, np.linspace(0, 1, idx.size), fy[idx])
+        if placed:
+            p = np.array(placed)
+            d = np.min(np.hypot((cand_fx[:, None] - p[None, :, 0]) * 2.0, cand_fy[:, None] - p[None, :, 1]), axis=1)
+            k = int(np.argmax(d - 0.05 * np.abs(t - 0.5)))  # prefer the middle when equally free
+        else:
+            k = 20
+        placed.append((float(cand_fx[k]), float(cand_fy[k])))
+        out[c.name] = _from_fractions(view, float(cand_fx[k]), float(cand_fy[k]))
+    return out

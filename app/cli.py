@@ -182,20 +182,18 @@ def main(argv=None) -> int:
         return EXIT_INVALID
 
 
+#: Modules that add sub-commands; each has ``register(subparsers, add)``.
+_COMMAND_MODULES = ("app.cli_serve", "app.cli_chart", "app.cli_margin", "app.cli_points", "app.cli_design",
+                    "app.cli_corner")
+
+
 def _register_optional_commands() -> None:
-    """Import the command modules that add sub-commands (chart, corner, serve, ...)."""
+    """Import the command modules (chart, margin, serve, ...) and collect their ``register`` functions."""
     import importlib
 
-    for mod in ("app.cli_chart", "app.cli_corner", "app.cli_margin", "app.cli_serve", "app.cli_points",
-                "app.cli_design"):
-        try:
-            m = importlib.import_module(mod)
-        except ModuleNotFoundError as exc:
-            if exc.name == mod:
-                continue
-            raise
-        reg = getattr(m, "register", None)
-        if reg is not None and reg not in _EXTRA_COMMANDS:
+    for mod in _COMMAND_MODULES:
+        reg = importlib.import_module(mod).register
+        if reg not in _EXTRA_COMMANDS:
             _EXTRA_COMMANDS.append(reg)
 
 

@@ -10,7 +10,6 @@ from __future__ import annotations
 import datetime as _dt
 import io
 import os
-import zlib
 from pathlib import Path
 
 import matplotlib
@@ -21,7 +20,7 @@ from matplotlib.lines import Line2D  # noqa: E402
 from matplotlib.patches import Patch  # noqa: E402
 
 from . import CAUTION, __version__  # noqa: E402
-from .chartview import ChartView  # noqa: E402
+from .chartview import ChartView, line_label_positions  # noqa: E402
 
 __all__ = ["render_chart", "FORMATS"]
 
@@ -104,7 +103,7 @@ def _draw(fig, view: ChartView, title, title_block, point_label, extra_points):
             handles.append(Patch(facecolor=r.colour, alpha=0.5, hatch=r.hatch, edgecolor=r.colour,
                                  label=f"regime: {r.name}"))
     any_invalid = False
-    placed: list = [(r_fx, r_fy) for r_fx, r_fy in _region_label_fractions(view)]
+    positions = line_label_positions(view)
     for c in view.curves:
         ls = "-" if c.dash == "solid" else (0, (6, 3))
         lw = 2.2 if c.role == "regions" else 1.6
@@ -113,7 +112,7 @@ def _draw(fig, view: ChartView, title, title_block, point_label, extra_points):
         for x, y in c.pieces(False):
             any_invalid = True
             ax.plot(x, y, color=c.colour, linestyle=(0, (1, 2)), linewidth=lw, alpha=0.6, zorder=4)
-        _label_curve(ax, c, view, placed)
+        _label_curve(ax, c, positions.get(c.name))
         role = "" if c.role == "regions" else " (comparison line)"
         handles.append(Line2D([], [], color=c.colour, linestyle=ls, linewidth=lw,
                               label=_wrap(f"{c.label}{role}", 44)))
@@ -185,67 +184,16 @@ def _axis_fraction(view, value, axis: int) -> float:
     return (value - lo) / (hi - lo)
 
 
-def _region_label_fractions(view):
-    import numpy as np
-
-    out = []
-    for r in view.regions:
-        if not r.show_label:
-            continue
-        if view.log_axes:
-            fx = (np.log10(r.label_x) - np.log10(view.x_range[0])) / np.log10(view.x_range[1] / view.x_range[0])
-            fy = (np.log10(r.label_y) - np.log10(view.y_range[0])) / np.log10(view.y_range[1] / view.y_range[0])
-        else:
-            fx = (r.label_x - view.x_range[0]) / (view.x_range[1] - view.x_range[0])
-            fy = (r.label_y - view.y_range[0]) / (view.y_range[1] - view.y_range[0])
-        out.append((float(fx), float(fy)))
-    return out
-
-
 def _wrap(text: str, width: int) -> str:
     import textwrap
 
     return "\n".join(textwrap.wrap(text, width)) or text
 
 
-def _label_curve(ax, c, view, placed: list):
-    """Put the model's short label on its line, at a visible vertex far from labels already placed."""
-    import numpy as np
-
-    ok = np.isfinite(c.x) & np.isfinite(c.y)
-    if ok.sum() < 2:
+def _label_curve(ax, c, pos):
+    """Write the model's short label at its placed position (see chartview.line_label_positions)."""
+    if pos is None:
         return
-    x, y = c.x[ok], c.y[ok]
-    if view.log_axes:
-        lx, ly = np.log10(x), np.log10(y)
-        x0, x1 = np.log10(view.x_range)
-        y0, y1 = np.log10(view.y_range)
-    else:
-        lx, ly = x, y
-        x0, x1 = view.x_range
-        y0, y1 = view.y_range
-    fx = (lx - x0) / (x1 - x0)
-    fy = (ly - y0) / (y1 - y0)
-    inside = (fx > 0.06) & (fx < 0.80) & (fy > 0.05) & (fy < 0.93)
-    idx = np.flatnonzero(inside)
-    if idx.size == 0:
-        return
-    # densify candidates along the visible part and keep the one farthest from earlier labels
-    t = np.linspace(0.0, 1.0, 41)
-    cand_fx = np.interp(t, np.linspace(0, 1, idx.size), fx[idx])
-    cand_fy = np.interp(t, np.linspace(0, 1, idx.size), fy[idx])
-    if placed:
-        p = np.array(placed)
-        d = np.min(np.hypot((cand_fx[:, None] - p[None, :, 0]) * 2.0, cand_fy[:, None] - p[None, :, 1]), axis=1)
-        d = d - 0.05 * np.abs(t - 0.5)  # prefer the middle when equally free
-        k = int(np.argmax(d))
-    else:
-        k = 20
-    placed.append((cand_fx[k], cand_fy[k]))
-    px = x0 + cand_fx[k] * (x1 - x0)
-    py = y0 + cand_fy[k] * (y1 - y0)
-    if view.log_axes:
-        px, py = 10.0 ** px, 10.0 ** py
-    text = c.label.split(" (")[0]
-    ax.annotate(text, (px, py), xytext=(4, 4), textcoords="offset points", fontsize=7.5, color=c.colour,
-                zorder=5, bbox=dict(boxstyle="round,pad=0.15", facecolor="white", edgecolor="none", alpha=0.8))
+    ax.annotate(c.label.split(" (")[0], pos, xytext=(4, 4), textcoords="offset points", fontsize=7.5,
+                color=c.colour, zorder=5,
+                bbox=dict(boxstyle="round,pad=0.15", facecolor="white", edgecolor="none", alpha=0.8))

@@ -16,7 +16,7 @@ from bokeh.events import Pan, PanEnd, PanStart
 from bokeh.models import (ColumnDataSource, HoverTool, Legend, LegendItem, PointDrawTool, Range1d)
 from bokeh.plotting import figure
 
-from ..chartview import chart_view
+from ..chartview import chart_view, line_label_positions
 from ..units import convert
 
 __all__ = ["ChartPane", "BOKEH_HATCH"]
@@ -39,7 +39,7 @@ class ChartPane(pn.viewable.Viewer):
         self.log_axes = session.doc.settings.log_axes
         self._dragging = False
         self.src_regions = ColumnDataSource(dict(xs=[], ys=[], colour=[], hatch=[], name=[]))
-        self.src_region_labels = ColumnDataSource(dict(x=[], y=[], text=[]))
+        self.src_region_labels = ColumnDataSource(dict(x=[], y=[], text=[], align=[]))
         self.src_valid = ColumnDataSource(dict(xs=[], ys=[], colour=[], dash=[], width=[], label=[], source=[]))
         self.src_invalid = ColumnDataSource(dict(xs=[], ys=[], colour=[], width=[], label=[], source=[]))
         self.src_line_labels = ColumnDataSource(dict(x=[], y=[], text=[], colour=[]))
@@ -80,7 +80,7 @@ class ChartPane(pn.viewable.Viewer):
                                  line_width="width", line_alpha=0.6, name="boundaries-outside-validity")
         fig.add_tools(HoverTool(renderers=[valid, invalid], line_policy="nearest",
                                 tooltips=[("model", "@label"), ("source", "@source")]))
-        fig.text("x", "y", text="text", source=self.src_region_labels, text_align="center",
+        fig.text("x", "y", text="text", source=self.src_region_labels, text_align="align",
                  text_baseline="middle", text_font_size="13px", text_font_style="bold", text_color="#111111",
                  background_fill_color="white", background_fill_alpha=0.7)
         fig.text("x", "y", text="text", source=self.src_line_labels, text_color="colour", text_font_size="11px",
@@ -132,10 +132,12 @@ class ChartPane(pn.viewable.Viewer):
             name=[r.name for r in v.regions])
         labelled = [r for r in v.regions if r.show_label]
         self.src_region_labels.data = dict(x=[r.label_x for r in labelled], y=[r.label_y for r in labelled],
-                                           text=[r.name for r in labelled])
+                                           text=[r.name for r in labelled],
+                                           align=[_text_align(v, r.label_x) for r in labelled])
         vx, vy, vc, vd, vw, vl, vs = [], [], [], [], [], [], []
         ix, iy, ic, iw, il, is_ = [], [], [], [], [], []
         lx, ly, lt, lc = [], [], [], []
+        positions = line_label_positions(v)
         for c in v.curves:
             width = 3.0 if c.role == "regions" else 2.0
             for x, y in c.pieces(True):
@@ -144,7 +146,7 @@ class ChartPane(pn.viewable.Viewer):
             for x, y in c.pieces(False):
                 ix.append(list(x)); iy.append(list(y)); ic.append(c.colour); iw.append(width)
                 il.append(c.label + " — outside the source's validity range"); is_.append(c.citation)
-            pos = _label_position(c, v)
+            pos = positions.get(c.name)
             if pos is not None:
                 lx.append(pos[0]); ly.append(pos[1]); lt.append(c.label.split(" (")[0]); lc.append(c.colour)
         self.src_valid.data = dict(xs=vx, ys=vy, colour=vc, dash=vd, width=vw, label=vl, source=vs)
@@ -278,26 +280,15 @@ class ChartPane(pn.viewable.Viewer):
         return self._layout
 
 
+def _text_align(v, x: float) -> str:
+    """Anchor a region label so it stays inside the plot near the left and right edges."""
+    lo, hi = v.x_range
+    f = (math.log10(x / lo) / math.log10(hi / lo)) if v.log_axes else (x - lo) / (hi - lo)
+    return "right" if f > 0.7 else ("left" if f < 0.3 else "center")
+
+
 def _first_index(labels: list[str], label: str):
     try:
         return labels.index(label)
     except ValueError:
         return None
-
-
-def _label_position(c, v):
-    ok = np.isfinite(c.x) & np.isfinite(c.y)
-    if ok.sum() < 2:
-        return None
-    x, y = c.x[ok], c.y[ok]
-    if v.log_axes:
-        fx = (np.log10(x) - math.log10(v.x_range[0])) / math.log10(v.x_range[1] / v.x_range[0])
-        fy = (np.log10(y) - math.log10(v.y_range[0])) / math.log10(v.y_range[1] / v.y_range[0])
-    else:
-        fx = (x - v.x_range[0]) / (v.x_range[1] - v.x_range[0])
-        fy = (y - v.y_range[0]) / (v.y_range[1] - v.y_range[0])
-    idx = np.flatnonzero((fx > 0.05) & (fx < 0.85) & (fy > 0.05) & (fy < 0.92))
-    if idx.size == 0:
-        return None
-    k = idx[int(0.6 * (idx.size - 1))] if c.role == "regions" else idx[int(0.3 * (idx.size - 1))]
-    return float(x[k]), float(y[k])
