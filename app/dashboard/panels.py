@@ -105,7 +105,8 @@ class PointPanel(pn.viewable.Viewer):
         self.required = pn.widgets.FloatSlider(name="Required margin ± [%]", start=0, end=90, step=1,
                                                value=round(100 * st.required_margin), sizing_mode="stretch_width")
         self.required.param.watch(lambda e: setattr(session, "required_margin", e.new / 100.0), "value")
-        self.uncertainty = pn.widgets.Checkbox(name="Show flow-rate uncertainty box", value=False)
+        self.uncertainty = pn.widgets.Checkbox(name="Show flow-rate uncertainty box", value=False,
+                                               css_classes=["uncertainty-toggle"])
         self.uncertainty.param.watch(lambda e: setattr(session, "show_uncertainty", e.new), "value")
         self.regime_select = pn.widgets.Select(name="Regime for the robust point", options=[],
                                                sizing_mode="stretch_width")

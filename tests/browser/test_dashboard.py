@@ -242,3 +242,34 @@ def test_design_tab_runs_a_small_map(page):
     n = int(summary.get_attribute("data-designs"))
     assert n >= 9  # at least a 3 x 3 grid was evaluated
     assert page.locator(".design-map img").count() >= 1
+
+
+def test_non_standard_headers_are_mapped_to_columns_and_units(page, tmp_path):
+    # invented rows, only to exercise the mapping form
+    f = tmp_path / "rig_log.csv"
+    f.write_text("colA,colB,colC\n1000,50,dispersed bubbles\n2000,80,dispersed bubbles\n", encoding="utf-8")
+    page.locator(".points-upload input[type=file]").first.set_input_files(str(f))
+    page.locator(".map-liquid_flow select").first.wait_for()
+    page.locator(".map-liquid_flow select").first.select_option("colA")
+    page.locator(".map-gas_flow select").first.select_option("colB")
+    page.locator(".map-observed_regime select").first.select_option("colC")
+    unit = page.locator(".map-liquid_flow-unit input").first
+    unit.fill("mL/min")
+    unit.press("Enter")
+    page.locator(".map-apply button").first.click()
+    agreement = page.locator(".agreement").first
+    agreement.wait_for()
+    assert int(agreement.get_attribute("data-total")) == 2
+    assert int(agreement.get_attribute("data-agree")) == 2  # 1-2 L/min water with 50-80 mL/min air: bubbly
+
+
+def test_uncertainty_box_is_drawn_around_the_point(page):
+    page.locator(".uncertainty-toggle input").first.check()
+    page.wait_for_function("""() => {
+        for (const doc of Bokeh.documents) {
+            for (const m of doc._all_models.values()) {
+                if (m.type === 'ColumnDataSource' && m.data && m.data.left !== undefined && m.data.left.length === 1)
+                    return true;
+            }
+        }
+        return false; }""")
