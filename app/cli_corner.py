@@ -65,17 +65,16 @@ def cmd_corner(args) -> int:
 
 
 def channel_for_case(case):
-    """The open-channel model of the case's section (V-groove or wedge channel)."""
-    from physics import open_channel as oc
+    """The open-channel model of the case's section (the mapping lives in physics.corner_models)."""
+    from physics.corner_models import open_channel_of
 
-    s = case.section
-    theta = case.wetting.contact_angle
-    if s.kind == "groove":
-        return oc.WedgeChannel(s.half_angle, s.depth / math.cos(s.half_angle), contact_angle=theta)
-    if s.kind == "wedge_channel":
-        return oc.WedgeChannel(s.half_angle, s.wall_length, contact_angle=theta)
-    raise CliError(f"the flow-rate limit applies to open channels (groove, wedge_channel); this case's section "
-                   f"is a {'closed ' if not s.is_open else ''}{s.kind}")
+    ch = open_channel_of(case.section, case.wetting.contact_angle)
+    if ch is None:
+        s = case.section
+        raise CliError(f"the flow-rate limit applies to open channels (groove, wedge_channel, or a polygon with "
+                       f"open edges forming a groove or plates); this case's section is a "
+                       f"{'closed ' if not s.is_open else ''}{s.kind}")
+    return ch
 
 
 def cmd_limit(args) -> int:
