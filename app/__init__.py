@@ -1,4 +1,8 @@
 """lowgmap application layer: CLI, dashboard, exports and file formats (units live here)."""
+
+if __name__ != "lowgmap.app":  # pragma: no cover - one module, one name
+    raise ImportError("the app folder installs as lowgmap.app: `pip install -e .`, then `import lowgmap.app`")
+
 from importlib.metadata import PackageNotFoundError, version as _version
 
 try:

@@ -1,6 +1,6 @@
 """The case: one study's physical inputs, all in SI units.
 
-A :class:`Case` is what every model receives. It is built by :mod:`app.casefile` from a TOML case
+A :class:`Case` is what every model receives. It is built by :mod:`lowgmap.app.files.casefile` from a TOML case
 file (units converted there) or directly in Python. It is frozen, so it can key caches.
 """
 from __future__ import annotations
@@ -8,12 +8,12 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING, Mapping
 
-from .validate import non_negative, positive
+from lowgmap.physics.validate import non_negative, positive
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
-    from .fluids import FluidPair
-    from .sections import Section
-    from .wetting import Wetting
+    from lowgmap.physics.properties.fluids import FluidPair
+    from lowgmap.physics.geometry.sections import Section
+    from lowgmap.physics.properties.wetting import Wetting
 
 __all__ = ["FlowRange", "OperatingPoint", "ModelChoice", "Case", "STANDARD_GRAVITY"]
 

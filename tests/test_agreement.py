@@ -1,4 +1,4 @@
-"""Validity of test points and agreement with the chart (physics.agreement).
+"""Validity of test points and agreement with the chart (lowgmap.physics.studies.agreement).
 
 Check values: the Bond number and capillary time of water over 1 cm from PHYSICS-REFERENCES section 5
 ([calc] there: Bo(1 g) = 13.45, t_ic = 0.117 s); platform figures from the same section (typical published
@@ -13,16 +13,16 @@ from types import SimpleNamespace as NS
 import numpy as np
 import pytest
 
-from app.casefile import load_case, sample_case_path
-from app.testpoints import read_test_points
-from physics.agreement import (ValidityCriteria, agreement, confusion_matrix, map_regimes, point_arrays,
+from lowgmap.app.files.casefile import load_case, sample_case_path
+from lowgmap.app.files.testpoints import read_test_points
+from lowgmap.physics.studies.agreement import (ValidityCriteria, agreement, confusion_matrix, map_regimes, point_arrays,
                                point_validity)
-from physics.boundary import PowerLawBoundary
-from physics.case import STANDARD_GRAVITY, Case, FlowRange
-from physics.chart import Chart
-from physics.fluids import FluidPair
-from physics.sections import Circle
-from physics.wetting import Wetting
+from lowgmap.physics.models.boundary import PowerLawBoundary
+from lowgmap.physics.case import STANDARD_GRAVITY, Case, FlowRange
+from lowgmap.physics.chart.composition import Chart
+from lowgmap.physics.properties.fluids import FluidPair
+from lowgmap.physics.geometry.sections import Circle
+from lowgmap.physics.properties.wetting import Wetting
 
 G0 = STANDARD_GRAVITY
 D = 0.01

@@ -1,4 +1,4 @@
-"""Tests of physics.boundary: constants, validity ranges, registry and empirical boundaries."""
+"""Tests of lowgmap.physics.models.boundary: constants, validity ranges, registry and empirical boundaries."""
 import math
 
 import numpy as np
@@ -6,13 +6,13 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from physics.boundary import (BOUNDARY_MODELS, BoundaryModel, Constant, PowerLawBoundary, TableBoundary,
+from lowgmap.physics.models.boundary import (BOUNDARY_MODELS, BoundaryModel, Constant, PowerLawBoundary, TableBoundary,
                               Validity, boundary_from_spec, case_boundaries, get_model, model_names,
                               register, resolve_model, usable_models)
-from physics.case import Case, FlowRange
-from physics.fluids import FluidPair
-from physics.sections import Circle, Groove
-from physics.wetting import Wetting
+from lowgmap.physics.case import Case, FlowRange
+from lowgmap.physics.properties.fluids import FluidPair
+from lowgmap.physics.geometry.sections import Circle, Groove
+from lowgmap.physics.properties.wetting import Wetting
 
 # Water 20 degC (IAPWS, reference list section 7); air 1.205 kg/m^3 (reference list), mu_g from memory.
 WATER_AIR = FluidPair("water", "air", 293.15, 101325.0, 998.207, 1.0016e-3, 0.07274, 1.205, 1.81e-5,

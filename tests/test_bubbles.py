@@ -1,4 +1,4 @@
-"""Tests of physics.bubbles: film thickness, bubble size, spacing and merging, migration, taper path."""
+"""Tests of lowgmap.physics.models.bubbles: film thickness, bubble size, spacing and merging, migration, taper path."""
 import math
 
 import numpy as np
@@ -6,8 +6,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from physics import bubbles as bb
-from physics.sections import Circle, Groove, Polygon, WedgeChannel
+from lowgmap.physics.models import bubbles as bb
+from lowgmap.physics.geometry.sections import Circle, Groove, Polygon, WedgeChannel
 
 # --- film thickness ---------------------------------------------------------------------------------
 

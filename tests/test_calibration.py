@@ -1,4 +1,4 @@
-"""Calibration of boundary-model constants and empirical boundaries (physics.calibration).
+"""Calibration of boundary-model constants and empirical boundaries (lowgmap.physics.studies.calibration).
 
 The labelled points here are SYNTHETIC: generated in the tests from the models themselves (with the
 constant to be recovered, e.g. alpha_c = 0.40 on the bubble-slug line of Dukler et al. 1988) and with a
@@ -14,12 +14,12 @@ import math
 import numpy as np
 import pytest
 
-from app.casefile import load_case, sample_case_path
-from physics.boundary import PowerLawBoundary, boundary_from_spec
-from physics.calibration import (MAX_FIT, calibrate, chart_with_boundary, empirical_name, fit_empirical_boundary,
+from lowgmap.app.files.casefile import load_case, sample_case_path
+from lowgmap.physics.models.boundary import PowerLawBoundary, boundary_from_spec
+from lowgmap.physics.studies.calibration import (MAX_FIT, calibrate, chart_with_boundary, empirical_name, fit_empirical_boundary,
                                  parse_fit_spec)
-from physics.case import ModelChoice
-from physics.chart import Chart
+from lowgmap.physics.case import ModelChoice
+from lowgmap.physics.chart.composition import Chart
 
 BS = "bubble_slug_dukler_1988"
 SA = "slug_annular_dukler_1988"

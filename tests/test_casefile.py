@@ -7,7 +7,7 @@ import pytest
 import tomlkit
 from hypothesis import HealthCheck, given, settings, strategies as st
 
-from app.casefile import (SAMPLE_DIR, CaseFileError, dumps_case, load_case, loads_case, sample_case_path,
+from lowgmap.app.files.casefile import (SAMPLE_DIR, CaseFileError, dumps_case, load_case, loads_case, sample_case_path,
                           save_case)
 
 SAMPLES = sorted(SAMPLE_DIR.glob("*.toml"))
@@ -195,8 +195,8 @@ def test_round_trip_property(title, diameter, theta, length, g, ql):
 
 
 def test_custom_boundaries_with_units_are_converted_and_checked():
-    from physics.boundary import case_boundaries
-    from physics.chart import Chart
+    from lowgmap.physics.models.boundary import case_boundaries
+    from lowgmap.physics.chart.composition import Chart
 
     text = GOOD + '''
 [[models]]

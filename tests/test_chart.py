@@ -1,4 +1,4 @@
-"""Tests of physics.chart: chart composition, regions, intersections, classification, axes."""
+"""Tests of lowgmap.physics.chart.composition: chart composition, regions, intersections, classification, axes."""
 import dataclasses
 import math
 
@@ -6,15 +6,15 @@ import numpy as np
 import pytest
 from matplotlib.path import Path
 
-from physics.boundary import ExplicitBoundary, PowerLawBoundary, get_model
-from physics.case import Case, FlowRange, ModelChoice
-from physics.chart import AXIS_KINDS, Chart
-from physics.fluids import FluidPair
-from physics.groups import suratman
-from physics.sections import Circle, Groove, Rectangle
-from physics.tube_models import (ANNULAR, BUBBLES, CAPILLARY_ZONE, INERTIA_ZONE, SLUGS, TRANSITIONAL_ZONE,
+from lowgmap.physics.models.boundary import ExplicitBoundary, PowerLawBoundary, get_model
+from lowgmap.physics.case import Case, FlowRange, ModelChoice
+from lowgmap.physics.chart.composition import AXIS_KINDS, Chart
+from lowgmap.physics.properties.fluids import FluidPair
+from lowgmap.physics.properties.groups import suratman
+from lowgmap.physics.geometry.sections import Circle, Groove, Rectangle
+from lowgmap.physics.models.tube import (ANNULAR, BUBBLES, CAPILLARY_ZONE, INERTIA_ZONE, SLUGS, TRANSITIONAL_ZONE,
                                  drift_flux_flow_ratio, suratman_reynolds_ratio, weber_gas_velocity)
-from physics.wetting import Wetting
+from lowgmap.physics.properties.wetting import Wetting
 
 # Water 20 degC, 1 atm (IAPWS; reference list section 7); air rho 1.205 kg/m^3 (reference list
 # section 1), mu 1.81e-5 Pa s (from memory).

@@ -6,9 +6,9 @@ import sys
 
 import pytest
 
-from app import __version__
-from app.casefile import SAMPLE_DIR, sample_case_path
-from app.cli import main
+from lowgmap.app import __version__
+from lowgmap.app.files.casefile import SAMPLE_DIR, sample_case_path
+from lowgmap.app.cli import main
 
 SAMPLES = sorted(SAMPLE_DIR.glob("*.toml"))
 
@@ -27,7 +27,7 @@ def test_version_flag(capsys):
 
 
 def test_console_script_is_installed_and_runs():
-    proc = subprocess.run([sys.executable, "-m", "app.cli", "--version"], capture_output=True, text=True)
+    proc = subprocess.run([sys.executable, "-m", "lowgmap", "--version"], capture_output=True, text=True)
     assert proc.returncode == 0 and "lowgmap" in proc.stdout
 
 

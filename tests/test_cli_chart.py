@@ -4,10 +4,10 @@ import json
 import numpy as np
 import pytest
 
-from app.casefile import load_case, loads_case, sample_case_path
-from app.cli import main
-from app.exports import chart_bytes
-from physics.chart import Chart
+from lowgmap.app.files.casefile import load_case, loads_case, sample_case_path
+from lowgmap.app.cli import main
+from lowgmap.app.outputs.exports import chart_bytes
+from lowgmap.physics.chart.composition import Chart
 
 
 @pytest.fixture(scope="module")

@@ -4,8 +4,8 @@ import math
 
 import pytest
 
-from app.casefile import sample_case_path
-from app.cli import main
+from lowgmap.app.files.casefile import sample_case_path
+from lowgmap.app.cli import main
 
 
 def run(capsys, *argv):

@@ -1,6 +1,6 @@
 """`lowgmap sweep`, `lowgmap design`, their file formats, plots and the dashboard's design tab.
 
-Wiring only: the numbers printed, written or shown must be the ones physics.sweep and physics.design
+Wiring only: the numbers printed, written or shown must be the ones lowgmap.physics.studies.sweep and lowgmap.physics.studies.design
 compute (their physics is checked in test_sweep.py / test_design.py). Unit conversions are checked
 against exact definitions (1 deg = pi/180 rad, 1 mm = 1e-3 m).
 """
@@ -13,12 +13,12 @@ import pandas as pd
 import pytest
 from hypothesis import given, settings, strategies as st
 
-from app.casefile import CaseFileError, load_case, sample_case_path
-from app.cli import main
-from app.cli_design import (loads_goal, loads_sweep, margin_map_figure, read_goal, read_sweep, to_display,
+from lowgmap.app.files.casefile import CaseFileError, load_case, sample_case_path
+from lowgmap.app.cli import main
+from lowgmap.app.cli.design import (loads_goal, loads_sweep, margin_map_figure, read_goal, read_sweep, to_display,
                             variable_kind)
-from physics.design import optimize_design
-from physics.sweep import grid, sweep
+from lowgmap.physics.studies.design import optimize_design
+from lowgmap.physics.studies.sweep import grid, sweep
 
 TUBE = str(sample_case_path("condensate_line"))
 WEDGE = str(sample_case_path("wedge_separator"))
@@ -221,8 +221,8 @@ def test_margin_map_has_the_required_margin_contour(tube):
 
 # --------------------------------------------------------------------------------------------- dashboard
 def test_design_tab_map_matches_the_sweep(tube):
-    from app.dashboard.design_tab import DesignTab, design_inputs
-    from app.dashboard.state import Session
+    from lowgmap.app.dashboard.design_tab import DesignTab, design_inputs
+    from lowgmap.app.dashboard.state import Session
 
     session = Session(tube)
     tab = DesignTab(session)

@@ -8,12 +8,12 @@ import math
 
 import pytest
 
-from app import CAUTION
-from app.casefile import load_case, sample_case_path
-from app.cli import main
-from app.cli_margin import format_factor
-from physics.chart import Chart
-from physics.margins import point_margins
+from lowgmap.app import CAUTION
+from lowgmap.app.files.casefile import load_case, sample_case_path
+from lowgmap.app.cli import main
+from lowgmap.app.cli.margin import format_factor
+from lowgmap.physics.chart.composition import Chart
+from lowgmap.physics.chart.margins import point_margins
 
 SAMPLE = str(sample_case_path("condensate_line"))
 
@@ -57,7 +57,7 @@ def test_margin_point_from_options_with_units(capsys, sample):
     data = json.loads(out)
     assert data["operating_point"]["ql_m3_s"] == pytest.approx(2e-3 / 60, rel=1e-12)
     f = doc.case.fluid
-    # sccm at 0 degC, 1 atm converted to the local state (ideal gas), as app.units documents
+    # sccm at 0 degC, 1 atm converted to the local state (ideal gas), as lowgmap.app.files.units documents
     q_std = 1500e-6 / 60
     assert data["operating_point"]["qg_m3_s"] == pytest.approx(q_std * 101325 / f.pressure * f.temperature / 273.15,
                                                                rel=1e-9)
@@ -104,7 +104,7 @@ def test_case_without_point_or_regimes(capsys, tmp_path, monkeypatch):
     code, out, _ = run(capsys, "margin", str(path), "--ql", "3 L/min", "--qg", "0.5 L/min", "--json")
     assert code == 0 and json.loads(out)["regime"] == "dispersed bubbles"
     # a chart on which no model applies (e.g. an open section before open-channel models): no regimes
-    import app.cli_margin as cm
+    import lowgmap.app.cli.margin as cm
     monkeypatch.setattr(cm, "_chart", lambda doc: Chart.build(doc.case, []))
     code, out, _ = run(capsys, "margin", SAMPLE, "--json")
     data = json.loads(out)
@@ -121,7 +121,7 @@ def test_robust(capsys, sample):
     assert code == 0
     data = json.loads(out)
     # Dukler et al. (1988) lines are both Q_G = r Q_L: the optimum ratio is sqrt(r1 r2) (see test_margins)
-    from physics.tube_models import drift_flux_flow_ratio
+    from lowgmap.physics.models.tube import drift_flux_flow_ratio
     r1 = drift_flux_flow_ratio(**dict(chart.region_models[0][1]))
     r2 = drift_flux_flow_ratio(**dict(chart.region_models[1][1]))
     assert data["qg_m3_s"] / data["ql_m3_s"] == pytest.approx(math.sqrt(r1 * r2), rel=1e-5)

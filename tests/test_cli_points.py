@@ -1,6 +1,6 @@
-"""`lowgmap compare` and `lowgmap calibrate` (app.cli_points): wiring, files written, errors.
+"""`lowgmap compare` and `lowgmap calibrate` (lowgmap.app.cli.points): wiring, files written, errors.
 
-The numbers shown come from physics.agreement and physics.calibration (tested there); these tests check
+The numbers shown come from lowgmap.physics.studies.agreement and lowgmap.physics.studies.calibration (tested there); these tests check
 that the commands report them, that a calibrated case is a loadable next revision with its history, and
 that bad input gives exit code 2 with a message. The sample test points are invented demonstration
 data (see the file's header); they are inputs here, not check values.
@@ -10,10 +10,10 @@ import shutil
 
 import pytest
 
-from app.casefile import load_case, sample_case_path
-from app.cli import main
-from app.cli_points import next_revision, parse_regime_map
-from physics.chart import Chart
+from lowgmap.app.files.casefile import load_case, sample_case_path
+from lowgmap.app.cli import main
+from lowgmap.app.cli.points import next_revision, parse_regime_map
+from lowgmap.physics.chart.composition import Chart
 
 CASE = str(sample_case_path())
 POINTS = str(sample_case_path().parent / "drop_tower_points.csv")

@@ -1,11 +1,11 @@
-"""Tests of physics.corner: corner meniscus geometry and flow resistance beta."""
+"""Tests of lowgmap.physics.geometry.corner: corner meniscus geometry and flow resistance beta."""
 import math
 
 import numpy as np
 import pytest
 
-import physics.wetting
-from physics.corner import (
+import lowgmap.physics.properties.wetting
+from lowgmap.physics.geometry.corner import (
     _corner_domain,
     bisector_height,
     concus_finn_wets,
@@ -15,7 +15,7 @@ from physics.corner import (
     meniscus_pressure,
     wetted_wall_length,
 )
-from physics.stokes import solve_poisson
+from lowgmap.physics.geometry.stokes import solve_poisson
 
 D = math.radians
 
@@ -71,7 +71,7 @@ def test_meniscus_pressure():
 
 
 def test_concus_finn_reexport():
-    assert concus_finn_wets is physics.wetting.concus_finn_wets
+    assert concus_finn_wets is lowgmap.physics.properties.wetting.concus_finn_wets
     # Concus & Finn (1969): 7.9 deg half-angle wicks for theta < 82.1 deg
     assert concus_finn_wets(D(7.9), D(82.0)) and not concus_finn_wets(D(7.9), D(82.2))
 

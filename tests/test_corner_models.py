@@ -1,4 +1,4 @@
-"""Tests of physics.corner_models and of the partition regime scheme of physics.chart."""
+"""Tests of lowgmap.physics.models.corner and of the partition regime scheme of lowgmap.physics.chart.composition."""
 import dataclasses
 import math
 
@@ -8,15 +8,15 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from matplotlib.path import Path
 
-from physics import corner_models as cm
-from physics.boundary import PowerLawBoundary, get_model, model_names, usable_models
-from physics.case import Case, FlowRange, ModelChoice
-from physics.chart import DEFAULT_MODELS, Chart, PartitionScheme, RegimeInfo
-from physics.fluids import FluidPair
-from physics.open_channel import WedgeChannel as OpenWedge
-from physics.open_channel import critical_flow_rate
-from physics.sections import Circle, Groove, Polygon, WedgeChannel
-from physics.wetting import Wetting
+from lowgmap.physics.models import corner as cm
+from lowgmap.physics.models.boundary import PowerLawBoundary, get_model, model_names, usable_models
+from lowgmap.physics.case import Case, FlowRange, ModelChoice
+from lowgmap.physics.chart.composition import DEFAULT_MODELS, Chart, PartitionScheme, RegimeInfo
+from lowgmap.physics.properties.fluids import FluidPair
+from lowgmap.physics.models.open_channel import WedgeChannel as OpenWedge
+from lowgmap.physics.models.open_channel import critical_flow_rate
+from lowgmap.physics.geometry.sections import Circle, Groove, Polygon, WedgeChannel
+from lowgmap.physics.properties.wetting import Wetting
 
 # A 5 cSt silicone oil and air (property values typical, from memory; they are inputs here, not checks).
 OIL = FluidPair("silicone oil 5 cSt", "air", 298.15, 101325.0, 913.0, 4.565e-3, 0.0197, 1.184, 1.85e-5,
@@ -69,7 +69,7 @@ def near_a_line(chart, ql, qg, dist=3e-3):
 @pytest.fixture(scope="module")
 def chart():
     """The invented wedge-separator sample: every line of the family bounds a region on it."""
-    from app.casefile import load_case, sample_case_path
+    from lowgmap.app.files.casefile import load_case, sample_case_path
 
     return Chart.build(load_case(sample_case_path("wedge_separator")).case)
 
@@ -247,7 +247,7 @@ def test_separation_line_closed_form():
 
 
 def test_ingestion_line_against_the_open_channel_model():
-    # the line is Q_crit of physics.open_channel (wedge of plate length d / cos(alpha)) loaded by the mixture
+    # the line is Q_crit of lowgmap.physics.models.open_channel (wedge of plate length d / cos(alpha)) loaded by the mixture
     case = make_case()
     ch = OpenWedge(ALPHA, DEPTH / math.cos(ALPHA), 0.0)
     q_liquid = critical_flow_rate(ch, 0.05, rho=OIL.rho_l, mu=OIL.mu_l, sigma=OIL.sigma).Q_crit
@@ -430,7 +430,7 @@ def test_partition_scheme_rule_and_reachable_regimes():
 
 
 def test_wedge_separator_sample_shows_every_regime():
-    from app.casefile import load_case, sample_case_path
+    from lowgmap.app.files.casefile import load_case, sample_case_path
 
     doc = load_case(sample_case_path("wedge_separator"))
     assert doc.invented

@@ -1,4 +1,4 @@
-"""Inverse design (physics.design): optima with known answers, active constraints, sensitivities, errors.
+"""Inverse design (lowgmap.physics.studies.design): optima with known answers, active constraints, sensitivities, errors.
 
 The test lines are straight in log-log axes and move with a design input in a known way, so the best
 placement of an operating envelope between them has a closed form (derived in the comments, marked
@@ -10,15 +10,15 @@ import math
 import numpy as np
 import pytest
 
-from app.casefile import load_case, sample_case_path
-from physics.boundary import ExplicitBoundary
-from physics.case import Case, FlowRange, ModelChoice
-from physics.design import (DesignConstraint, DesignGoal, DesignVariable, nominal_design_value, optimize_design,
+from lowgmap.app.files.casefile import load_case, sample_case_path
+from lowgmap.physics.models.boundary import ExplicitBoundary
+from lowgmap.physics.case import Case, FlowRange, ModelChoice
+from lowgmap.physics.studies.design import (DesignConstraint, DesignGoal, DesignVariable, nominal_design_value, optimize_design,
                             quantity_value)
-from physics.fluids import FluidPair
-from physics.sections import Circle
-from physics.tube_models import drift_flux_flow_ratio
-from physics.wetting import Wetting
+from lowgmap.physics.properties.fluids import FluidPair
+from lowgmap.physics.geometry.sections import Circle
+from lowgmap.physics.models.tube import drift_flux_flow_ratio
+from lowgmap.physics.properties.wetting import Wetting
 
 FLUID = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
 RANGE = FlowRange(1e-7, 1e-3, 1e-7, 1e-3)

@@ -14,7 +14,7 @@ def test_theory_manual_is_up_to_date():
 
 
 def test_every_registered_boundary_model_is_in_the_manual():
-    from physics.boundary import model_names
+    from lowgmap.physics.models.boundary import model_names
 
     text = (ROOT / "physics" / "README.md").read_text(encoding="utf-8")
     missing = [name for name in model_names() if name not in text]
@@ -43,7 +43,7 @@ def test_ci_runs_the_readme_test_command():
 
 
 def test_caution_is_stated():
-    from app import CAUTION
+    from lowgmap.app import CAUTION
 
     readme = (ROOT / "README.md").read_text()
     assert "not a substitute for qualification testing" in readme

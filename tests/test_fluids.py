@@ -1,4 +1,4 @@
-"""Tests for physics.fluids: property sources, checks against published values, error messages."""
+"""Tests for lowgmap.physics.properties.fluids: property sources, checks against published values, error messages."""
 from __future__ import annotations
 
 import csv
@@ -10,7 +10,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from physics.fluids import (
+from lowgmap.physics.properties.fluids import (
     MOLAR_GAS_CONSTANT,
     TABLE_PATH,
     FluidPair,
@@ -174,7 +174,7 @@ def test_table_rows_state_their_source():
 
 
 def test_table_names_do_not_clash_with_coolprop():
-    from physics.fluids import _coolprop_lookup, _table_lookup
+    from lowgmap.physics.properties.fluids import _coolprop_lookup, _table_lookup
     assert not set(_coolprop_lookup()) & set(_table_lookup())
     # the pure n-isomer stays reachable through CoolProp
     assert make_fluid_pair("perfluorohexane", 298.15).liquid == "perfluorohexane"

@@ -1,4 +1,4 @@
-"""Tests of physics.groups: dimensionless groups and their evaluation for a case."""
+"""Tests of lowgmap.physics.properties.groups: dimensionless groups and their evaluation for a case."""
 import math
 
 import numpy as np
@@ -6,12 +6,12 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from physics.case import Case, FlowRange
-from physics.fluids import FluidPair
-from physics.groups import (GROUPS, capillary, eotvos, evaluate_group, group_names, ohnesorge,
+from lowgmap.physics.case import Case, FlowRange
+from lowgmap.physics.properties.fluids import FluidPair
+from lowgmap.physics.properties.groups import (GROUPS, capillary, eotvos, evaluate_group, group_names, ohnesorge,
                             positive_flows, reynolds, suratman, superficial_velocity, weber)
-from physics.sections import Circle, Rectangle
-from physics.wetting import Wetting
+from lowgmap.physics.geometry.sections import Circle, Rectangle
+from lowgmap.physics.properties.wetting import Wetting
 
 # Water at 20 degC, 1 atm: rho 998.207 kg/m^3 (IAPWS-95), mu 1.0016 mPa s (IAPWS 2008),
 # sigma 72.74 mN/m (IAPWS R1-76(2014)) -- reference list section 7.

@@ -1,4 +1,4 @@
-"""Margins of an operating point, operating envelopes and the robust point (physics.margins).
+"""Margins of an operating point, operating envelopes and the robust point (lowgmap.physics.chart.margins).
 
 Check values are closed forms derived here for straight boundaries in log-log axes (marked
 "closed form") and the drift-flux line of Dukler et al. (1988); consistency checks use the
@@ -13,17 +13,17 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from app.casefile import load_case, sample_case_path
-from physics import margins as mg
-from physics.boundary import BoundaryModel, ExplicitBoundary, PowerLawBoundary, TableBoundary
-from physics.case import Case, FlowRange
-from physics.chart import Chart
-from physics.fluids import FluidPair
-from physics.margins import (MAX_MARGIN, box_margin_on_segments, envelope_check, point_margins, robust_point,
+from lowgmap.app.files.casefile import load_case, sample_case_path
+from lowgmap.physics.chart import margins as mg
+from lowgmap.physics.models.boundary import BoundaryModel, ExplicitBoundary, PowerLawBoundary, TableBoundary
+from lowgmap.physics.case import Case, FlowRange
+from lowgmap.physics.chart.composition import Chart
+from lowgmap.physics.properties.fluids import FluidPair
+from lowgmap.physics.chart.margins import (MAX_MARGIN, box_margin_on_segments, envelope_check, point_margins, robust_point,
                              symmetric_margins)
-from physics.sections import Circle
-from physics.tube_models import drift_flux_flow_ratio
-from physics.wetting import Wetting
+from lowgmap.physics.geometry.sections import Circle
+from lowgmap.physics.models.tube import drift_flux_flow_ratio
+from lowgmap.physics.properties.wetting import Wetting
 
 # carrier fluid for empirical lines (any valid pair; the lines below do not use it)
 FLUID = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
@@ -483,7 +483,7 @@ def test_robust_point_errors():
 
 def _partition_chart(rule, regimes):
     """Line 'diag' Q_G = Q_L and line 'flat' Q_G = 1e-5 in a partition scheme with the given rule."""
-    from physics.chart import PartitionScheme, RegimeInfo
+    from lowgmap.physics.chart.composition import PartitionScheme, RegimeInfo
 
     scheme = PartitionScheme("test partition", ("diag", "flat"), tuple(RegimeInfo(r) for r in regimes), rule)
     diag, flat = line("diag", 1.0, 1.0, "d-", "d+"), line("flat", 1e-5, 0.0, "f-", "f+")
@@ -561,7 +561,7 @@ class ParametricVertical(BoundaryModel):
         return np.full(np.shape(ql), np.nan)
 
     def line_pieces(self, case, **consts):
-        from physics.chart import LinePiece
+        from lowgmap.physics.chart.composition import LinePiece
 
         fr = case.flow_range
         return [LinePiece(math.log10(fr.qg_min), math.log10(fr.qg_max),

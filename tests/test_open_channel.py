@@ -1,4 +1,4 @@
-"""Tests for physics.open_channel: the flow-rate limit of open capillary channels.
+"""Tests for lowgmap.physics.models.open_channel: the flow-rate limit of open capillary channels.
 
 Model form: Rosendahl, Ohlhoff & Dreyer, J. Fluid Mech. 518:187-214 (2004); Haake et al.,
 Microgravity Sci. Technol. 22:129-138 (2010); Klatte et al., Acta Mech. 201:269-276 (2008).
@@ -15,8 +15,8 @@ import pytest
 from scipy.integrate import quad
 from scipy.optimize import minimize_scalar
 
-from physics.corner import flow_resistance, meniscus_area_factor
-from physics.open_channel import (
+from lowgmap.physics.geometry.corner import flow_resistance, meniscus_area_factor
+from lowgmap.physics.models.open_channel import (
     LIMITS,
     CornerFilament,
     ParallelPlates,
@@ -159,8 +159,8 @@ def test_groove_flat_resistance_is_half_rectangle():
 def pinned_arc_K(wall, edge, beta, parts):
     """K = A/mean of a section made of `parts` copies of: the pieces `wall` ending at `edge`, an arc
     of half-angle beta from the edge to the symmetry line x = 0 (centre on it), the symmetry line
-    back to the origin; built here with physics.stokes directly (not the module's domain code)."""
-    from physics.stokes import Arc, Domain, Line, solve_poisson
+    back to the origin; built here with lowgmap.physics.geometry.stokes directly (not the module's domain code)."""
+    from lowgmap.physics.geometry.stokes import Arc, Domain, Line, solve_poisson
     ex, ey = edge
     R = ex / math.sin(beta)
     s = ex * math.tan(beta / 2)
@@ -170,9 +170,9 @@ def pinned_arc_K(wall, edge, beta, parts):
 
 def test_wedge_pinned_resistance_approaches_corner_value():
     # just before the contact lines leave the edges the pinned section is (nearly) the corner
-    # filament: a direct FE solve of the pinned domain must agree with physics.corner's table
+    # filament: a direct FE solve of the pinned domain must agree with lowgmap.physics.geometry.corner's table
     # (own domain, own table); K changes ~0.3 per rad there, so 0.005 rad short gives < 1e-4
-    from physics.stokes import Line
+    from lowgmap.physics.geometry.stokes import Line
     al = 30 * DEG
     edge = (math.sin(al), math.cos(al))
     K = pinned_arc_K([Line((0.0, 0.0), edge, "wall")], edge, math.pi / 2 - al - 0.005, 2)
@@ -186,7 +186,7 @@ def test_wedge_pinned_resistance_approaches_corner_value():
 def test_resistance_table_between_nodes():
     # the tabulated K(R1) (Chebyshev nodes in the arc angle) against direct FE solves at arbitrary
     # arc angles; quarter of the b/a = 1 plates built here (the hardest shape: surfaces close in)
-    from physics.stokes import Line
+    from lowgmap.physics.geometry.stokes import Line
     pp = ParallelPlates(1.0, 1.0)
     wall = [Line((0.0, 0.0), (0.5, 0.0), "free"), Line((0.5, 0.0), (0.5, 0.5), "wall")]
     for beta in (0.37, 1.13, 1.45):

@@ -1,4 +1,4 @@
-"""Tests for physics.platforms: the platform table, per-point conditions, Bond numbers and capillary times.
+"""Tests for lowgmap.physics.studies.platforms: the platform table, per-point conditions, Bond numbers and capillary times.
 
 The platform figures are the typical published ones of PHYSICS-REFERENCES section 5, entered from memory
 (no document in hand): tests that compare with them say "from memory". Numbers computed by hand from the
@@ -11,10 +11,10 @@ import math
 import numpy as np
 import pytest
 
-from physics.platforms import (PLATFORMS, SOURCE_FROM_MEMORY, CapillaryTimes, Conditions, Platform,
+from lowgmap.physics.studies.platforms import (PLATFORMS, SOURCE_FROM_MEMORY, CapillaryTimes, Conditions, Platform,
                                capillary_times, find_platform, get_platform, platform_bond_numbers,
                                platform_names, platform_table, point_conditions, points_conditions)
-from physics.summary import bond_number
+from lowgmap.physics.chart.summary import bond_number
 
 G0 = 9.80665  # standard gravity [m/s^2] (CGPM 1901)
 
@@ -165,7 +165,7 @@ def test_platform_bond_numbers_water_one_centimetre(name, bo_typical):
     else:
         assert lo <= typ and lo == pytest.approx(typ * p.g_low / p.g_high, rel=1e-12)
     # every platform keeps a 1 cm water interface surface-tension dominated (Bo < 1; Brauner 1990 criterion
-    # quoted in physics.summary); the 1 g value is not
+    # quoted in lowgmap.physics.chart.summary); the 1 g value is not
     assert typ < 1 < bond_number(RHO_W, G0, 0.01, SIGMA_W)
 
 

@@ -1,4 +1,4 @@
-"""Tests for physics.sections: closed forms, corners, Concus–Finn per corner, invariants, errors."""
+"""Tests for lowgmap.physics.geometry.sections: closed forms, corners, Concus–Finn per corner, invariants, errors."""
 from __future__ import annotations
 
 import dataclasses
@@ -10,7 +10,7 @@ import pytest
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
-from physics.sections import (
+from lowgmap.physics.geometry.sections import (
     CIRCLE_OUTLINE_VERTICES,
     SECTION_KINDS,
     Circle,
@@ -22,7 +22,7 @@ from physics.sections import (
     Section,
     WedgeChannel,
 )
-from physics.wetting import Wetting
+from lowgmap.physics.properties.wetting import Wetting
 
 R = math.radians
 REL = 1e-12

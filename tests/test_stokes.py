@@ -1,10 +1,10 @@
-"""Tests of physics.stokes: cross-section Stokes flow (finite elements on our own meshes)."""
+"""Tests of lowgmap.physics.geometry.stokes: cross-section Stokes flow (finite elements on our own meshes)."""
 import math
 
 import numpy as np
 import pytest
 
-from physics.stokes import Arc, Domain, Line, fanning_poiseuille_number, solve_poisson
+from lowgmap.physics.geometry.stokes import Arc, Domain, Line, fanning_poiseuille_number, solve_poisson
 
 S3 = math.sqrt(3.0)
 

@@ -1,4 +1,4 @@
-"""Design sweeps (physics.sweep): per-design results, envelope margins, fast paths, cluster backends.
+"""Design sweeps (lowgmap.physics.studies.sweep): per-design results, envelope margins, fast paths, cluster backends.
 
 Check values: closed forms for straight boundaries in log-log axes (derived in the comments, marked
 "closed form"), the drift-flux lines of Dukler et al. (1988) (a line of constant Q_G/Q_L, so the
@@ -12,17 +12,17 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from app.casefile import load_case, sample_case_path
-from physics.boundary import PowerLawBoundary
-from physics.case import Case, FlowRange, ModelChoice, OperatingPoint
-from physics.chart import Chart
-from physics.fluids import FluidPair
-from physics.margins import MAX_MARGIN, point_margins, symmetric_margins
-from physics.sections import Circle
-from physics.sweep import DesignEvaluator, SweepSpec, apply_changes, envelope_margin, grid, sweep, zipped
-from physics.tube_models import drift_flux_flow_ratio
-from physics.uncertainty import Uncertainty, monte_carlo
-from physics.wetting import Wetting
+from lowgmap.app.files.casefile import load_case, sample_case_path
+from lowgmap.physics.models.boundary import PowerLawBoundary
+from lowgmap.physics.case import Case, FlowRange, ModelChoice, OperatingPoint
+from lowgmap.physics.chart.composition import Chart
+from lowgmap.physics.properties.fluids import FluidPair
+from lowgmap.physics.chart.margins import MAX_MARGIN, point_margins, symmetric_margins
+from lowgmap.physics.geometry.sections import Circle
+from lowgmap.physics.studies.sweep import DesignEvaluator, SweepSpec, apply_changes, envelope_margin, grid, sweep, zipped
+from lowgmap.physics.models.tube import drift_flux_flow_ratio
+from lowgmap.physics.studies.uncertainty import Uncertainty, monte_carlo
+from lowgmap.physics.properties.wetting import Wetting
 
 FLUID = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
 RANGE = FlowRange(1e-7, 1e-3, 1e-7, 1e-3)
@@ -80,7 +80,7 @@ def test_apply_changes_inputs_and_errors(tube, wedge):
 
 
 def test_fluid_change_rebuilds_properties(tube):
-    from physics.fluids import make_fluid_pair
+    from lowgmap.physics.properties.fluids import make_fluid_pair
 
     spec = {"liquid": "water", "gas": "air", "temperature": 295.15, "pressure": 101300.0}
     c = apply_changes(tube.case, {"temperature": 330.0}, spec)

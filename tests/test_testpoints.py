@@ -1,4 +1,4 @@
-"""Tests for app.testpoints: reading test-point files (CSV, Excel, text, bytes), row checks, file errors.
+"""Tests for lowgmap.app.files.testpoints: reading test-point files (CSV, Excel, text, bytes), row checks, file errors.
 
 Unit factors are checked against definitions (SI Brochure: 1 L = 1e-3 m^3, 1 min = 60 s; CGPM 1901:
 g0 = 9.80665 m/s^2; SEMI E12 standard conditions for sccm). The sample files are INVENTED data and serve
@@ -19,10 +19,10 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from app.testpoints import (FIELDS, POINT_COLUMNS, TEMPLATE_HEADER, RowProblem, TestPointError, TestPointSet,
+from lowgmap.app.files.testpoints import (FIELDS, POINT_COLUMNS, TEMPLATE_HEADER, RowProblem, TestPointError, TestPointSet,
                             field_aliases, read_test_points, template_text, unknown_regimes,
                             with_platform_conditions, write_template)
-from app.units import parse_flow
+from lowgmap.app.files.units import parse_flow
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_cases"
 ML_MIN = 1e-6 / 60.0        # 1 mL/min in m^3/s (SI Brochure: 1 L = 1e-3 m^3, 1 min = 60 s)

@@ -1,20 +1,20 @@
-"""Tests of physics.tube_models: low-gravity transitions in closed tubes and ducts."""
+"""Tests of lowgmap.physics.models.tube: low-gravity transitions in closed tubes and ducts."""
 import math
 
 import numpy as np
 import pytest
 
-from physics.boundary import get_model
-from physics.case import Case, FlowRange
-from physics.fluids import FluidPair
-from physics.groups import evaluate_group, suratman
-from physics.sections import Circle, Groove, Rectangle
-from physics.tube_models import (ANNULAR, BUBBLE_SLUG_DUKLER_1988, BUBBLE_SLUG_JAYAWARDENA_1997, BUBBLES,
+from lowgmap.physics.models.boundary import get_model
+from lowgmap.physics.case import Case, FlowRange
+from lowgmap.physics.properties.fluids import FluidPair
+from lowgmap.physics.properties.groups import evaluate_group, suratman
+from lowgmap.physics.geometry.sections import Circle, Groove, Rectangle
+from lowgmap.physics.models.tube import (ANNULAR, BUBBLE_SLUG_DUKLER_1988, BUBBLE_SLUG_JAYAWARDENA_1997, BUBBLES,
                                  SLUG_ANNULAR_DUKLER_1988, SLUG_TRANSITIONAL_ZHAO_REZKALLAH_1993, SLUGS,
                                  TRANSITIONAL_ANNULAR_ZHAO_REZKALLAH_1993, TUBE_MODEL_NAMES, drift_flux_flow_ratio,
                                  drift_flux_void_fraction, duct_note, gravity_check, suratman_reynolds_ratio,
                                  weber_gas_velocity)
-from physics.wetting import Wetting
+from lowgmap.physics.properties.wetting import Wetting
 
 # Water 20 degC, 1 atm: rho 998.207 kg/m^3, mu 1.0016 mPa s, sigma 72.74 mN/m (IAPWS; reference list
 # section 7). Air 20 degC: rho 1.205 kg/m^3 (reference list section 1); mu 1.81e-5 Pa s (from memory).

@@ -1,4 +1,4 @@
-"""Monte Carlo propagation of a case's uncertainties (physics.uncertainty).
+"""Monte Carlo propagation of a case's uncertainties (lowgmap.physics.studies.uncertainty).
 
 Check values are closed forms derived here (normal distributions through straight or horizontal
 boundaries), marked "closed form"; the Weber-number lines are those of Zhao & Rezkallah (1993),
@@ -11,14 +11,14 @@ import numpy as np
 import pytest
 from scipy.stats import norm
 
-from app.casefile import load_case, sample_case_path
-from physics.boundary import PowerLawBoundary
-from physics.case import Case, FlowRange, OperatingPoint
-from physics.chart import Chart
-from physics.fluids import FluidPair
-from physics.sections import Circle, Groove, Polygon, Rectangle
-from physics.uncertainty import Uncertainty, monte_carlo, nominal_value, perturbed_case
-from physics.wetting import Wetting
+from lowgmap.app.files.casefile import load_case, sample_case_path
+from lowgmap.physics.models.boundary import PowerLawBoundary
+from lowgmap.physics.case import Case, FlowRange, OperatingPoint
+from lowgmap.physics.chart.composition import Chart
+from lowgmap.physics.properties.fluids import FluidPair
+from lowgmap.physics.geometry.sections import Circle, Groove, Polygon, Rectangle
+from lowgmap.physics.studies.uncertainty import Uncertainty, monte_carlo, nominal_value, perturbed_case
+from lowgmap.physics.properties.wetting import Wetting
 
 FLUID = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
 WEBER_MODELS = ["slug_transitional_zhao_rezkallah_1993", "transitional_annular_zhao_rezkallah_1993"]
@@ -239,7 +239,7 @@ def test_angles_are_clipped_and_hysteresis_moves_along():
 def test_partition_scheme_draws_closed_form():
     # a partition scheme (only the Chart interface is used): below Q_G = Q_L one regime whatever the flat line
     # Q_G = 2e-5 does, so the margins are those of the diagonal alone (closed form per sample)
-    from physics.chart import PartitionScheme, RegimeInfo
+    from lowgmap.physics.chart.composition import PartitionScheme, RegimeInfo
 
     def rule(v):
         return np.where(v["diag"] < 0, "liquid side", np.where(v["flat"] < 0, "middle", "top"))

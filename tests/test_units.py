@@ -1,10 +1,10 @@
-"""Units at the edges (app.units)."""
+"""Units at the edges (lowgmap.app.files.units)."""
 import math
 
 import pytest
 from hypothesis import given, strategies as st
 
-from app.units import (STANDARD_PRESSURE, STANDARD_TEMPERATURE, UnitError, convert, format_quantity,
+from lowgmap.app.files.units import (STANDARD_PRESSURE, STANDARD_TEMPERATURE, UnitError, convert, format_quantity,
                        parse_flow, standard_to_actual_flow, to_si)
 
 

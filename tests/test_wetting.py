@@ -1,4 +1,4 @@
-"""Tests for physics.wetting: Concus–Finn corner condition and contact-angle validation."""
+"""Tests for lowgmap.physics.properties.wetting: Concus–Finn corner condition and contact-angle validation."""
 from __future__ import annotations
 
 import dataclasses
@@ -7,8 +7,8 @@ import math
 import numpy as np
 import pytest
 
-from physics.sections import Circle, Groove, Polygon, Rectangle, RegularPolygon
-from physics.wetting import Wetting, concus_finn_critical_contact_angle, concus_finn_wets
+from lowgmap.physics.geometry.sections import Circle, Groove, Polygon, Rectangle, RegularPolygon
+from lowgmap.physics.properties.wetting import Wetting, concus_finn_critical_contact_angle, concus_finn_wets
 
 R = math.radians
 # Concus & Finn, PNAS 63(2):292-299, 1969, doi:10.1073/pnas.63.2.292: a corner of half-angle alpha

@@ -1,4 +1,4 @@
-"""Tests of physics.wicking: corner wicking fronts (Weislogel & Lichter 1998 lubrication model)."""
+"""Tests of lowgmap.physics.models.wicking: corner wicking fronts (Weislogel & Lichter 1998 lubrication model)."""
 import math
 
 import numpy as np
@@ -6,8 +6,8 @@ import pytest
 from scipy.integrate import solve_ivp
 from scipy.sparse import diags
 
-from physics.corner import flow_resistance, meniscus_area_factor
-from physics.wicking import _similarity, time_to_wick, wicking_front, wicking_front_constant_inflow
+from lowgmap.physics.geometry.corner import flow_resistance, meniscus_area_factor
+from lowgmap.physics.models.wicking import _similarity, time_to_wick, wicking_front, wicking_front_constant_inflow
 
 A30 = math.radians(30.0)
 SIGMA, MU, R0 = 0.02, 1.0e-3, 1.0e-3

@@ -10,8 +10,9 @@ from pathlib import Path
 
 import panel as pn
 
-from .. import CAUTION, __version__
-from ..casefile import load_case, sample_case_path
+from lowgmap.app import CAUTION, __version__
+
+from lowgmap.app.files.casefile import load_case, sample_case_path
 
 __all__ = ["create_app", "serve"]
 
@@ -23,10 +24,10 @@ _CSS = """
 
 def create_app(case_path: str | Path | None = None):
     """Build one session's dashboard for the case at ``case_path`` (default: the bundled tube case)."""
-    from .chartpane import ChartPane
-    from .inputs import SetupPanel
-    from .panels import ExportPanel, MarginTable, PointPanel, TestPointsPanel
-    from .state import Session
+    from lowgmap.app.dashboard.chartpane import ChartPane
+    from lowgmap.app.dashboard.inputs import SetupPanel
+    from lowgmap.app.dashboard.panels import ExportPanel, MarginTable, PointPanel, TestPointsPanel
+    from lowgmap.app.dashboard.state import Session
 
     doc = load_case(case_path or sample_case_path())
     session = Session(doc)
@@ -49,7 +50,7 @@ def create_app(case_path: str | Path | None = None):
                            stylesheets=[_CSS], css_classes=["caution"])
     invented = (pn.pane.Markdown("*This sample case is an invented scenario for demonstration.*")
                 if doc.invented else pn.pane.Markdown(""))
-    from .design_tab import DesignTab
+    from lowgmap.app.dashboard.design_tab import DesignTab
 
     chart_tab = pn.Column(
         pn.Row(pn.Column(chart, warnings, sizing_mode="stretch_width", min_width=600),

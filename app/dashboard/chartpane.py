@@ -16,8 +16,8 @@ from bokeh.events import Pan, PanEnd, PanStart
 from bokeh.models import (ColumnDataSource, HoverTool, Legend, LegendItem, PointDrawTool, Range1d)
 from bokeh.plotting import figure
 
-from ..chartview import chart_view, line_label_positions
-from ..units import convert
+from lowgmap.app.outputs.chartview import chart_view, line_label_positions
+from lowgmap.app.files.units import convert
 
 __all__ = ["ChartPane", "BOKEH_HATCH"]
 
@@ -28,7 +28,7 @@ OBS_MARKERS = ("circle", "square", "triangle", "diamond", "inverted_triangle", "
 
 
 class ChartPane(pn.viewable.Viewer):
-    """Bokeh chart bound to a :class:`~app.dashboard.state.Session`."""
+    """Bokeh chart bound to a :class:`~lowgmap.app.dashboard.state.Session`."""
 
     log_axes = param.Boolean(default=True)
     readout = param.String(default="")

@@ -4,7 +4,7 @@
 units, defaults ±50 % around the case's values), a grid of at most 12 x 12 designs, a Run button,
 progress, and the margin map (matplotlib PNG, filled contours with the required-margin line and the
 current design marked) with the result table for download. The numbers come from
-:func:`physics.sweep.sweep`'s engine, as for ``lowgmap sweep``.
+:func:`lowgmap.physics.studies.sweep.sweep`'s engine, as for ``lowgmap sweep``.
 
 The sweep runs in worker threads, a few designs at a time (``asyncio.to_thread``), so the server
 keeps answering other sessions; the progress bar moves between chunks. Open-section inputs that
@@ -22,7 +22,7 @@ import numpy as np
 import panel as pn
 import param
 
-from ..units import UnitError, convert, to_si
+from lowgmap.app.files.units import UnitError, convert, to_si
 
 __all__ = ["DesignTab", "MAX_STEPS", "design_inputs"]
 
@@ -43,7 +43,7 @@ _CHUNK = 6          # designs per worker-thread call
 
 def design_inputs(case) -> dict[str, tuple[str, str, str, float]]:
     """Inputs a design map can vary for ``case``: name -> (label, kind, unit, current SI value)."""
-    from physics.design import nominal_design_value
+    from lowgmap.physics.studies.design import nominal_design_value
 
     out = {}
     for name, (label, kind, unit) in _INPUTS.items():
@@ -77,7 +77,7 @@ class DesignTab(pn.viewable.Viewer):
 
     Parameters
     ----------
-    session : app.dashboard.state.Session   its ``doc``, ``chart``, ``ql``/``qg`` and ``required_margin``
+    session : lowgmap.app.dashboard.state.Session   its ``doc``, ``chart``, ``ql``/``qg`` and ``required_margin``
     """
 
     running = param.Boolean(default=False, doc="a sweep is running")
@@ -144,7 +144,7 @@ class DesignTab(pn.viewable.Viewer):
 
     def designs(self) -> list[dict]:
         """The grid of designs (SI) from the form; ValueError/UnitError with a plain message."""
-        from physics.sweep import grid
+        from lowgmap.physics.studies.sweep import grid
 
         xv, yv = self.x_var.value, self.y_var.value
         if xv == yv:
@@ -176,9 +176,9 @@ class DesignTab(pn.viewable.Viewer):
     # ----------------------------------------------------------------------------------- running
     def run_sync(self):
         """Compute the map in this thread (tests, scripts); returns the result DataFrame."""
-        from physics.sweep import sweep
+        from lowgmap.physics.studies.sweep import sweep
 
-        from ..cli_design import fluid_spec
+        from lowgmap.app.cli.design import fluid_spec
 
         designs = self.designs()
         doc, kw = self._spec_args()
@@ -187,9 +187,9 @@ class DesignTab(pn.viewable.Viewer):
         return df
 
     async def _on_run(self, event=None):
-        from physics.sweep import SweepSpec, DesignEvaluator, _tidy
+        from lowgmap.physics.studies.sweep import SweepSpec, DesignEvaluator, _tidy
 
-        from ..cli_design import fluid_spec
+        from lowgmap.app.cli.design import fluid_spec
 
         if self.running:
             return
@@ -227,9 +227,9 @@ class DesignTab(pn.viewable.Viewer):
             self.progress.visible = False
 
     def _show(self, df, kw):
-        from physics.design import nominal_design_value
+        from lowgmap.physics.studies.design import nominal_design_value
 
-        from ..cli_design import margin_map_png
+        from lowgmap.app.cli.design import margin_map_png
 
         self.result = df
         xv, yv = self.x_var.value, self.y_var.value

@@ -13,8 +13,8 @@ import panel as pn
 import param
 import tomlkit
 
-from physics.boundary import BOUNDARY_MODELS, usable_models
-from physics.chart import AXIS_KINDS
+from lowgmap.physics.models.boundary import BOUNDARY_MODELS, usable_models
+from lowgmap.physics.chart.composition import AXIS_KINDS
 
 __all__ = ["SetupPanel", "SECTION_FIELDS"]
 

@@ -8,8 +8,8 @@ import numpy as np
 import panel as pn
 import param
 
-from .. import CAUTION
-from ..units import UnitError, convert
+from lowgmap.app import CAUTION
+from lowgmap.app.files.units import UnitError, convert
 
 __all__ = ["PointPanel", "MarginTable", "TestPointsPanel", "ExportPanel", "margin_table_html"]
 
@@ -227,7 +227,7 @@ class TestPointsPanel(pn.viewable.Viewer):
         self.load(mapping=None)
 
     def load(self, mapping=None, regime_map=None):
-        from ..testpoints import TestPointError, read_test_points
+        from lowgmap.app.files.testpoints import TestPointError, read_test_points
 
         f = self.session.doc.case.fluid
         self._show_preview()
@@ -301,9 +301,9 @@ class TestPointsPanel(pn.viewable.Viewer):
         self.load(mapping=mapping)
 
     def _redraw(self):
-        from physics.agreement import agreement
+        from lowgmap.physics.studies.agreement import agreement
 
-        from ..chartview import regime_style
+        from lowgmap.app.outputs.chartview import regime_style
 
         tps = self.points
         if tps is None:
@@ -348,7 +348,7 @@ class TestPointsPanel(pn.viewable.Viewer):
         self.fit_choice.value = [v for v in self.fit_choice.value if v in opts]
 
     def _calibrate(self, event=None):
-        from physics.calibration import calibrate
+        from lowgmap.physics.studies.calibration import calibrate
 
         if self.points is None:
             self.fit_result.object = "<p>Load test points first.</p>"
@@ -380,8 +380,8 @@ class TestPointsPanel(pn.viewable.Viewer):
         self.apply_button.visible = True
 
     def _apply_fit(self, event=None):
-        from ..casefile import dumps_case
-        from ..cli_points import calibrated_document
+        from lowgmap.app.files.casefile import dumps_case
+        from lowgmap.app.cli.points import calibrated_document
 
         if self._calibration is None:
             return
@@ -429,7 +429,7 @@ class ExportPanel(pn.viewable.Viewer):
         self.case_upload.param.watch(self._open_case, "value")
 
     def _current_doc(self):
-        from ..casefile import loads_case
+        from lowgmap.app.files.casefile import loads_case
 
         return loads_case(self.session.case_text(), source=self.session.source_name,
                           base_dir=self.session.base_dir)
@@ -440,7 +440,7 @@ class ExportPanel(pn.viewable.Viewer):
         return self.tp.points.points
 
     def _chart(self, fmt: str):
-        from ..exports import chart_bytes
+        from lowgmap.app.outputs.exports import chart_bytes
 
         data = chart_bytes(self._current_doc(), fmt, test_points=self._test_point_marks(),
                            log_axes=self.session_log())
@@ -450,7 +450,7 @@ class ExportPanel(pn.viewable.Viewer):
         return None
 
     def _report(self):
-        from ..exports import report_html
+        from lowgmap.app.outputs.exports import report_html
 
         return io.BytesIO(report_html(self._current_doc(), test_points=self._test_point_marks()).encode("utf-8"))
 

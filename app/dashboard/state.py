@@ -3,7 +3,7 @@
 No bokeh or panel widgets here: this is a ``param.Parameterized`` model that views bind to. Each
 browser session gets its own :class:`Session` (built by the server's factory function), so two users
 never share state. Case inputs are kept as the text a person types (numbers with units) in a copy
-of the case-file document; every change re-validates the whole case with :mod:`app.casefile`, the
+of the case-file document; every change re-validates the whole case with :mod:`lowgmap.app.files.casefile`, the
 same path the CLI uses. An invalid entry leaves the last good case and chart in place and files the
 problem under its input group.
 
@@ -19,10 +19,10 @@ from dataclasses import dataclass
 import param
 import tomlkit
 
-from physics.chart import Chart
+from lowgmap.physics.chart.composition import Chart
 
-from ..casefile import CaseDocument, CaseFileError, build_case, dumps_case, loads_case
-from ..units import UnitError, convert, parse_flow
+from lowgmap.app.files.casefile import CaseDocument, CaseFileError, build_case, dumps_case, loads_case
+from lowgmap.app.files.units import UnitError, convert, parse_flow
 
 __all__ = ["Session", "GROUPS", "group_of"]
 
@@ -195,7 +195,7 @@ class Session(param.Parameterized):
         return self.chart.regime_at(ql, qg) if self.chart is not None else ""
 
     def update_margins(self) -> None:
-        from physics.margins import point_margins
+        from lowgmap.physics.chart.margins import point_margins
 
         if self.chart is None or not self.chart.regime_names or self.ql is None:
             self.margins = None
@@ -204,7 +204,7 @@ class Session(param.Parameterized):
 
     def robust_point(self, regime: str):
         """Move the point to the most robust point of ``regime``; returns the RobustPoint."""
-        from physics.margins import robust_point
+        from lowgmap.physics.chart.margins import robust_point
 
         rp = robust_point(self.chart, regime)
         self.move_point(rp.ql, rp.qg)

@@ -1,6 +1,6 @@
 """Browser-test fixtures: a real dashboard server on a free local port, driven in Debian's Chromium.
 
-The server is started as a subprocess (`python -m app.cli serve CASE --port N`); readiness is the
+The server is started as a subprocess (`python -m lowgmap.app.cli serve CASE --port N`); readiness is the
 server accepting connections (polled against a deadline, not a fixed sleep).
 """
 from __future__ import annotations
@@ -46,7 +46,7 @@ def server():
     """URL of a dashboard serving the bundled tube sample case."""
     port = _free_port()
     env = dict(os.environ, PYTHONUNBUFFERED="1")
-    proc = subprocess.Popen([sys.executable, "-m", "app.cli", "serve",
+    proc = subprocess.Popen([sys.executable, "-m", "lowgmap", "serve",
                              str(ROOT / "sample_cases" / "condensate_line.toml"), "--port", str(port)],
                             cwd=ROOT, env=env, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True)
     try:

@@ -11,9 +11,9 @@ import math
 import pytest
 from playwright.sync_api import expect
 
-from app.casefile import load_case, sample_case_path
-from physics.chart import Chart
-from physics.margins import point_margins
+from lowgmap.app.files.casefile import load_case, sample_case_path
+from lowgmap.physics.chart.composition import Chart
+from lowgmap.physics.chart.margins import point_margins
 
 from .conftest import ARTIFACTS, ROOT, wait_ready
 
@@ -207,8 +207,8 @@ def test_two_sessions_do_not_share_state(browser, server):
 
 
 def test_calibration_from_uploaded_points_becomes_next_revision(page, chart):
-    from app.testpoints import read_test_points
-    from physics.calibration import calibrate
+    from lowgmap.app.files.testpoints import read_test_points
+    from lowgmap.physics.studies.calibration import calibrate
 
     page.locator(".points-upload input[type=file]").first.set_input_files(
         str(ROOT / "sample_cases" / "drop_tower_points.csv"))

@@ -12,9 +12,9 @@ import numpy as np
 
 sys.path.insert(0, os.path.abspath(os.path.join(os.path.dirname(__file__), "..", "..")))
 
-from physics.corner import flow_resistance, flow_resistance_direct, meniscus_area_factor  # noqa: E402
-from physics.stokes import Domain, Line, solve_poisson  # noqa: E402
-from physics.wicking import wicking_front  # noqa: E402
+from lowgmap.physics.geometry.corner import flow_resistance, flow_resistance_direct, meniscus_area_factor  # noqa: E402
+from lowgmap.physics.geometry.stokes import Domain, Line, solve_poisson  # noqa: E402
+from lowgmap.physics.models.wicking import wicking_front  # noqa: E402
 
 
 def median_time(fun, repeat, number=1):

@@ -32,7 +32,7 @@ def main(n_drags: int = 15) -> None:
     from playwright.sync_api import sync_playwright
 
     port = _free_port()
-    proc = subprocess.Popen([sys.executable, "-m", "app.cli", "serve", str(ROOT / "sample_cases" /
+    proc = subprocess.Popen([sys.executable, "-m", "lowgmap", "serve", str(ROOT / "sample_cases" /
                                                                            "condensate_line.toml"),
                              "--port", str(port)], cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     try:

@@ -31,10 +31,10 @@ if str(ROOT) not in sys.path:
 
 import numpy as np  # noqa: E402
 
-from app.casefile import SAMPLE_DIR, load_case  # noqa: E402
-from physics.chart import Chart  # noqa: E402
-from physics.margins import envelope_check, point_margins, robust_point, symmetric_margins  # noqa: E402
-from physics.uncertainty import monte_carlo  # noqa: E402
+from lowgmap.app.files.casefile import SAMPLE_DIR, load_case  # noqa: E402
+from lowgmap.physics.chart.composition import Chart  # noqa: E402
+from lowgmap.physics.chart.margins import envelope_check, point_margins, robust_point, symmetric_margins  # noqa: E402
+from lowgmap.physics.studies.uncertainty import monte_carlo  # noqa: E402
 
 
 def median_time(fn, repeat: int, number: int = 1) -> float:

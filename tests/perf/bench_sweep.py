@@ -34,8 +34,8 @@ if str(ROOT) not in sys.path:
 
 import numpy as np  # noqa: E402
 
-from app.casefile import load_case, sample_case_path  # noqa: E402
-from physics.sweep import grid, sweep  # noqa: E402
+from lowgmap.app.files.casefile import load_case, sample_case_path  # noqa: E402
+from lowgmap.physics.studies.sweep import grid, sweep  # noqa: E402
 
 
 def rate(fn, n_designs: int, repeat: int) -> tuple[float, list[float], float]:

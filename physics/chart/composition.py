@@ -1,0 +1,1293 @@
+"""Chart composition: from a case to boundary curves, regime regions and point classification.
+
+:meth:`Chart.build` is the one path from a :class:`~lowgmap.physics.case.Case` to a regime chart; the
+dashboard, the command line and the report exporter all use it. Expensive work (sampling the
+boundary curves, intersections, region polygons) happens in ``build``; :meth:`Chart.classify`
+is cheap and vectorised, for moving operating points.
+
+Which boundaries define the regions (the "sequence rule")
+---------------------------------------------------------
+Each boundary model separates ``regime_below`` (less gas) from ``regime_above`` (more gas).
+The chosen models are read in order and chained by their regime names:
+
+1. the first usable model starts the sequence [regime_below, regime_above];
+2. a later model joins when its ``regime_below`` is the last regime of the sequence (it is
+   appended) or its ``regime_above`` is the first (it is prepended), and its other regime is not
+   in the sequence yet; this is repeated until no model joins;
+3. every other model is a *comparison* line: drawn, intersected, flagged for validity, but it
+   neither bounds a region nor changes a classification. A model with the same pair of regimes
+   as one already in the sequence (a second model for the same transition) is therefore always
+   a comparison line: the first one listed wins.
+
+A point is classified by walking the sequence in order of increasing gas fraction: its regime is
+``regime_below`` of the first region-defining line it lies below (g < 0), or ``regime_above`` of
+the last line if it lies above all of them. A point exactly on a line counts as above it. Where two
+region-defining lines cross, this keeps the lower-gas-fraction regime past the crossing; the chart
+warns when that happens inside the chart range. The region polygons follow the same rule.
+
+Default models: for a closed section, the void-fraction bubble–slug and slug–annular lines
+(Dukler et al. 1988) define the regions; the Suratman bubble–slug line and the two Weber-number
+zone lines are comparison lines (:data:`DEFAULT_MODELS`). For an open section (groove, wedge
+channel, polygon with an open side) the corner capillary-separation family of
+:mod:`lowgmap.physics.models.corner` is the default.
+
+Regime schemes: the sequence rule is one scheme among others
+-------------------------------------------------------------
+How region-defining lines make regimes is a :class:`RegimeScheme`. The sequence rule above is
+:data:`CHAIN`, used whenever no chosen model belongs to another scheme. A model family whose
+regimes form a two-dimensional partition (e.g. bubbles isolated or merging x separated or carried
+through, plus blow-through and gas ingestion) supplies a :class:`PartitionScheme`: its member
+models (set as the ``scheme`` attribute of each model) and a *rule*, a vectorised function from the
+values of the members' implicit functions (negative below a line, positive on or above it, NaN
+where undefined) to a regime name. With such a scheme:
+
+1. the chosen models that belong to it define the regions (in the scheme's member order); every
+   other chosen model is a comparison line;
+2. :meth:`Chart.classify` evaluates the members' implicit functions and applies the rule;
+3. each line is sampled adaptively in log-log axes, from the model's own parametric pieces
+   (``line_pieces(case, **constants)`` returning :class:`LinePiece` objects) when it has them, else
+   from ``qg_of_ql``; lines are clipped to the chart range (crossings of the range edges and of
+   other lines located by root finding on the exact line);
+4. the region polygons are the faces of the chart box cut by all region-defining lines
+   (``shapely.ops.polygonize`` of their union with the box, in log-log space), each named by
+   classifying a point inside it, and faces of the same regime merged;
+5. a region-defining line is drawn only where it separates two different regimes (elsewhere it
+   lies inside one regime and bounds nothing).
+
+Regimes carry flags (:class:`RegimeInfo`, e.g. ``separates_gas``) shown by :attr:`Chart.separates_gas`.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Callable, Mapping, Sequence
+
+import numpy as np
+from scipy.optimize import brentq
+
+from lowgmap.physics.models import tube as tube_models
+from lowgmap.physics.models.boundary import BoundaryModel, resolve_model
+from lowgmap.physics.case import ModelChoice
+from lowgmap.physics.properties.groups import conduit_diameter, positive_flows
+
+__all__ = ["BoundaryCurve", "Intersection", "Region", "Axes", "Chart", "AXIS_KINDS", "DEFAULT_MODELS",
+           "default_models", "RegimeInfo", "RegimeScheme", "ChainScheme", "PartitionScheme", "CHAIN",
+           "LinePiece"]
+
+#: Default model names by section family ("closed" tubes and ducts, "open" channels). For closed
+#: sections the first models that chain by regime names define the regions and the rest are
+#: comparison lines; the open-section models form a partition scheme (:mod:`lowgmap.physics.models.corner`).
+DEFAULT_MODELS: dict[str, tuple[str, ...]] = {
+    "closed": tube_models.TUBE_MODEL_NAMES,
+    "open": ("corner_confinement", "corner_separation", "corner_merging", "corner_blow_through",
+             "open_channel_ingestion"),
+}
+
+#: Axis kinds accepted by :meth:`Chart.axes`.
+AXIS_KINDS = ("flow", "superficial_velocity", "reynolds", "weber", "flow_ratio")
+
+_N_START = 25          # initial samples per curve (uniform in log Q_L)
+_TOL = 1e-3            # allowed chord deviation, as a fraction of the chart's log Q_G span
+_MAX_POINTS = 4000     # cap on samples per curve
+_DEPTH = 14            # refinement passes
+_SCHEME_TOL = 2e-4     # chord deviation allowed on partition charts, fraction of the chart box (log-log)
+_SCHEME_N0 = 33        # initial samples of a line piece
+_SCHEME_DEPTH = 22     # refinement passes of a line piece
+_SCHEME_MAX = 6000     # cap on samples per piece
+_OFFSET = 1e-6         # side-probe distance for "does this line separate two regimes" (box units)
+
+
+def _ro(a) -> np.ndarray:
+    a = np.array(a, dtype=float)
+    a.flags.writeable = False
+    return a
+
+
+@dataclass(frozen=True, eq=False)
+class BoundaryCurve:
+    """One boundary line as drawn on the chart.
+
+    ``ql``, ``qg`` [m^3/s] are the samples inside the chart range (dense where the line bends, with
+    its crossings of the range edges and its intersections with other lines included); NaN rows
+    separate pieces when the line leaves and re-enters the range. ``valid_mask`` is False where
+    the case or the point lies outside the source's validity range (and at separators).
+    ``role`` is "regions" (defines regions and classification) or "comparison".
+    """
+
+    name: str
+    label: str
+    citation: str
+    ql: np.ndarray
+    qg: np.ndarray
+    valid_mask: np.ndarray
+    regime_below: str
+    regime_above: str
+    constants: tuple[tuple[str, float], ...]
+    role: str = "regions"
+
+
+@dataclass(frozen=True)
+class Intersection:
+    """A point where two boundary lines cross inside the chart range [m^3/s]."""
+
+    first: str
+    second: str
+    ql: float
+    qg: float
+
+
+@dataclass(frozen=True, eq=False)
+class Region:
+    """A regime region: a closed polygon in the flow plane [m^3/s] (first vertex not repeated).
+
+    The edges are straight in log-log axes. A regime cut into pieces by crossing lines appears
+    as several regions with the same name.
+    """
+
+    name: str
+    polygon_ql: np.ndarray
+    polygon_qg: np.ndarray
+
+
+@dataclass(frozen=True)
+class Axes:
+    """Chart axes of one kind: ``to_xy(ql, qg) -> (x, y)``, its inverse ``to_flow(x, y)``, labels.
+
+    Labels carry SI units in brackets; ``x_unit``/``y_unit`` give the unit alone ("-" if none).
+    """
+
+    kind: str
+    x_label: str
+    y_label: str
+    x_unit: str
+    y_unit: str
+    to_xy: Callable
+    to_flow: Callable
+
+    def __call__(self, ql, qg):
+        return self.to_xy(ql, qg)
+
+
+@dataclass(frozen=True)
+class RegimeInfo:
+    """A regime of a scheme: its name, whether it separates all the gas, and a sentence."""
+
+    name: str
+    separates_gas: bool = False
+    description: str = ""
+
+
+@dataclass(frozen=True)
+class LinePiece:
+    """One continuous piece of a boundary line, given parametrically.
+
+    ``func(t)`` maps an array of parameter values in [t0, t1] to ``(ql, qg)`` arrays [m^3/s] (NaN
+    where the piece has no point). The chart samples t adaptively (refining until chords in log-log
+    axes are straight to a small fraction of the chart) and includes ``breakpoints`` (kinks) exactly.
+    Lines of constant flow ratio are typically parametrised by t = log10 Q_L, lines Q_L = F(Q_G/Q_L)
+    by t = log10(Q_G/Q_L).
+    """
+
+    t0: float
+    t1: float
+    func: Callable
+    breakpoints: tuple = ()
+
+
+class RegimeScheme:
+    """How the region-defining lines of a chart make regimes (base class).
+
+    Sub-classes decide which of the chosen models define regions, the regime names, and the
+    vectorised classification. :class:`ChainScheme` (the sequence rule) and
+    :class:`PartitionScheme` (a rule on the signs of several lines) are provided.
+    """
+
+    name: str = ""
+    kind: str = ""
+
+    def region_indices(self, models: Sequence[BoundaryModel]) -> list[int]:
+        """Indices of the region-defining models among ``models``, in the scheme's order."""
+        raise NotImplementedError
+
+    def regime_names(self, region_models) -> tuple[str, ...]:
+        """Regime names the region-defining (model, constants) pairs can produce, in display order."""
+        raise NotImplementedError
+
+    def classify(self, case, region_models, regime_names, ql, qg) -> np.ndarray:
+        """Regime names at flow rates already checked by :func:`lowgmap.physics.properties.groups.positive_flows`."""
+        raise NotImplementedError
+
+    def info(self, name: str) -> RegimeInfo:
+        """Flags of a regime (default: none)."""
+        return RegimeInfo(name)
+
+    def notes(self, case, region_models) -> list[str]:
+        """Sentences the chart puts at the top of its warnings (default: none)."""
+        return []
+
+    def bounding_indices(self, region_models, regime_names, regime: str) -> tuple[int, ...]:
+        """Indices into ``region_models`` of the lines whose crossing can change the regime ``regime``."""
+        raise NotImplementedError
+
+
+class ChainScheme(RegimeScheme):
+    """The sequence rule: lines chained by regime names in order of increasing gas fraction.
+
+    See the module notes. A point's regime is ``regime_below`` of the first chained line it lies
+    below, or ``regime_above`` of the last line; only lines 0..i can change the regime i.
+    """
+
+    name = "sequence rule"
+    kind = "chain"
+
+    def region_indices(self, models):
+        return _sequence(list(models))
+
+    def regime_names(self, region_models):
+        if not region_models:
+            return ()
+        return tuple([region_models[0][0].regime_below] + [m.regime_above for m, _ in region_models])
+
+    def classify(self, case, region_models, regime_names, ql, qg):
+        n = len(region_models)
+        idx = np.full(ql.shape, n, dtype=np.intp)
+        decided = np.zeros(ql.shape, dtype=bool)
+        for k, (model, consts) in enumerate(region_models):
+            with np.errstate(invalid="ignore"):
+                g = np.asarray(model.implicit(case, ql, qg, **dict(consts)), dtype=float)
+            below = (g < 0) & ~decided
+            idx[below] = k
+            decided |= below
+        names = np.array(list(regime_names) + [""]) if n else np.array([""])
+        idx[~(np.isfinite(ql) & np.isfinite(qg))] = len(names) - 1
+        return names[idx]
+
+    def bounding_indices(self, region_models, regime_names, regime):
+        names = list(regime_names)
+        if regime not in names:
+            return ()
+        return tuple(range(min(names.index(regime) + 1, len(region_models))))
+
+
+#: The sequence rule, used by charts whose models belong to no other scheme.
+CHAIN = ChainScheme()
+
+
+class PartitionScheme(RegimeScheme):
+    r"""Regimes from the signs of several region-defining lines (a two-dimensional partition).
+
+    Parameters
+    ----------
+    name : str                    plain name of the scheme (shown in reports)
+    members : sequence of str     registry names of the models that define regions, in order
+    regimes : sequence of RegimeInfo   every regime the rule can return, in display order
+    rule : callable               ``rule(values) -> array of regime names``, vectorised, where
+        ``values`` maps the name of each *chosen* member to its implicit-function values (negative
+        below the line, positive above, NaN where undefined) at the points; members that were not
+        chosen are absent, and the rule must cope (typically by treating the mechanism as absent)
+    notes : callable, optional    ``notes(case, region_models) -> list of str`` (gravity checks,
+        physical caveats) put at the top of the chart's warnings
+    description : str             a sentence for reports
+
+    Notes
+    -----
+    A point exactly on a line counts as above it (value 0), as with the sequence rule. The scheme
+    also warns when a constant of the same name has different values in two of its lines (each line
+    then uses its own value).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rule = lambda v: np.where(v["a"] >= 0, "right", "left")
+    >>> sch = PartitionScheme("demo", ("a",), (RegimeInfo("left"), RegimeInfo("right", True)), rule)
+    >>> sch.info("right").separates_gas
+    True
+    """
+
+    kind = "partition"
+
+    def __init__(self, name: str, members: Sequence[str], regimes: Sequence[RegimeInfo], rule: Callable,
+                 notes: Callable | None = None, description: str = ""):
+        self.name = str(name)
+        self.members = tuple(members)
+        self.regimes = tuple(regimes)
+        self.rule = rule
+        self._notes = notes
+        self.description = description
+        names = [r.name for r in self.regimes]
+        if len(set(names)) != len(names):
+            raise ValueError(f"scheme {name}: regime names repeat: {names}")
+        if len(set(self.members)) != len(self.members):
+            raise ValueError(f"scheme {name}: member names repeat: {self.members}")
+
+    def __repr__(self) -> str:
+        return f"<PartitionScheme {self.name!r}>"
+
+    def region_indices(self, models):
+        pos = {m: i for i, m in enumerate(self.members)}
+        idx = [i for i, m in enumerate(models) if getattr(m, "scheme", None) is self and m.name in pos]
+        return sorted(idx, key=lambda i: pos[models[i].name])
+
+    def regime_names(self, region_models):
+        if not region_models:
+            return ()
+        names = [m.name for m, _ in region_models]
+        n = len(names)
+        combos = ((np.arange(2 ** n)[:, None] >> np.arange(n)[None, :]) & 1) * 2.0 - 1.0
+        got = set(np.asarray(self.rule({nm: combos[:, k] for k, nm in enumerate(names)})).tolist())
+        return tuple(r.name for r in self.regimes if r.name in got)
+
+    def classify(self, case, region_models, regime_names, ql, qg):
+        if not region_models:
+            return np.full(ql.shape, "", dtype="<U1")
+        values = {}
+        for model, consts in region_models:
+            with np.errstate(all="ignore"):
+                values[model.name] = np.broadcast_to(
+                    np.asarray(model.implicit(case, ql, qg, **dict(consts)), dtype=float), ql.shape)
+        names = np.broadcast_to(np.asarray(self.rule(values)), ql.shape)
+        bad = ~(np.isfinite(ql) & np.isfinite(qg))
+        return np.where(bad, "", names)
+
+    def info(self, name):
+        for r in self.regimes:
+            if r.name == name:
+                return r
+        return RegimeInfo(name)
+
+    def notes(self, case, region_models):
+        out = list(self._notes(case, region_models)) if self._notes is not None else []
+        seen: dict[str, tuple[float, str]] = {}
+        for m, consts in region_models:
+            for k, v in consts:
+                if k in seen and not math.isclose(seen[k][0], v, rel_tol=1e-12, abs_tol=0.0):
+                    out.append(f"Constant {k} is {seen[k][0]:g} in {seen[k][1]} but {v:g} in {m.label}: "
+                               f"each line uses its own value.")
+                seen.setdefault(k, (v, m.label))
+        return out
+
+    def bounding_indices(self, region_models, regime_names, regime):
+        return tuple(range(len(region_models))) if regime in regime_names else ()
+
+
+def default_models(case) -> tuple[str, ...]:
+    """Default model names for the case's section family (open or closed)."""
+    family = "open" if getattr(case.section, "is_open", False) else "closed"
+    return DEFAULT_MODELS[family]
+
+
+# --------------------------------------------------------------------------------------------
+# helpers
+
+def _resolve(case, models):
+    """List of (model, params, explicit) from the ``models`` argument of :meth:`Chart.build`."""
+    explicit = True
+    if models is None:
+        models = case.models
+        if not models:
+            models = default_models(case)
+            explicit = False
+    if isinstance(models, (str, ModelChoice, BoundaryModel)):
+        models = (models,)
+    out = []
+    for item in models:
+        params: Mapping = {}
+        if isinstance(item, tuple) and len(item) == 2 and not isinstance(item, ModelChoice):
+            item, params = item
+        if isinstance(item, ModelChoice):
+            model, params = resolve_model(item.name, case), item.param_dict
+        elif isinstance(item, str):
+            model = resolve_model(item, case)
+        elif isinstance(item, BoundaryModel):
+            model = item
+        else:
+            raise TypeError(f"a chart model must be a registry name, a ModelChoice or a BoundaryModel, "
+                            f"got {type(item).__name__}")
+        out.append((model, dict(params), explicit))
+    names = [m.name for m, _, _ in out]
+    dup = sorted({n for n in names if names.count(n) > 1})
+    if dup:
+        raise ValueError(f"boundary model listed more than once: {', '.join(dup)}")
+    return out
+
+
+def _sequence(models: Sequence[BoundaryModel]) -> list[int]:
+    """Indices of the region-defining models in order of increasing gas fraction (sequence rule)."""
+    if not models:
+        return []
+    chain = [0]
+    regimes = [models[0].regime_below, models[0].regime_above]
+    pairs = {(models[0].regime_below, models[0].regime_above)}
+    changed = True
+    while changed:
+        changed = False
+        for i, m in enumerate(models):
+            if i in chain or (m.regime_below, m.regime_above) in pairs:
+                continue
+            if m.regime_below == regimes[-1] and m.regime_above not in regimes:
+                chain.append(i)
+                regimes.append(m.regime_above)
+            elif m.regime_above == regimes[0] and m.regime_below not in regimes:
+                chain.insert(0, i)
+                regimes.insert(0, m.regime_below)
+            else:
+                continue
+            pairs.add((m.regime_below, m.regime_above))
+            changed = True
+    return chain
+
+
+def _log_curve(model, case, consts):
+    """x = log10 Q_L  ->  y = log10 Q_G on the line (NaN where none)."""
+    def f(x):
+        q = np.asarray(model.qg_of_ql(case, 10.0 ** np.asarray(x, dtype=float), **consts), dtype=float)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(q > 0, np.log10(np.where(q > 0, q, 1.0)), np.nan)
+    return f
+
+
+def _sample(f, x0, x1, tol, extra):
+    x = np.linspace(x0, x1, _N_START)
+    extra = np.asarray(extra, dtype=float)
+    extra = extra[(extra > x0) & (extra < x1)]
+    if extra.size:
+        x = np.unique(np.concatenate([x, extra]))
+    y = f(x)
+    min_dx = 1e-7 * (x1 - x0)
+    for _ in range(_DEPTH):
+        xm = 0.5 * (x[:-1] + x[1:])
+        ym = f(xm)
+        with np.errstate(invalid="ignore"):
+            err = np.abs(ym - 0.5 * (y[:-1] + y[1:]))
+        need = (err > tol) | (np.isnan(y[:-1]) != np.isnan(y[1:]))
+        need &= (x[1:] - x[:-1]) > min_dx
+        if not need.any() or x.size > _MAX_POINTS:
+            break
+        x = np.concatenate([x, xm[need]])
+        y = np.concatenate([y, ym[need]])
+        order = np.argsort(x, kind="stable")
+        x, y = x[order], y[order]
+    return x, y
+
+
+def _roots(h, x, d):
+    """Roots of the scalar function h between consecutive samples x where the values d change sign."""
+    out = []
+    ok = np.isfinite(d)
+    for i in range(len(x) - 1):
+        if not (ok[i] and ok[i + 1]):
+            continue
+        if d[i] == 0.0:
+            out.append(x[i])
+        elif d[i] * d[i + 1] < 0:
+            out.append(brentq(h, x[i], x[i + 1], xtol=1e-13, rtol=1e-13))
+    if ok[-1] and d[-1] == 0.0:
+        out.append(x[-1])
+    return out
+
+
+def _clip(x, y, ylo, yhi):
+    """Keep the samples inside [ylo, yhi] (log10); NaN rows between pieces. Returns (ql, qg) [m^3/s]."""
+    span = 1e-9 * (yhi - ylo)
+    inside = np.isfinite(y) & (y >= ylo - span) & (y <= yhi + span)
+    y = np.clip(y, ylo, yhi)
+    qx, qy = [], []
+    for i in range(len(x)):
+        if inside[i]:
+            qx.append(x[i])
+            qy.append(y[i])
+        elif qx and not math.isnan(qx[-1]):
+            qx.append(math.nan)
+            qy.append(math.nan)
+    while qx and math.isnan(qx[-1]):
+        qx.pop()
+        qy.pop()
+    return 10.0 ** np.array(qx, dtype=float), 10.0 ** np.array(qy, dtype=float)
+
+
+def _scalar(f):
+    return lambda t: float(f(np.array([t]))[0])
+
+
+# --------------------------------------------------------------------------------------------
+
+@dataclass(frozen=True, eq=False)
+class Chart:
+    """A regime chart for one case (immutable; build it with :meth:`Chart.build`).
+
+    Attributes
+    ----------
+    case : Case
+    boundaries : tuple of BoundaryCurve   every chosen line (region-defining first, in sequence order;
+        with a partition scheme a region-defining line is drawn only where it separates two regimes)
+    intersections : tuple of Intersection   crossings of any two lines inside the chart range
+    regions : tuple of Region   regime regions clipped to the chart range
+    warnings : tuple of str     things the engineer must know (gravity, duct approximation, validity…)
+    regime_names : tuple of str   regimes of the region-defining sequence, by increasing gas fraction
+    region_models : tuple of (BoundaryModel, constants)   the region-defining lines, in sequence
+        (chain scheme) or in the scheme's member order (partition scheme)
+    comparison_models : tuple of (BoundaryModel, constants)
+    scheme : RegimeScheme   how the region-defining lines make regimes (:data:`CHAIN` unless the
+        chosen models belong to a :class:`PartitionScheme`)
+    """
+
+    case: object
+    boundaries: tuple
+    intersections: tuple
+    regions: tuple
+    warnings: tuple
+    regime_names: tuple
+    region_models: tuple
+    comparison_models: tuple
+    scheme: RegimeScheme = None
+
+    def __post_init__(self):
+        if self.scheme is None:
+            object.__setattr__(self, "scheme", CHAIN)
+
+    # ----------------------------------------------------------------------------------------
+    @classmethod
+    def build(cls, case, models=None) -> "Chart":
+        """Compose the chart of ``case``.
+
+        Parameters
+        ----------
+        case : Case
+        models : sequence, optional
+            Registry names, :class:`~lowgmap.physics.case.ModelChoice` objects (name + constant
+            overrides), :class:`~lowgmap.physics.models.boundary.BoundaryModel` objects or (model, params)
+            pairs. Default: ``case.models``, or when that is empty the defaults for the section
+            (:func:`default_models`). Names are looked up first among the case's own empirical
+            boundaries (:func:`lowgmap.physics.models.boundary.case_boundaries`), then in the registry. When a
+            chosen model belongs to a :class:`PartitionScheme` (its ``scheme`` attribute), that
+            scheme makes the regimes (see the module notes); otherwise the sequence rule does.
+
+        Returns
+        -------
+        Chart
+
+        Raises
+        ------
+        ValueError
+            Unknown model or constant, constant out of range, model listed twice, or a model the
+            caller chose explicitly that does not apply to the case (e.g. a closed-tube model
+            for an open section). Default models that do not apply are left out with a warning
+            (one warning for all models left out for the same reason), and so are models chosen
+            explicitly whose mechanism is physically absent for the case (their optional
+            ``inactive_reason(case)`` returns the reason, e.g. a corner that does not wet).
+
+        Examples
+        --------
+        >>> from lowgmap.physics.case import Case, FlowRange
+        >>> from lowgmap.physics.properties.fluids import FluidPair
+        >>> from lowgmap.physics.geometry.sections import Circle
+        >>> from lowgmap.physics.properties.wetting import Wetting
+        >>> air_water = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5,
+        ...                       "user", "user")
+        >>> case = Case(air_water, Circle(0.0127), Wetting(0.0), 1.0, 1e-4 * 9.80665,
+        ...             FlowRange(1e-7, 1e-3, 1e-7, 1e-2))
+        >>> chart = Chart.build(case)
+        >>> chart.regime_names
+        ('dispersed bubbles', 'elongated bubbles / slugs', 'annular (gas core)')
+        >>> str(chart.classify(1e-4, 1e-5))
+        'dispersed bubbles'
+        """
+        fr = case.flow_range
+        x0, x1 = math.log10(fr.ql_min), math.log10(fr.ql_max)
+        ylo, yhi = math.log10(fr.qg_min), math.log10(fr.qg_max)
+        warnings: list[str] = []
+
+        chosen = []
+        left_out: dict[str, list[str]] = {}
+        for model, params, explicit in _resolve(case, models):
+            reason = model.applies_to(case)
+            if reason is not None:
+                inactive = getattr(model, "inactive_reason", None)
+                if explicit and not (callable(inactive) and inactive(case)):
+                    raise ValueError(f"boundary model {model.name} does not apply to this case: {reason}")
+                left_out.setdefault(reason, []).append(model.label)
+                continue
+            chosen.append((model, model.resolve_constants(params)))
+        for reason, labels in left_out.items():
+            warnings.append(f"Left out {'; '.join(labels)}: {reason}")
+        scheme = next((getattr(m, "scheme") for m, _ in chosen
+                       if isinstance(getattr(m, "scheme", None), RegimeScheme)
+                       and getattr(m, "scheme") is not CHAIN), None)
+        if scheme is not None:
+            return cls._build_scheme(case, chosen, scheme, warnings)
+        if not chosen:
+            why = ""
+            if getattr(case.section, "is_open", False) and (
+                    not left_out or any("open section" in r for r in left_out)):
+                why = (f" Open section ({getattr(case.section, 'kind', 'open')}): the closed-tube criteria do "
+                       f"not apply.")
+            warnings.append("No boundary model applies to this case: the chart shows no regimes." + why)
+
+        seq = _sequence([m for m, _ in chosen])
+        ordered = [chosen[i] for i in seq] + [c for i, c in enumerate(chosen) if i not in seq]
+        n_reg = len(seq)
+        roles = ["regions"] * n_reg + ["comparison"] * (len(ordered) - n_reg)
+        regime_names: tuple[str, ...] = ()
+        if n_reg:
+            regime_names = tuple([ordered[0][0].regime_below] + [m.regime_above for m, _ in ordered[:n_reg]])
+
+        # sample every line over the liquid range ----------------------------------------
+        tol = _TOL * (yhi - ylo)
+        fns, samples = [], []
+        for model, consts in ordered:
+            f = _log_curve(model, case, consts)
+            bp = np.asarray(model.breakpoints(case, **consts), dtype=float)
+            bp = np.log10(bp[bp > 0]) if bp.size else bp
+            fns.append(f)
+            samples.append(_sample(f, x0, x1, tol, bp))
+
+        # intersections of every pair ------------------------------------------------------
+        intersections = []
+        crossing_x: list[list[float]] = [[] for _ in ordered]
+        for i in range(len(ordered)):
+            for j in range(i + 1, len(ordered)):
+                xu = np.union1d(samples[i][0], samples[j][0])
+                d = fns[i](xu) - fns[j](xu)
+                fin = d[np.isfinite(d)]
+                if fin.size and np.all(np.abs(fin) < 1e-12):
+                    warnings.append(f"{ordered[i][0].label} and {ordered[j][0].label} coincide on this chart.")
+                    continue
+                fi, fj = fns[i], fns[j]
+                h = _scalar(lambda t, fi=fi, fj=fj: fi(t) - fj(t))
+                for xr in _roots(h, xu, d):
+                    crossing_x[i].append(xr)
+                    crossing_x[j].append(xr)
+                    yr = float(fi(np.array([xr]))[0])
+                    if ylo - 1e-12 <= yr <= yhi + 1e-12:
+                        intersections.append(Intersection(ordered[i][0].name, ordered[j][0].name,
+                                                          10.0 ** xr, 10.0 ** yr))
+                        if i < n_reg and j < n_reg:
+                            warnings.append(
+                                f"Region-defining lines {ordered[i][0].label} and {ordered[j][0].label} cross at "
+                                f"Q_L = {10.0 ** xr:.3g} m^3/s, Q_G = {10.0 ** yr:.3g} m^3/s; past the crossing "
+                                f"the regime of lower gas fraction is kept (sequence rule).")
+
+        # crossings of the range's top and bottom edges -------------------------------------
+        edge_x: list[list[float]] = []
+        for f, (xs, ys) in zip(fns, samples):
+            ex = []
+            for level in (ylo, yhi):
+                ex += _roots(_scalar(lambda t, f=f, level=level: f(t) - level), xs, ys - level)
+            edge_x.append(ex)
+
+        # boundary curves clipped to the chart range ----------------------------------------
+        curves = []
+        for k, ((model, consts), f, (xs, _)) in enumerate(zip(ordered, fns, samples)):
+            x = np.unique(np.concatenate([xs, np.asarray(edge_x[k] + crossing_x[k], dtype=float)]))
+            x = x[(x >= x0) & (x <= x1)]
+            ql, qg = _clip(x, f(x), ylo, yhi)
+            valid = np.asarray(model.validity_mask(case, ql, qg), dtype=bool) & np.isfinite(ql)
+            curves.append(BoundaryCurve(
+                model.name, model.label, model.citation, _ro(ql), _ro(qg), _readonly_bool(valid),
+                model.regime_below, model.regime_above, tuple(sorted(consts.items())), roles[k]))
+
+        # regions -----------------------------------------------------------------------------
+        regions = _regions(case, ordered[:n_reg], fns[:n_reg], samples[:n_reg], crossing_x[:n_reg],
+                           edge_x[:n_reg], regime_names, (x0, x1, ylo, yhi))
+
+        # warnings ----------------------------------------------------------------------------
+        if any(m.low_gravity for m, _ in ordered):
+            check = tube_models.gravity_check(case)
+            if not check.negligible:
+                warnings.insert(0, check.message)
+            note = tube_models.duct_note(case.section)
+            if note:
+                warnings.append(note)
+        outside: dict[str, list[str]] = {}
+        for (model, _), curve in zip(ordered, curves):
+            problems = model.validity_problems(case)
+            if problems:
+                outside.setdefault("; ".join(problems), []).append(model.label)
+                continue
+            drawn = np.isfinite(curve.ql)
+            if drawn.any() and not curve.valid_mask[drawn].all():
+                frac = 1.0 - curve.valid_mask[drawn].mean()
+                ranges = ", ".join(v.describe() for v in model.validity) or "the range of its data"
+                warnings.append(f"{model.label}: {frac:.0%} of the drawn line lies outside the source's "
+                                f"validity range ({ranges}); that part is flagged.")
+        for problems, labels in outside.items():
+            warnings.append(f"The case lies outside the validity range of the sources ({problems}); these "
+                            f"lines are flagged: {'; '.join(labels)}.")
+
+        return cls(case, tuple(curves), tuple(intersections), tuple(regions), tuple(warnings), regime_names,
+                   tuple((m, tuple(sorted(c.items()))) for m, c in ordered[:n_reg]),
+                   tuple((m, tuple(sorted(c.items()))) for m, c in ordered[n_reg:]))
+
+    @classmethod
+    def _build_scheme(cls, case, chosen, scheme: RegimeScheme, warnings: list) -> "Chart":
+        """Chart of models that belong to a :class:`PartitionScheme` (see the module notes)."""
+        fr = case.flow_range
+        box = (math.log10(fr.ql_min), math.log10(fr.ql_max), math.log10(fr.qg_min), math.log10(fr.qg_max))
+        idx = scheme.region_indices([m for m, _ in chosen])
+        ordered = [chosen[i] for i in idx] + [c for i, c in enumerate(chosen) if i not in idx]
+        n_reg = len(idx)
+        region_models = tuple((m, tuple(sorted(c.items()))) for m, c in ordered[:n_reg])
+        comparison_models = tuple((m, tuple(sorted(c.items()))) for m, c in ordered[n_reg:])
+        regime_names = scheme.regime_names(region_models)
+
+        def classify_uv(u, v):
+            ql, qg = _uv_to_flow(np.asarray(u, dtype=float), np.asarray(v, dtype=float), box)
+            ql, qg = positive_flows(ql, qg)
+            return scheme.classify(case, region_models, regime_names, ql, qg)
+
+        # lines: sampled pieces, clipped to the chart range -------------------------------------
+        lines = []
+        for model, consts in ordered:
+            runs = []
+            for piece in _model_pieces(model, case, consts, box):
+                f = _piece_uv(piece, box)
+                t, u, v = _sample_piece(f, piece, _SCHEME_TOL)
+                runs += _clip_runs(f, t, u, v)
+            lines.append(runs)
+
+        # intersections of every pair, refined on the exact lines ----------------------------------
+        intersections = []
+        for i in range(len(ordered)):
+            for j in range(i + 1, len(ordered)):
+                for p_u, p_v, overlap in _crossings(lines[i], lines[j]):
+                    if overlap:
+                        warnings.append(f"{ordered[i][0].label} and {ordered[j][0].label} coincide over part "
+                                        f"of this chart.")
+                        continue
+                    pt = _refine_crossing(lines[i], ordered[j], case, box, p_u, p_v)
+                    _refine_crossing(lines[j], None, case, box, *pt)
+                    ql, qg = _uv_to_flow(np.array([pt[0]]), np.array([pt[1]]), box)
+                    intersections.append(Intersection(ordered[i][0].name, ordered[j][0].name,
+                                                      float(ql[0]), float(qg[0])))
+
+        # regions: faces of the box cut by the region-defining lines --------------------------------
+        regions = _faces(lines[:n_reg], classify_uv, box) if n_reg else []
+
+        # curves: region-defining lines where they separate two regimes; comparison lines whole -------
+        curves = []
+        for k, ((model, consts), runs) in enumerate(zip(ordered, lines)):
+            if k < n_reg:
+                runs = _active_runs(runs, classify_uv)
+            ql, qg = _runs_to_flow(runs, box)
+            if getattr(model, "validity_uses_constants", False):
+                valid = np.asarray(model.validity_mask(case, ql, qg, **consts), dtype=bool)
+            else:
+                valid = np.asarray(model.validity_mask(case, ql, qg), dtype=bool)
+            valid &= np.isfinite(ql)
+            curves.append(BoundaryCurve(
+                model.name, model.label, model.citation, _ro(ql), _ro(qg), _readonly_bool(valid),
+                model.regime_below, model.regime_above, tuple(sorted(consts.items())),
+                "regions" if k < n_reg else "comparison"))
+
+        # warnings ---------------------------------------------------------------------------------
+        notes = list(scheme.notes(case, region_models))
+        for (model, _), curve in zip(ordered, curves):
+            problems = model.validity_problems(case)
+            if problems:
+                warnings.append(f"The case lies outside the validity range of the sources of {model.label} "
+                                f"({'; '.join(problems)}); the line is flagged.")
+                continue
+            drawn = np.isfinite(curve.ql)
+            if drawn.any() and not curve.valid_mask[drawn].all():
+                frac = 1.0 - curve.valid_mask[drawn].mean()
+                ranges = getattr(model, "validity_note", "") or \
+                    ", ".join(v.describe() for v in model.validity) or "the range of its data"
+                warnings.append(f"{model.label}: {frac:.0%} of the drawn line lies outside the validity "
+                                f"range of its sub-models ({ranges}); that part is flagged.")
+        return cls(case, tuple(curves), tuple(intersections), tuple(regions), tuple(notes + warnings),
+                   regime_names, region_models, comparison_models, scheme)
+
+    # ----------------------------------------------------------------------------------------
+    def classify(self, ql, qg) -> np.ndarray:
+        """Regime name at each point (Q_L, Q_G) [m^3/s], vectorised (by the chart's :attr:`scheme`).
+
+        Returns an array of str with the broadcast shape of the inputs (0-d for scalars). Points
+        whose flow rates are not finite and > 0, and every point of a chart without regimes, give
+        "" (empty string). Points outside the chart range are classified too (the lines extend).
+        """
+        ql, qg = positive_flows(ql, qg)
+        return self.scheme.classify(self.case, self.region_models, self.regime_names, ql, qg)
+
+    def regime_at(self, ql: float, qg: float) -> str:
+        """Regime name at one point (convenience wrapper of :meth:`classify`)."""
+        return str(self.classify(float(ql), float(qg)))
+
+    @property
+    def separates_gas(self) -> dict[str, bool]:
+        """For each regime of the chart, whether it separates all the gas (from the scheme's flags)."""
+        return {name: bool(self.scheme.info(name).separates_gas) for name in self.regime_names}
+
+    def regime_info(self, name: str) -> RegimeInfo:
+        """Flags and description of the regime ``name`` (:class:`RegimeInfo`)."""
+        return self.scheme.info(name)
+
+    def bounding_models(self, regime: str) -> tuple[int, ...]:
+        """Indices into :attr:`region_models` of the lines whose crossing can change a point of ``regime``.
+
+        Sequence rule: lines 0..i for the regime i of the sequence. Partition scheme: every
+        region-defining line. Empty for a regime the chart does not have.
+        """
+        return self.scheme.bounding_indices(self.region_models, self.regime_names, regime)
+
+    # ----------------------------------------------------------------------------------------
+    def axes(self, kind: str) -> Axes:
+        """Axis converters for ``kind`` in :data:`AXIS_KINDS`.
+
+        "flow": (Q_L, Q_G) [m^3/s]; "superficial_velocity": (U_SL, U_SG) [m/s];
+        "reynolds": (Re_SL, Re_SG); "weber": (We_SL, We_SG); "flow_ratio": (Q_L [m^3/s], Q_G/Q_L).
+        Groups use the hydraulic diameter and the flow area of the section.
+        """
+        f = self.case.fluid
+        area = float(self.case.section.area)
+        d = conduit_diameter(self.case)
+        arr = lambda v: np.asarray(v, dtype=float)  # noqa: E731
+        if kind == "flow":
+            return Axes(kind, "liquid flow rate Q_L [m^3/s]", "gas flow rate Q_G [m^3/s]", "m^3/s", "m^3/s",
+                        lambda ql, qg: (arr(ql), arr(qg)), lambda x, y: (arr(x), arr(y)))
+        if kind == "superficial_velocity":
+            return Axes(kind, "superficial liquid velocity U_SL [m/s]", "superficial gas velocity U_SG [m/s]",
+                        "m/s", "m/s", lambda ql, qg: (arr(ql) / area, arr(qg) / area),
+                        lambda x, y: (arr(x) * area, arr(y) * area))
+        if kind == "reynolds":
+            cl = f.rho_l * d / (f.mu_l * area)
+            cg = f.rho_g * d / (f.mu_g * area)
+            return Axes(kind, "superficial liquid Reynolds number Re_SL [-]",
+                        "superficial gas Reynolds number Re_SG [-]", "-", "-",
+                        lambda ql, qg: (arr(ql) * cl, arr(qg) * cg), lambda x, y: (arr(x) / cl, arr(y) / cg))
+        if kind == "weber":
+            cl = f.rho_l * d / (f.sigma * area ** 2)
+            cg = f.rho_g * d / (f.sigma * area ** 2)
+            return Axes(kind, "superficial liquid Weber number We_SL [-]",
+                        "superficial gas Weber number We_SG [-]", "-", "-",
+                        lambda ql, qg: (arr(ql) ** 2 * cl, arr(qg) ** 2 * cg),
+                        lambda x, y: (np.sqrt(arr(x) / cl), np.sqrt(arr(y) / cg)))
+        if kind == "flow_ratio":
+            return Axes(kind, "liquid flow rate Q_L [m^3/s]", "gas-to-liquid flow ratio Q_G/Q_L [-]", "m^3/s", "-",
+                        lambda ql, qg: (arr(ql), arr(qg) / arr(ql)), lambda x, y: (arr(x), arr(y) * arr(x)))
+        raise ValueError(f"axes kind must be one of {', '.join(AXIS_KINDS)}, got {kind!r}")
+
+
+def _readonly_bool(a) -> np.ndarray:
+    a = np.array(a, dtype=bool)
+    a.flags.writeable = False
+    return a
+
+
+def _regions(case, chain, fns, samples, crossing_x, edge_x, regime_names, box):
+    """Region polygons by the sequence rule, computed column-wise in log-log space."""
+    x0, x1, ylo, yhi = box
+    if not chain:
+        return []
+    grid = [np.array([x0, x1])] + [s[0] for s in samples]
+    grid += [np.asarray(c, dtype=float) for c in crossing_x] + [np.asarray(e, dtype=float) for e in edge_x]
+    X = np.unique(np.concatenate(grid))
+    X = X[(X >= x0) & (X <= x1)]
+    ymid = 10.0 ** (0.5 * (ylo + yhi))
+    rows = []
+    for (model, consts), f in zip(chain, fns):
+        y = f(X)
+        nan = ~np.isfinite(y)
+        if nan.any():
+            # no line at these Q_L: the whole column is on one side; NaN g counts as "above the line"
+            g = np.asarray(model.implicit(case, 10.0 ** X[nan], ymid, **consts), dtype=float)
+            y[nan] = np.where(g < 0, np.inf, -np.inf)
+        rows.append(np.clip(y, ylo, yhi))
+    Y = np.array(rows)
+    eps = 1e-9 * (yhi - ylo)
+    out = []
+    n = len(chain)
+    for k in range(n + 1):
+        lower = np.full(X.shape, ylo) if k == 0 else np.maximum(Y[:k].max(axis=0), ylo)
+        upper = np.full(X.shape, yhi) if k == n else Y[k]
+        w = upper - lower
+        pos = w > eps
+        i = 0
+        while i < len(X):
+            if not pos[i]:
+                i += 1
+                continue
+            j = i
+            while j + 1 < len(X) and pos[j + 1]:
+                j += 1
+            top_x, top_y, bot_x, bot_y = [], [], [], []
+            if i > 0:  # closing point where the region pinches off on the left
+                t = w[i - 1] / (w[i - 1] - w[i])
+                xs = X[i - 1] + t * (X[i] - X[i - 1])
+                top_x.append(xs)
+                top_y.append(upper[i - 1] + t * (upper[i] - upper[i - 1]))
+            top_x += list(X[i:j + 1])
+            top_y += list(upper[i:j + 1])
+            if j + 1 < len(X):  # pinch on the right
+                t = w[j] / (w[j] - w[j + 1])
+                top_x.append(X[j] + t * (X[j + 1] - X[j]))
+                top_y.append(upper[j] + t * (upper[j + 1] - upper[j]))
+            bot_x = list(X[i:j + 1][::-1])
+            bot_y = list(lower[i:j + 1][::-1])
+            px = np.array(top_x + bot_x)
+            py = np.array(top_y + bot_y)
+            keep = np.ones(px.size, dtype=bool)
+            keep[1:] = (np.abs(np.diff(px)) > 1e-15) | (np.abs(np.diff(py)) > 1e-15)
+            px, py = px[keep], py[keep]
+            if px.size >= 3:
+                out.append(Region(regime_names[k], _ro(10.0 ** px), _ro(10.0 ** py)))
+            i = j + 1
+    return out
+
+
+# --------------------------------------------------------------------------------------------
+# partition-scheme helpers: lines in box units u = (log10 Q_L - x0)/(x1 - x0), v likewise
+
+def _uv_to_flow(u, v, box):
+    x0, x1, ylo, yhi = box
+    return 10.0 ** (x0 + u * (x1 - x0)), 10.0 ** (ylo + v * (yhi - ylo))
+
+
+def _model_pieces(model, case, consts, box):
+    """The model's own parametric pieces, or one piece t = log10 Q_L from ``qg_of_ql``."""
+    own = getattr(model, "line_pieces", None)
+    if callable(own):
+        return list(own(case, **consts))
+    x0, x1, _, _ = box
+    bp = np.asarray(model.breakpoints(case, **consts), dtype=float)
+    bp = tuple(np.log10(bp[bp > 0])) if bp.size else ()
+
+    def func(t):
+        ql = 10.0 ** np.asarray(t, dtype=float)
+        return ql, np.asarray(model.qg_of_ql(case, ql, **consts), dtype=float)
+    return [LinePiece(x0, x1, func, bp)]
+
+
+def _piece_uv(piece, box):
+    x0, x1, ylo, yhi = box
+
+    def f(t):
+        t = np.atleast_1d(np.asarray(t, dtype=float))
+        with np.errstate(all="ignore"):
+            ql, qg = piece.func(t)
+            ql = np.broadcast_to(np.asarray(ql, dtype=float), t.shape)
+            qg = np.broadcast_to(np.asarray(qg, dtype=float), t.shape)
+            ok = np.isfinite(ql) & np.isfinite(qg) & (ql > 0) & (qg > 0)
+            u = np.where(ok, (np.log10(np.where(ok, ql, 1.0)) - x0) / (x1 - x0), np.nan)
+            v = np.where(ok, (np.log10(np.where(ok, qg, 1.0)) - ylo) / (yhi - ylo), np.nan)
+        return u, v
+    return f
+
+
+def _far(u, v):
+    """Points well outside the box, by side (for skipping refinement of segments outside it)."""
+    with np.errstate(invalid="ignore"):
+        return np.stack([u < -0.05, u > 1.05, v < -0.05, v > 1.05])
+
+
+def _sample_piece(f, piece, tol):
+    """Adaptive samples (t, u, v) of a piece: chords straight to ``tol`` box units inside the box."""
+    t0, t1 = float(piece.t0), float(piece.t1)
+    if not t1 > t0:
+        return np.empty(0), np.empty(0), np.empty(0)
+    t = np.linspace(t0, t1, _SCHEME_N0)
+    bp = np.asarray(piece.breakpoints, dtype=float)
+    bp = bp[(bp > t0) & (bp < t1)]
+    if bp.size:
+        t = np.unique(np.concatenate([t, bp]))
+    u, v = f(t)
+    min_dt = 1e-10 * (t1 - t0)
+    for _ in range(_SCHEME_DEPTH):
+        tm = 0.5 * (t[:-1] + t[1:])
+        um, vm = f(tm)
+        fa, fb, fm = np.isfinite(u[:-1]), np.isfinite(u[1:]), np.isfinite(um)
+        with np.errstate(invalid="ignore"):
+            dev = np.hypot(um - 0.5 * (u[:-1] + u[1:]), vm - 0.5 * (v[:-1] + v[1:]))
+            need = np.where(fa & fb & fm, dev > tol, (fa != fb) | (fa & fb & ~fm))
+        fa_, fb_, fm_ = _far(u[:-1], v[:-1]), _far(u[1:], v[1:]), _far(um, vm)
+        outside = np.any(fa_ & fb_ & fm_, axis=0)
+        need &= ~outside & ((t[1:] - t[:-1]) > min_dt)
+        if not need.any() or t.size > _SCHEME_MAX:
+            break
+        t = np.concatenate([t, tm[need]])
+        u = np.concatenate([u, um[need]])
+        v = np.concatenate([v, vm[need]])
+        order = np.argsort(t, kind="stable")
+        t, u, v = t[order], u[order], v[order]
+    return t, u, v
+
+
+def _outside(u, v):
+    return np.maximum(np.maximum(-u, u - 1.0), np.maximum(-v, v - 1.0))
+
+
+def _snap(u, v):
+    """Put a point found on the box edge exactly on it."""
+    u, v = min(max(u, 0.0), 1.0), min(max(v, 0.0), 1.0)
+    d = [u, 1.0 - u, v, 1.0 - v]
+    k = int(np.argmin(d))
+    if d[k] < 1e-9:
+        if k == 0:
+            u = 0.0
+        elif k == 1:
+            u = 1.0
+        elif k == 2:
+            v = 0.0
+        else:
+            v = 1.0
+    return u, v
+
+
+def _clip_runs(f, t, u, v):
+    """Runs (t, u, v) of the samples inside the box; crossings of the box edges found on the line."""
+    runs = []
+    if t.size < 2:
+        return runs
+    fin = np.isfinite(u) & np.isfinite(v)
+    with np.errstate(invalid="ignore"):
+        inside = fin & (_outside(u, v) <= 1e-12)
+
+    def edge(a, b):
+        h = lambda tt: float(_outside(*[w[0] for w in f(np.array([tt]))]))  # noqa: E731
+        ha, hb = h(a), h(b)
+        if not (math.isfinite(ha) and math.isfinite(hb)) or ha * hb > 0:
+            tt = b if abs(hb) < abs(ha) else a
+        else:
+            tt = brentq(h, a, b, xtol=1e-14 * max(1.0, abs(a)), rtol=1e-13)
+        uu, vv = f(np.array([tt]))
+        su, sv = _snap(float(uu[0]), float(vv[0]))
+        return tt, su, sv
+
+    cur: list = []
+    n = t.size
+    for i in range(n):
+        if inside[i]:
+            if not cur and i > 0 and fin[i - 1]:
+                cur.append(edge(t[i - 1], t[i]))
+            cur.append((t[i], u[i], v[i]))
+            if i + 1 < n and not inside[i + 1]:
+                if fin[i + 1]:
+                    cur.append(edge(t[i], t[i + 1]))
+                runs.append(cur)
+                cur = []
+        # two samples outside in a row: a chord cutting a corner of the box is ignored (within tolerance)
+    if cur:
+        runs.append(cur)
+    out = []
+    for r in runs:
+        arr = np.array(r, dtype=float)
+        keep = np.ones(len(arr), dtype=bool)
+        keep[1:] = np.diff(arr[:, 0]) > 0
+        arr = arr[keep]
+        if len(arr) >= 2:
+            out.append({"t": arr[:, 0], "u": arr[:, 1], "v": arr[:, 2], "f": f})
+    return out
+
+
+def _extended(r):
+    """(u, v) of a run with its free ends (not on the box edge) extended by a hair, so that a line
+    ending on another line crosses it."""
+    u, v = r["u"].copy(), r["v"].copy()
+    for end, nxt in ((0, 1), (-1, -2)):
+        if min(u[end], 1.0 - u[end], v[end], 1.0 - v[end]) > 1e-9:
+            du, dv = u[end] - u[nxt], v[end] - v[nxt]
+            nrm = math.hypot(du, dv)
+            if nrm > 0:
+                u[end] += 1e-7 * du / nrm
+                v[end] += 1e-7 * dv / nrm
+    return u, v
+
+
+def _crossings(runs_a, runs_b):
+    """Approximate crossing points (u, v, overlap) of two lines from their sampled runs."""
+    from shapely.geometry import LineString
+
+    out = []
+    for ra in runs_a:
+        la = LineString(np.column_stack(_extended(ra)))
+        for rb in runs_b:
+            lb = LineString(np.column_stack(_extended(rb)))
+            if not la.intersects(lb):
+                continue
+            hit = la.intersection(lb)
+            for g in getattr(hit, "geoms", [hit]):
+                if g.is_empty:
+                    continue
+                if g.geom_type == "Point":
+                    out.append((g.x, g.y, False))
+                elif g.length > 1e-6:
+                    out.append((g.centroid.x, g.centroid.y, True))
+                else:
+                    out.append((g.centroid.x, g.centroid.y, False))
+    uniq = []
+    for p in out:                              # one crossing found twice (at a shared vertex): keep one
+        if all(math.hypot(p[0] - q[0], p[1] - q[1]) > 1e-9 for q in uniq):
+            uniq.append(p)
+    return uniq
+
+
+def _refine_crossing(runs, other, case, box, pu, pv):
+    """Put the crossing with ``other`` (model, consts) exactly on the line of ``runs``; insert it there.
+
+    Returns the refined (u, v); the approximate point when the other line's implicit function does
+    not change sign across the segment (or is undefined there). With ``other`` None the point
+    (already on both lines) is only inserted, its parameter interpolated along the segment.
+    """
+    best = None
+    for r in runs:
+        u, v = r["u"], r["v"]
+        du, dv = np.diff(u), np.diff(v)
+        L2 = du * du + dv * dv
+        with np.errstate(invalid="ignore", divide="ignore"):
+            w = np.clip(((pu - u[:-1]) * du + (pv - v[:-1]) * dv) / np.where(L2 > 0, L2, 1.0), 0.0, 1.0)
+        d2 = (u[:-1] + w * du - pu) ** 2 + (v[:-1] + w * dv - pv) ** 2
+        k = int(np.argmin(d2))
+        if best is None or d2[k] < best[0]:
+            best = (float(d2[k]), r, k, float(w[k]))
+    if best is None:
+        return pu, pv
+    _, r, k, w = best
+    f, t = r["f"], r["t"]
+    span = 1e-12 * max(1.0, abs(float(t[-1]) - float(t[0])))
+    if other is None:
+        tt = float(t[k] + w * (t[k + 1] - t[k]))
+        if t[k] + span < tt < t[k + 1] - span:
+            r["t"] = np.insert(t, k + 1, tt)
+            r["u"] = np.insert(r["u"], k + 1, pu)
+            r["v"] = np.insert(r["v"], k + 1, pv)
+        return pu, pv
+    model, consts = other
+
+    def g(tt):
+        uu, vv = f(np.array([tt]))
+        ql, qg = _uv_to_flow(uu, vv, box)
+        with np.errstate(all="ignore"):
+            return float(np.asarray(model.implicit(case, ql, qg, **consts), dtype=float).ravel()[0])
+    ta, tb = float(t[k]), float(t[k + 1])
+    ga, gb = g(ta), g(tb)
+    if math.isfinite(ga) and math.isfinite(gb) and ga * gb < 0:
+        tt = brentq(g, ta, tb, xtol=1e-14 * max(1.0, abs(ta)), rtol=1e-13)
+        uu, vv = f(np.array([tt]))
+        nu, nv = float(uu[0]), float(vv[0])
+        if not (math.isfinite(nu) and math.isfinite(nv)) or _outside(nu, nv) > 1e-9:
+            nu, nv, tt = pu, pv, ta + w * (tb - ta)
+    else:
+        nu, nv, tt = pu, pv, ta + w * (tb - ta)
+    if ta + span < tt < tb - span:
+        pos = k + 1
+        r["t"] = np.insert(t, pos, tt)
+        r["u"] = np.insert(r["u"], pos, nu)
+        r["v"] = np.insert(r["v"], pos, nv)
+    return nu, nv
+
+
+def _split_holes(poly):
+    """Split a polygon with holes into polygons without holes (vertical cuts through the holes)."""
+    from shapely.geometry import LineString
+    from shapely.ops import split
+
+    if not poly.interiors:
+        return [poly]
+    hole = poly.interiors[0]
+    x = hole.centroid.x
+    y0, y1 = poly.bounds[1] - 1.0, poly.bounds[3] + 1.0
+    parts = split(poly, LineString([(x, y0), (x, y1)]))
+    out = []
+    for p in parts.geoms:
+        if p.geom_type == "Polygon" and p.area > 0:
+            out += _split_holes(p)
+    return out
+
+
+def _faces(lines, classify_uv, box):
+    """Regions: faces of the box cut by the region-defining lines, named by classification, merged."""
+    from shapely.geometry import LineString, Polygon as SPolygon
+    from shapely.ops import polygonize, unary_union
+
+    geoms = [LineString([(0.0, 0.0), (1.0, 0.0), (1.0, 1.0), (0.0, 1.0), (0.0, 0.0)])]
+    for runs in lines:
+        for r in runs:
+            geoms.append(LineString(np.column_stack(_extended(r))))   # free ends extended: they node
+    faces = [p for p in polygonize(unary_union(geoms)) if p.area > 1e-14]
+    if not faces:
+        return []
+    pts = [p.representative_point() for p in faces]
+    names = classify_uv(np.array([p.x for p in pts]), np.array([p.y for p in pts]))
+    out = []
+    for name in dict.fromkeys(names.tolist()):
+        merged = unary_union([f for f, n in zip(faces, names) if n == name])
+        polys = list(getattr(merged, "geoms", [merged]))
+        for p in polys:
+            if not isinstance(p, SPolygon) or p.area <= 1e-14:
+                continue
+            for q in _split_holes(p):
+                xy = np.asarray(q.exterior.coords)[:-1]
+                if len(xy) >= 3:
+                    ql, qg = _uv_to_flow(xy[:, 0], xy[:, 1], box)
+                    out.append(Region(name, _ro(ql), _ro(qg)))
+    return out
+
+
+def _active_runs(runs, classify_uv):
+    """Parts of the runs that separate two different regimes (side probes at each segment's middle)."""
+    out = []
+    probes = []
+    for r in runs:
+        t, u, v, f = r["t"], r["u"], r["v"], r["f"]
+        tm = 0.5 * (t[:-1] + t[1:])
+        um, vm = f(tm)
+        bad = ~(np.isfinite(um) & np.isfinite(vm))
+        um = np.where(bad, 0.5 * (u[:-1] + u[1:]), um)
+        vm = np.where(bad, 0.5 * (v[:-1] + v[1:]), vm)
+        du, dv = np.diff(u), np.diff(v)
+        nrm = np.hypot(du, dv)
+        nrm = np.where(nrm > 0, nrm, 1.0)
+        nu, nv = -dv / nrm, du / nrm
+        probes.append((um + _OFFSET * nu, vm + _OFFSET * nv, um - _OFFSET * nu, vm - _OFFSET * nv))
+    if not probes:
+        return out
+    a = classify_uv(np.concatenate([p[0] for p in probes]), np.concatenate([p[1] for p in probes]))
+    b = classify_uv(np.concatenate([p[2] for p in probes]), np.concatenate([p[3] for p in probes]))
+    active_all = np.asarray(a) != np.asarray(b)
+    pos = 0
+    for r in runs:
+        n = len(r["t"]) - 1
+        act = active_all[pos:pos + n]
+        pos += n
+        i = 0
+        while i < n:
+            if not act[i]:
+                i += 1
+                continue
+            j = i
+            while j + 1 < n and act[j + 1]:
+                j += 1
+            out.append({"t": r["t"][i:j + 2], "u": r["u"][i:j + 2], "v": r["v"][i:j + 2], "f": r["f"]})
+            i = j + 1
+    return out
+
+
+def _runs_to_flow(runs, box):
+    """Runs joined with NaN rows between them, as (Q_L, Q_G) [m^3/s]."""
+    us, vs = [], []
+    for r in runs:
+        if us:
+            us.append([math.nan])
+            vs.append([math.nan])
+        us.append(r["u"])
+        vs.append(r["v"])
+    if not us:
+        return np.empty(0), np.empty(0)
+    u, v = np.concatenate(us), np.concatenate(vs)
+    ql, qg = _uv_to_flow(u, v, box)
+    return ql, qg
+
+
+def build_chart(case, models=None) -> Chart:
+    """Compose the regime chart of ``case`` (the same as :meth:`Chart.build`).
+
+    Parameters
+    ----------
+    case : Case
+    models : sequence, optional   boundary models (see :meth:`Chart.build`); default: the case's or the
+                                  section's default set
+
+    Returns
+    -------
+    Chart
+    """
+    return Chart.build(case, models)

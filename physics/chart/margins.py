@@ -1,0 +1,1478 @@
+r"""Margins of an operating point to the boundaries of a chart, operating envelopes, robust point.
+
+Everything here works on a :class:`~lowgmap.physics.chart.composition.Chart` through its public interface: the
+region-defining lines ``chart.region_models``, the comparison lines ``chart.comparison_models``,
+``chart.classify``, ``chart.case.flow_range`` and, when the chart has them, ``chart.scheme`` and
+``chart.bounding_models``. A line is a :class:`~lowgmap.physics.models.boundary.BoundaryModel` used through its
+``implicit`` function and either its own parametric ``line_pieces`` or ``qg_of_ql``; so every model
+family (closed tubes, corners, open channels, measured lines) and every regime scheme works.
+
+Quantities (all flows volumetric at local conditions [m^3/s])
+-------------------------------------------------------------
+*Axis factors.* Along the liquid axis (Q_G held) and the gas axis (Q_L held), the crossing of a
+line is reported as the factor :math:`f = Q_\mathrm{cross}/Q`: 1.8 means the flow can rise by 80 %
+before it reaches the line, 0.4 that it can fall by 60 %. Only crossings inside the search window
+(the chart range, widened to contain the point) count; otherwise the factor is None.
+
+*Log distance.* The shortest Euclidean distance from the point to the line in the plane
+(log10 Q_L, log10 Q_G), inside the same window, with the nearest point and the unit vector toward it.
+
+*Symmetric margin.* The largest m in [0, 1) such that every point of the box
+
+.. math:: [(1-m) Q_L, (1+m) Q_L] \times [(1-m) Q_G, (1+m) Q_G]
+
+lies in the regime of the point. The box is connected, so it keeps one regime exactly until it
+touches a *regime boundary*: a piece of a region-defining line with different regimes on its two
+sides. For one piece the box of half-size m first touches it at
+
+.. math:: m_k = \min_{(Q_L', Q_G') \in \text{piece}}
+          \max\left(\left|\frac{Q_L'}{Q_L} - 1\right|, \left|\frac{Q_G'}{Q_G} - 1\right|\right)
+
+(a distance in the maximum norm of relative flow changes), and m is the smallest m_k over the
+pieces that bound the point's regime. Under the sequence rule these are the whole lines 0..i
+(``chart.bounding_models``); under other schemes the pieces are found by classifying both sides
+of every sampled chord (lines are first split where they cross each other). The box is not
+limited to the chart range: the lines extend as far as the models give them, as in
+:meth:`Chart.classify`. A margin of :data:`MAX_MARGIN` means that no boundary comes closer (the
+box would reach a flow 1000 times smaller); then no boundary is named.
+
+Which lines are reported: comparison lines whole; region-defining lines where they are drawn as
+boundaries: whole under the sequence rule, only where they separate two regimes under other
+schemes (as :meth:`Chart.build` draws them).
+
+Method
+------
+Each line is sampled once per chart (cached while the chart lives; the point can move freely) as
+a polyline in (log10 Q_L, log10 Q_G), refined until every chord lies within 1e-7 decade of the
+line: from the model's ``line_pieces`` when it has them (evaluated for the chart range widened by
+the margin windows), else from ``qg_of_ql``. Where ``qg_of_ql`` has no value the whole column lies
+on one side of the line (decided by the sign of ``implicit``, as the chart does); a change of side
+between columns is a vertical piece, located by bisection to 1e-11 decade. Axis crossings found on
+the chords are polished on the model's ``implicit`` function (Illinois variant of regula falsi).
+On each straight chord the box margin has a closed-form minimiser (:func:`box_margin_on_segments`),
+so the symmetric margin is exact for the sampled polyline: its error is that of the sampling,
+below 5e-7 in m.
+"""
+from __future__ import annotations
+
+import math
+import threading
+import weakref
+from dataclasses import dataclass
+from typing import Mapping
+
+import numpy as np
+
+from lowgmap.physics.validate import positive
+
+__all__ = ["MAX_MARGIN", "DIRECTIONS", "BoundaryMargin", "PointMargins", "point_margins", "symmetric_margins",
+           "CornerCheck", "EnvelopeLine", "EnvelopeCheck", "envelope_check", "RobustPoint", "robust_point",
+           "regime_index", "box_margin_on_segments"]
+
+#: Largest symmetric margin reported; a point with this margin has no boundary within ±99.9 %.
+MAX_MARGIN = 0.999
+
+#: The four axis directions of :attr:`PointMargins.limits`.
+DIRECTIONS = ("ql_up", "ql_down", "qg_up", "qg_down")
+
+_LN10 = math.log(10.0)
+_WIN_LO = math.log10(1.0 - MAX_MARGIN)       # margin window below the point [decade]
+_WIN_HI = math.log10(1.0 + MAX_MARGIN)       # and above it
+_N_START = 65                                 # initial samples of a line
+_TOL = 1e-7                                   # chord tolerance [decade]
+_WALL_DX = 1e-11                              # width at which a vertical piece is located [decade]
+_MIN_DX = 1e-9                                # narrowest cell refined for curvature [decade]
+_DEPTH = 60                                   # refinement passes
+_MAX_SAMPLES = 20000                          # cap on samples per line piece
+_FAR = 8.0                                    # decades beyond the coverage where open columns are closed
+_PROBE = 1e-6                                 # side-probe distance from a chord [decade]
+_CHUNK = 2_000_000                            # points x segments per block in vectorised margins
+
+
+# =============================================================================================
+# Sampling one line in log-log axes
+
+def _line_function(case, model, consts: Mapping[str, float], y_ref: float):
+    """x = log10 Q_L (array) -> log10 Q_G on the line (``qg_of_ql``), +-inf for columns without a line."""
+    q_ref = 10.0 ** y_ref
+
+    def f(x):
+        x = np.asarray(x, dtype=float)
+        ql = 10.0 ** x
+        with np.errstate(all="ignore"):
+            q = np.broadcast_to(np.asarray(model.qg_of_ql(case, ql, **consts), dtype=float), x.shape)
+            ok = np.isfinite(q) & (q > 0)
+            y = np.where(ok, np.log10(np.where(ok, q, 1.0)), np.nan)
+        bad = ~ok
+        if bad.any():
+            with np.errstate(all="ignore"):
+                g = np.asarray(model.implicit(case, ql[bad], np.full(int(bad.sum()), q_ref), **consts), dtype=float)
+            y[bad] = np.where(g < 0, np.inf, -np.inf)
+        return y
+
+    return f
+
+
+def _cls(y):
+    """0 for a finite value, +1 for +inf, -1 for -inf."""
+    return np.where(np.isfinite(y), 0, np.sign(y)).astype(np.int8)
+
+
+def _column_trace(f, x_lo: float, x_hi: float, breakpoints=(), tol: float = _TOL, wall_dx: float = _WALL_DX,
+                  n_start: int = _N_START):
+    """Samples (x, y) of y = f(x) on [x_lo, x_hi], y = +-inf in columns without a line.
+
+    Refined until chords are within ``tol``; a change of side between columns is located to
+    ``wall_dx`` and made vertical (two samples at the same x).
+    """
+    x = np.linspace(x_lo, x_hi, n_start)
+    bp = np.asarray(breakpoints, dtype=float)
+    bp = bp[np.isfinite(bp) & (bp > x_lo) & (bp < x_hi)]
+    if bp.size:
+        x = np.unique(np.concatenate([x, bp]))
+    y = f(x)
+    done = np.zeros(x.size, dtype=bool)          # done[i]: cell (i, i+1) needs no more work
+    done[-1] = True
+    for _ in range(_DEPTH):
+        dx = np.diff(x)
+        c = _cls(y)
+        finite_cell = (c[:-1] == 0) & (c[1:] == 0)
+        change = c[:-1] != c[1:]
+        work = ~done[:-1] & ((finite_cell & (dx > _MIN_DX)) | (change & (dx > wall_dx)))
+        done[:-1] |= ~work
+        if not work.any() or x.size > _MAX_SAMPLES:
+            break
+        idx = np.nonzero(work)[0]
+        xm = 0.5 * (x[idx] + x[idx + 1])
+        ym = f(xm)
+        with np.errstate(invalid="ignore"):
+            chord = np.abs(ym - 0.5 * (y[idx] + y[idx + 1]))
+        split = change[idx] | ~np.isfinite(ym) | (chord > tol)
+        done[idx[~split]] = True
+        s = idx[split]
+        if s.size == 0:
+            continue
+        done[s] = False
+        x = np.concatenate([x, xm[split]])
+        y = np.concatenate([y, ym[split]])
+        done = np.concatenate([done, np.zeros(s.size, dtype=bool)])
+        order = np.argsort(x, kind="stable")
+        x, y, done = x[order], y[order], done[order]
+    c = _cls(y)
+    change = np.nonzero(c[:-1] != c[1:])[0]
+    if change.size:
+        mid = 0.5 * (x[change] + x[change + 1])
+        x = x.copy()
+        x[change] = mid
+        x[change + 1] = mid
+    return x, y
+
+
+def _piece_function(piece):
+    """t -> (log10 Q_L, log10 Q_G) of a parametric line piece (NaN where it has no point)."""
+    def f(t):
+        t = np.atleast_1d(np.asarray(t, dtype=float))
+        with np.errstate(all="ignore"):
+            ql, qg = piece.func(t)
+            ql = np.broadcast_to(np.asarray(ql, dtype=float), t.shape)
+            qg = np.broadcast_to(np.asarray(qg, dtype=float), t.shape)
+            ok = np.isfinite(ql) & np.isfinite(qg) & (ql > 0) & (qg > 0)
+            x = np.where(ok, np.log10(np.where(ok, ql, 1.0)), np.nan)
+            y = np.where(ok, np.log10(np.where(ok, qg, 1.0)), np.nan)
+        return x, y
+    return f
+
+
+def _seg_distance(px, py, ax, ay, bx, by):
+    """Distance of points P to segments AB (arrays)."""
+    dx, dy = bx - ax, by - ay
+    L2 = dx * dx + dy * dy
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w = np.clip(np.where(L2 > 0, ((px - ax) * dx + (py - ay) * dy) / np.where(L2 > 0, L2, 1.0), 0.0), 0.0, 1.0)
+    return np.hypot(ax + w * dx - px, ay + w * dy - py)
+
+
+def _piece_runs(piece, cov, tol: float = _TOL, n_start: int = _N_START):
+    """Polylines (x, y) of a parametric piece, refined to ``tol``; NaN gaps split runs."""
+    t0, t1 = float(piece.t0), float(piece.t1)
+    if not (math.isfinite(t0) and math.isfinite(t1) and t1 > t0):
+        return []
+    f = _piece_function(piece)
+    t = np.linspace(t0, t1, n_start)
+    bp = np.asarray(getattr(piece, "breakpoints", ()) or (), dtype=float)
+    bp = bp[np.isfinite(bp) & (bp > t0) & (bp < t1)]
+    if bp.size:
+        t = np.unique(np.concatenate([t, bp]))
+    x, y = f(t)
+    min_dt = 1e-12 * (t1 - t0)
+    X0, X1, Y0, Y1 = cov
+    done = np.zeros(t.size, dtype=bool)
+    done[-1] = True
+    for _ in range(_DEPTH):
+        fin = np.isfinite(x) & np.isfinite(y)
+        both = fin[:-1] & fin[1:]
+        change = fin[:-1] != fin[1:]
+        with np.errstate(invalid="ignore"):
+            far = ((x[:-1] < X0 - 1) & (x[1:] < X0 - 1)) | ((x[:-1] > X1 + 1) & (x[1:] > X1 + 1)) | \
+                  ((y[:-1] < Y0 - 1) & (y[1:] < Y0 - 1)) | ((y[:-1] > Y1 + 1) & (y[1:] > Y1 + 1))
+        work = ~done[:-1] & (np.diff(t) > min_dt) & (change | (both & ~far))
+        done[:-1] |= ~work
+        if not work.any() or t.size > _MAX_SAMPLES:
+            break
+        idx = np.nonzero(work)[0]
+        tm = 0.5 * (t[idx] + t[idx + 1])
+        xm, ym = f(tm)
+        finm = np.isfinite(xm) & np.isfinite(ym)
+        with np.errstate(invalid="ignore"):
+            dev = _seg_distance(xm, ym, x[idx], y[idx], x[idx + 1], y[idx + 1])
+        split = change[idx] | (both[idx] & (~finm | (dev > tol)))
+        done[idx[~split]] = True
+        s = idx[split]
+        if s.size == 0:
+            continue
+        done[s] = False
+        t = np.concatenate([t, tm[split]])
+        x = np.concatenate([x, xm[split]])
+        y = np.concatenate([y, ym[split]])
+        done = np.concatenate([done, np.zeros(s.size, dtype=bool)])
+        order = np.argsort(t, kind="stable")
+        t, x, y, done = t[order], x[order], y[order], done[order]
+    fin = np.isfinite(x) & np.isfinite(y)
+    runs = []
+    i, n = 0, t.size
+    while i < n:
+        if not fin[i]:
+            i += 1
+            continue
+        j = i
+        while j + 1 < n and fin[j + 1]:
+            j += 1
+        if j > i:
+            runs.append((x[i:j + 1].copy(), y[i:j + 1].copy()))
+        i = j + 1
+    return runs
+
+
+def _y_ref(case) -> float:
+    fr = case.flow_range
+    return 0.5 * (math.log10(fr.qg_min) + math.log10(fr.qg_max))
+
+
+def _widened(case, cov):
+    """The case with its chart range widened to the coverage (the physics is unchanged)."""
+    from lowgmap.physics.case import FlowRange
+
+    X0, X1, Y0, Y1 = cov
+    return case.with_(flow_range=FlowRange(10.0 ** X0, 10.0 ** X1, 10.0 ** Y0, 10.0 ** Y1))
+
+
+def _line_runs(case, model, consts, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_N_START, wide=None):
+    """Polylines of one line over the coverage box (x0, x1, y0, y1) [decades]."""
+    wide = wide if wide is not None else _widened(case, cov)
+    own = getattr(model, "line_pieces", None)
+    if callable(own):
+        runs = []
+        for piece in own(wide, **consts):
+            runs += _piece_runs(piece, cov, tol, n_start)
+        return runs
+    bp = np.asarray(model.breakpoints(wide, **consts), dtype=float)
+    bp = np.log10(bp[bp > 0]) if bp.size else bp
+    x, y = _column_trace(_line_function(wide, model, consts, _y_ref(case)), cov[0], cov[1], bp, tol, wall_dx,
+                         n_start)
+    return [(x, np.clip(y, cov[2] - _FAR, cov[3] + _FAR))]
+
+
+# =============================================================================================
+# Geometry: the segments of every line, with what they separate
+
+def _is_chain(chart) -> bool:
+    scheme = getattr(chart, "scheme", None)
+    return scheme is None or getattr(scheme, "kind", "chain") == "chain"
+
+
+def _bounding(chart, regime: str) -> tuple[int, ...]:
+    """Indices of the region lines whose crossing can change ``regime`` (sequence rule if not given)."""
+    f = getattr(chart, "bounding_models", None)
+    if callable(f):
+        return tuple(int(i) for i in f(regime))
+    names = list(chart.regime_names)
+    if regime not in names:
+        return ()
+    return tuple(range(min(names.index(regime) + 1, len(chart.region_models))))
+
+
+def _insert_points(x, y, px, py):
+    """Insert points lying on the polyline (x, y) as vertices (in order along it)."""
+    if px.size == 0 or x.size < 2:
+        return x, y
+    ax, ay, dx, dy = x[:-1], y[:-1], np.diff(x), np.diff(y)
+    L2 = dx * dx + dy * dy
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w = np.clip(((px[:, None] - ax) * dx + (py[:, None] - ay) * dy) / np.where(L2 > 0, L2, 1.0), 0.0, 1.0)
+    d2 = (ax + w * dx - px[:, None]) ** 2 + (ay + w * dy - py[:, None]) ** 2
+    k = np.argmin(d2, axis=1)
+    rows = np.arange(px.size)
+    wk = w[rows, k]
+    keep = (d2[rows, k] < 1e-14) & (wk > 1e-9) & (wk < 1 - 1e-9)
+    if not keep.any():
+        return x, y
+    pos = np.concatenate([np.arange(x.size, dtype=float), k[keep] + wk[keep]])
+    order = np.argsort(pos, kind="stable")
+    return np.concatenate([x, px[keep]])[order], np.concatenate([y, py[keep]])[order]
+
+
+def _split_at_crossings(lines_runs):
+    """Insert the crossings of every pair of lines into both (so that each chord has one pair of sides)."""
+    from shapely.geometry import LineString, MultiLineString
+
+    geoms = []
+    for runs in lines_runs:
+        parts = [np.column_stack(r) for r in runs if len(r[0]) >= 2]
+        geoms.append(MultiLineString(parts) if parts else None)
+    pts: list[list] = [[] for _ in lines_runs]
+    for i in range(len(geoms)):
+        for j in range(i + 1, len(geoms)):
+            if geoms[i] is None or geoms[j] is None or not geoms[i].intersects(geoms[j]):
+                continue
+            hit = geoms[i].intersection(geoms[j])
+            coords = []
+            for g in getattr(hit, "geoms", [hit]):
+                if g.is_empty:
+                    continue
+                if g.geom_type == "Point":
+                    coords.append((g.x, g.y))
+                else:                                   # overlap: its ends
+                    for h in getattr(g, "geoms", [g]):
+                        b = h.boundary
+                        coords += [(p.x, p.y) for p in getattr(b, "geoms", [b]) if not p.is_empty]
+            pts[i] += coords
+            pts[j] += coords
+    out = []
+    for runs, p in zip(lines_runs, pts):
+        if not p:
+            out.append(runs)
+            continue
+        P = np.array(p, dtype=float)
+        out.append([_insert_points(x, y, P[:, 0], P[:, 1]) for x, y in runs])
+    return out
+
+
+@dataclass(frozen=True, eq=False)
+class _Geometry:
+    """Chords of every line in (log10 Q_L, log10 Q_G) and what they separate.
+
+    ``line``: index of the line (region lines first); ``usable``: the chord is part of the
+    boundary as drawn; ``left``/``right``: regime indices on the two sides (-2: not probed, -1: no
+    regime); ``bounding``: regime index -> region lines that can change it.
+    """
+
+    xa: np.ndarray
+    ya: np.ndarray
+    xb: np.ndarray
+    yb: np.ndarray
+    line: np.ndarray
+    usable: np.ndarray
+    left: np.ndarray
+    right: np.ndarray
+    n_lines: int
+    n_region: int
+    chain: bool
+    bounding: dict
+    cov: tuple
+
+    def __post_init__(self):
+        counts = np.bincount(self.line, minlength=self.n_lines) if self.line.size else np.zeros(self.n_lines, int)
+        starts = np.concatenate([[0], np.cumsum(counts)[:-1]]).astype(np.intp)
+        object.__setattr__(self, "_nonempty", np.nonzero(counts > 0)[0])
+        object.__setattr__(self, "_starts", starts[counts > 0])
+        object.__setattr__(self, "_adjacent", {})
+
+    def adjacent(self, r: int) -> np.ndarray:
+        """Chords that bound the regime of index ``r`` (read-only, cached)."""
+        got = self._adjacent.get(r)
+        if got is None:
+            lines = self.bounding.get(r, ())
+            got = self.usable & np.isin(self.line, np.asarray(lines, dtype=np.intp))
+            if not self.chain:
+                got &= (self.left == r) | (self.right == r)
+            got.flags.writeable = False
+            self._adjacent[r] = got
+        return got
+
+    def line_min(self, values):
+        """(minimum, index of the minimum) of per-chord ``values`` for each line (inf, -1 if none)."""
+        best = np.full(self.n_lines, np.inf)
+        arg = np.full(self.n_lines, -1, dtype=np.intp)
+        if values.size:
+            best[self._nonempty] = np.minimum.reduceat(values, self._starts)
+            hit = np.flatnonzero(values == best[self.line])
+            lines, first = np.unique(self.line[hit], return_index=True)
+            arg[lines] = hit[first]
+            arg[~np.isfinite(best)] = -1
+        return best, arg
+
+
+def _make_geometry(chart, case, lines, n_region, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_N_START,
+                   only=None) -> _Geometry:
+    """Sample ``lines`` [(model, consts dict)] of ``chart`` (classified with ``chart``) over ``cov``.
+
+    ``only``: indices of the lines to sample (others are left empty).
+    """
+    wide = _widened(case, cov)
+    runs_all = []
+    for k, (model, consts) in enumerate(lines):
+        if only is not None and k not in only:
+            runs_all.append([])
+            continue
+        runs_all.append(_line_runs(case, model, consts, cov, tol=tol, wall_dx=wall_dx, n_start=n_start, wide=wide))
+    chain = _is_chain(chart)
+    if not chain and n_region > 1:
+        runs_all[:n_region] = _split_at_crossings(runs_all[:n_region])
+    parts = {k: [] for k in ("xa", "ya", "xb", "yb", "line")}
+    for k, runs in enumerate(runs_all):
+        for x, y in runs:
+            if x.size < 2:
+                continue
+            keep = (np.diff(x) != 0) | (np.diff(y) != 0)
+            parts["xa"].append(x[:-1][keep])
+            parts["ya"].append(y[:-1][keep])
+            parts["xb"].append(x[1:][keep])
+            parts["yb"].append(y[1:][keep])
+            parts["line"].append(np.full(int(keep.sum()), k, dtype=np.intp))
+    arr = {k: (np.concatenate(v) if v else np.empty(0)) for k, v in parts.items()}
+    line = arr.pop("line").astype(np.intp)
+    s = line.size
+    left = np.full(s, -2, dtype=np.intp)
+    right = np.full(s, -2, dtype=np.intp)
+    usable = np.ones(s, dtype=bool)
+    names = list(chart.regime_names)
+    if not chain:
+        reg = line < n_region
+        if reg.any():
+            xa, ya, xb, yb = (arr[k][reg] for k in ("xa", "ya", "xb", "yb"))
+            mx, my = 0.5 * (xa + xb), 0.5 * (ya + yb)
+            dx, dy = xb - xa, yb - ya
+            nrm = np.hypot(dx, dy)
+            nx, ny = -dy / nrm, dx / nrm
+            px = np.concatenate([mx + _PROBE * nx, mx - _PROBE * nx])
+            py = np.concatenate([my + _PROBE * ny, my - _PROBE * ny])
+            sides = _index_of(names, np.asarray(chart.classify(10.0 ** px, 10.0 ** py)))
+            half = reg.sum()
+            left[reg], right[reg] = sides[:half], sides[half:]
+            usable[reg] = left[reg] != right[reg]
+    bounding = {r: _bounding(chart, name) for r, name in enumerate(names)}
+    return _Geometry(arr["xa"], arr["ya"], arr["xb"], arr["yb"], line, usable, left, right, len(lines), n_region,
+                     chain, bounding, tuple(cov))
+
+
+def _chart_lines(chart):
+    """(model, consts dict, role) of every line, region lines first."""
+    return ([(m, dict(c), "regions") for m, c in chart.region_models]
+            + [(m, dict(c), "comparison") for m, c in chart.comparison_models])
+
+
+def _coverage(chart, x_points=(), y_points=()) -> tuple[float, float, float, float]:
+    """Box the lines must cover: the chart range and the margin windows of every point [decades]."""
+    fr = chart.case.flow_range
+    xs = [math.log10(fr.ql_min), math.log10(fr.ql_max)] + [float(v) for v in np.ravel(x_points)]
+    ys = [math.log10(fr.qg_min), math.log10(fr.qg_max)] + [float(v) for v in np.ravel(y_points)]
+    return (min(xs) + _WIN_LO - 1e-9, max(xs) + _WIN_HI + 1e-9, min(ys) + _WIN_LO - 1e-9, max(ys) + _WIN_HI + 1e-9)
+
+
+class _ChartGeometry:
+    """The geometry of one chart, kept while the chart lives (rebuilt wider when a point needs it)."""
+
+    def __init__(self, chart):
+        self.lines = _chart_lines(chart)
+        self.geom: _Geometry | None = None
+        self.lock = threading.Lock()
+
+    def get(self, chart, cov) -> _Geometry:
+        g = self.geom
+        if g is not None and _covers(g.cov, cov):
+            return g
+        with self.lock:
+            g = self.geom
+            if g is not None and _covers(g.cov, cov):
+                return g
+            if g is not None:
+                cov = (min(cov[0], g.cov[0]), max(cov[1], g.cov[1]), min(cov[2], g.cov[2]), max(cov[3], g.cov[3]))
+            g = _make_geometry(chart, chart.case, [(m, c) for m, c, _ in self.lines], len(chart.region_models), cov)
+            self.geom = g
+            return g
+
+
+def _covers(have, need) -> bool:
+    return have[0] <= need[0] and have[1] >= need[1] and have[2] <= need[2] and have[3] >= need[3]
+
+
+_CACHE: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+_CACHE_LOCK = threading.Lock()
+
+
+def _geometry_of(chart, x_points=(), y_points=()) -> tuple[_ChartGeometry, _Geometry]:
+    with _CACHE_LOCK:
+        holder = _CACHE.get(chart)
+        if holder is None:
+            holder = _ChartGeometry(chart)
+            _CACHE[chart] = holder
+    return holder, holder.get(chart, _coverage(chart, x_points, y_points))
+
+
+def _index_of(names, regimes):
+    """Index of each regime name in ``names`` (-1 if absent), vectorised."""
+    regimes = np.asarray(regimes)
+    if regimes.size == 0:
+        return np.empty(0, dtype=np.intp)
+    uniq, inv = np.unique(regimes, return_inverse=True)
+    lookup = {n: i for i, n in enumerate(names)}
+    return np.array([lookup.get(str(u), -1) for u in uniq], dtype=np.intp)[inv.ravel()].reshape(regimes.shape)
+
+
+# =============================================================================================
+# Box margins on chords
+
+def box_margin_on_segments(la, al, lb, be):
+    r"""Smallest symmetric box margin reached on straight log-log segments (closed form).
+
+    A segment t in [0, 1] runs from (Q_L/Q_L0, Q_G/Q_G0) = (e^la, e^lb) with log changes al, be:
+    :math:`a(t) = e^{la + al\,t} - 1`, :math:`b(t) = e^{lb + be\,t} - 1`. The function
+    minimised is
+
+    .. math:: m(t) = \max(|a(t)|, |b(t)|)
+
+    Each of |a|, |b| is monotone or V-shaped, so an interior minimum of their maximum lies where
+    |a| = |b|: a = b (closed form) or a = -b (convex equation, Newton from the side where it is
+    positive); the ends and the zeros of a and b are checked too.
+
+    Parameters
+    ----------
+    la, lb : array   natural logs of Q_L/Q_L0 and Q_G/Q_G0 at the segment start [-]
+    al, be : array   their changes along the segment [-]
+
+    Returns
+    -------
+    (m, t) : arrays   the minimum of m(t) and where it is reached
+
+    Examples
+    --------
+    A horizontal line 50 % above the point, from Q_L/Q_L0 = e^-1 to e^+1: the box reaches it at
+    m = 0.5, right above the point:
+
+    >>> m, t = box_margin_on_segments([-1.0], [2.0], [np.log(1.5)], [0.0])
+    >>> round(float(m[0]), 12), round(float(t[0]), 12)
+    (0.5, 0.5)
+    """
+    la, al, lb, be = (np.atleast_1d(np.asarray(v, dtype=float)) for v in (la, al, lb, be))
+    cands = [np.zeros_like(la), np.ones_like(la)]
+    with np.errstate(all="ignore"):
+        cands.append(-la / al)                               # a = 0
+        cands.append(-lb / be)                               # b = 0
+        cands.append((lb - la) / (al - be))                  # a = b
+        # a = -b:  h(t) = e^(la + al t) + e^(lb + be t) - 2 = 0, h convex
+        ts = (np.log(np.abs(be)) + lb - np.log(np.abs(al)) - la) / (al - be)
+        ts = np.where((al * be < 0) & np.isfinite(ts), np.clip(ts, 0.0, 1.0), 1.0)
+
+        def h(t):
+            return np.exp(la + al * t) + np.exp(lb + be * t) - 2.0
+
+        def dh(t):
+            return al * np.exp(la + al * t) + be * np.exp(lb + be * t)
+
+        for p, q in ((np.zeros_like(la), ts), (ts, np.ones_like(la))):
+            hp, hq = h(p), h(q)
+            has = (hp * hq <= 0) & (q > p)
+            t = np.where(hp >= hq, p, q)                     # start where h is larger (>= 0)
+            for _ in range(40):
+                d = dh(t)
+                step = np.where(d != 0, h(t) / np.where(d != 0, d, 1.0), 0.0)
+                t = np.clip(t - step, p, q)
+                if not np.any(np.abs(step[has]) > 1e-15):
+                    break
+            cands.append(np.where(has, t, np.nan))
+        T = np.stack(cands)
+        T = np.where(np.isfinite(T), np.clip(T, 0.0, 1.0), 0.0)
+        M = np.maximum(np.abs(np.expm1(la + al * T)), np.abs(np.expm1(lb + be * T)))
+    j = np.argmin(M, axis=0)
+    cols = np.arange(la.size)
+    return M[j, cols], T[j, cols]
+
+
+def _seg_bounds(xa, ya, xb, yb, x0, y0):
+    """(upper, lower) bounds of the box margin on chords (broadcast): the better end, and a bound below."""
+    with np.errstate(over="ignore", invalid="ignore"):
+        a0 = np.abs(np.expm1((xa - x0) * _LN10))
+        a1 = np.abs(np.expm1((xb - x0) * _LN10))
+        b0 = np.abs(np.expm1((ya - y0) * _LN10))
+        b1 = np.abs(np.expm1((yb - y0) * _LN10))
+    upper = np.minimum(np.maximum(a0, b0), np.maximum(a1, b1))
+    ma = np.where((np.minimum(xa, xb) <= x0) & (np.maximum(xa, xb) >= x0), 0.0, np.minimum(a0, a1))
+    mb = np.where((np.minimum(ya, yb) <= y0) & (np.maximum(ya, yb) >= y0), 0.0, np.minimum(b0, b1))
+    return upper, np.maximum(ma, mb)
+
+
+def _closed(xa, ya, xb, yb, x0, y0):
+    """Closed-form box margin on chords: (m, x_touch, y_touch)."""
+    m, t = box_margin_on_segments((xa - x0) * _LN10, (xb - xa) * _LN10, (ya - y0) * _LN10, (yb - ya) * _LN10)
+    return m, xa + t * (xb - xa), ya + t * (yb - ya)
+
+
+def _per_line_min(values, lines, n):
+    """(minimum, index of the minimum) of ``values`` grouped by line index (inf, -1 if none)."""
+    best = np.full(n, np.inf)
+    arg = np.full(n, -1, dtype=np.intp)
+    if values.size:
+        order = np.lexsort((values, lines))
+        first = np.ones(order.size, dtype=bool)
+        first[1:] = lines[order][1:] != lines[order][:-1]
+        sel = order[first]
+        best[lines[sel]] = values[sel]
+        arg[lines[sel]] = sel
+    return best, arg
+
+
+def _point_box(g: _Geometry, x0: float, y0: float, r: int):
+    """Box margins of one point: per line (m, x, y) over its usable chords, and for its regime r."""
+    n = g.n_lines
+    m_line = np.full(n, np.inf)
+    t_line = np.full((n, 2), np.nan)
+    reg = (np.inf, -1, math.nan, math.nan)
+    if g.xa.size == 0:
+        return m_line, t_line, reg
+    adj = g.adjacent(r) if r >= 0 else np.zeros(g.xa.size, dtype=bool)
+    upper, lower = _seg_bounds(g.xa, g.ya, g.xb, g.yb, x0, y0)
+    ub_line, _ = g.line_min(np.where(g.usable, upper, np.inf))
+    ub_reg = float(upper[adj].min()) if adj.any() else np.inf
+    keep = np.nonzero(g.usable & (lower < 1.0) & ((lower <= ub_line[g.line]) | (adj & (lower <= ub_reg))))[0]
+    if keep.size == 0:
+        return m_line, t_line, reg
+    m, tx, ty = _closed(g.xa[keep], g.ya[keep], g.xb[keep], g.yb[keep], x0, y0)
+    best, arg = _per_line_min(m, g.line[keep], n)
+    has = arg >= 0
+    m_line[has] = best[has]
+    t_line[has, 0] = tx[arg[has]]
+    t_line[has, 1] = ty[arg[has]]
+    a = adj[keep]
+    if a.any():
+        j = np.nonzero(a)[0][np.argmin(m[a])]
+        reg = (float(m[j]), int(g.line[keep][j]), float(tx[j]), float(ty[j]))
+    return m_line, t_line, reg
+
+
+def _margins_many(g: _Geometry, x0, y0, ridx, pending=None, ids=None):
+    """Regime margins of many points (log10 flows, regime indices): (m, limiting line index).
+
+    Per regime, every chord bounding it is bounded below and above for each point; the chords that
+    can beat the best end point are solved in closed form (exact global minimum). With ``pending``
+    (a list) the closed-form step is deferred (see :func:`_resolve_pending`; limits then untracked).
+    """
+    x0 = np.asarray(x0, dtype=float)
+    y0 = np.asarray(y0, dtype=float)
+    m = np.full(x0.size, np.inf)
+    lim = np.full(x0.size, -1, dtype=np.intp)
+    for r in np.unique(ridx[ridx >= 0]) if x0.size else ():
+        pts = np.nonzero(ridx == r)[0]
+        seg = np.nonzero(g.adjacent(int(r)))[0]
+        if seg.size == 0:
+            continue
+        xa, ya, xb, yb, ln = g.xa[seg], g.ya[seg], g.xb[seg], g.yb[seg], g.line[seg]
+        step = max(1, _CHUNK // seg.size)
+        for s in range(0, pts.size, step):
+            p = pts[s:s + step]
+            px, py = x0[p, None], y0[p, None]
+            upper, lower = _seg_bounds(xa[None, :], ya[None, :], xb[None, :], yb[None, :], px, py)
+            jb = np.argmin(upper, axis=1)
+            best = upper[np.arange(p.size), jb]
+            better = best < m[p]
+            m[p[better]] = best[better]
+            lim[p[better]] = ln[jb[better]]
+            i, j = np.nonzero((lower <= best[:, None]) & (lower < 1.0))
+            if i.size == 0:
+                continue
+            if pending is not None:
+                gx, gy = x0[p][i], y0[p][i]
+                pending.append((np.asarray(ids)[p][i], (xa[j] - gx) * _LN10, (xb[j] - xa[j]) * _LN10,
+                                (ya[j] - gy) * _LN10, (yb[j] - ya[j]) * _LN10))
+                continue
+            mm, _, _ = _closed(xa[j], ya[j], xb[j], yb[j], x0[p][i], y0[p][i])
+            order = np.lexsort((mm, i))
+            first = np.ones(order.size, dtype=bool)
+            first[1:] = i[order][1:] != i[order][:-1]
+            sel = order[first]
+            q = p[i[sel]]
+            better = mm[sel] < m[q]
+            m[q[better]] = mm[sel][better]
+            lim[q[better]] = ln[j[sel]][better]
+    if pending is None:
+        lim[m >= MAX_MARGIN] = -1
+        np.minimum(m, MAX_MARGIN, out=m)
+    return m, lim
+
+
+def _resolve_pending(pending, m):
+    """Finish deferred margins in place: m[ids] = min(m[ids], closed-form minima); capped."""
+    if pending:
+        ids = np.concatenate([p[0] for p in pending])
+        parts = [np.concatenate([p[i] for p in pending]) for i in range(1, 5)]
+        mm, _ = box_margin_on_segments(*parts)
+        np.minimum.at(m, ids, mm)
+    np.minimum(m, MAX_MARGIN, out=m)
+    return m
+
+
+def _draw_margins(chart, case, x0, y0, ridx, pending=None, ids=None, *, tol=1e-6, wall_dx=1e-8, n_start=17):
+    """Regime margins of points on a chart whose lines are not cached (one Monte Carlo draw)."""
+    lines = [(m, dict(c)) for m, c in chart.region_models]
+    n_region = len(lines)
+    cov = (float(np.min(x0)) + _WIN_LO - 1e-9, float(np.max(x0)) + _WIN_HI + 1e-9,
+           float(np.min(y0)) + _WIN_LO - 1e-9, float(np.max(y0)) + _WIN_HI + 1e-9)
+    names = list(chart.regime_names)
+    only = None
+    if _is_chain(chart):
+        only = set()
+        for r in np.unique(ridx[ridx >= 0]):
+            only |= set(_bounding(chart, names[int(r)]))
+    g = _make_geometry(chart, case, lines, n_region, cov, tol=tol, wall_dx=wall_dx, n_start=n_start, only=only)
+    return _margins_many(g, x0, y0, ridx, pending, ids)
+
+
+# =============================================================================================
+# Axis crossings and nearest points
+
+def _clip_t(a, d, lo, hi):
+    """Parameter interval of a + t d inside [lo, hi] (per element)."""
+    inside = (a >= lo) & (a <= hi)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t1, t2 = (lo - a) / d, (hi - a) / d
+    tlo = np.where(d != 0, np.minimum(t1, t2), np.where(inside, -np.inf, np.inf))
+    thi = np.where(d != 0, np.maximum(t1, t2), np.where(inside, np.inf, -np.inf))
+    return tlo, thi
+
+
+def _nearest(g: _Geometry, sel, x0: float, y0: float, box):
+    """Nearest point of every line (chords ``sel``) to (x0, y0) in log-log axes inside box."""
+    X0, X1, Y0, Y1 = box
+    n = g.n_lines
+    d = np.full(n, np.nan)
+    nx = np.full(n, np.nan)
+    ny = np.full(n, np.nan)
+    if not g.xa.size:
+        return d, nx, ny
+    xa, ya = g.xa, g.ya
+    dx, dy = g.xb - xa, g.yb - ya
+    txl, txh = _clip_t(xa, dx, X0, X1)
+    tyl, tyh = _clip_t(ya, dy, Y0, Y1)
+    t0 = np.maximum(0.0, np.maximum(txl, tyl))
+    t1 = np.minimum(1.0, np.minimum(txh, tyh))
+    keep = sel & (t0 <= t1)
+    t0 = np.where(keep, t0, 0.0)
+    t1 = np.where(keep, t1, 0.0)
+    px, py = xa + t0 * dx, ya + t0 * dy
+    qx, qy = (t1 - t0) * dx, (t1 - t0) * dy
+    L2 = qx * qx + qy * qy
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = np.where(L2 > 0, ((x0 - px) * qx + (y0 - py) * qy) / np.where(L2 > 0, L2, 1.0), 0.0)
+    t = np.clip(t, 0.0, 1.0)
+    ex, ey = px + t * qx, py + t * qy
+    d2 = np.where(keep, (ex - x0) ** 2 + (ey - y0) ** 2, np.inf)
+    best, arg = g.line_min(d2)
+    has = arg >= 0
+    d[has] = np.sqrt(best[has])
+    nx[has] = ex[arg[has]]
+    ny[has] = ey[arg[has]]
+    return d, nx, ny
+
+
+def _polish(G, s, gs, h=1e-6, iters=8):
+    """Roots of G near the estimates s with residuals gs (arrays), by secant steps.
+
+    A step is kept only if it lowers the residual and stays within 1e-4 decade of the estimate
+    (where G is undefined or has no root nearby the estimate is kept).
+    """
+    s = np.asarray(s, dtype=float).copy()
+    gs = np.asarray(gs, dtype=float)
+    need = np.isfinite(gs) & (np.abs(gs) > 1e-10)
+    if not need.any():
+        return s
+    idx = np.nonzero(need)[0]
+    x0, f0 = s[idx], gs[idx]
+    x1 = x0 + h
+    f1 = G(x1)
+    best_x, best_f = x0.copy(), np.abs(f0)
+    for _ in range(iters):
+        ok = np.isfinite(f1)
+        better = ok & (np.abs(f1) < best_f) & (np.abs(x1 - s[idx]) < 1e-4)
+        best_x = np.where(better, x1, best_x)
+        best_f = np.where(better, np.abs(f1), best_f)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            x2 = x1 - f1 * (x1 - x0) / (f1 - f0)
+        go = ok & np.isfinite(x2) & (best_f > 1e-10) & (np.abs(x2 - x1) > 1e-14)
+        if not go.any():
+            break
+        x0, f0 = x1, f1
+        x1 = np.where(go, x2, x1)
+        f1 = np.where(go, G(x1), np.nan)
+    s[idx] = best_x
+    return s
+
+
+def _nearest_two(v, c, centre, lo, hi, adj):
+    """Indices of the crossings worth polishing: nearest above and below, overall and on ``adj`` chords."""
+    ok = (v >= lo - 1e-6) & (v <= hi + 1e-6)
+    out = set()
+    for mask in (ok, ok & adj[c]):
+        for side in (v > centre, v < centre):
+            w = np.nonzero(mask & side)[0]
+            if w.size:
+                out.add(int(w[np.argmin(np.abs(v[w] - centre))]))
+    return np.array(sorted(out), dtype=np.intp)
+
+
+def _axis_crossings(g: _Geometry, sel, lines, case, x0: float, y0: float, box, adj):
+    """Crossings of the chords ``sel`` with the vertical x = x0 and the horizontal y = y0.
+
+    Returns (along_y, along_x, g_point): per line, arrays of (value [decade], chord index) — y of the
+    nearest crossings at x0 (gas axis) and x of those at y0 (liquid axis) inside ``box``, above and
+    below the point, overall and on the chords ``adj`` — polished on each model's implicit
+    function; and the implicit function of every line at the point.
+    """
+    xa, ya, xb, yb = g.xa, g.ya, g.xb, g.yb
+    with np.errstate(invalid="ignore", divide="ignore"):
+        cv = sel & ((xa - x0) * (xb - x0) <= 0) & (xa != xb)
+        ch = sel & ((ya - y0) * (yb - y0) <= 0) & (ya != yb)
+        iv, ih = np.nonzero(cv)[0], np.nonzero(ch)[0]
+        yv = ya[iv] + (x0 - xa[iv]) / (xb[iv] - xa[iv]) * (yb[iv] - ya[iv])
+        xh = xa[ih] + (y0 - ya[ih]) / (yb[ih] - ya[ih]) * (xb[ih] - xa[ih])
+    along_y, along_x = {}, {}
+    g_point = np.full(len(lines), np.nan)
+    for k, (model, consts) in enumerate(lines):
+        a = np.nonzero(g.line[iv] == k)[0]
+        b = np.nonzero(g.line[ih] == k)[0]
+        a = a[_nearest_two(yv[a], iv[a], y0, box[2], box[3], adj)] if a.size else a
+        b = b[_nearest_two(xh[b], ih[b], x0, box[0], box[1], adj)] if b.size else b
+        na = a.size
+
+        def G(s, na=na, model=model, consts=consts):
+            ql = np.concatenate([np.full(na, 10.0 ** x0), 10.0 ** s[na:]])
+            qg = np.concatenate([10.0 ** s[:na], np.full(s.size - na, 10.0 ** y0)])
+            with np.errstate(all="ignore"):
+                return np.asarray(model.implicit(case, ql, qg, **consts), dtype=float).reshape(-1)
+
+        est = np.concatenate([yv[a], xh[b]])
+        with np.errstate(all="ignore"):          # the point and the estimates in one call
+            vals = np.asarray(model.implicit(case, np.concatenate([[10.0 ** x0], np.full(na, 10.0 ** x0),
+                                                                   10.0 ** est[na:]]),
+                                             np.concatenate([[10.0 ** y0], 10.0 ** est[:na],
+                                                             np.full(b.size, 10.0 ** y0)]), **consts),
+                              dtype=float).reshape(-1)
+        g_point[k] = vals[0]
+        if est.size:
+            s = _polish(G, est, vals[1:])
+            along_y[k] = (s[:na], iv[a])
+            along_x[k] = (s[na:], ih[b])
+    return along_y, along_x, g_point
+
+
+def _nearest_factors(values, chords, centre, lo, hi, allowed=None):
+    """(up, down) factors of the crossings nearest above and below ``centre`` within [lo, hi]."""
+    v = np.asarray(values, dtype=float)
+    ok = (v >= lo) & (v <= hi)
+    if allowed is not None:
+        ok &= allowed[chords]
+    v = v[ok]
+    up, dn = v[v > centre], v[v < centre]
+    return (10.0 ** (float(up.min()) - centre) if up.size else None,
+            10.0 ** (float(dn.max()) - centre) if dn.size else None)
+
+
+# =============================================================================================
+# Results
+
+@dataclass(frozen=True)
+class BoundaryMargin:
+    """Margins of one operating point to one boundary line.
+
+    Region-defining lines count where they are drawn as boundaries (see the module notes);
+    comparison lines count whole.
+
+    Attributes
+    ----------
+    name, label : str      model name and chart label
+    source : str           citation of the model
+    role : str             "regions" (bounds regimes) or "comparison" (drawn for comparison only)
+    side : str             "below" or "above": where the point lies with respect to the line
+                           (sign of its implicit function)
+    limits_regime : bool   True when the line (as drawn) bounds the point's regime
+    ql_factor_up, ql_factor_down : float or None
+        Q_L,cross / Q_L of the nearest crossing at higher / lower liquid flow (Q_G held) [-]
+    qg_factor_up, qg_factor_down : float or None   the same along the gas axis (Q_L held) [-]
+    log_distance : float or None   shortest distance in (log10 Q_L, log10 Q_G) [decade]
+    nearest_ql, nearest_qg : float or None   the nearest point of the line [m^3/s]
+    direction : (float, float) or None   unit vector toward it in (log10 Q_L, log10 Q_G)
+    margin : float   symmetric margin to this line alone, as drawn (box half-size, fraction),
+                     capped at :data:`MAX_MARGIN`
+    touch_ql, touch_qg : float or None   where the box of that size touches the line [m^3/s]
+    """
+
+    name: str
+    label: str
+    source: str
+    role: str
+    side: str
+    limits_regime: bool
+    ql_factor_up: float | None
+    ql_factor_down: float | None
+    qg_factor_up: float | None
+    qg_factor_down: float | None
+    log_distance: float | None
+    nearest_ql: float | None
+    nearest_qg: float | None
+    direction: tuple[float, float] | None
+    margin: float
+    touch_ql: float | None
+    touch_qg: float | None
+
+    def factor(self, direction: str) -> float | None:
+        """Factor in one of :data:`DIRECTIONS` ("ql_up", ...)."""
+        if direction not in DIRECTIONS:
+            raise ValueError(f"direction must be one of {', '.join(DIRECTIONS)}, got {direction!r}")
+        return getattr(self, direction.replace("_", "_factor_", 1))
+
+    def to_dict(self) -> dict:
+        """JSON-ready dict, flows in m^3/s."""
+        return {
+            "name": self.name, "label": self.label, "source": self.source, "role": self.role,
+            "side": self.side, "limits_regime": self.limits_regime,
+            "ql_factor_up": self.ql_factor_up, "ql_factor_down": self.ql_factor_down,
+            "qg_factor_up": self.qg_factor_up, "qg_factor_down": self.qg_factor_down,
+            "log_distance": self.log_distance, "nearest_ql_m3_s": self.nearest_ql,
+            "nearest_qg_m3_s": self.nearest_qg,
+            "direction": list(self.direction) if self.direction is not None else None,
+            "margin": self.margin, "touch_ql_m3_s": self.touch_ql, "touch_qg_m3_s": self.touch_qg,
+        }
+
+
+@dataclass(frozen=True)
+class PointMargins:
+    """Margins of one operating point (Q_L, Q_G) [m^3/s] on a chart.
+
+    Attributes
+    ----------
+    ql, qg : float             the point [m^3/s]
+    regime : str               its regime ("" on a chart without regimes)
+    boundaries : tuple of BoundaryMargin   every line, region-defining first (chart order)
+    symmetric_margin : float   largest m (fraction) with the ±m box in one regime, capped at
+                               :data:`MAX_MARGIN`
+    limiting_boundary : str or None   name of the line that sets it (None if none comes closer)
+    limits : dict              direction ("ql_up", "ql_down", "qg_up", "qg_down") -> name of the
+                               line where the regime changes first along that axis, or None
+    regime_factors : dict      direction -> factor at which the regime changes first, or None
+    """
+
+    ql: float
+    qg: float
+    regime: str
+    boundaries: tuple
+    symmetric_margin: float
+    limiting_boundary: str | None
+    limits: dict
+    regime_factors: dict
+
+    def boundary(self, name: str) -> BoundaryMargin:
+        """The :class:`BoundaryMargin` of the line called ``name``."""
+        for b in self.boundaries:
+            if b.name == name:
+                return b
+        known = ", ".join(b.name for b in self.boundaries) or "none"
+        raise ValueError(f"no boundary {name!r} on this chart; boundaries: {known}")
+
+    @property
+    def limiting(self) -> BoundaryMargin | None:
+        """The :class:`BoundaryMargin` of the limiting line (None if there is none)."""
+        return self.boundary(self.limiting_boundary) if self.limiting_boundary else None
+
+    def to_dict(self) -> dict:
+        """JSON-ready dict (SI units; None where there is no value)."""
+        lim = self.limiting
+        return {
+            "operating_point": {"ql_m3_s": self.ql, "qg_m3_s": self.qg},
+            "regime": self.regime,
+            "symmetric_margin": self.symmetric_margin,
+            "limiting_boundary": self.limiting_boundary,
+            "limiting_label": lim.label if lim is not None else None,
+            "limits": dict(self.limits),
+            "regime_factors": dict(self.regime_factors),
+            "boundaries": [b.to_dict() for b in self.boundaries],
+        }
+
+
+# =============================================================================================
+# Public functions
+
+def _check_point(ql, qg) -> tuple[float, float]:
+    return positive("ql", ql, "m^3/s"), positive("qg", qg, "m^3/s")
+
+
+def regime_index(chart, regime: str) -> int:
+    """Position of ``regime`` in ``chart.regime_names``; ValueError listing the known names."""
+    names = tuple(chart.regime_names)
+    if regime in names:
+        return names.index(regime)
+    known = "; ".join(names) if names else "none (the chart has no regimes)"
+    raise ValueError(f"unknown regime {regime!r}; regimes on this chart: {known}")
+
+
+def point_margins(chart, ql: float, qg: float) -> PointMargins:
+    r"""Margins of the operating point (Q_L, Q_G) to every boundary of ``chart``.
+
+    .. math:: m = \min_{\text{pieces } k \text{ bounding the regime}}\ \min_{(Q_L', Q_G') \in k}
+              \max\left(\left|\tfrac{Q_L'}{Q_L} - 1\right|, \left|\tfrac{Q_G'}{Q_G} - 1\right|\right)
+
+    Parameters
+    ----------
+    chart : Chart   from :meth:`lowgmap.physics.chart.composition.Chart.build` (not rebuilt; the line samples are
+                    cached per chart, so moving the point is cheap)
+    ql, qg : float  liquid and gas flow rates [m^3/s], > 0
+
+    Returns
+    -------
+    PointMargins
+
+    Notes
+    -----
+    Axis factors, nearest points and distances are searched inside the chart range widened to
+    contain the point; the symmetric margin uses the lines wherever they run. Comparison lines get
+    factors and distances but never limit the regime. Method and accuracy: see the module notes.
+
+    Examples
+    --------
+    >>> from lowgmap.physics.models.boundary import PowerLawBoundary
+    >>> from lowgmap.physics.case import Case, FlowRange
+    >>> from lowgmap.physics.chart.composition import Chart
+    >>> from lowgmap.physics.properties.fluids import FluidPair
+    >>> from lowgmap.physics.geometry.sections import Circle
+    >>> from lowgmap.physics.properties.wetting import Wetting
+    >>> fluid = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
+    >>> case = Case(fluid, Circle(0.01), Wetting(0.0), 1.0, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3))
+    >>> line = PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")   # Q_G = Q_L
+    >>> pm = point_margins(Chart.build(case, [line]), 1e-5, 0.5e-5)
+    >>> pm.regime, round(pm.symmetric_margin, 6)       # (1 + m) / (1 - m) = 2
+    ('bubbles', 0.333333)
+    >>> round(pm.boundaries[0].qg_factor_up, 9), round(pm.boundaries[0].ql_factor_down, 9)
+    (2.0, 0.5)
+    """
+    ql, qg = _check_point(ql, qg)
+    x0, y0 = math.log10(ql), math.log10(qg)
+    regime = str(chart.classify(ql, qg))
+    names = list(chart.regime_names)
+    r = names.index(regime) if regime in names else -1
+    fr = chart.case.flow_range
+    box = (min(math.log10(fr.ql_min), x0), max(math.log10(fr.ql_max), x0),
+           min(math.log10(fr.qg_min), y0), max(math.log10(fr.qg_max), y0))
+    holder, g = _geometry_of(chart, [x0], [y0])
+    lines = [(m, c) for m, c, _ in holder.lines]
+    adj = g.adjacent(r) if r >= 0 else np.zeros(g.xa.size, dtype=bool)
+    m_line, t_line, reg = _point_box(g, x0, y0, r)
+    dist, nx, ny = _nearest(g, g.usable, x0, y0, box)
+    along_y, along_x, g_point = _axis_crossings(g, g.usable, lines, chart.case, x0, y0, box, adj)
+    out = []
+    first: dict[str, tuple[float, str] | None] = {d: None for d in DIRECTIONS}
+    for k, (model, consts, role) in enumerate(holder.lines):
+        side = "below" if g_point[k] < 0 else "above"
+        vy, cy = along_y.get(k, (np.empty(0), np.empty(0, dtype=np.intp)))
+        vx, cx = along_x.get(k, (np.empty(0), np.empty(0, dtype=np.intp)))
+        g_up, g_dn = _nearest_factors(vy, cy, y0, box[2], box[3])
+        l_up, l_dn = _nearest_factors(vx, cx, x0, box[0], box[1])
+        if math.isnan(dist[k]):
+            d = nq_l = nq_g = direction = None
+        else:
+            d = float(dist[k])
+            nq_l, nq_g = 10.0 ** float(nx[k]), 10.0 ** float(ny[k])
+            direction = ((float(nx[k]) - x0) / d, (float(ny[k]) - y0) / d) if d > 0 else None
+        m_k = float(m_line[k])
+        if m_k < MAX_MARGIN:
+            touch = (10.0 ** float(t_line[k, 0]), 10.0 ** float(t_line[k, 1]))
+        else:
+            m_k, touch = MAX_MARGIN, (None, None)
+        limits = bool(np.any(adj & (g.line == k)))
+        out.append(BoundaryMargin(model.name, model.label, model.citation, role, side, limits,
+                                  l_up, l_dn, g_up, g_dn, d, nq_l, nq_g, direction, m_k, *touch))
+        if limits:
+            ups = (_nearest_factors(vx, cx, x0, box[0], box[1], adj), _nearest_factors(vy, cy, y0, box[2], box[3], adj))
+            for dname, v in (("ql_up", ups[0][0]), ("ql_down", ups[0][1]), ("qg_up", ups[1][0]),
+                             ("qg_down", ups[1][1])):
+                if v is None:
+                    continue
+                cur = first[dname]
+                if cur is None or abs(math.log(v)) < abs(math.log(cur[0])):
+                    first[dname] = (v, model.name)
+    m_reg, lim = MAX_MARGIN, None
+    if reg[1] >= 0 and reg[0] < MAX_MARGIN:
+        m_reg, lim = float(reg[0]), lines[reg[1]][0].name
+    return PointMargins(ql, qg, regime, tuple(out), m_reg, lim,
+                        {d: (first[d][1] if first[d] else None) for d in DIRECTIONS},
+                        {d: (first[d][0] if first[d] else None) for d in DIRECTIONS})
+
+
+def symmetric_margins(chart, ql, qg, *, regime=None):
+    r"""Symmetric margins of many points at once (vectorised), with the limiting line of each.
+
+    Parameters
+    ----------
+    chart : Chart
+    ql, qg : array   flow rates [m^3/s] (broadcast together)
+    regime : str, optional
+        If given, a point outside this regime gets the negative of its own margin (how deep it
+        lies in the other regime); default: every point's own regime.
+
+    Returns
+    -------
+    (margin, limiting, regimes) : arrays
+        margin [fraction] (NaN for invalid flows), the index of the limiting line in
+        ``chart.region_models`` (-1 for none), and each point's regime name.
+
+    Notes
+    -----
+    Same definition and result as :func:`point_margins` (exact minimum over the sampled lines).
+
+    Examples
+    --------
+    >>> from lowgmap.physics.models.boundary import PowerLawBoundary
+    >>> from lowgmap.physics.case import Case, FlowRange
+    >>> from lowgmap.physics.chart.composition import Chart
+    >>> from lowgmap.physics.properties.fluids import FluidPair
+    >>> from lowgmap.physics.geometry.sections import Circle
+    >>> from lowgmap.physics.properties.wetting import Wetting
+    >>> fluid = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
+    >>> case = Case(fluid, Circle(0.01), Wetting(0.0), 1.0, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3))
+    >>> chart = Chart.build(case, [PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")])
+    >>> m, lim, reg = symmetric_margins(chart, [1e-5, 1e-5], [0.5e-5, 4e-5])
+    >>> np.round(m, 6).tolist(), lim.tolist()
+    ([0.333333, 0.6], [0, 0])
+    """
+    ql, qg = np.broadcast_arrays(np.asarray(ql, dtype=float), np.asarray(qg, dtype=float))
+    shape = ql.shape
+    ql, qg = ql.ravel(), qg.ravel()
+    with np.errstate(all="ignore"):
+        ok = np.isfinite(ql) & np.isfinite(qg) & (ql > 0) & (qg > 0)
+    regimes = np.asarray(chart.classify(ql, qg)).ravel()
+    m = np.full(ql.size, np.nan)
+    lim = np.full(ql.size, -1, dtype=np.intp)
+    if ok.any():
+        x0, y0 = np.log10(ql[ok]), np.log10(qg[ok])
+        _, g = _geometry_of(chart, [x0.min(), x0.max()], [y0.min(), y0.max()])
+        m[ok], lim[ok] = _margins_many(g, x0, y0, _index_of(list(chart.regime_names), regimes[ok]))
+    if regime is not None:
+        regime_index(chart, regime)
+        m = np.where(regimes == regime, m, -m)
+    return m.reshape(shape), lim.reshape(shape), regimes.reshape(shape)
+
+
+
+
+# ---------------------------------------------------------------------------------------------
+# Operating envelope
+
+@dataclass(frozen=True)
+class CornerCheck:
+    """One corner of an operating envelope: its name, flows [m^3/s] and regime."""
+
+    name: str
+    ql: float
+    qg: float
+    regime: str
+
+
+@dataclass(frozen=True)
+class EnvelopeLine:
+    """What one boundary does in an operating envelope.
+
+    ``crosses``: the line passes through the rectangle; ``corners_across``: the corners on the
+    other side of the line from the reference point; ``limits_regime``: a region line that can
+    change the reference point's regime.
+    """
+
+    name: str
+    label: str
+    role: str
+    crosses: bool
+    corners_across: tuple[str, ...]
+    limits_regime: bool
+
+
+@dataclass(frozen=True)
+class EnvelopeCheck:
+    """Result of :func:`envelope_check`.
+
+    Attributes
+    ----------
+    ql_range, qg_range : (float, float)   the rectangle [m^3/s]
+    reference : (float, float)  point whose regime is the intended one [m^3/s]
+    regime : str                regime of the reference point
+    wholly_inside : bool        every point of the rectangle is in that regime
+    regimes : tuple of str      regimes met in the rectangle (exact when wholly inside, otherwise
+                                found on a 41 x 41 grid, the corners and beside each crossing line)
+    corners : tuple of CornerCheck
+    lines : tuple of EnvelopeLine
+    """
+
+    ql_range: tuple[float, float]
+    qg_range: tuple[float, float]
+    reference: tuple[float, float]
+    regime: str
+    wholly_inside: bool
+    regimes: tuple[str, ...]
+    corners: tuple
+    lines: tuple
+
+    def to_dict(self) -> dict:
+        return {
+            "ql_range_m3_s": list(self.ql_range), "qg_range_m3_s": list(self.qg_range),
+            "reference_m3_s": list(self.reference), "regime": self.regime,
+            "wholly_inside": self.wholly_inside, "regimes": list(self.regimes),
+            "corners": [{"name": c.name, "ql_m3_s": c.ql, "qg_m3_s": c.qg, "regime": c.regime}
+                        for c in self.corners],
+            "lines": [{"name": ln.name, "label": ln.label, "role": ln.role, "crosses": ln.crosses,
+                       "corners_across": list(ln.corners_across), "limits_regime": ln.limits_regime}
+                      for ln in self.lines],
+        }
+
+
+def _check_range(name, rng) -> tuple[float, float]:
+    try:
+        lo, hi = rng
+    except (TypeError, ValueError):
+        raise ValueError(f"{name} must be a pair (low, high) in m^3/s, got {rng!r}") from None
+    lo = positive(f"{name}[0]", lo, "m^3/s")
+    hi = positive(f"{name}[1]", hi, "m^3/s")
+    if not lo < hi:
+        raise ValueError(f"{name} must be increasing (low < high), got [{lo:g}, {hi:g}] m^3/s")
+    return lo, hi
+
+
+def envelope_check(chart, ql_range, qg_range, reference=None) -> EnvelopeCheck:
+    """Whether an operating envelope (a rectangle of flow rates) lies wholly inside one regime.
+
+    Parameters
+    ----------
+    chart : Chart
+    ql_range, qg_range : (float, float)   the system's range of liquid and gas flow [m^3/s]
+    reference : (float, float), optional  the point whose regime is wanted (default: the
+                                          rectangle's centre in log-log axes)
+
+    Returns
+    -------
+    EnvelopeCheck
+
+    Notes
+    -----
+    The rectangle keeps one regime exactly when no boundary of the reference regime has a point
+    in the closed rectangle (the same argument as for the symmetric box). ``corners_across``
+    compares the sign of each line's implicit function at the corners with the reference point.
+
+    Examples
+    --------
+    >>> from lowgmap.physics.models.boundary import PowerLawBoundary
+    >>> from lowgmap.physics.case import Case, FlowRange
+    >>> from lowgmap.physics.chart.composition import Chart
+    >>> from lowgmap.physics.properties.fluids import FluidPair
+    >>> from lowgmap.physics.geometry.sections import Circle
+    >>> from lowgmap.physics.properties.wetting import Wetting
+    >>> fluid = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
+    >>> case = Case(fluid, Circle(0.01), Wetting(0.0), 1.0, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3))
+    >>> chart = Chart.build(case, [PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")])
+    >>> env = envelope_check(chart, (1e-5, 2e-5), (1e-6, 3e-5))
+    >>> env.wholly_inside, env.lines[0].corners_across
+    (False, ('high Q_L, high Q_G', 'low Q_L, high Q_G'))
+    """
+    ql_lo, ql_hi = _check_range("ql_range", ql_range)
+    qg_lo, qg_hi = _check_range("qg_range", qg_range)
+    if reference is None:
+        ref = (math.sqrt(ql_lo * ql_hi), math.sqrt(qg_lo * qg_hi))
+    else:
+        ref = _check_point(*reference)
+    corners = (("low Q_L, low Q_G", ql_lo, qg_lo), ("high Q_L, low Q_G", ql_hi, qg_lo),
+               ("high Q_L, high Q_G", ql_hi, qg_hi), ("low Q_L, high Q_G", ql_lo, qg_hi))
+    cq_l = np.array([c[1] for c in corners])
+    cq_g = np.array([c[2] for c in corners])
+    c_reg = chart.classify(cq_l, cq_g)
+    regime = str(chart.classify(*ref))
+    names = list(chart.regime_names)
+    r = names.index(regime) if regime in names else -1
+    box = (math.log10(ql_lo), math.log10(ql_hi), math.log10(qg_lo), math.log10(qg_hi))
+    holder, g = _geometry_of(chart, box[:2], box[2:])
+    cx, cy = 0.5 * (box[0] + box[1]), 0.5 * (box[2] + box[3])
+    d_all, _, _ = _nearest(g, g.usable, cx, cy, box)
+    adj = g.adjacent(r) if r >= 0 else np.zeros(g.xa.size, dtype=bool)
+    d_adj, _, _ = _nearest(g, adj, cx, cy, box)
+    lines = []
+    for k, (model, consts, role) in enumerate(holder.lines):
+        with np.errstate(all="ignore"):
+            g_ref = float(np.asarray(model.implicit(chart.case, ref[0], ref[1], **consts), dtype=float).reshape(-1)[0])
+            g_c = np.asarray(model.implicit(chart.case, cq_l, cq_g, **consts), dtype=float).reshape(-1)
+        across = tuple(c[0] for c, gc in zip(corners, g_c) if (gc < 0) != (g_ref < 0))
+        lines.append(EnvelopeLine(model.name, model.label, role, not math.isnan(d_all[k]), across,
+                                  bool(np.any(adj & (g.line == k)))))
+    wholly = bool(names) and r >= 0 and bool(np.all(np.isnan(d_adj)))
+    if not names:
+        regimes = ("",)
+    elif wholly:
+        regimes = (regime,)
+    else:
+        u = np.logspace(box[0], box[1], 41)
+        v = np.logspace(box[2], box[3], 41)
+        U, V = np.meshgrid(u, v)
+        found = set(np.unique(chart.classify(U, V)).tolist()) | set(np.asarray(c_reg).tolist()) | {regime}
+        sel = g.usable & (g.line < g.n_region)
+        xm, ym = 0.5 * (g.xa + g.xb), 0.5 * (g.ya + g.yb)
+        sel &= (xm >= box[0]) & (xm <= box[1]) & (ym >= box[2]) & (ym <= box[3])
+        if sel.any():
+            for dy in (-1e-6, 1e-6):
+                found |= set(np.unique(chart.classify(10.0 ** xm[sel], 10.0 ** np.clip(ym[sel] + dy, box[2], box[3])))
+                             .tolist())
+        regimes = tuple(n for n in names if n in found)
+    return EnvelopeCheck((ql_lo, ql_hi), (qg_lo, qg_hi), ref, regime, wholly, regimes,
+                         tuple(CornerCheck(c[0], c[1], c[2], str(rg)) for c, rg in zip(corners, c_reg)),
+                         tuple(lines))
+
+
+# ---------------------------------------------------------------------------------------------
+# Robust operating point
+
+@dataclass(frozen=True)
+class RobustPoint:
+    """The point of a regime with the largest symmetric margin.
+
+    ``ql``, ``qg`` [m^3/s]; ``margin`` [fraction]; ``limiting``: names of the lines the ±margin box
+    touches (usually two at the optimum), ``regime``; ``ql_range``, ``qg_range``: the allowed
+    flow ranges searched [m^3/s].
+    """
+
+    ql: float
+    qg: float
+    margin: float
+    limiting: tuple[str, ...]
+    regime: str
+    ql_range: tuple[float, float]
+    qg_range: tuple[float, float]
+
+    def to_dict(self) -> dict:
+        return {"regime": self.regime, "ql_m3_s": self.ql, "qg_m3_s": self.qg, "symmetric_margin": self.margin,
+                "limiting": list(self.limiting), "ql_range_m3_s": list(self.ql_range),
+                "qg_range_m3_s": list(self.qg_range)}
+
+
+def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, grid: int = 25, starts: int = 4
+                 ) -> RobustPoint:
+    r"""The point of ``regime`` with the largest symmetric margin, within allowed flow ranges.
+
+    .. math:: \max_{(Q_L, Q_G) \in R \cap [Q_{L,lo}, Q_{L,hi}] \times [Q_{G,lo}, Q_{G,hi}]} m(Q_L, Q_G)
+
+    Parameters
+    ----------
+    chart : Chart
+    regime : str     one of ``chart.regime_names``
+    ql_range, qg_range : (float, float), optional   allowed flows [m^3/s]; default: the chart range
+    grid : int       start search: margins on a grid x grid of log-spaced points
+    starts : int     number of the best grid points polished by Nelder–Mead in (log Q_L, log Q_G)
+
+    Returns
+    -------
+    RobustPoint
+
+    Raises
+    ------
+    ValueError
+        unknown regime (the message lists the known ones), bad ranges, or a regime that does
+        not occur within the ranges.
+
+    Notes
+    -----
+    The margin is a minimum of smooth functions, largest where two lines are equally close; the
+    polish (scipy Nelder–Mead, tolerance 1e-8 decade) handles that kink. Between two lines
+    Q_G = c_1 Q_L and Q_G = c_2 Q_L the optimum is the ratio Q_G/Q_L = sqrt(c_1 c_2) with
+    (1 - m)/(1 + m) = sqrt(c_1/c_2), at any Q_L.
+
+    Examples
+    --------
+    >>> from lowgmap.physics.models.boundary import PowerLawBoundary
+    >>> from lowgmap.physics.case import Case, FlowRange
+    >>> from lowgmap.physics.chart.composition import Chart
+    >>> from lowgmap.physics.properties.fluids import FluidPair
+    >>> from lowgmap.physics.geometry.sections import Circle
+    >>> from lowgmap.physics.properties.wetting import Wetting
+    >>> fluid = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
+    >>> case = Case(fluid, Circle(0.01), Wetting(0.0), 1.0, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3))
+    >>> chart = Chart.build(case, [PowerLawBoundary("low", 0.1, 1.0, "a", "b"),
+    ...                            PowerLawBoundary("high", 10.0, 1.0, "b", "c")])
+    >>> rp = robust_point(chart, "b")
+    >>> round(rp.qg / rp.ql, 4), round(rp.margin, 6)     # ratio 1; (1 - m)/(1 + m) = 0.1
+    (1.0, 0.818182)
+    """
+    from scipy.optimize import minimize
+
+    r_idx = regime_index(chart, regime)
+    fr = chart.case.flow_range
+    ql_lo, ql_hi = _check_range("ql_range", ql_range if ql_range is not None else (fr.ql_min, fr.ql_max))
+    qg_lo, qg_hi = _check_range("qg_range", qg_range if qg_range is not None else (fr.qg_min, fr.qg_max))
+    bx = (math.log10(ql_lo), math.log10(ql_hi), math.log10(qg_lo), math.log10(qg_hi))
+    _, g = _geometry_of(chart, bx[:2], bx[2:])
+
+    u = np.linspace(bx[0], bx[1], grid)
+    v = np.linspace(bx[2], bx[3], grid)
+    U, V = np.meshgrid(u, v)
+    U, V = U.ravel(), V.ravel()
+    reg = np.asarray(chart.classify(10.0 ** U, 10.0 ** V))
+    inside = reg == regime
+    if not inside.any():                        # a thin region: try the region polygons' vertices
+        pu, pv = [], []
+        for r in chart.regions:
+            if r.name == regime:
+                pu.append(np.log10(np.asarray(r.polygon_ql)))
+                pv.append(np.log10(np.asarray(r.polygon_qg)))
+                pu.append([float(np.mean(pu[-1]))])
+                pv.append([float(np.mean(pv[-1]))])
+        if pu:
+            U = np.clip(np.concatenate(pu), bx[0], bx[1])
+            V = np.clip(np.concatenate(pv), bx[2], bx[3])
+            reg = np.asarray(chart.classify(10.0 ** U, 10.0 ** V))
+            inside = reg == regime
+    if not inside.any():
+        raise ValueError(f"regime {regime!r} does not occur within Q_L [{ql_lo:.4g}, {ql_hi:.4g}] m^3/s, "
+                         f"Q_G [{qg_lo:.4g}, {qg_hi:.4g}] m^3/s")
+    U, V = U[inside], V[inside]
+    m0, _ = _margins_many(g, U, V, np.full(U.size, r_idx, dtype=np.intp))
+
+    def objective(p):
+        x, y = float(p[0]), float(p[1])
+        out = max(bx[0] - x, x - bx[1], bx[2] - y, y - bx[3], 0.0)
+        if out > 0:
+            return 1.0 + out
+        if str(chart.classify(10.0 ** x, 10.0 ** y)) != regime:
+            return 1.0
+        m, _ = _margins_many(g, np.array([x]), np.array([y]), np.array([r_idx], dtype=np.intp))
+        return -float(m[0])
+
+    order = np.argsort(-m0)
+    chosen: list[int] = []
+    for j in order:
+        if all(abs(U[j] - U[c]) + abs(V[j] - V[c]) > 1e-9 for c in chosen):
+            chosen.append(int(j))
+        if len(chosen) >= starts:
+            break
+    best = (-float(m0[order[0]]), float(U[order[0]]), float(V[order[0]]))
+    du = max((bx[1] - bx[0]) / grid, 1e-6)
+    dv = max((bx[3] - bx[2]) / grid, 1e-6)
+    for j in chosen:
+        p0 = np.array([U[j], V[j]])
+        simplex = np.array([p0, p0 + [0.5 * du, 0.0], p0 + [0.0, 0.5 * dv]])
+        res = minimize(objective, p0, method="Nelder-Mead",
+                       options={"xatol": 1e-8, "fatol": 1e-11, "maxiter": 600, "initial_simplex": simplex})
+        if res.fun < best[0]:
+            best = (float(res.fun), float(res.x[0]), float(res.x[1]))
+    ql, qg = 10.0 ** best[1], 10.0 ** best[2]
+    pm = point_margins(chart, ql, qg)
+    m = pm.symmetric_margin
+    touching = tuple(b.name for b in pm.boundaries
+                     if b.limits_regime and b.margin < MAX_MARGIN and b.margin <= m * (1 + 1e-4) + 1e-9)
+    return RobustPoint(ql, qg, m, touching, regime, (ql_lo, ql_hi), (qg_lo, qg_hi))

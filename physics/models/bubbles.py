@@ -1,0 +1,888 @@
+r"""Bubble sub-models for capillary phase separation in tapering conduits.
+
+The pieces the corner regime chart (:mod:`lowgmap.physics.models.corner`) is composed of, each a plain
+function in SI units that accepts numpy arrays:
+
+* **film thickness** of a long bubble (Bretherton 1961; Aussillous & Quéré 2000);
+* **bubble size at injection**: squeezing law of a T-junction or co-flow injector
+  (Garstecki et al. 2006), equivalent sphere diameter, formation frequency;
+* **spacing and merging**: bubble spacing along the stream from the flow-rate ratio, merging
+  ratio, merged bubble volume;
+* **void fraction, mixture density, residence time** (no-slip mixture);
+* **capillary migration**: force balance on a bubble squeezed in a tapering gap, giving its
+  migration capillary number and speed;
+* **taper path**: the local gap of a section along the bisector of its apex corner toward the
+  open side (:func:`taper_path`), the smallest bubble that reaches the open side
+  (:meth:`TaperPath.reach_diameter`) and the migration time (:func:`migration_time`).
+
+Conventions: SI units, angles in radians; flow ratios r = Q_G/Q_L. In vectorised evaluation a
+point outside the physics domain (a flow rate that is not > 0, a bubble that never reaches the
+open side) gives NaN, as documented per function.
+
+The force balance, its terms and the constants are derived in physics/manual/bubbles.md.
+"""
+from __future__ import annotations
+
+import functools
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from lowgmap.physics.validate import in_range, positive
+
+__all__ = [
+    "BRETHERTON_COEFFICIENT", "AQ_COEFFICIENT", "AQ_DENOMINATOR",
+    "bretherton_film", "aussillous_quere_film",
+    "squeezing_length", "squeezing_volume", "sphere_volume", "equivalent_diameter", "bubble_frequency",
+    "bubble_spacing", "merging_ratio", "merged_volume",
+    "homogeneous_void_fraction", "mixture_density", "residence_time",
+    "migration_capillary_number", "migration_speed",
+    "TaperPath", "taper_path", "migration_time",
+]
+
+#: Bretherton (1961) film coefficient: h/R = 1.3375 Ca^(2/3) (= 0.643 * 3^(2/3)).
+BRETHERTON_COEFFICIENT = 1.3375
+#: Aussillous & Quéré (2000): h/R = 1.34 Ca^(2/3) / (1 + 3.35 Ca^(2/3)).
+AQ_COEFFICIENT = 1.34
+AQ_DENOMINATOR = 3.35
+
+BRETHERTON_1961 = ("F. P. Bretherton, \"The motion of long bubbles in tubes\", J. Fluid Mech. 10(2):166-188, "
+                   "1961. doi:10.1017/S0022112061000160 (DOI from memory)")
+AUSSILLOUS_QUERE_2000 = ("P. Aussillous and D. Quéré, \"Quick deposition of a fluid on the wall of a tube\", "
+                         "Phys. Fluids 12(10):2367-2371, 2000. doi:10.1063/1.1289396 (DOI from memory)")
+GARSTECKI_2006 = ("P. Garstecki, M. J. Fuerstman, H. A. Stone and G. M. Whitesides, \"Formation of droplets and "
+                  "bubbles in a microfluidic T-junction - scaling and mechanism of break-up\", Lab Chip "
+                  "6:437-446, 2006. doi:10.1039/b510841a (DOI from memory)")
+REYSSAT_2014 = ("E. Reyssat, \"Drops and bubbles in wedges\", J. Fluid Mech. 748:641-662, 2014. "
+                "doi:10.1017/jfm.2014.200 (DOI from memory)")
+
+
+def _arr(x):
+    return np.asarray(x, dtype=float)
+
+
+def _out(x):
+    x = np.asarray(x, dtype=float)
+    return float(x) if x.ndim == 0 else x
+
+
+def _flows(ql, qg):
+    """Broadcast flow rates; entries that are not finite and > 0 become NaN (Q_G may be 0)."""
+    ql, qg = np.broadcast_arrays(_arr(ql), _arr(qg))
+    bad = ~(np.isfinite(ql) & np.isfinite(qg) & (ql > 0) & (qg >= 0))
+    if np.any(bad):
+        ql = np.where(bad, np.nan, ql)
+        qg = np.where(bad, np.nan, qg)
+    return ql, qg
+
+
+# =============================================================================================
+# film thickness
+# =============================================================================================
+def bretherton_film(ca):
+    r"""Film thickness left by a long bubble moving in a tube, low capillary number.
+
+    .. math:: \frac{h}{R} = 1.3375\, Ca^{2/3}, \qquad Ca = \mu U / \sigma
+
+    Parameters
+    ----------
+    ca : float or array   capillary number of the bubble [-], >= 0
+
+    Returns
+    -------
+    float or array   film thickness over tube radius h/R [-] (NaN where Ca < 0)
+
+    Notes
+    -----
+    Asymptotic result for Ca -> 0 (in practice Ca below about 1e-3); clean interfaces, no inertia.
+    For a plane gap R is the half-gap.
+
+    References
+    ----------
+    F. P. Bretherton, J. Fluid Mech. 10(2):166-188, 1961.
+
+    Examples
+    --------
+    >>> round(bretherton_film(1e-3), 6)
+    0.013375
+    """
+    ca = _arr(ca)
+    with np.errstate(invalid="ignore"):
+        out = np.where(ca >= 0, BRETHERTON_COEFFICIENT * np.abs(ca) ** (2.0 / 3.0), np.nan)
+    return _out(out)
+
+
+def aussillous_quere_film(ca):
+    r"""Film thickness left by a long bubble, interpolation valid up to capillary numbers of order 1.
+
+    .. math:: \frac{h}{R} = \frac{1.34\, Ca^{2/3}}{1 + 3.35\, Ca^{2/3}}
+
+    Parameters
+    ----------
+    ca : float or array   capillary number [-], >= 0
+
+    Returns
+    -------
+    float or array   h/R [-] (NaN where Ca < 0)
+
+    Notes
+    -----
+    Tends to Bretherton's law at small Ca and to a third of the radius at large Ca (viscous
+    regime, negligible inertia).
+
+    References
+    ----------
+    P. Aussillous and D. Quéré, Phys. Fluids 12(10):2367-2371, 2000.
+
+    Examples
+    --------
+    >>> round(aussillous_quere_film(1e-2), 5)
+    0.05383
+    """
+    ca = _arr(ca)
+    with np.errstate(invalid="ignore"):
+        c23 = np.abs(ca) ** (2.0 / 3.0)
+        out = np.where(ca >= 0, AQ_COEFFICIENT * c23 / (1.0 + AQ_DENOMINATOR * c23), np.nan)
+    return _out(out)
+
+
+# =============================================================================================
+# bubble size at injection
+# =============================================================================================
+def squeezing_length(ql, qg, a=1.0):
+    r"""Bubble length over channel width at a T-junction in the squeezing regime.
+
+    .. math:: \frac{L}{w} = 1 + a\,\frac{Q_G}{Q_L}
+
+    Parameters
+    ----------
+    ql, qg : float or array   liquid and gas flow rates [m^3/s] (Q_G may be 0)
+    a : float                 coefficient of order 1 set by the junction geometry [-], >= 0
+
+    Returns
+    -------
+    float or array   L/w [-] (NaN where Q_L <= 0 or Q_G < 0)
+
+    Notes
+    -----
+    Squeezing regime: the emerging bubble blocks the channel and is pinched off by the upstream
+    liquid pressure; valid at low capillary number of the continuous phase (about Ca < 1e-2, from
+    memory). The same scaling is used here for a co-flow injector.
+
+    References
+    ----------
+    P. Garstecki, M. J. Fuerstman, H. A. Stone and G. M. Whitesides, Lab Chip 6:437-446, 2006.
+
+    Examples
+    --------
+    >>> squeezing_length(1e-6, 5e-7, a=1.0)
+    1.5
+    """
+    a = in_range("a", a, 0.0, math.inf)
+    ql, qg = _flows(ql, qg)
+    return _out(1.0 + a * qg / ql)
+
+
+def squeezing_volume(ql, qg, width, height=None, a=1.0):
+    r"""Bubble volume from the squeezing law: a plug filling the injector channel.
+
+    .. math:: V = w\, h_c\, L = w^2 h_c \left(1 + a\,\frac{Q_G}{Q_L}\right)
+
+    Parameters
+    ----------
+    ql, qg : float or array   flow rates [m^3/s]
+    width : float             injector channel width w [m], > 0
+    height : float, optional  injector channel height h_c [m] (default: w, a square channel)
+    a : float                 squeezing coefficient [-]
+
+    Returns
+    -------
+    float or array   bubble volume V [m^3]
+
+    Notes
+    -----
+    The plug is taken as a box w x h_c x L; its rounded ends and corner gutters are neglected.
+
+    References
+    ----------
+    Garstecki et al. (2006), Lab Chip 6:437-446 (length law).
+
+    Examples
+    --------
+    >>> round(squeezing_volume(1e-6, 1e-6, 1e-3) * 1e9, 9)     # 1 mm^3 x (1 + 1)
+    2.0
+    """
+    w = positive("width", width, "m")
+    hc = w if height is None else positive("height", height, "m")
+    return _out(w * w * hc * _arr(squeezing_length(ql, qg, a)))
+
+
+def sphere_volume(diameter):
+    r"""Volume of a sphere of diameter d.
+
+    .. math:: V = \pi d^3 / 6
+
+    Parameters
+    ----------
+    diameter : float or array   d [m]
+
+    Returns
+    -------
+    float or array   V [m^3]
+
+    Examples
+    --------
+    >>> round(sphere_volume(2.0), 6)
+    4.18879
+    """
+    return _out(math.pi * _arr(diameter) ** 3 / 6.0)
+
+
+def equivalent_diameter(volume):
+    r"""Diameter of the sphere with the bubble's volume.
+
+    .. math:: d = (6 V / \pi)^{1/3}
+
+    Parameters
+    ----------
+    volume : float or array   bubble volume V [m^3], >= 0 (NaN otherwise)
+
+    Returns
+    -------
+    float or array   d [m]
+
+    Examples
+    --------
+    >>> round(equivalent_diameter(math.pi / 6.0), 12)
+    1.0
+    """
+    v = _arr(volume)
+    with np.errstate(invalid="ignore"):
+        out = np.where(v >= 0, np.cbrt(6.0 * np.abs(v) / math.pi), np.nan)
+    return _out(out)
+
+
+def bubble_frequency(qg, volume):
+    r"""Bubble formation frequency at the injector.
+
+    .. math:: f = Q_G / V
+
+    Parameters
+    ----------
+    qg : float or array       gas flow rate [m^3/s]
+    volume : float or array   bubble volume [m^3], > 0
+
+    Returns
+    -------
+    float or array   f [1/s]
+
+    Examples
+    --------
+    >>> round(bubble_frequency(1e-7, 1e-9), 9)
+    100.0
+    """
+    return _out(_arr(qg) / _arr(volume))
+
+
+def bubble_spacing(ql, qg, volume, area):
+    r"""Distance between consecutive bubbles along the stream (centre to centre).
+
+    Bubbles formed at frequency f = Q_G/V travel with the mixture at j = (Q_L + Q_G)/A, so
+
+    .. math:: \lambda = \frac{j}{f} = \frac{V (Q_L + Q_G)}{A\, Q_G}
+              = \frac{V}{A}\left(1 + \frac{1}{r}\right), \qquad r = Q_G / Q_L
+
+    Parameters
+    ----------
+    ql, qg : float or array   flow rates [m^3/s]
+    volume : float or array   bubble volume [m^3]
+    area : float              conduit flow area A [m^2]
+
+    Returns
+    -------
+    float or array   lambda [m] (inf where Q_G = 0; NaN where Q_L <= 0)
+
+    Notes
+    -----
+    No slip between bubbles and liquid (low gravity, no buoyant drift).
+
+    Examples
+    --------
+    >>> round(bubble_spacing(1e-6, 1e-6, 1e-9, 1e-5), 9)   # V/A (1 + 1)
+    0.0002
+    """
+    area = positive("area", area, "m^2")
+    ql, qg = _flows(ql, qg)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        out = _arr(volume) * (ql + qg) / (area * qg)
+    return _out(out)
+
+
+def merging_ratio(diameter, spacing, merge_length_ratio=2.0):
+    r"""Merging ratio: bubbles merge where it exceeds 1.
+
+    .. math:: N = k_m\, d / \lambda
+
+    Parameters
+    ----------
+    diameter : float or array   bubble (equivalent) diameter d [m]
+    spacing : float or array    bubble spacing lambda [m]
+    merge_length_ratio : float  k_m [-]: bubbles closer than k_m d merge
+
+    Returns
+    -------
+    float or array   N [-] (0 for an infinite spacing)
+
+    Notes
+    -----
+    Our closure: bubbles whose centres are closer than k_m diameters touch while they deform and
+    jostle, and merge. N also counts the bubbles that one merged bubble gathers
+    (:func:`merged_volume`).
+
+    Examples
+    --------
+    >>> merging_ratio(1e-3, 4e-3, 2.0)
+    0.5
+    """
+    k = positive("merge_length_ratio", merge_length_ratio)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return _out(k * _arr(diameter) / _arr(spacing))
+
+
+def merged_volume(volume, diameter, spacing, merge_length_ratio=2.0):
+    r"""Volume of the bubbles after merging: the gas within a stretch of k_m d gathers in one bubble.
+
+    .. math:: V_m = V \max(1, N), \qquad N = k_m d / \lambda
+
+    Parameters
+    ----------
+    volume : float or array     injected bubble volume V [m^3]
+    diameter : float or array   its equivalent diameter d [m]
+    spacing : float or array    spacing lambda [m]
+    merge_length_ratio : float  k_m [-]
+
+    Returns
+    -------
+    float or array   V_m [m^3]
+
+    Notes
+    -----
+    Our closure, continuous at the merging onset N = 1; V_m = k_m d A alpha with alpha the
+    no-slip void fraction. Larger merged bubbles are more confined and migrate faster.
+
+    Examples
+    --------
+    >>> merged_volume(1e-9, 1e-3, 1e-3, 4.0)
+    4e-09
+    """
+    n = _arr(merging_ratio(diameter, spacing, merge_length_ratio))
+    return _out(_arr(volume) * np.maximum(1.0, np.nan_to_num(n, nan=1.0, posinf=np.inf)))
+
+
+# =============================================================================================
+# void fraction, mixture, residence time
+# =============================================================================================
+def homogeneous_void_fraction(ql, qg, c0=1.0):
+    r"""Void fraction of a bubbly mixture without buoyant drift (drift-flux form).
+
+    .. math:: \alpha = \frac{Q_G}{C_0 (Q_L + Q_G)}
+
+    Parameters
+    ----------
+    ql, qg : float or array   flow rates [m^3/s]
+    c0 : float                distribution parameter [-] (1: no slip)
+
+    Returns
+    -------
+    float or array   alpha [-]
+
+    References
+    ----------
+    Drift-flux relation with zero drift velocity, as used by Dukler et al. (1988),
+    Int. J. Multiphase Flow 14(4):389-400.
+
+    Examples
+    --------
+    >>> homogeneous_void_fraction(3.0, 1.0)
+    0.25
+    """
+    c0 = positive("c0", c0)
+    ql, qg = _flows(ql, qg)
+    return _out(qg / (c0 * (ql + qg)))
+
+
+def mixture_density(ql, qg, rho_l, rho_g):
+    r"""Density of a no-slip bubbly mixture.
+
+    .. math:: \rho_m = \frac{\rho_L Q_L + \rho_G Q_G}{Q_L + Q_G}
+
+    Parameters
+    ----------
+    ql, qg : float or array   flow rates [m^3/s]
+    rho_l, rho_g : float      liquid and gas densities [kg/m^3]
+
+    Returns
+    -------
+    float or array   rho_m [kg/m^3]
+
+    Examples
+    --------
+    >>> mixture_density(1.0, 1.0, 1000.0, 2.0)
+    501.0
+    """
+    ql, qg = _flows(ql, qg)
+    return _out((rho_l * ql + rho_g * qg) / (ql + qg))
+
+
+def residence_time(length, area, ql, qg):
+    r"""Time a bubble spends in the conduit, moving with the mean liquid speed in the liquid-filled area.
+
+    .. math:: t_\mathrm{res} = \frac{l}{\bar u_L}, \qquad
+              \bar u_L = \frac{Q_L}{A (1 - \alpha)} = \frac{Q_L + Q_G}{A}
+              \quad (\alpha = Q_G/(Q_L + Q_G))
+
+    Parameters
+    ----------
+    length : float   conduit length l [m]
+    area : float     flow area A [m^2]
+    ql, qg : float or array   flow rates [m^3/s]
+
+    Returns
+    -------
+    float or array   t_res [s]
+
+    Notes
+    -----
+    No-slip void fraction; the gas fraction at the inlet is used all along (bubbles that leave
+    on the way would slow the liquid down and lengthen the time: conservative).
+
+    Examples
+    --------
+    >>> round(residence_time(0.1, 1e-5, 1e-6, 0.0), 12)
+    1.0
+    """
+    length = positive("length", length, "m")
+    area = positive("area", area, "m^2")
+    ql, qg = _flows(ql, qg)
+    return _out(length * area / (ql + qg))
+
+
+# =============================================================================================
+# capillary migration
+# =============================================================================================
+def migration_capillary_number(taper, contact_angle=0.0, gap_over_radius=0.0, laplace_gap=0.0, *,
+                               capillary_coefficient=2.0, hele_shaw_drag=12.0, film_drag=1.0, form_drag=1.0):
+    r"""Capillary number Ca = mu U / sigma of a bubble squeezed in a tapering gap, from a force balance.
+
+    Driving force (capillary pressure difference across the bubble) against three drags: Hele-Shaw
+    flow of the liquid round the bubble, shear in the wetting films between bubble and walls
+    (thickness from Aussillous & Quéré 2000 with the half-gap as radius), and form drag:
+
+    .. math::
+
+        c_\mathrm{cap}\,\sigma\cos\theta\,\frac{V h'}{h^2}
+        = c_\mathrm{HS}\,\frac{\mu U V}{h^2}
+        + c_f\,\frac{4 \mu U V}{h^2\, f(Ca)}
+        + C_D\,\tfrac12 \rho U^2\, 2 a h,
+        \qquad f(Ca) = \frac{1.34\, Ca^{2/3}}{1 + 3.35\, Ca^{2/3}}
+
+    Dividing by :math:`\sigma V / h^2` (V = pi a^2 h for a flattened bubble of footprint radius a),
+    with :math:`y = Ca^{1/3}`:
+
+    .. math:: \frac{C_D}{\pi}\frac{h}{a} La_h\, y^6 + (c_\mathrm{HS} + 10\, c_f)\, y^3
+              + \frac{4 c_f}{1.34}\, y = c_\mathrm{cap} \cos\theta\, h',
+              \qquad La_h = \frac{\rho \sigma h}{\mu^2}
+
+    which has one positive root (solved by Newton from an upper bound).
+
+    Parameters
+    ----------
+    taper : float or array            dh/ds, growth of the local gap along the path [-]
+    contact_angle : float or array    theta [rad]
+    gap_over_radius : float or array  h/a, local gap over footprint radius [-] (0: no form drag)
+    laplace_gap : float or array      La_h = rho sigma h / mu^2 [-] (0: no inertia)
+    capillary_coefficient : float     c_cap [-] (default 2)
+    hele_shaw_drag : float            c_HS [-] (default 12)
+    film_drag : float                 c_f [-], 1 = films sheared over both faces, 0 = clean interface
+    form_drag : float                 C_D [-]
+
+    Returns
+    -------
+    float or array   Ca [-]; 0 where the drive is not positive (taper <= 0 or theta >= 90 deg)
+
+    Notes
+    -----
+    Derivation, assumptions and the sources of each term in physics/manual/bubbles.md. The order of
+    the driving force is that of the reference list (section 4, after Reyssat 2014); c_HS = 12 is
+    our derivation for Darcy flow round a circular flattened bubble. All coefficients are
+    uncertain and meant to be calibrated.
+
+    References
+    ----------
+    E. Reyssat, J. Fluid Mech. 748:641-662, 2014 (bubbles move to the wide end of a wedge).
+    P. Aussillous and D. Quéré, Phys. Fluids 12(10):2367-2371, 2000 (film thickness).
+
+    Examples
+    --------
+    Hele-Shaw drag alone: Ca = c_cap h' / c_HS:
+
+    >>> round(migration_capillary_number(0.5, film_drag=0.0, form_drag=0.0), 6)
+    0.083333
+    """
+    c_cap = in_range("capillary_coefficient", capillary_coefficient, 0.0, math.inf)
+    c_hs = in_range("hele_shaw_drag", hele_shaw_drag, 0.0, math.inf)
+    c_f = in_range("film_drag", film_drag, 0.0, math.inf)
+    c_d = in_range("form_drag", form_drag, 0.0, math.inf)
+    if c_hs == 0 and c_f == 0 and c_d == 0:
+        raise ValueError("at least one of hele_shaw_drag, film_drag, form_drag must be > 0")
+    taper, theta, hr, la = np.broadcast_arrays(_arr(taper), _arr(contact_angle), _arr(gap_over_radius),
+                                               _arr(laplace_gap))
+    drive = c_cap * np.cos(theta) * taper
+    k6 = (c_d / math.pi) * hr * la
+    k3 = c_hs + c_f * 4.0 * AQ_DENOMINATOR / AQ_COEFFICIENT
+    k1 = c_f * 4.0 / AQ_COEFFICIENT
+    pos = np.isfinite(drive) & (drive > 0)
+    d = np.where(pos, drive, 1.0)
+    big = np.inf
+    with np.errstate(all="ignore"):
+        y = np.full(d.shape, big)
+        y = np.minimum(y, np.where(k6 > 0, (d / np.where(k6 > 0, k6, 1.0)) ** (1.0 / 6.0), big))
+        if k3 > 0:
+            y = np.minimum(y, np.cbrt(d / k3))
+        if k1 > 0:
+            y = np.minimum(y, d / k1)
+    # Newton from above on a convex increasing function: monotone convergence
+    with np.errstate(all="ignore"):
+        for _ in range(60):
+            fy = k6 * y**6 + k3 * y**3 + k1 * y - d
+            dfy = 6.0 * k6 * y**5 + 3.0 * k3 * y**2 + k1
+            step = np.where(np.isfinite(y), fy / dfy, 0.0)
+            y = y - step
+            if np.all(np.abs(step) <= 1e-14 * np.abs(y)):
+                break
+        out = np.where(pos, y**3, 0.0)
+    out = np.where(np.isfinite(drive), out, np.nan)
+    return _out(out)
+
+
+def migration_speed(sigma, mu, ca):
+    r"""Migration speed from the migration capillary number.
+
+    .. math:: U = \sigma\, Ca / \mu
+
+    Parameters
+    ----------
+    sigma : float   surface tension [N/m]
+    mu : float      liquid viscosity [Pa s]
+    ca : float or array   capillary number [-]
+
+    Returns
+    -------
+    float or array   U [m/s]
+
+    Examples
+    --------
+    >>> round(migration_speed(0.02, 0.01, 0.005), 6)
+    0.01
+    """
+    sigma = positive("sigma", sigma, "N/m")
+    mu = positive("mu", mu, "Pa s")
+    return _out(sigma * _arr(ca) / mu)
+
+
+# =============================================================================================
+# taper path: local gap along the bisector of the apex corner
+# =============================================================================================
+_PATH_POINTS = 401
+
+
+@dataclass(frozen=True, eq=False)
+class TaperPath:
+    """The local gap of an open section along the bisector of its apex corner, up to the open side.
+
+    Attributes
+    ----------
+    corner_index : int    vertex index of the apex corner in the section's outline
+    half_angle : float    apex corner half-angle alpha [rad]
+    length : float        path length S from the apex to the open side [m]
+    area : float          section flow area A [m^2]
+    s : ndarray           positions along the path from the apex [m] (0 .. S)
+    gap : ndarray         local gap h(s) = 2 x distance to the nearest wall [m] (the diameter of
+                          the largest sphere centred there)
+    taper : ndarray       dh/ds [-]
+    open_distance : ndarray   distance to the open side [m]
+
+    For a V-groove or a wedge channel h = 2 s sin(alpha) and the open distance is S - s exactly.
+    """
+
+    corner_index: int
+    half_angle: float
+    length: float
+    area: float
+    s: np.ndarray
+    gap: np.ndarray
+    taper: np.ndarray
+    open_distance: np.ndarray
+
+    # ---- along the path -------------------------------------------------------------------
+    def _sub(self, s_inj):
+        """Arrays from s_inj to the first local maximum of the gap after it (where a bubble is trapped)."""
+        s, h, od = self.s, self.gap, self.open_distance
+        i = int(np.searchsorted(s, s_inj, side="right"))
+        ss = np.concatenate([[s_inj], s[i:]])
+        hh = np.concatenate([[np.interp(s_inj, s, h)], h[i:]])
+        oo = np.concatenate([[np.interp(s_inj, s, od)], od[i:]])
+        dec = np.nonzero(np.diff(hh) <= 0)[0]
+        end = int(dec[0]) + 1 if dec.size else len(ss)
+        return ss, hh, oo, end
+
+    def travel(self, diameter, injection=0.5, confinement_ratio=1.0):
+        r"""Where a bubble injected at s_inj = injection x S is pushed, and whether it reaches the open side.
+
+        .. math::
+
+            s_\mathrm{stop} = \min\{s \ge s_\mathrm{inj} : k_c h(s) \ge d \text{ or } h'(s) \le 0\}, \quad
+            s_\mathrm{touch} = \min\{s \ge s_\mathrm{inj} : \mathrm{dist}_\mathrm{open}(s) \le d/2\}
+
+        The bubble reaches the open side if it touches it at injection, or if it is confined there
+        (d > k_c h(s_inj)) and :math:`s_\mathrm{touch} \le s_\mathrm{stop}`.
+
+        Parameters
+        ----------
+        diameter : float or array   bubble diameter d [m]
+        injection : float           s_inj / S, in [0, 1)
+        confinement_ratio : float   k_c [-]: the bubble is pushed while d > k_c h
+
+        Returns
+        -------
+        (reaches, s_touch, touches_at_injection) : bool array, float array [m], bool array
+        """
+        d = np.atleast_1d(_arr(diameter))
+        s_inj = float(injection) * self.length
+        ss, hh, oo, end = self._sub(s_inj)
+        touch0 = 0.5 * d >= oo[0]
+        # first s where the open distance falls to d/2 (running minimum, reversed to increasing)
+        om = np.minimum.accumulate(oo) - 1e-15 * self.length * np.arange(len(oo))
+        s_touch = np.interp(0.5 * d, om[::-1], ss[::-1])
+        s_touch = np.where(0.5 * d >= om[-1], s_touch, np.inf)
+        hs, sh = hh[:end], ss[:end]
+        hs = hs + 1e-15 * self.length * np.arange(len(hs))
+        s_stop = np.interp(d / confinement_ratio, hs, sh)
+        confined = d > confinement_ratio * hh[0]
+        reaches = touch0 | (confined & (s_touch <= s_stop * (1.0 + 1e-12)))
+        return reaches, np.where(touch0, s_inj, s_touch), touch0
+
+    def reach_diameter(self, injection=0.5, confinement_ratio=1.0) -> float:
+        r"""Smallest bubble diameter that is pushed all the way to the open side [m].
+
+        For a V-groove or wedge of depth S and half-angle alpha:
+
+        .. math:: d_\mathrm{reach} = \min\left(\frac{2 k_c S \sin\alpha}{1 + k_c \sin\alpha},\;
+                  2 (S - s_\mathrm{inj})\right)
+
+        (with k_c = 1 the first term is the inscribed-circle diameter of the section).
+
+        Parameters
+        ----------
+        injection : float          s_inj / S, in [0, 1)
+        confinement_ratio : float  k_c [-]
+
+        Returns
+        -------
+        float   d_reach [m] (found by bisection on :meth:`travel`, which is exact for straight walls)
+        """
+        return _reach_diameter(self, float(injection), float(confinement_ratio))
+
+
+@functools.lru_cache(maxsize=256)
+def _reach_diameter(path, injection, k_c):
+    s_inj = injection * path.length
+    hi = 2.0 * float(np.interp(s_inj, path.s, path.open_distance))
+    if hi <= 0:
+        return 0.0
+    lo = 0.0
+    for _ in range(80):
+        mid = 0.5 * (lo + hi)
+        if bool(path.travel(mid, injection, k_c)[0][0]):
+            hi = mid
+        else:
+            lo = mid
+        if hi - lo <= 1e-13 * hi:
+            break
+    return hi
+
+
+def _bisector(v, i):
+    n = len(v)
+    p, a, b = v[i], v[(i - 1) % n], v[(i + 1) % n]
+    e1 = (a - p) / np.linalg.norm(a - p)
+    e2 = (b - p) / np.linalg.norm(b - p)
+    d = e1 + e2
+    return d / np.linalg.norm(d)
+
+
+def taper_path(section, n: int = _PATH_POINTS) -> TaperPath | None:
+    r"""Local gap along the bisector of the section's apex corner, from the apex to the open side.
+
+    .. math:: h(s) = 2\,\mathrm{dist}(\mathbf p(s), \text{walls}), \qquad
+              \mathbf p(s) = \mathbf v_\mathrm{apex} + s\,\mathbf e_\mathrm{bisector}
+
+    Parameters
+    ----------
+    section : Section   an open section (:class:`~lowgmap.physics.geometry.sections.Groove`,
+        :class:`~lowgmap.physics.geometry.sections.WedgeChannel`, :class:`~lowgmap.physics.geometry.sections.Polygon` with open edges)
+    n : int             points along the path (default 401)
+
+    Returns
+    -------
+    TaperPath or None
+        None when the section has no wall corner whose bisector leaves the section through an open
+        edge (closed sections, slots whose corners all face a wall).
+
+    Notes
+    -----
+    The apex is the wall corner whose bisector reaches an open edge farthest from the corner (the
+    deepest taper); ties go to the sharper corner. Distances are computed with shapely. For a
+    V-groove or wedge channel h = 2 s sin(alpha) exactly.
+
+    Examples
+    --------
+    >>> import math
+    >>> from lowgmap.physics.geometry.sections import Groove
+    >>> p = taper_path(Groove(math.radians(30.0), 0.004))
+    >>> round(p.length * 1e3, 9), round(float(p.gap[-1]) * 1e3, 9)      # depth; 2 d sin(30 deg)
+    (4.0, 4.0)
+    """
+    try:
+        return _taper_path(section, int(n))
+    except TypeError:                      # unhashable section: no cache
+        return _taper_path.__wrapped__(section, int(n))
+
+
+@functools.lru_cache(maxsize=64)
+def _taper_path(section, n):
+    import shapely
+    from shapely.geometry import LineString, MultiLineString
+
+    if not getattr(section, "is_open", False):
+        return None
+    v = np.asarray(section.outline(), dtype=float)
+    m = len(v)
+    opened = set(section.open_edges())
+    edges = [(k, v[k], v[(k + 1) % m]) for k in range(m)]
+    walls = MultiLineString([LineString([a, b]) for k, a, b in edges if k not in opened])
+    opens = MultiLineString([LineString([a, b]) for k, a, b in edges if k in opened])
+    span = float(np.max(v.max(axis=0) - v.min(axis=0)))
+    best = None
+    for c in section.corners:
+        i = c.index
+        d = _bisector(v, i)
+        p0 = v[i]
+        ray = LineString([p0 + 1e-9 * span * d, p0 + 4.0 * span * d])
+        boundary = MultiLineString([LineString([a, b]) for _, a, b in edges])
+        hit = ray.intersection(boundary)
+        if hit.is_empty:
+            continue
+        pts = [np.array(g.coords[0]) for g in getattr(hit, "geoms", [hit]) if g.geom_type == "Point"]
+        pts += [np.array(cc) for g in getattr(hit, "geoms", [hit]) if g.geom_type != "Point" for cc in g.coords]
+        if not pts:
+            continue
+        dist = [float(np.dot(q - p0, d)) for q in pts]
+        k = int(np.argmin(dist))
+        q, S = pts[k], dist[k]
+        if opens.is_empty or opens.distance(shapely.Point(q)) > 1e-9 * span:
+            continue                      # the bisector meets a wall first
+        key = (S, -c.half_angle)
+        if best is None or key > best[0]:
+            best = (key, i, c.half_angle, p0, d, S)
+    if best is None:
+        return None
+    _, i, alpha, p0, d, S = best
+    s = np.linspace(0.0, S, n)
+    pts = shapely.points(p0[0] + s * d[0], p0[1] + s * d[1])
+    gap = 2.0 * shapely.distance(pts, walls)
+    od = shapely.distance(pts, opens)
+    taper = np.gradient(gap, s)
+    ro = []
+    for a in (s, gap, taper, od):
+        a = np.array(a, dtype=float)
+        a.flags.writeable = False
+        ro.append(a)
+    return TaperPath(int(i), float(alpha), float(S), float(section.area), *ro)
+
+
+def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_ratio=1.0, rho, mu, sigma,
+                   contact_angle=0.0, capillary_coefficient=2.0, hele_shaw_drag=12.0, film_drag=1.0,
+                   form_drag=1.0):
+    r"""Time a squeezed bubble takes to migrate from its injection point to the open side.
+
+    .. math:: t_\mathrm{mig} = \int_{s_\mathrm{inj}}^{s_\mathrm{touch}} \frac{\mathrm{d}s}{U(s)},
+              \qquad U = \frac{\sigma}{\mu}\, Ca\!\left(h'(s), \theta, \frac{h}{a}, La_h\right)
+
+    with Ca from :func:`migration_capillary_number`, footprint radius
+    :math:`a = \max(d/2, \sqrt{V/(\pi h)})` and :math:`La_h = \rho\sigma h/\mu^2`.
+
+    Parameters
+    ----------
+    path : TaperPath             from :func:`taper_path`
+    diameter : float or array    bubble diameter d [m]
+    injection : float            s_inj / S, in [0, 1)
+    confinement_ratio : float    k_c [-]
+    rho, mu, sigma : float       liquid density [kg/m^3], viscosity [Pa s], surface tension [N/m]
+    contact_angle : float        theta [rad]
+    capillary_coefficient, hele_shaw_drag, film_drag, form_drag : float   see
+        :func:`migration_capillary_number`
+
+    Returns
+    -------
+    float or array   t_mig [s]; 0 where the bubble touches the open side at injection, NaN where it
+    does not reach the open side (too small: it stops where the gap equals its size)
+
+    Notes
+    -----
+    Quasi-steady migration; the bubble keeps its volume; the liquid around it is at rest on
+    average across the section (the stream carries bubble and liquid along the conduit together).
+    Trapezoidal integration on the path grid.
+
+    Examples
+    --------
+    Groove of half-angle 30 deg: h' = 1; Hele-Shaw drag alone gives U = sigma c_cap/(c_HS mu):
+
+    >>> import math
+    >>> from lowgmap.physics.geometry.sections import Groove
+    >>> p = taper_path(Groove(math.radians(30.0), 0.004))
+    >>> t = migration_time(p, 0.003, injection=0.25, rho=1000.0, mu=0.01, sigma=0.02,
+    ...                    film_drag=0.0, form_drag=0.0)
+    >>> round(t / ((0.004 - 0.0015 - 0.001) / (0.02 * 2 / (12 * 0.01))), 9)
+    1.0
+    """
+    d = np.atleast_1d(_arr(diameter)).ravel()
+    scalar = np.ndim(diameter) == 0
+    reaches, s_touch, touch0 = path.travel(d, injection, confinement_ratio)
+    s_inj = float(injection) * path.length
+    s, h, taper = path.s, path.gap, path.taper
+    V = math.pi * d[:, None] ** 3 / 6.0
+    hh = np.maximum(h[None, :], 1e-12 * path.length)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        a = np.maximum(0.5 * d[:, None], np.sqrt(V / (math.pi * hh)))
+        ca = migration_capillary_number(taper[None, :], contact_angle, hh / a, rho * sigma * hh / mu**2,
+                                        capillary_coefficient=capillary_coefficient,
+                                        hele_shaw_drag=hele_shaw_drag, film_drag=film_drag, form_drag=form_drag)
+        inv_u = mu / (sigma * np.maximum(np.atleast_2d(ca), 1e-300))
+    inv_u = np.minimum(inv_u, 1e300)
+    cum = np.concatenate([np.zeros((len(d), 1)), np.cumsum(0.5 * (inv_u[:, 1:] + inv_u[:, :-1]) * np.diff(s), axis=1)],
+                         axis=1)
+
+    def at(sq):
+        sq = np.clip(sq, s[0], s[-1])
+        i = np.clip(np.searchsorted(s, sq, side="right") - 1, 0, len(s) - 2)
+        w = (sq - s[i]) / (s[i + 1] - s[i])
+        rows = np.arange(len(d))
+        c0, c1 = cum[rows, i], cum[rows, i + 1]
+        return c0 + w * (c1 - c0)
+
+    st = np.where(np.isfinite(s_touch), s_touch, s[-1])
+    t = at(st) - at(np.full(len(d), s_inj))
+    t = np.where(touch0, 0.0, np.where(reaches, np.maximum(t, 0.0), np.nan))
+    return float(t[0]) if scalar else t

@@ -1,0 +1,958 @@
+r"""Bubble transport in interior-corner and open-channel conduits: boundary models and regime scheme.
+
+A passive phase separator in low gravity: bubbly liquid flows along a conduit whose section tapers
+toward an open side (V-groove, open wedge channel, polygon with an open slot). A bubble larger than
+the local gap is squeezed by the walls; the difference in capillary pressure between its narrow and
+wide ends pushes it toward the wide side, where it meets the free surface and leaves the liquid.
+Whether it gets there before the stream carries it out of the conduit, whether bubbles merge on the
+way, whether the gas becomes continuous, and whether the channel can carry the liquid at all, are
+the five boundaries of this family. Each is a :class:`~lowgmap.physics.models.boundary.BoundaryModel` in the
+registry, composed of the sub-models of :mod:`lowgmap.physics.models.bubbles` and :mod:`lowgmap.physics.models.open_channel`:
+
+=============================  ==============================================================
+``corner_confinement``         the bubble (merged when bubbles merge) is large enough to be
+                               pushed all the way to the open side: d = d_reach
+``corner_separation``          migration time to the open side x safety factor = residence time
+``corner_merging``             bubble spacing = k_m x bubble diameter
+``corner_blow_through``        no-slip void fraction = alpha_c (gas continuous to the outlet)
+``open_channel_ingestion``     liquid (or bubbly mixture) flow = critical flow rate of the open
+                               channel (free surface collapses, gas drawn into the outlet)
+=============================  ==============================================================
+
+Together they form a :class:`~lowgmap.physics.chart.composition.PartitionScheme` (:data:`SCHEME`) with six regimes:
+
+* gas ingestion above the critical flow (first), else gas blow-through above alpha_c, else
+* bubbles isolated or merging (merging line) x separated (confined enough *and* migration faster
+  than the stream) or carried through.
+
+The regimes that separate all the gas carry ``separates_gas=True`` (:attr:`Chart.separates_gas`).
+
+Every line depends on the flows only through r = Q_G/Q_L and the residence time, so each is either a
+line of constant ratio (confinement, merging, blow-through) or a curve Q_L = F(r) (separation,
+ingestion); the models draw themselves as such (``line_pieces``).
+
+Guard: when the Concus–Finn condition fails at the apex corner (theta + alpha >= 90 deg) the
+liquid is not drawn into the corner, bubbles are not pushed, and none of these models applies; the
+chart then says so instead of drawing lines.
+
+All constants are exposed (:class:`~lowgmap.physics.models.boundary.Constant`); the defaults are order-of-magnitude
+values or design inputs, meant to be calibrated against test points. Theory manual:
+physics/manual/bubbles.md.
+"""
+from __future__ import annotations
+
+import functools
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.interpolate import PchipInterpolator
+from scipy.optimize import brentq
+
+from lowgmap.physics.models import bubbles as bb
+from lowgmap.physics.models.boundary import BoundaryModel, Constant, register
+from lowgmap.physics.chart.composition import LinePiece, PartitionScheme, RegimeInfo
+from lowgmap.physics.properties.groups import positive_flows
+
+__all__ = [
+    "ISOLATED_CARRIED", "ISOLATED_SEPARATED", "MERGING_SEPARATED", "MERGING_CARRIED", "BLOW_THROUGH",
+    "INGESTION", "REGIMES", "SCHEME", "CORNER_MODEL_NAMES",
+    "CornerGeometry", "corner_geometry", "open_channel_of", "bubble_state", "separation_liquid_flow",
+    "ingestion_liquid_flow",
+    "CornerConfinement", "CornerSeparation", "CornerMerging", "CornerBlowThrough", "OpenChannelIngestion",
+    "CORNER_CONFINEMENT", "CORNER_SEPARATION", "CORNER_MERGING", "CORNER_BLOW_THROUGH", "OPEN_CHANNEL_INGESTION",
+]
+
+# Regime names (plain descriptive words of our own) ---------------------------------------------
+ISOLATED_CARRIED = "isolated bubbles carried through"
+ISOLATED_SEPARATED = "isolated bubbles separated"
+MERGING_SEPARATED = "merging bubbles separated"
+MERGING_CARRIED = "merging bubbles carried through"
+BLOW_THROUGH = "gas blow-through"
+INGESTION = "free-surface collapse / gas ingestion"
+
+#: Regimes of the scheme, in display order, with their flags.
+REGIMES = (
+    RegimeInfo(ISOLATED_CARRIED, False, "bubbles stay apart and leave with the liquid (too small to be pushed "
+               "to the open side, or too slow for the conduit length)"),
+    RegimeInfo(ISOLATED_SEPARATED, True, "bubbles stay apart and reach the open side within the conduit length"),
+    RegimeInfo(MERGING_SEPARATED, True, "bubbles merge; the merged bubbles reach the open side within the "
+               "conduit length"),
+    RegimeInfo(MERGING_CARRIED, False, "bubbles merge but leave with the liquid"),
+    RegimeInfo(BLOW_THROUGH, False, "the gas is a continuous phase and reaches the liquid outlet"),
+    RegimeInfo(INGESTION, False, "the channel cannot carry this flow: the free surface collapses at the outlet "
+               "and gas is drawn in"),
+)
+
+# Sources ---------------------------------------------------------------------------------------
+_COMPOSITION = "lowgmap composition (theory manual physics/manual/bubbles.md) of: "
+ROSENDAHL_2004 = ("U. Rosendahl, A. Ohlhoff and M. E. Dreyer, \"Choked flows in open capillary channels: theory, "
+                  "experiment and computations\", J. Fluid Mech. 518:187-214, 2004")
+KLATTE_2008 = ("J. Klatte et al., \"A fast numerical procedure for steady capillary flow in open channels\", "
+               "Acta Mech. 201:269-276, 2008. doi:10.1007/s00707-008-0063-1")
+CONCUS_FINN_1969 = ("P. Concus and R. Finn, \"On the behavior of a capillary surface in a wedge\", PNAS "
+                    "63(2):292-299, 1969. doi:10.1073/pnas.63.2.292")
+DUKLER_1988 = ("A. E. Dukler, J. A. Fabre, J. B. McQuillen and R. Vernon, Int. J. Multiphase Flow "
+               "14(4):389-400, 1988 (drift-flux void fraction)")
+
+# Constants -------------------------------------------------------------------------------------
+_C_BUBBLE = Constant(
+    "bubble_diameter_ratio", 0.0, "-", "design input (0 selects the squeezing law of the injector)", 0.0, 20.0,
+    "injected bubble diameter over the path depth S (apex to open side); 0: from the squeezing law")
+_C_INJ_W = Constant(
+    "injector_width_ratio", 0.2, "-", "design input; the default is a placeholder of ours, no source",
+    1e-3, 10.0, "injector channel width w over S (square injector channel), for the squeezing law")
+_C_SQ_A = Constant(
+    "squeeze_a", 1.0, "-", "Garstecki et al. (2006): a of order 1, set by the junction geometry (from memory)",
+    0.0, 20.0, "a in the squeezing law L/w = 1 + a Q_G/Q_L")
+_C_INJ = Constant(
+    "injection_position", 0.5, "-", "design input; default mid-depth, no source", 0.0, 0.99,
+    "injection point on the apex bisector, as a fraction of S from the apex")
+_C_CONF = Constant(
+    "confinement_ratio", 1.0, "-", "geometric: a bubble is squeezed while larger than the local gap", 0.2, 5.0,
+    "k_c: a bubble of diameter d is pushed while d > k_c h (h local gap)")
+_C_MERGE = Constant(
+    "merge_length_ratio", 2.0, "-", "common practice, no source: bubbles closer than about a diameter of "
+    "liquid touch; calibrate", 1.0, 50.0, "k_m: bubbles merge when their spacing is below k_m d")
+_C_CAP = Constant(
+    "capillary_coefficient", 2.0, "-", "order-of-magnitude estimate F = 2 sigma cos(theta) V h'/h^2 (reference "
+    "list section 4, after Reyssat 2014)", 0.1, 20.0, "c_cap in the capillary push c_cap sigma cos(theta) V h'/h^2")
+_C_HS = Constant(
+    "hele_shaw_drag", 12.0, "-", "our derivation: Darcy flow of the liquid round a circular flattened bubble "
+    "(theory manual)", 0.0, 200.0, "c_HS in the Hele-Shaw drag c_HS mu U V/h^2")
+_C_FILM = Constant(
+    "film_drag", 1.0, "-", "1 = wetting films sheared over both faces (rigid interface, slowest); 0 = clean "
+    "interface; film thickness after Aussillous & Quere (2000)", 0.0, 1.0,
+    "c_f in the film drag c_f 4 mu U V/(h^2 f(Ca))")
+_C_FORM = Constant(
+    "form_drag", 1.0, "-", "common practice, no source: a drag coefficient of order 1", 0.0, 20.0,
+    "C_D in the inertial drag C_D rho U^2 a h")
+_C_SF = Constant(
+    "safety_factor", 1.0, "-", "design choice (1: the migration and residence times are equal on the line)",
+    1.0, 100.0, "separation requires residence time >= safety_factor x migration time")
+_C_ALPHA = Constant(
+    "alpha_c", 0.8, "-", "by analogy with the slug-annular void fraction in tubes (Dukler et al. 1988, from "
+    "memory); no corner data, calibrate", 0.05, 0.99, "void fraction at which the gas becomes continuous")
+_C_C0 = Constant(
+    "c0", 1.0, "-", "1 = no slip between bubbles and liquid (low gravity, no buoyant drift)", 0.8, 2.0,
+    "drift-flux distribution parameter")
+_C_KE = Constant(
+    "entrance_loss", 0.0, "-", "default of the open-channel model (reservoir at the gas pressure, no loss)",
+    0.0, 10.0, "entrance loss coefficient K_e of the open channel")
+_C_GAS = Constant(
+    "gas_effect", 1.0, "-", "1 = bubbles carried as a no-slip mixture through the channel (conservative); 0 = "
+    "liquid only", 0.0, 1.0, "share of the gas flow that loads the channel (mixture volume flow and density)")
+
+_SIZE = (_C_BUBBLE, _C_INJ_W, _C_SQ_A)
+
+#: Squeezing regime of the injector: liquid capillary number in the injector channel below this
+#: (from memory: Garstecki et al. 2006 worked at Ca below about 1e-2).
+SQUEEZING_CA_MAX = 1e-2
+
+
+# =============================================================================================
+# geometry
+# =============================================================================================
+@dataclass(frozen=True, eq=False)
+class CornerGeometry:
+    """What the corner models need from a case's section and wetting.
+
+    path : TaperPath or None   gap along the apex bisector (:func:`lowgmap.physics.models.bubbles.taper_path`)
+    depth : float              path length S from apex to open side [m] (nan without a path)
+    area : float               section flow area A [m^2]
+    half_angle, contact_angle : float   apex half-angle alpha and contact angle theta [rad]
+    reason : str or None       why the models do not apply (None: they do)
+    """
+
+    path: object
+    depth: float
+    area: float
+    half_angle: float
+    contact_angle: float
+    reason: str | None
+
+
+def corner_geometry(case) -> CornerGeometry:
+    """The :class:`CornerGeometry` of a case (cached by section and contact angle)."""
+    return _geometry(case.section, float(case.wetting.contact_angle))
+
+
+@functools.lru_cache(maxsize=128)
+def _geometry(section, theta):
+    area = float(section.area)
+    if not getattr(section, "is_open", False):
+        return CornerGeometry(None, math.nan, area, math.nan, theta,
+                              f"closed section ({getattr(section, 'kind', 'closed')}): the corner separation "
+                              f"models need an open side (free surface or plenum) where the gas leaves")
+    path = bb.taper_path(section)
+    if path is None:
+        return CornerGeometry(None, math.nan, area, math.nan, theta,
+                              "no wall corner of this section has its bisector pointing at the open side (no "
+                              "taper toward the free surface)")
+    alpha = path.half_angle
+    reason = None
+    if theta + alpha >= 0.5 * math.pi - 1e-12:
+        reason = (f"the Concus–Finn condition fails at the apex corner (contact angle {math.degrees(theta):.4g} "
+                  f"deg + half-angle {math.degrees(alpha):.4g} deg >= 90 deg): the liquid is not drawn into the corner "
+                  f"and bubbles are not pushed toward the open side, so there is no capillary separation and no "
+                  f"capillary boundary is drawn")
+    return CornerGeometry(path, path.length, area, alpha, theta, reason)
+
+
+def open_channel_of(section, contact_angle):
+    """The :mod:`lowgmap.physics.models.open_channel` model of an open section, or None if there is none.
+
+    V-groove and wedge channel -> :class:`~lowgmap.physics.models.open_channel.WedgeChannel`; a polygon that is an
+    isosceles triangle open opposite its apex -> WedgeChannel; a rectangle open on one side ->
+    :class:`~lowgmap.physics.models.open_channel.RectangularGroove`; a rectangle open on two opposite sides ->
+    :class:`~lowgmap.physics.models.open_channel.ParallelPlates`.
+    """
+    try:
+        return _open_channel_of(section, float(contact_angle))
+    except ValueError:
+        return None
+
+
+@functools.lru_cache(maxsize=64)
+def _open_channel_of(section, theta):
+    from lowgmap.physics.models import open_channel as oc
+
+    kind = getattr(section, "kind", "")
+    if kind == "groove":
+        return oc.WedgeChannel(section.half_angle, section.depth / math.cos(section.half_angle), theta)
+    if kind == "wedge_channel":
+        return oc.WedgeChannel(section.half_angle, section.wall_length, theta)
+    if kind != "polygon" or not section.is_open:
+        return None
+    v = np.asarray(section.outline(), dtype=float)
+    n = len(v)
+    opened = list(section.open_edges())
+    L = np.linalg.norm(np.roll(v, -1, axis=0) - v, axis=1)
+    tol = 1e-9 * float(L.max())
+    if n == 3 and len(opened) == 1:
+        k = opened[0]
+        apex = (k + 2) % 3
+        a, b = v[k], v[(k + 1) % 3]
+        la, lb = np.linalg.norm(a - v[apex]), np.linalg.norm(b - v[apex])
+        if abs(la - lb) <= tol:
+            half = 0.5 * float(section.interior_angles[apex])
+            return oc.WedgeChannel(half, float(la), theta)
+        return None
+    if n == 4 and np.allclose(section.interior_angles, 0.5 * math.pi, atol=1e-9):
+        if len(opened) == 1:
+            k = opened[0]
+            return oc.RectangularGroove(float(L[k]), float(L[(k + 1) % 4]), theta)
+        if len(opened) == 2 and (opened[1] - opened[0]) == 2:
+            k = opened[0]
+            return oc.ParallelPlates(float(L[k]), float(L[(k + 1) % 4]), theta)
+    return None
+
+
+# =============================================================================================
+# bubble state as a function of the flow ratio
+# =============================================================================================
+def _ratio(ql, qg):
+    ql, qg = positive_flows(ql, qg)
+    return ql, qg, qg / ql
+
+
+def _sizes(geom, r, c):
+    """(V_b, d_b, N, V_eff, d_eff) at flow ratios r for constants c (N = k_m l_b / lambda)."""
+    S, A = geom.depth, geom.area
+    r = np.asarray(r, dtype=float)
+    if c["bubble_diameter_ratio"] > 0:
+        d_b = np.full(r.shape, c["bubble_diameter_ratio"] * S)
+        V_b = math.pi * d_b ** 3 / 6.0
+    else:
+        w = c["injector_width_ratio"] * S
+        V_b = np.asarray(bb.squeezing_volume(1.0, r, w, a=c["squeeze_a"]), dtype=float)   # w^3 (1 + a r)
+        d_b = np.cbrt(6.0 * V_b / math.pi)
+    ell = np.maximum(d_b, V_b / A)                    # streamwise bubble length: a sphere, or a plug
+    with np.errstate(divide="ignore", invalid="ignore"):
+        N = c["merge_length_ratio"] * ell * A * r / (V_b * (1.0 + r))        # k_m l_b / lambda
+    V_eff = V_b * np.maximum(1.0, np.nan_to_num(N, nan=1.0))
+    return V_b, d_b, N, V_eff, np.cbrt(6.0 * V_eff / math.pi)
+
+
+def bubble_state(case, ql, qg, **consts):
+    r"""Bubble sizes, spacing and merging at flow rates (Q_L, Q_G), as the corner models use them.
+
+    .. math::
+
+        V_b = w^3 (1 + a r) \ \text{(squeezing law, } w = \text{injector width)}
+        \ \text{or}\ \pi d_b^3/6 \ \text{(user value)}, \qquad
+        \lambda = \frac{V_b}{A}\Big(1 + \frac1r\Big), \qquad
+        N = \frac{k_m \ell_b}{\lambda}, \quad \ell_b = \max(d_b, V_b/A), \qquad
+        V_\mathrm{eff} = V_b \max(1, N)
+
+    Parameters
+    ----------
+    case : Case
+    ql, qg : float or array   flow rates [m^3/s]
+    **consts : constants of :data:`CORNER_SEPARATION` (defaults where omitted)
+
+    Returns
+    -------
+    dict of arrays: ``volume`` V_b [m^3], ``diameter`` d_b [m], ``frequency`` f [1/s], ``spacing``
+    lambda [m], ``merging_ratio`` N [-], ``effective_volume`` V_eff [m^3], ``effective_diameter``
+    d_eff [m], ``reach_diameter`` d_reach [m] (smallest bubble pushed to the open side)
+    """
+    c = CORNER_SEPARATION.resolve_constants(consts)
+    geom = _usable_geometry(case)
+    ql, qg, r = _ratio(ql, qg)
+    V_b, d_b, N, V_eff, d_eff = _sizes(geom, r, c)
+    out = {"volume": V_b, "diameter": d_b, "frequency": bb.bubble_frequency(qg, V_b),
+           "spacing": bb.bubble_spacing(ql, qg, V_b, geom.area), "merging_ratio": N,
+           "effective_volume": V_eff, "effective_diameter": d_eff,
+           "reach_diameter": geom.path.reach_diameter(c["injection_position"], c["confinement_ratio"])}
+    return {k: (float(v) if np.ndim(v) == 0 else np.asarray(v, dtype=float)) for k, v in out.items()}
+
+
+def _usable_geometry(case):
+    geom = corner_geometry(case)
+    if geom.reason is not None:
+        raise ValueError(f"the corner models do not apply to this case: {geom.reason}")
+    return geom
+
+
+# migration-time table ----------------------------------------------------------------------
+_MIG_KEYS = ("injection_position", "confinement_ratio", "capillary_coefficient", "hele_shaw_drag", "film_drag",
+             "form_drag")
+_N_TABLE = 160
+
+
+@functools.lru_cache(maxsize=256)
+def _mig_table(path, rho, mu, sigma, theta, injection, k_c, c_cap, c_hs, c_f, c_d):
+    """(d grid, t grid, d_reach, d_touch): migration time against bubble diameter (geometric grid)."""
+    d_reach = path.reach_diameter(injection, k_c)
+    d_touch = 2.0 * float(np.interp(injection * path.length, path.s, path.open_distance))
+    lo = max(d_reach, 1e-9 * path.length)
+    if not d_touch > lo:
+        return np.array([lo]), np.zeros(1), d_reach, d_touch
+    d = np.geomspace(lo, d_touch, _N_TABLE)
+    t = bb.migration_time(path, d, injection=injection, confinement_ratio=k_c, rho=rho, mu=mu, sigma=sigma,
+                          contact_angle=theta, capillary_coefficient=c_cap, hele_shaw_drag=c_hs, film_drag=c_f,
+                          form_drag=c_d)
+    t[0] = t[1] if not np.isfinite(t[0]) else t[0]       # the reach diameter itself, up to rounding
+    t[-1] = 0.0
+    for a in (d, t):
+        a.flags.writeable = False
+    return d, t, d_reach, d_touch
+
+
+def _t_mig(case, geom, d, c):
+    """Migration time [s] of bubbles of diameter d: NaN if they do not reach, 0 if they touch at once."""
+    f = case.fluid
+    dg, t, d_reach, d_touch = _mig_table(geom.path, f.rho_l, f.mu_l, f.sigma, geom.contact_angle,
+                                         *(float(c[k]) for k in _MIG_KEYS))
+    d = np.asarray(d, dtype=float)
+    out = np.interp(d, dg, t)
+    out = np.where(d >= d_touch, 0.0, out)
+    return np.where(d >= d_reach * (1.0 - 1e-12), out, np.nan)
+
+
+def separation_liquid_flow(case, ratio, **consts):
+    r"""Liquid flow rate on the separation line at flow ratios r = Q_G/Q_L [m^3/s].
+
+    .. math:: Q_L = \frac{l A}{s_f\, t_\mathrm{mig}(d_\mathrm{eff}(r))\,(1 + r)}
+
+    Parameters
+    ----------
+    case : Case
+    ratio : float or array   r = Q_G/Q_L [-], > 0
+    **consts : constants of :data:`CORNER_SEPARATION`
+
+    Returns
+    -------
+    float or array   Q_L [m^3/s]: NaN where the bubbles do not reach the open side, inf where
+    they touch it at injection (they separate at any flow)
+    """
+    c = CORNER_SEPARATION.resolve_constants(consts)
+    geom = _usable_geometry(case)
+    r = np.asarray(ratio, dtype=float)
+    out = _sep_ql(case, geom, r, c)
+    return float(out) if out.ndim == 0 else out
+
+
+def _sep_ql(case, geom, r, c):
+    *_, d_eff = _sizes(geom, r, c)
+    t = _t_mig(case, geom, d_eff, c)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return case.length * geom.area / (c["safety_factor"] * t * (1.0 + r))
+
+
+# critical flow-rate table ------------------------------------------------------------------
+_N_RHO = 11
+
+
+@functools.lru_cache(maxsize=64)
+def _qcrit_table(channel, length, rho_l, rho_g, mu, sigma, K_e, full):
+    """PCHIP of log Q_crit against log density (one point when ``full`` is False) and the limits."""
+    from lowgmap.physics.models.open_channel import critical_flow_rate
+
+    rhos = np.geomspace(max(rho_g, 1e-6 * rho_l), rho_l, _N_RHO) if full else np.array([rho_l])
+    q, lim = [], []
+    for rho in rhos:
+        res = critical_flow_rate(channel, length, rho=float(rho), mu=mu, sigma=sigma, K_e=K_e)
+        q.append(res.Q_crit)
+        lim.append(res.limited_by)
+    lr, lq = np.log(rhos), np.log(np.array(q))
+    interp = PchipInterpolator(lr, lq, extrapolate=True) if full else None
+    return lr, lq, interp, tuple(lim)
+
+
+def _q_crit(case, rho_m, c):
+    f = case.fluid
+    ch = open_channel_of(case.section, case.wetting.contact_angle)
+    full = c["gas_effect"] > 0
+    lr, lq, interp, _ = _qcrit_table(ch, float(case.length), f.rho_l, f.rho_g, f.mu_l, f.sigma,
+                                     float(c["entrance_loss"]), full)
+    rho_m = np.asarray(rho_m, dtype=float)
+    if not full:
+        return np.full(rho_m.shape, math.exp(lq[0]))
+    x = np.clip(np.log(rho_m), lr[0], lr[-1])
+    return np.exp(interp(x))
+
+
+def ingestion_liquid_flow(case, ratio, **consts):
+    r"""Liquid flow rate on the gas-ingestion line at flow ratios r = Q_G/Q_L [m^3/s].
+
+    .. math:: Q_L = \frac{Q_\mathrm{crit}(\rho_m)}{1 + \phi r}, \qquad
+              \rho_m = \frac{\rho_L + \phi r \rho_G}{1 + \phi r}
+
+    with :math:`Q_\mathrm{crit}` the critical flow rate of the open channel
+    (:func:`lowgmap.physics.models.open_channel.critical_flow_rate`, conduit length, liquid viscosity) and
+    :math:`\phi` = ``gas_effect``.
+
+    Parameters
+    ----------
+    case : Case
+    ratio : float or array   r [-]
+    **consts : constants of :data:`OPEN_CHANNEL_INGESTION`
+
+    Returns
+    -------
+    float or array   Q_L [m^3/s]
+    """
+    c = OPEN_CHANNEL_INGESTION.resolve_constants(consts)
+    r = np.asarray(ratio, dtype=float)
+    out = _ing_ql(case, r, c)
+    return float(out) if out.ndim == 0 else out
+
+
+def _ing_ql(case, r, c):
+    phi = c["gas_effect"]
+    f = case.fluid
+    load = 1.0 + phi * r
+    rho_m = (f.rho_l + phi * r * f.rho_g) / load
+    return _q_crit(case, rho_m, c) / load
+
+
+# =============================================================================================
+# models
+# =============================================================================================
+def _rule(values):
+    """Regime from the values of the members' implicit functions (see the module notes)."""
+    shape = np.broadcast_shapes(*(np.shape(v) for v in values.values())) if values else ()
+
+    def above(name, default):
+        v = values.get(name)
+        if v is None:
+            return np.full(shape, default)
+        with np.errstate(invalid="ignore"):
+            return np.broadcast_to(np.asarray(v) >= 0, shape)
+
+    ingest = above("open_channel_ingestion", False)
+    blow = above("corner_blow_through", False)
+    merge = above("corner_merging", False)
+    conf = above("corner_confinement", True)
+    if "corner_separation" in values:
+        with np.errstate(invalid="ignore"):
+            fast = np.broadcast_to(np.asarray(values["corner_separation"]) < 0, shape)
+    else:
+        fast = np.full(shape, False)
+    sep = conf & fast
+    out = np.where(merge, np.where(sep, MERGING_SEPARATED, MERGING_CARRIED),
+                   np.where(sep, ISOLATED_SEPARATED, ISOLATED_CARRIED))
+    out = np.where(blow, BLOW_THROUGH, out)
+    return np.where(ingest, INGESTION, out)
+
+
+def _notes(case, region_models):
+    out = []
+    geom = corner_geometry(case)
+    names = {m.name for m, _ in region_models}
+    f = case.fluid
+    if geom.path is not None:
+        S = geom.depth
+        bo = (f.rho_l - f.rho_g) * case.g * S ** 2 / f.sigma
+        consts = dict(next((c for m, c in region_models if m.name == "corner_separation"),
+                           tuple(CORNER_SEPARATION.defaults.items())))
+        h_max = float(np.max(geom.path.gap))
+        push = consts.get("capillary_coefficient", 2.0) * math.cos(geom.contact_angle) * \
+            float(np.median(geom.path.taper))
+        ratio = (f.rho_l - f.rho_g) * case.g * h_max ** 2 / (f.sigma * push) if push > 0 else math.inf
+        if bo >= 1.0 or ratio >= 0.1:
+            out.append(f"Gravity NOT negligible: Bond number (rho_L - rho_G) g S^2 / sigma = {bo:.3g} on the depth "
+                       f"S = {S * 1e3:.4g} mm, buoyancy/capillary push on a bubble = {ratio:.2g} at "
+                       f"g = {case.g:.3g} m/s^2. The corner lines ignore buoyancy; use them as indications only.")
+    present = set(SCHEME.regime_names(region_models))
+    sep = [r.name for r in REGIMES if r.separates_gas and r.name in present]
+    if sep:
+        out.append(f"Regimes that separate all the gas within the conduit: {', '.join(sep)}; in the others gas "
+                   f"reaches the liquid outlet.")
+    else:
+        out.append("No regime on this chart separates the gas: without the separation line the gas always "
+                   "reaches the liquid outlet.")
+    if "corner_separation" in names and "corner_confinement" not in names:
+        out.append("The separation line ends on the confinement line, which is not on this chart: add "
+                   "corner_confinement to close the separated regions.")
+    return out
+
+
+#: The regime scheme of the corner family.
+SCHEME = PartitionScheme(
+    "corner capillary separation",
+    ("corner_confinement", "corner_separation", "corner_merging", "corner_blow_through", "open_channel_ingestion"),
+    REGIMES, _rule, _notes,
+    "bubbles isolated or merging x separated or carried through, plus gas blow-through and gas ingestion")
+
+
+def _roots(fun, lo, hi, n=241):
+    """All sign changes of fun on [lo, hi] (log10 r), located by brentq; (root, rising) pairs."""
+    x = np.linspace(lo, hi, n)
+    y = fun(x)
+    out = []
+    for i in range(n - 1):
+        a, b = y[i], y[i + 1]
+        if not (np.isfinite(a) and np.isfinite(b)):
+            continue
+        if a == 0.0:
+            out.append((float(x[i]), b > 0))
+        elif a * b < 0:
+            xr = brentq(lambda t: float(fun(np.array([t]))[0]), x[i], x[i + 1], xtol=1e-14, rtol=1e-13)
+            out.append((xr, b > a))
+    return out
+
+
+@functools.lru_cache(maxsize=512)
+def _cached_roots(model, case, items, lo, hi, n):
+    return tuple(10.0 ** x for x, _ in _roots(model._phi(case, dict(items)), lo, hi, n))
+
+
+class _CornerModel(BoundaryModel):
+    """Shared behaviour: applicability (open tapering section, Concus–Finn), scheme, line drawing."""
+
+    scheme = SCHEME
+    low_gravity = False
+    validity_uses_constants = True
+    validity_note = ""
+    #: "ratio": the line is Q_G/Q_L = const (one or more); "graph": Q_L = F(Q_G/Q_L)
+    shape = "ratio"
+
+    def __init__(self, name, label, citation, regime_below, regime_above, constants, notes):
+        self.name = name
+        self.label = label
+        self.citation = citation
+        self.regime_below = regime_below
+        self.regime_above = regime_above
+        self.constants = tuple(constants)
+        self.notes = notes
+
+    def applies_to(self, case):
+        return corner_geometry(case).reason
+
+    def inactive_reason(self, case):
+        """The Concus–Finn failure, if any: the mechanism is absent (not a misuse of the model)."""
+        geom = corner_geometry(case)
+        return geom.reason if geom.path is not None else None
+
+    def _c(self, consts):
+        return self.resolve_constants(consts) if set(consts) != set(self.defaults) else \
+            {k: float(v) for k, v in consts.items()}
+
+    # -- ratio lines: phi(log10 r) --------------------------------------------------------
+    def _phi(self, case, c):
+        raise NotImplementedError
+
+    def _r_range(self, case):
+        fr = case.flow_range
+        return math.log10(fr.qg_min / fr.ql_max) - 1.0, math.log10(fr.qg_max / fr.ql_min) + 1.0
+
+    def ratio_roots(self, case, **consts):
+        """Flow ratios r = Q_G/Q_L [-] where this line lies (ratio lines), over the chart's range."""
+        c = self._c(consts)
+        lo, hi = self._r_range(case)
+        try:
+            return list(_cached_roots(self, case, tuple(sorted(c.items())), lo, hi, 241))
+        except TypeError:                       # unhashable case (e.g. a stand-in object)
+            return [10.0 ** x for x, _ in _roots(self._phi(case, c), lo, hi)]
+
+    def qg_of_ql(self, case, ql, **consts):
+        """Gas flow on the line [m^3/s]: the lowest crossing from below to above at each Q_L (NaN if none)."""
+        c = self._c(consts)
+        ql = np.asarray(ql, dtype=float)
+        if self.shape == "ratio":
+            lo, hi = self._r_range(case)
+            lo, hi = lo - 6.0, hi + 6.0
+            up = [x for x, rising in _roots(self._phi(case, c), lo, hi, n=481) if rising]
+            r = 10.0 ** up[0] if up else math.nan
+            with np.errstate(invalid="ignore"):
+                out = np.where(np.isfinite(ql) & (ql > 0), ql * r, np.nan)
+            return float(out) if out.ndim == 0 else out
+        return self._scan_qg(case, ql, c)
+
+    def _ln_f(self, case, c, r):
+        """ln Q_L on the line at flow ratios r (graph lines: g = ln Q_L - ln F(r))."""
+        raise NotImplementedError
+
+    def _scan_qg(self, case, ql, c):
+        """Graph lines: at each Q_L the first ratio where F(r) falls through Q_L (g from < 0 to >= 0)."""
+        shp = ql.shape
+        q = np.atleast_1d(ql).ravel()
+        lo_r, hi_r = self._r_range(case)
+        grid = np.linspace(lo_r - 6.0, hi_r + 6.0, 481)
+        with np.errstate(all="ignore"):
+            lf = np.asarray(self._ln_f(case, c, 10.0 ** grid), dtype=float)
+            lq = np.log(np.where(np.isfinite(q) & (q > 0), q, np.nan))
+        a, b = lf[None, :-1], lf[None, 1:]
+        with np.errstate(invalid="ignore"):
+            ok = np.isfinite(a) & np.isfinite(b) & (a > lq[:, None]) & (b <= lq[:, None])
+        has = ok.any(axis=1)
+        k = np.argmax(ok, axis=1)
+        lo, hi = grid[k], grid[np.minimum(k + 1, len(grid) - 1)]
+        flo, fhi = lf[k] - lq, lf[np.minimum(k + 1, len(grid) - 1)] - lq      # > 0 and <= 0
+        side = np.zeros(len(q))
+        x = lo
+        for _ in range(60):                        # Illinois regula falsi on ln F(r) - ln Q_L
+            with np.errstate(all="ignore"):
+                x = (lo * fhi - hi * flo) / (fhi - flo)
+                x = np.where(np.isfinite(x) & (x > lo) & (x < hi), x, 0.5 * (lo + hi))
+                fx = np.asarray(self._ln_f(case, c, 10.0 ** x), dtype=float) - lq
+            fx = np.where(np.isfinite(fx), fx, 1e-300)
+            pos = fx > 0
+            lo, flo, hi, fhi = (np.where(pos, x, lo), np.where(pos, fx, flo),
+                                np.where(pos, hi, x), np.where(pos, fhi, fx))
+            flo = np.where(~pos & (side == -1), 0.5 * flo, flo)
+            fhi = np.where(pos & (side == 1), 0.5 * fhi, fhi)
+            side = np.where(pos, 1, -1)
+            if np.all(~has | (hi - lo <= 1e-14 * np.maximum(1.0, np.abs(x))) | (np.abs(fx) < 1e-14)):
+                break
+        out = np.where(has, q * 10.0 ** x, np.nan).reshape(shp)
+        return float(out) if out.ndim == 0 else out
+
+    def line_pieces(self, case, **consts):
+        """The line as :class:`~lowgmap.physics.chart.composition.LinePiece` objects (one per constant ratio, t = log10 Q_L)."""
+        c = self._c(consts)
+        fr = case.flow_range
+        x0, x1 = math.log10(fr.ql_min), math.log10(fr.ql_max)
+        out = []
+        for r in self.ratio_roots(case, **c):
+            out.append(LinePiece(x0, x1, lambda t, r=r: (10.0 ** t, r * 10.0 ** t)))
+        return out
+
+    # -- validity: squeezing law at the injector ---------------------------------------------
+    def validity_mask(self, case, ql, qg, **consts):
+        ql, qg = positive_flows(ql, qg)
+        mask = np.isfinite(ql) & np.isfinite(qg)
+        if _C_BUBBLE.name not in {k.name for k in self.constants}:
+            return mask
+        c = self._c(consts) if consts else self.defaults
+        if c["bubble_diameter_ratio"] > 0:
+            return mask
+        geom = corner_geometry(case)
+        if geom.reason is not None:
+            return mask
+        w = c["injector_width_ratio"] * geom.depth
+        f = case.fluid
+        with np.errstate(invalid="ignore"):
+            return mask & (f.mu_l * (ql / w ** 2) / f.sigma <= SQUEEZING_CA_MAX)
+
+
+_SQUEEZE_NOTE = (f"squeezing law: liquid capillary number in the injector channel <= {SQUEEZING_CA_MAX:g}, from "
+                 f"memory")
+
+
+class CornerConfinement(_CornerModel):
+    r"""Confinement: the (merged) bubble is large enough to be pushed all the way to the open side.
+
+    .. math:: g = \ln\frac{d_\mathrm{eff}(r)}{d_\mathrm{reach}}, \qquad
+              d_\mathrm{reach} = \min\Big(\frac{2 k_c S \sin\alpha}{1 + k_c\sin\alpha},\
+              2 (S - s_\mathrm{inj})\Big)\ \text{(V-groove, wedge)}
+
+    Below the line (g < 0) the bubbles are too small: unconfined at injection, or stopped where the
+    gap has grown to their size; they feel no further push and are carried. d_eff is the injected
+    diameter, or the merged diameter where bubbles merge (:func:`bubble_state`).
+
+    Examples
+    --------
+    >>> CORNER_CONFINEMENT.regime_above
+    'bubbles pushed to the open side'
+    """
+
+    def _phi(self, case, c):
+        geom = corner_geometry(case)
+        d_reach = geom.path.reach_diameter(c["injection_position"], c["confinement_ratio"])
+
+        def phi(x):
+            *_, d_eff = _sizes(geom, 10.0 ** np.asarray(x, dtype=float), c)
+            with np.errstate(divide="ignore"):
+                return np.log(d_eff) - math.log(max(d_reach, 1e-300))
+        return phi
+
+    def implicit(self, case, ql, qg, **consts):
+        c = self._c(consts)
+        _, _, r = _ratio(ql, qg)
+        out = self._phi(case, c)(np.log10(r))
+        return float(out) if np.ndim(out) == 0 else out
+
+
+class CornerMerging(_CornerModel):
+    r"""Merging onset: the bubble spacing along the stream falls to k_m bubble diameters.
+
+    .. math:: g = \ln N = \ln\frac{k_m d_b}{\lambda}, \qquad
+              \lambda = \frac{V_b}{A}\left(1 + \frac{1}{r}\right)
+
+    Above the line (g >= 0) bubbles merge; the merged volume :math:`V_b N` feeds the confinement
+    and separation lines.
+
+    Examples
+    --------
+    >>> CORNER_MERGING.regime_below, CORNER_MERGING.regime_above
+    ('isolated bubbles', 'merging bubbles')
+    """
+
+    def _phi(self, case, c):
+        geom = corner_geometry(case)
+
+        def phi(x):
+            _, _, N, _, _ = _sizes(geom, 10.0 ** np.asarray(x, dtype=float), c)
+            with np.errstate(divide="ignore"):
+                return np.log(N)
+        return phi
+
+    def implicit(self, case, ql, qg, **consts):
+        c = self._c(consts)
+        _, _, r = _ratio(ql, qg)
+        out = self._phi(case, c)(np.log10(r))
+        return float(out) if np.ndim(out) == 0 else out
+
+
+class CornerBlowThrough(_CornerModel):
+    r"""Gas blow-through: the no-slip void fraction reaches alpha_c and the gas is continuous.
+
+    .. math:: g = \ln\frac{r}{r_c}, \qquad r_c = \frac{C_0 \alpha_c}{1 - C_0 \alpha_c}
+
+    (the void fraction :math:`\alpha = r/(C_0 (1 + r))` equals :math:`\alpha_c` on the line).
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace as NS
+    >>> round(CORNER_BLOW_THROUGH.ratio_roots(NS(flow_range=NS(ql_min=1e-8, ql_max=1e-5, qg_min=1e-8,
+    ...       qg_max=1e-5)), alpha_c=0.8, c0=1.0)[0], 9)
+    4.0
+    """
+
+    def check_constants(self, values):
+        p = values["alpha_c"] * values["c0"]
+        if not p < 1.0:
+            raise ValueError(f"{self.name}: constants c0 * alpha_c must be < 1, got {p:.4g}")
+
+    def applies_to(self, case):
+        return corner_geometry(case).reason
+
+    def _phi(self, case, c):
+        p = c["alpha_c"] * c["c0"]
+        rc = p / (1.0 - p)
+        return lambda x: np.asarray(x, dtype=float) - math.log10(rc)
+
+    def implicit(self, case, ql, qg, **consts):
+        c = self._c(consts)
+        _, _, r = _ratio(ql, qg)
+        p = c["alpha_c"] * c["c0"]
+        out = np.log(r / (p / (1.0 - p)))
+        return float(out) if np.ndim(out) == 0 else out
+
+
+class CornerSeparation(_CornerModel):
+    r"""Separation within the conduit: migration time to the open side equals the residence time.
+
+    .. math:: g = \ln\frac{s_f\, t_\mathrm{mig}(d_\mathrm{eff})}{t_\mathrm{res}}, \qquad
+              t_\mathrm{res} = \frac{l A}{Q_L + Q_G}, \qquad
+              t_\mathrm{mig} = \int_{s_\mathrm{inj}}^{s_\mathrm{touch}} \frac{\mathrm{d}s}{U}
+
+    Below the line (g < 0, smaller flows) the bubbles reach the open side before the stream carries
+    them out. g is NaN where the bubble does not reach the open side (see
+    :class:`CornerConfinement`). The line is :math:`Q_L = l A/(s_f t_\mathrm{mig}(1 + r))`
+    (:func:`separation_liquid_flow`).
+
+    Examples
+    --------
+    >>> CORNER_SEPARATION.regime_below
+    'separated within the conduit'
+    """
+
+    shape = "graph"
+
+    def _ln_f(self, case, c, r):
+        with np.errstate(all="ignore"):
+            return np.log(_sep_ql(case, corner_geometry(case), np.asarray(r, dtype=float), c))
+
+    def implicit(self, case, ql, qg, **consts):
+        c = self._c(consts)
+        geom = corner_geometry(case)
+        ql, qg, r = _ratio(ql, qg)
+        *_, d_eff = _sizes(geom, r, c)
+        t = _t_mig(case, geom, d_eff, c)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            out = np.log(np.maximum(c["safety_factor"] * t, 1e-300) * (ql + qg) / (case.length * geom.area))
+        out = np.where(np.isnan(t), np.nan, out)
+        return float(out) if np.ndim(out) == 0 else out
+
+    def line_pieces(self, case, **consts):
+        c = self._c(consts)
+        geom = corner_geometry(case)
+        lo, hi = self._r_range(case)
+        logd_reach = math.log(max(geom.path.reach_diameter(c["injection_position"], c["confinement_ratio"]), 1e-300))
+        d_touch = 2.0 * float(np.interp(c["injection_position"] * geom.depth, geom.path.s, geom.path.open_distance))
+
+        def reach(x):
+            *_, d_eff = _sizes(geom, 10.0 ** np.asarray(x, dtype=float), c)
+            return np.minimum(np.log(d_eff) - logd_reach, math.log(d_touch) - np.log(d_eff))
+        ends = [lo] + [x for x, _ in _roots(reach, lo, hi)] + [hi]
+        kinks = tuple(x for x, _ in _roots(CORNER_MERGING._phi(case, c), lo, hi))
+        out = []
+        for a, b in zip(ends[:-1], ends[1:]):
+            if not b > a or not float(reach(np.array([0.5 * (a + b)]))[0]) > 0:
+                continue
+
+            def func(t):
+                r = 10.0 ** np.asarray(t, dtype=float)
+                q = _sep_ql(case, geom, r, c)
+                return q, r * q
+            out.append(LinePiece(a, b, func, kinks))
+        return out
+
+
+class OpenChannelIngestion(_CornerModel):
+    r"""Gas ingestion: the liquid (or bubbly mixture) flow exceeds the critical flow rate of the open channel.
+
+    .. math:: g = \ln\frac{(1 + \phi r)\, Q_L}{Q_\mathrm{crit}(\rho_m)}, \qquad
+              \rho_m = \frac{\rho_L + \phi r \rho_G}{1 + \phi r}
+
+    :math:`Q_\mathrm{crit}` from :func:`lowgmap.physics.models.open_channel.critical_flow_rate` for the section's
+    open-channel model (:func:`open_channel_of`), the conduit length and the liquid viscosity,
+    tabulated once per case over the mixture density. :math:`\phi` (``gas_effect``) = 1 loads the
+    channel with the no-slip mixture (volume flow Q_L + Q_G, density rho_m); 0 with the liquid alone.
+
+    Examples
+    --------
+    >>> OPEN_CHANNEL_INGESTION.regime_above
+    'free-surface collapse, gas drawn into the outlet'
+    """
+
+    shape = "graph"
+
+    def applies_to(self, case):
+        geom = corner_geometry(case)
+        if geom.reason is not None and (geom.path is not None or not getattr(case.section, "is_open", False)):
+            return geom.reason                  # Concus–Finn failure, or a closed section
+        if open_channel_of(case.section, case.wetting.contact_angle) is None:
+            return ("no open-channel flow-rate model for this section (V-groove, wedge channel, rectangle open on "
+                    "one side or on two opposite sides)")
+        return None
+
+    def validity_mask(self, case, ql, qg, **consts):
+        ql, qg = positive_flows(ql, qg)
+        return np.isfinite(ql) & np.isfinite(qg)
+
+    def _ln_f(self, case, c, r):
+        with np.errstate(all="ignore"):
+            return np.log(_ing_ql(case, np.asarray(r, dtype=float), c))
+
+    def implicit(self, case, ql, qg, **consts):
+        c = self._c(consts)
+        ql, qg, r = _ratio(ql, qg)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            out = np.log(ql / _ing_ql(case, r, c))
+        return float(out) if np.ndim(out) == 0 else out
+
+    def critical_flow(self, case, **consts):
+        """Critical liquid flow rate without gas [m^3/s] and what limits it (a key of open_channel.LIMITS)."""
+        c = self._c(consts)
+        f = case.fluid
+        ch = open_channel_of(case.section, case.wetting.contact_angle)
+        lr, lq, _, lim = _qcrit_table(ch, float(case.length), f.rho_l, f.rho_g, f.mu_l, f.sigma,
+                                      float(c["entrance_loss"]), c["gas_effect"] > 0)
+        return math.exp(lq[-1]), lim[-1]
+
+    def line_pieces(self, case, **consts):
+        c = self._c(consts)
+        lo, hi = self._r_range(case)
+
+        def func(t):
+            r = 10.0 ** np.asarray(t, dtype=float)
+            q = _ing_ql(case, r, c)
+            return q, r * q
+        return [LinePiece(lo, hi, func)]
+
+
+# =============================================================================================
+# registry
+# =============================================================================================
+_SIZE_CITE = ("bubble size: squeezing law of " + bb.GARSTECKI_2006 + "; ")
+_MIG_CITE = ("capillary push in a tapering gap: " + bb.REYSSAT_2014 + "; wetting films: " + bb.AUSSILLOUS_QUERE_2000
+             + " and " + bb.BRETHERTON_1961 + "; ")
+
+#: Confinement line.
+CORNER_CONFINEMENT = register(CornerConfinement(
+    "corner_confinement", "confinement (bubble reaches the open side)",
+    _COMPOSITION + _SIZE_CITE + "corner wetting: " + CONCUS_FINN_1969,
+    "bubbles too small to reach the open side", "bubbles pushed to the open side",
+    (*_SIZE, _C_INJ, _C_CONF, _C_MERGE),
+    "A bubble is pushed toward the wide side while it is larger than the local gap (k_c h); it reaches the "
+    "open side if it touches the free surface before the gap has grown to its size. Merged bubbles count "
+    "with their merged size."))
+CORNER_CONFINEMENT.validity_note = _SQUEEZE_NOTE
+
+#: Separation line.
+CORNER_SEPARATION = register(CornerSeparation(
+    "corner_separation", "separation (migration time = residence time)",
+    _COMPOSITION + _SIZE_CITE + _MIG_CITE + "corner wetting: " + CONCUS_FINN_1969,
+    "separated within the conduit", "carried out of the conduit",
+    (*_SIZE, _C_INJ, _C_CONF, _C_MERGE, _C_CAP, _C_HS, _C_FILM, _C_FORM, _C_SF),
+    "Quasi-steady force balance on a squeezed bubble: capillary push against Hele-Shaw, wetting-film and form "
+    "drag; the bubble moves with the mean liquid speed along the conduit. Uncertain constants: c_cap, "
+    "c_HS, c_f, C_D."))
+CORNER_SEPARATION.validity_note = _SQUEEZE_NOTE
+
+#: Merging line.
+CORNER_MERGING = register(CornerMerging(
+    "corner_merging", "merging (spacing = k_m x bubble size)",
+    _COMPOSITION + _SIZE_CITE + "spacing from the formation frequency and the mixture speed (no slip)",
+    "isolated bubbles", "merging bubbles",
+    (*_SIZE, _C_MERGE),
+    "Bubbles formed at f = Q_G/V travel with the mixture; they merge when closer than k_m diameters. The "
+    "merging length ratio is a closure of ours, to be calibrated."))
+CORNER_MERGING.validity_note = _SQUEEZE_NOTE
+
+#: Blow-through line.
+CORNER_BLOW_THROUGH = register(CornerBlowThrough(
+    "corner_blow_through", "blow-through (void fraction = alpha_c)",
+    _COMPOSITION + "drift-flux void fraction without drift velocity: " + DUKLER_1988,
+    "gas in bubbles", "continuous gas to the outlet",
+    (_C_ALPHA, _C_C0),
+    "The gas becomes continuous once the void fraction reaches alpha_c; the threshold for corners is not "
+    "known (default by analogy with tubes)."))
+
+#: Gas-ingestion line.
+OPEN_CHANNEL_INGESTION = register(OpenChannelIngestion(
+    "open_channel_ingestion", "ingestion (critical flow rate of the open channel)",
+    _COMPOSITION + "open-channel flow-rate limit: " + ROSENDAHL_2004 + "; " + KLATTE_2008,
+    "free surface held", "free-surface collapse, gas drawn into the outlet",
+    (_C_KE, _C_GAS),
+    "Steady one-dimensional open-channel model (lowgmap.physics.models.open_channel) for the conduit length, loaded with the "
+    "liquid or the no-slip bubbly mixture."))
+
+#: Registry names of the family, in the scheme's order.
+CORNER_MODEL_NAMES = SCHEME.members
