@@ -3,6 +3,8 @@ import re
 import sys
 from pathlib import Path
 
+import pytest
+
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT / "physics" / "manual"))
 import build as manual_build  # noqa: E402
@@ -48,3 +50,32 @@ def test_caution_is_stated():
     readme = (ROOT / "README.md").read_text()
     assert "not a substitute for qualification testing" in readme
     assert "qualification testing" in CAUTION and "standards" in CAUTION
+
+
+def test_readme_notebook_session_runs(tmp_path, monkeypatch, capsys):
+    # catches a public name that the README shows but `import lowgmap` does not provide (or that
+    # changed its signature), and an example that no longer runs as written
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    after = text.split("<!-- ci:notebook -->", 1)[1]
+    code = re.search(r"```python\n(.*?)\n```", after, flags=re.S).group(1)
+    assert len(code.splitlines()) <= 14
+    monkeypatch.chdir(tmp_path)
+    namespace: dict = {}
+    exec(compile(code, "README.md notebook", "exec"), namespace)
+    printed = capsys.readouterr().out
+    m = namespace["m"]
+    # the printed line is the margins object's own numbers (one source for every number)
+    assert printed.strip() == f"{m.regime} ±{m.symmetric_margin:.1%} {m.limiting_boundary}"
+    assert namespace["env"].regime == m.regime
+    assert (tmp_path / "condensate_chart.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_public_api_names_resolve():
+    # catches an entry of lowgmap's name table that points at a moved or renamed object
+    import lowgmap
+
+    missing = [n for n in lowgmap.__all__ if getattr(lowgmap, n, None) is None]
+    assert not missing
+    assert "point_margins" in dir(lowgmap)
+    with pytest.raises(AttributeError, match="no attribute 'nope'"):
+        lowgmap.nope
