@@ -24,7 +24,7 @@ import pytest
 ROOT = Path(__file__).resolve().parent.parent
 FOLDERS = {"api": "lowgmap", "physics": "lowgmap.physics", "app": "lowgmap.app"}
 
-PHYSICS_LAYERS = {"validate": 0, "case": 0, "properties": 1, "geometry": 2, "models": 3, "chart": 4,
+PHYSICS_LAYERS = {"validate": 0, "case": 0, "cache": 0, "properties": 1, "geometry": 2, "models": 3, "chart": 4,
                   "studies": 5, "examples": 5}
 UI_LIBRARIES = ("panel", "bokeh", "param", "pint", "matplotlib")
 APP_FORBIDDEN = {"files": ("outputs", "dashboard", "cli"), "outputs": ("dashboard", "cli"),
