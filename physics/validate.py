@@ -9,10 +9,16 @@ import math
 
 import numpy as np
 
-__all__ = ["finite", "positive", "non_negative", "in_range", "angle_deg_in_range"]
+__all__ = ["finite", "positive", "non_negative", "in_range", "angle_deg_in_range", "positive_array",
+           "format_number"]
 
 
-def _fmt(value) -> str:
+def format_number(value) -> str:
+    """A value as error messages show it: a number with 6 significant digits, anything else as ``repr``.
+
+    >>> format_number(0.1 + 0.2), format_number("abc")
+    ('0.3', "'abc'")
+    """
     try:
         return f"{float(value):.6g}"
     except (TypeError, ValueError):
@@ -40,7 +46,7 @@ def positive(name: str, value, unit: str = "") -> float:
     """Return ``value`` as a float; raise unless it is finite and > 0."""
     x = finite(name, value, unit)
     if x <= 0:
-        raise ValueError(f"{name} must be > 0{_u(unit)}, got {_fmt(x)} {unit}".rstrip())
+        raise ValueError(f"{name} must be > 0{_u(unit)}, got {format_number(x)} {unit}".rstrip())
     return x
 
 
@@ -48,7 +54,7 @@ def non_negative(name: str, value, unit: str = "") -> float:
     """Return ``value`` as a float; raise unless it is finite and >= 0."""
     x = finite(name, value, unit)
     if x < 0:
-        raise ValueError(f"{name} must be >= 0{_u(unit)}, got {_fmt(x)} {unit}".rstrip())
+        raise ValueError(f"{name} must be >= 0{_u(unit)}, got {format_number(x)} {unit}".rstrip())
     return x
 
 
@@ -61,8 +67,8 @@ def in_range(name: str, value, lo: float, hi: float, unit: str = "", *,
         lb = "(" if lo_open else "["
         rb = ")" if hi_open else "]"
         raise ValueError(
-            f"{name} must be within {lb}{_fmt(lo)}, {_fmt(hi)}{rb} {unit}".rstrip()
-            + f", got {_fmt(x)} {unit}".rstrip()
+            f"{name} must be within {lb}{format_number(lo)}, {format_number(hi)}{rb} {unit}".rstrip()
+            + f", got {format_number(x)} {unit}".rstrip()
         )
     return x
 
@@ -86,3 +92,20 @@ def angle_deg_in_range(name: str, value_rad, lo_deg: float, hi_deg: float, *,
         rb = ")" if hi_open else "]"
         raise ValueError(f"{name} must be within {lb}{lo_deg:g}, {hi_deg:g}{rb} deg, got {worst:.6g} deg")
     return float(arr) if arr.ndim == 0 else arr
+
+
+def positive_array(name: str, value, unit: str):
+    """Return ``value`` as a float array (0-d for a scalar); raise unless every element is finite and > 0.
+
+    The message names the first offending element, e.g. ``R must be > 0 [m], got -1 m``.
+
+    >>> positive_array("R", [1e-3, 2e-3], "m")
+    array([0.001, 0.002])
+    """
+    arr = np.asarray(value, dtype=float)
+    if not np.all(np.isfinite(arr)):
+        raise ValueError(f"{name} must be finite [{unit}], got {value!r}")
+    if np.any(arr <= 0):
+        bad = float(np.atleast_1d(arr)[np.atleast_1d(arr <= 0)][0])
+        raise ValueError(f"{name} must be > 0 [{unit}], got {bad:.6g} {unit}")
+    return arr

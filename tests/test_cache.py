@@ -139,3 +139,63 @@ def test_two_processes_writing_one_key_leave_a_whole_file(own_cache):
     final = cache.load("race", "same-key")
     assert final is not None and np.all(final["x"] == final["x"][0])
     assert not list(own_cache.rglob("*.tmp"))                       # no temporary file left behind
+
+
+def test_fluid_pair_from_cache_equals_the_computed_one():
+    # catches a cached pair that loses a property, a note or the source text
+    from lowgmap.physics.properties import fluids
+
+    direct = fluids._make_fluid_pair("water", 293.15, 101325.0, gas="air")
+    first = fluids.make_fluid_pair("water", 293.15, 101325.0, gas="air")
+    again = fluids.make_fluid_pair("water", 293.15, 101325.0, gas="air")
+    assert first == direct and again == direct and again.notes == direct.notes
+    other = fluids.make_fluid_pair("water", 303.15, 101325.0, gas="air")   # another temperature: another key
+    assert other.rho_l < direct.rho_l
+
+
+def test_repeated_command_does_not_load_the_property_library(own_cache, tmp_path):
+    # catches a fluid cache that is written but never read across processes
+    import subprocess
+    import sys
+
+    code = ("import sys; from lowgmap.physics.properties.fluids import make_fluid_pair; "
+            "fp = make_fluid_pair('water', 293.15, 101325.0, gas='air'); "
+            "print(round(fp.rho_l, 3), 'CoolProp' in sys.modules)")
+    env = dict(os.environ, LOWGMAP_CACHE_DIR=str(own_cache))
+    runs = [subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, check=True)
+            for _ in range(2)]
+    assert runs[0].stdout.split() == ["998.207", "True"]      # IAPWS-95 at 20 degC, 1 atm: 998.207 kg/m^3
+    assert runs[1].stdout.split() == ["998.207", "False"]
+
+
+def test_second_corner_chart_skips_the_table_builds(monkeypatch):
+    # catches a table cache keyed by something that changes between processes (object ids, dict order):
+    # with the in-memory caches emptied, as in a new process, no Stokes solve and no critical-flow solve runs
+    from lowgmap.app.files.casefile import load_case, sample_case_path
+    from lowgmap.physics.chart.composition import Chart
+    from lowgmap.physics.geometry import stokes
+    from lowgmap.physics.models import corner, open_channel
+    from lowgmap.physics.models.open_channel import profile, tables
+
+    def forget_in_memory():
+        for fn in (tables.stokes_table, tables.section_tables, corner._qcrit_table):
+            if hasattr(fn, "cache_clear"):
+                fn.cache_clear()
+        if hasattr(tables, "_section_tables_cached"):
+            tables._section_tables_cached.cache_clear()
+
+    doc = load_case(sample_case_path("wedge_separator"))
+    forget_in_memory()                    # as in a new process: this test's cache folder is empty
+    first = Chart.build(doc.case)
+    forget_in_memory()
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("a table was rebuilt although it is in the persistent cache")
+
+    monkeypatch.setattr(stokes, "solve_poisson", refuse)
+    monkeypatch.setattr(profile, "critical_flow_rate", refuse)
+    monkeypatch.setattr(open_channel, "critical_flow_rate", refuse)
+    second = Chart.build(doc.case)
+    assert [c.name for c in second.boundaries] == [c.name for c in first.boundaries]
+    for a, b in zip(first.boundaries, second.boundaries):
+        assert np.array_equal(a.ql, b.ql, equal_nan=True) and np.array_equal(a.qg, b.qg, equal_nan=True)

@@ -1,7 +1,6 @@
 """Case files: load, validate (all problems at once, with key paths and lines), save atomically."""
 import math
 import os
-from pathlib import Path
 
 import pytest
 import tomlkit
@@ -250,3 +249,53 @@ regime_above = "b"
     paths = {p.path for p in probs}
     assert "custom_boundaries[0].points[0]" in paths
     assert "custom_boundaries[1].flow_unit" in paths
+
+
+# ------------------------------------------------------------------------- one table of section kinds
+def test_section_kinds_and_fields_come_from_the_physics_table():
+    # the case-file reader asks lowgmap.physics.geometry.sections for the kinds and their fields:
+    # every required field of every kind is reported missing by name when left out
+    from lowgmap.physics.geometry.sections import SECTION_KINDS, section_fields
+
+    head, tail = GOOD.split('[section]\nkind = "circle"\ndiameter = "12.7 mm"\n')
+    for kind in SECTION_KINDS:
+        probs = _problems(f'{head}[section]\nkind = "{kind}"\n{tail}')
+        missing = {p.path for p in probs if p.message.startswith("missing (required")}
+        assert missing == {f"section.{f.name}" for f in section_fields(kind) if f.required}, kind
+    probs = _problems(GOOD.replace('diameter = "12.7 mm"', 'diameter = "12.7 mm"\ndepth = "1 mm"'))
+    assert probs[0].path == "section.depth" and "allowed here: diameter, kind, vertices_unit" in probs[0].message
+    msg = _problems(GOOD.replace('kind = "circle"', 'kind = "blob"'))[0].message
+    assert all(kind in msg for kind in SECTION_KINDS)
+
+
+# ------------------------------------------------------------------------- atomic writes
+def test_write_atomic_replaces_keeps_mode_and_can_refuse(tmp_path):
+    from lowgmap.app.files.atomic import write_atomic
+
+    target = tmp_path / "deep" / "case.toml"
+    assert write_atomic(target, "title = \"é\"\n") == target            # folders created, text as UTF-8
+    assert target.read_bytes() == "title = \"é\"\n".encode("utf-8")
+    os.chmod(target, 0o640)
+    write_atomic(target, b"\x00\x01")
+    assert target.read_bytes() == b"\x00\x01" and (target.stat().st_mode & 0o777) == 0o640
+    with pytest.raises(FileExistsError):
+        write_atomic(target, "other", overwrite=False)
+    assert target.read_bytes() == b"\x00\x01"
+    fresh = write_atomic(tmp_path / "deep" / "new.txt", "x", overwrite=False)
+    assert fresh.read_text() == "x"
+    assert sorted(p.name for p in target.parent.iterdir()) == ["case.toml", "new.txt"]   # no temporary left
+
+
+def test_write_atomic_leaves_target_and_no_temporary_on_error(tmp_path, monkeypatch):
+    from lowgmap.app.files.atomic import write_atomic
+
+    target = tmp_path / "out.csv"
+    target.write_text("old")
+
+    def fail(*a, **k):
+        raise OSError("disk full (simulated)")
+
+    monkeypatch.setattr(os, "fsync", fail)
+    with pytest.raises(OSError, match="disk full"):
+        write_atomic(target, "new")
+    assert target.read_text() == "old" and [p.name for p in tmp_path.iterdir()] == ["out.csv"]

@@ -251,6 +251,36 @@ def test_sampling_is_dense_where_the_line_bends():
     assert np.median(dx[near]) <= 0.5 * np.median(dx[far]) * (1 + 1e-9)
 
 
+class HoledLine(ExplicitBoundary):
+    """Closed-form test line Q_G = Q_L with no value for 10^-4.95 < Q_L < 10^-4.88 m^3/s."""
+
+    name = "test_holed_line"
+    label = "line with a hole"
+    citation = "closed form used by the tests"
+    regime_below = "low"
+    regime_above = "high"
+
+    def qg_of_ql(self, case, ql, **consts):
+        ql = np.asarray(ql, dtype=float)
+        x = np.log10(ql)
+        return np.where((x > -4.95) & (x < -4.88), np.nan, ql)
+
+
+def test_hole_between_start_samples_is_drawn_with_its_edges():
+    # closed form: the hole lies between two of the 25 start samples (1/6 decade apart, at -5 and
+    # -4.833) and holds the middle of their interval; the drawn pieces must end on its edges within
+    # the width left after the chart's 14 halvings, (1/6)/2^14 = 1.0e-5 decade. Catches a chart
+    # sampler that only refines where the two ends differ in validity (it drew one straight chord
+    # across the hole).
+    chart = Chart.build(make_case(), models=[HoledLine()])
+    x = np.log10(chart.boundaries[0].ql)
+    gap = np.nonzero(np.isnan(x))[0]
+    assert gap.size == 1
+    step = (1 / 6) / 2 ** 14
+    assert -4.95 - step <= x[gap[0] - 1] <= -4.95 + 1e-12
+    assert -4.88 - 1e-12 <= x[gap[0] + 1] <= -4.88 + step
+
+
 def test_table_breakpoints_are_sampled_exactly():
     spec = {"name": "rig_table", "kind": "table", "points": [[1e-6, 1e-5], [1e-5, 1e-5], [1e-4, 1e-3]],
             "regime_below": BUBBLES, "regime_above": SLUGS, "label": "our rig"}

@@ -15,8 +15,8 @@ from hypothesis import given, settings, strategies as st
 
 from lowgmap.app.files.casefile import CaseFileError, load_case, sample_case_path
 from lowgmap.app.cli import main
-from lowgmap.app.cli.design import (loads_goal, loads_sweep, margin_map_figure, read_goal, read_sweep, to_display,
-                            variable_kind)
+from lowgmap.app.files.studyfiles import loads_goal, loads_sweep, read_goal, read_sweep, to_display, variable_kind
+from lowgmap.app.outputs.maps import margin_map_figure
 from lowgmap.physics.studies.design import optimize_design
 from lowgmap.physics.studies.sweep import grid, sweep
 
@@ -120,6 +120,29 @@ def test_file_problems_are_all_reported(tube):
         loads_goal({"goal": {"liquid_flow": ["1 L/min", "2 L/min"], "gas_flow": ["1 L/min", "2 L/min"]},
                     "variables": [{"name": "size", "low": "6 mm", "high": "9 mm"}],
                     "constraints": [{"quantity": "mass", "max": "1 kg"}]}, tube)
+
+
+def test_study_file_problems_name_their_lines(tube, tmp_path):
+    # the same problem collector as case files: key path and the line where the key is written
+    bad = tmp_path / "bad_sweep.toml"
+    bad.write_text('[sweep]\ncombine = "zip"\n\n[[variables]]\nname = "bore"\nvalues = ["1 mm"]\n\n'
+                   '[[variables]]\nname = "length"\nfrom = "1 kg"\nto = "2 m"\nsteps = 3\n', encoding="utf-8")
+    with pytest.raises(CaseFileError) as exc:
+        read_sweep(bad, tube)
+    assert [(p.path, p.line) for p in exc.value.problems] == [
+        ("sweep.combine", 2), ("variables[0].name", 5), ("variables[1].from", 10)]
+    assert exc.value.source == str(bad) and "line 10: variables[1].from" in str(exc.value)
+    goal = tmp_path / "bad_goal.toml"
+    goal.write_text('[goal]\nliquid_flow = ["1 L/min", "2 L/min"]\ngas_flow = ["1 L/min", "2 L/min"]\n'
+                    'starts = -1\n', encoding="utf-8")
+    with pytest.raises(CaseFileError) as exc:
+        read_goal(goal, tube)
+    assert {(p.path, p.line) for p in exc.value.problems} >= {("goal.starts", 4)}
+    broken = tmp_path / "broken.toml"
+    broken.write_text('[sweep\ncombine = "grid"\n', encoding="utf-8")
+    with pytest.raises(CaseFileError) as exc:
+        read_sweep(broken, tube)
+    assert exc.value.problems[0].path == "(syntax)" and exc.value.problems[0].line == 1
 
 
 @settings(max_examples=40, deadline=None)

@@ -11,7 +11,7 @@ import pytest
 from lowgmap.app import CAUTION
 from lowgmap.app.files.casefile import load_case, sample_case_path
 from lowgmap.app.cli import main
-from lowgmap.app.cli.margin import format_factor
+from lowgmap.app.outputs.formatting import format_factor
 from lowgmap.physics.chart.composition import Chart
 from lowgmap.physics.chart.margins import point_margins
 
@@ -104,8 +104,8 @@ def test_case_without_point_or_regimes(capsys, tmp_path, monkeypatch):
     code, out, _ = run(capsys, "margin", str(path), "--ql", "3 L/min", "--qg", "0.5 L/min", "--json")
     assert code == 0 and json.loads(out)["regime"] == "dispersed bubbles"
     # a chart on which no model applies (e.g. an open section before open-channel models): no regimes
-    import lowgmap.app.cli.margin as cm
-    monkeypatch.setattr(cm, "_chart", lambda doc: Chart.build(doc.case, []))
+    import lowgmap.app.cli.operating as operating   # the chart of margin, robust and uncertainty
+    monkeypatch.setattr(operating, "case_chart", lambda doc: Chart.build(doc.case, []))
     code, out, _ = run(capsys, "margin", SAMPLE, "--json")
     data = json.loads(out)
     assert code == 0 and data["regime"] == "" and data["symmetric_margin"] is None and data["boundaries"] == []

@@ -1,4 +1,4 @@
-"""`lowgmap compare` and `lowgmap calibrate` (lowgmap.app.cli.points): wiring, files written, errors.
+"""`lowgmap compare` and `lowgmap calibrate` (lowgmap.app.cli.compare, lowgmap.app.cli.calibrate): wiring, files written, errors.
 
 The numbers shown come from lowgmap.physics.studies.agreement and lowgmap.physics.studies.calibration (tested there); these tests check
 that the commands report them, that a calibrated case is a loadable next revision with its history, and
@@ -12,7 +12,8 @@ import pytest
 
 from lowgmap.app.files.casefile import load_case, sample_case_path
 from lowgmap.app.cli import main
-from lowgmap.app.cli.points import next_revision, parse_regime_map
+from lowgmap.app.cli.points import parse_regime_map
+from lowgmap.app.files.revisions import next_revision
 from lowgmap.physics.chart.composition import Chart
 
 CASE = str(sample_case_path())

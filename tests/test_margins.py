@@ -14,7 +14,7 @@ import pytest
 from scipy.optimize import brentq
 
 from lowgmap.app.files.casefile import load_case, sample_case_path
-from lowgmap.physics.chart import margins as mg
+from lowgmap.physics.chart import lines, margins as mg
 from lowgmap.physics.models.boundary import BoundaryModel, ExplicitBoundary, PowerLawBoundary, TableBoundary
 from lowgmap.physics.case import Case, FlowRange
 from lowgmap.physics.chart.composition import Chart
@@ -397,7 +397,7 @@ def test_factor_none_when_crossing_is_outside_chart_range():
 def test_cache_does_not_keep_charts_alive():
     chart = chart_of(line("rig", 1.0, 1.0, "a", "b"))
     point_margins(chart, 1e-5, 1e-6)
-    assert chart in mg._CACHE
+    assert chart in lines.GEOMETRY_CACHE
     ref = weakref.ref(chart)
     del chart
     gc.collect()

@@ -16,6 +16,8 @@ from scipy.integrate import quad
 from scipy.optimize import minimize_scalar
 
 from lowgmap.physics.geometry.corner import flow_resistance, meniscus_area_factor
+from lowgmap.physics.models import open_channel
+from lowgmap.physics.models.open_channel import geometry, hydraulics, profile, tables
 from lowgmap.physics.models.open_channel import (
     LIMITS,
     CornerFilament,
@@ -463,3 +465,42 @@ def test_bad_input_names_the_field():
     with pytest.raises(TypeError, match="CornerFilament"):
         critical_flow_rate(CornerFilament(30 * DEG), 1.0, inlet_radius=1.0,
                            **{**ok, "resistance": lambda R: 20.0 + 0 * R})
+
+
+# ---------------------------------------------------------------------------------------------
+# package layout and the curvature interface the flow model uses
+# ---------------------------------------------------------------------------------------------
+def test_package_reexports_each_public_name_from_its_module():
+    # one definition per name: the package re-exports the sub-modules' objects, nothing of its own
+    homes = {}
+    for mod in (geometry, tables, hydraulics, profile):
+        for name in mod.__all__:
+            assert name not in homes, f"{name} defined in {homes.get(name)} and {mod.__name__}"
+            homes[name] = mod
+    for name in open_channel.__all__:
+        assert getattr(open_channel, name) is getattr(homes[name], name)
+
+
+def test_segment_factors_closed_forms_and_series_join():
+    # half disc: segment area pi c^2/2 over c^2; slope factor f = 1 - g cos/sin^3 -> 1/3 (beta -> 0), 1 at pi/2
+    assert float(geometry.segment_area_factor(math.pi / 2)) == pytest.approx(math.pi / 2, rel=1e-14)
+    assert float(geometry.segment_slope_factor(math.pi / 2)) == pytest.approx(1.0, rel=1e-14)
+    assert float(geometry.segment_slope_factor(1e-6)) == pytest.approx(1.0 / 3.0, rel=1e-10)
+    # the small-angle series (below 1e-2) and the direct formula (from 1e-2) meet at the switch;
+    # the direct formula loses ~1e-12 to cancellation there (beta - sin(beta) cos(beta) ~ beta^3)
+    for f in (geometry.segment_area_factor, geometry.segment_slope_factor):
+        lo, hi = float(f(np.nextafter(1e-2, 0.0))), float(f(1e-2))
+        assert lo == pytest.approx(hi, rel=1e-10)
+
+
+@pytest.mark.parametrize("channel", [ParallelPlates(0.002, 0.01), RectangularGroove(0.004, 0.001),
+                                     WedgeChannel(30 * DEG, 0.01, 10 * DEG)], ids=lambda c: type(c).__name__)
+def test_curvature_interface_agrees_with_the_radius_functions(channel):
+    kap = np.linspace(0.05, 0.95, 7) * channel.kappa_pinned
+    assert channel.area_at(kap) == pytest.approx(channel.area(1.0 / kap), rel=1e-13)
+    e = 1e-6 * channel.kappa_pinned                     # central difference of A(kappa)
+    slope = (channel.area_at(kap + e) - channel.area_at(kap - e)) / (2 * e)
+    assert channel.dA_dkappa(kap) == pytest.approx(slope, rel=1e-6)
+    depth = channel.depth_at(kap)                       # depth and curvature are inverse maps
+    assert channel.kappa_of_depth(depth) == pytest.approx(kap, rel=1e-12)
+    assert channel.arc_angle(channel.kappa_pinned) == pytest.approx(channel.arc_angle_max, rel=1e-12)

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import dataclasses
+import inspect
 import json
 import math
 
@@ -13,6 +14,7 @@ from hypothesis import strategies as st
 from lowgmap.physics.geometry.sections import (
     CIRCLE_OUTLINE_VERTICES,
     SECTION_KINDS,
+    SECTION_QUANTITIES,
     Circle,
     Corner,
     Groove,
@@ -20,7 +22,10 @@ from lowgmap.physics.geometry.sections import (
     Rectangle,
     RegularPolygon,
     Section,
+    SectionField,
     WedgeChannel,
+    section_fields,
+    section_label,
 )
 from lowgmap.physics.properties.wetting import Wetting
 
@@ -524,3 +529,68 @@ def test_from_dict_wrong_kind_for_class_and_not_a_mapping():
         Circle.from_dict({"kind": "rectangle", "width": 1.0, "height": 1.0})
     with pytest.raises(TypeError, match="section must be a mapping"):
         Section.from_dict([("kind", "circle")])
+
+
+# =============================================================================================
+# One table of section kinds (section_fields / section_label): it must agree with the classes
+# =============================================================================================
+#: one valid value per quantity, to build every kind from its table alone (common practice, no source)
+EXAMPLE_VALUE = {"length": 0.01, "angle": R(30), "count": 4, "vertices": [[0.0, 0.0], [1e-3, 0.0], [0.0, 1e-3]]}
+
+
+def from_table(kind):
+    return {f.name: EXAMPLE_VALUE[f.quantity] for f in section_fields(kind) if f.required}
+
+
+def constructor_parameters(cls):
+    params = inspect.signature(cls).parameters.values()
+    return ({p.name for p in params}, {p.name for p in params if p.default is inspect.Parameter.empty})
+
+
+@pytest.mark.parametrize("kind", sorted(SECTION_KINDS))
+def test_section_table_agrees_with_the_constructor(kind):
+    cls = SECTION_KINDS[kind]
+    table = section_fields(kind)
+    names, required = constructor_parameters(cls)
+    assert {f.name for f in table if f.required} == required          # required both ways
+    assert {f.name for f in table} <= names                           # every table field can be passed
+    assert all(isinstance(f, SectionField) and f.quantity in SECTION_QUANTITIES for f in table)
+    assert all(f.label and f.label == f.label.strip() and "_" not in f.label for f in table)
+    for f in table:
+        if not f.required:                                            # the table's default is the constructor's
+            assert inspect.signature(cls).parameters[f.name].default == f.default
+
+
+@pytest.mark.parametrize("kind", sorted(SECTION_KINDS))
+def test_to_dict_and_from_dict_use_the_table_names(kind):
+    sec = Section.from_dict({"kind": kind, **from_table(kind)})       # the table alone builds the section
+    assert type(sec) is SECTION_KINDS[kind]
+    d = sec.to_dict()
+    assert set(d) - {"kind"} == {f.name for f in section_fields(kind)}
+    assert Section.from_dict(d) == sec
+
+
+@pytest.mark.parametrize("kind", sorted(SECTION_KINDS))
+def test_table_quantities_match_what_the_constructor_checks(kind):
+    # a negative length and an angle of 95 deg are refused, and the message names the field
+    base = from_table(kind)
+    for f in section_fields(kind):
+        bad = {"length": -1.0, "angle": R(95), "count": 2}.get(f.quantity)
+        if bad is None:
+            continue
+        with pytest.raises(ValueError, match=f"{kind}.{f.name}"):
+            Section.from_dict({"kind": kind, **base, f.name: bad})
+
+
+def test_section_labels_are_plain_and_distinct():
+    labels = [section_label(k) for k in SECTION_KINDS]
+    assert len(set(labels)) == len(labels) and all(labels)
+    assert section_label("circle") == "circular tube" and section_label("groove") == "V-groove (open)"
+    assert [f.label for f in section_fields("groove")] == ["corner half-angle", "depth"]
+
+
+def test_section_table_errors():
+    with pytest.raises(ValueError, match="section kind must be one of circle, .*got 'ellipse'"):
+        section_fields("ellipse")
+    with pytest.raises(ValueError, match="section kind must be one of"):
+        section_label(None)

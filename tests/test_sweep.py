@@ -287,3 +287,58 @@ def test_process_pool_gives_identical_results(tube):
     with ProcessPoolExecutor(2) as ex:
         got = sweep(tube.case, designs, client=ex, chunk_size=1)
     assert got.equals(ref)
+
+
+# ------------------------------------------------------------------------------ module plan, batch, table
+def test_sweep_re_exports_the_design_space_and_envelope_functions():
+    # catches a second copy left behind in sweep.py after the split (two engines that can disagree)
+    from lowgmap.physics.studies import design_space, envelope
+    from lowgmap.physics.studies import sweep as sweep_module
+
+    for name in ("grid", "zipped", "apply_changes", "VARIABLES", "FLUID_KEYS"):
+        assert getattr(sweep_module, name) is getattr(design_space, name)
+    assert sweep_module.envelope_margin is envelope.envelope_margin
+
+
+def test_margin_batch_returns_each_question_its_own_chords():
+    # catches an offset slip when the solved chords are handed back (an empty question in the
+    # middle must not shift the next one's answer, and the line numbers must travel with them)
+    from lowgmap.physics.studies.envelope import MarginBatch
+
+    got = []
+    batch = MarginBatch()
+    # closed form, chords in ln(Q/Q0): a horizontal line k above the point is reached at 1 + m = k,
+    # below it at 1 - m = k; a vertical line at Q_L = k Q_L0 likewise
+    batch.add([4, 7], [-1.0, -1.0], [2.0, 2.0], [math.log(1.5), math.log(0.8)], [0.0, 0.0],
+              lambda m, lines: got.append((m.tolist(), lines.tolist())))
+    batch.add([], [], [], [], [], lambda m, lines: got.append((m.tolist(), lines.tolist())))
+    batch.add([2], [math.log(1.25)], [0.0], [-1.0], [2.0], lambda m, lines: got.append((m.tolist(), lines.tolist())))
+    assert batch.items                       # nothing solved before resolve
+    batch.resolve()
+    assert [g[1] for g in got] == [[4, 7], [], [2]]
+    assert got[0][0] == pytest.approx([0.5, 0.2], rel=1e-12)
+    assert got[1][0] == [] and got[2][0] == pytest.approx([0.25], rel=1e-12)
+    assert batch.items == []                 # a second resolve does not answer twice
+    batch.resolve()
+    assert len(got) == 3
+
+
+def test_tidy_results_gives_the_sweep_table_from_raw_rows():
+    # catches the dashboard's path (raw rows of the evaluator + tidy_results) drifting from sweep()'s,
+    # and a design without one of the varied inputs losing that column or its row
+    low = PowerLawBoundary("low", 1.0, 1.0, "a", "b")                   # Q_G = Q_L
+    case = lines_case(low, point=(1e-5, 0.5e-5))
+    designs = [{"length": 2.0}, {"size": 0.02, "length": 1.0}, {"contact_angle": math.radians(200.0)}]
+    spec = SweepSpec(case, required_margin=0.2)
+    from lowgmap.physics.studies.sweep import RESULT_COLUMNS, tidy_results
+
+    df = tidy_results(DesignEvaluator(spec).evaluate_many(designs), designs, spec)
+    assert list(df.columns)[:4] == ["design", "length", "size", "contact_angle"]
+    assert [c for c in df.columns[4:]] == [c for c in RESULT_COLUMNS if c in df.columns]
+    assert math.isnan(df["size"].iloc[0]) and df["size"].iloc[1] == 0.02
+    # closed form: the line Q_G = Q_L is reached at (1 + m)/(1 - m) = 2, m = 1/3, whatever the size
+    assert df["margin"].iloc[:2].tolist() == pytest.approx([1 / 3, 1 / 3], rel=1e-9)
+    assert df["meets_required"].dtype == bool and df["meets_required"].tolist() == [True, True, False]
+    assert df.attrs["units"]["contact_angle"] == "rad" and df.attrs["units"]["margin"] == "-"
+    assert df.attrs["required_margin"] == 0.2
+    assert df.equals(sweep(case, designs, required_margin=0.2))

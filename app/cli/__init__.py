@@ -1,203 +1,154 @@
 """The ``lowgmap`` command line.
 
 Every command that prints data accepts ``--json`` for scripting. Exit codes: 0 success, 2 invalid
-input (every problem is printed), 1 unexpected failure.
+input (every problem is printed), 1 unexpected failure; output cut short by a closed pipe (``lowgmap
+... | head``) ends quietly with 141 (128 + SIGPIPE, as a shell reports it).
+
+Commands are listed in :data:`COMMANDS` (name, help line, module). Each command lives in a module of
+its own under ``lowgmap.app.cli`` with two functions, ``add_arguments(parser)`` and ``run(args) -> int``,
+and that module is imported only when its command runs (or its ``--help`` is asked for). So
+``lowgmap --version`` and ``lowgmap --help`` load no numerical, units or plotting library.
 """
 from __future__ import annotations
 
 import argparse
-import json
-import math
+import importlib
+import os
 import sys
-from pathlib import Path
+from dataclasses import dataclass
 
 from lowgmap.app import CAUTION, __version__
+from lowgmap.app.cli.common import EXIT_FAIL, EXIT_INVALID, EXIT_OK, CliError
 
-EXIT_OK, EXIT_FAIL, EXIT_INVALID = 0, 1, 2
+__all__ = ["main", "build_parser", "Command", "COMMANDS", "CliError", "EXIT_OK", "EXIT_FAIL", "EXIT_INVALID",
+           "EXIT_BROKEN_PIPE"]
 
+#: Exit code when stdout was closed by the reader (128 + SIGPIPE).
+EXIT_BROKEN_PIPE = 141
 
-class CliError(Exception):
-    """Bad input from the command line; printed without a traceback, exit code 2."""
-
-
-def _emit(args, data: dict, text: str) -> None:
-    if getattr(args, "json", False):
-        print(json.dumps(data, indent=2, default=_json_default, allow_nan=False))
-    else:
-        print(text)
+DESCRIPTION = "Regime charts and margins for bubbly liquid flow in low-gravity conduits."
 
 
-def _json_default(obj):
-    import numpy as np
+@dataclass(frozen=True)
+class Command:
+    """One command: its name, its help line, and the module under ``lowgmap.app.cli`` that runs it.
 
-    if isinstance(obj, (np.floating, np.integer)):
-        return obj.item()
-    if isinstance(obj, np.ndarray):
-        return obj.tolist()
-    if isinstance(obj, Path):
-        return str(obj)
-    raise TypeError(f"not JSON serialisable: {type(obj).__name__}")
+    ``case``: the command takes a case file as its first argument; ``json``: it has ``--json``.
+    """
 
+    name: str
+    help: str
+    module: str
+    case: bool = True
+    json: bool = True
 
-def _clean(obj):
-    """Replace NaN/inf by None so the JSON stays strict."""
-    if isinstance(obj, dict):
-        return {k: _clean(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_clean(v) for v in obj]
-    if isinstance(obj, float) and not math.isfinite(obj):
-        return None
-    return obj
+    @property
+    def module_name(self) -> str:
+        return f"{__name__}.{self.module}"
 
 
-def _load(path: str):
-    from lowgmap.app.files.casefile import load_case
+#: Every command, in the order ``lowgmap --help`` lists them.
+COMMANDS: tuple[Command, ...] = (
+    Command("check", "validate a case file; exit 0 when valid, 2 with every problem when not", "check"),
+    Command("fluids", "list the fluid names and property sources", "fluids", case=False),
+    Command("section", "geometry of the case's cross-section, Concus–Finn per corner, Bond number", "section"),
+    Command("serve", "start the browser dashboard (default: a bundled sample case)", "serve", case=False,
+            json=False),
+    Command("chart", "draw the regime chart of a case (PNG, SVG or PDF, with title block)", "chart"),
+    Command("margin", "margins of the operating point to every boundary: axis factors, log distance, symmetric ±m "
+                      "margin and the limiting boundary", "margin"),
+    Command("robust", "the point of a regime with the largest symmetric margin", "robust"),
+    Command("uncertainty", "Monte Carlo over the case's uncertainties: probability of staying in the intended regime, "
+                           "margin distribution, sensitivities", "uncertainty"),
+    Command("compare", "test points against the chart: validity per point (Bond number, low-g time), confusion "
+                       "matrix, agreement, disagreeing points", "compare"),
+    Command("calibrate", "fit boundary-model constants to test points (--fit), or fit an empirical power-law boundary "
+                         "between two observed regimes (--empirical); -o writes the next case revision", "calibrate"),
+    Command("sweep", "sweep case inputs over ranges: regime, symmetric margin and limiting line per design", "sweep"),
+    Command("design", "inverse design: the inputs that maximise the worst-case margin of an envelope", "design"),
+    Command("corner", "corner meniscus numbers: Concus–Finn, area factor, flow resistance", "corner", case=False),
+    Command("limit", "open-channel flow-rate limit (gas ingestion) vs length, and surface shape", "limit"),
+)
 
-    return load_case(path)
-
-
-# ----------------------------------------------------------------------------- commands
-def cmd_check(args) -> int:
-    from lowgmap.app.files.casefile import CaseFileError
-
-    try:
-        doc = _load(args.case)
-    except CaseFileError as exc:
-        if args.json:
-            print(json.dumps({"valid": False, "file": args.case, "problems": [
-                {"path": p.path, "line": p.line, "message": p.message,
-                 "value": p.value if isinstance(p.value, (str, int, float, bool, type(None))) else str(p.value)}
-                for p in exc.problems]}, indent=2))
-        else:
-            print(f"{args.case}: INVALID, {len(exc.problems)} problem(s):", file=sys.stderr)
-            for p in exc.problems:
-                print(f"  - {p}", file=sys.stderr)
-        return EXIT_INVALID
-    case = doc.case
-    missing = [str(f) for f in doc.test_point_files if not f.exists()]
-    data = {"valid": not missing, "file": args.case, "title": case.title, "revision": case.revision,
-            "invented": doc.invented, "missing_test_point_files": missing}
-    text = f"{args.case}: valid - {case.title} (revision {case.revision})"
-    if missing:
-        text = f"{args.case}: INVALID - test-point file(s) not found: {', '.join(missing)}"
-    _emit(args, data, text)
-    return EXIT_INVALID if missing else EXIT_OK
+_BY_NAME = {c.name: c for c in COMMANDS}
 
 
-def cmd_fluids(args) -> int:
-    from lowgmap.physics.properties import fluids
-
-    names = fluids.fluid_names()
-    data = {"sources": names, "user": "any liquid, with rho_l, mu_l and sigma given in [fluid.overrides]"}
-    lines = ["Fluids lowgmap knows (use the name in [fluid] liquid/gas):"]
-    for source, items in names.items():
-        lines.append(f"\n{source} ({len(items)}):")
-        lines.append("  " + ", ".join(items))
-    lines.append("\nuser-defined: set liquid_source = \"user\" and give rho_l, mu_l, sigma (and rho_g, mu_g) "
-                 "in [fluid.overrides].")
-    _emit(args, data, "\n".join(lines))
-    return EXIT_OK
-
-
-def cmd_section(args) -> int:
-    from lowgmap.physics.chart.summary import section_report
-
-    doc = _load(args.case)
-    rep = section_report(doc.case)
-    _emit(args, _clean(rep), _format_section(rep))
-    return EXIT_OK
-
-
-def _format_section(rep: dict) -> str:
-    s = rep["section"]
-    lines = [f"Section: {s['kind']}"]
-    for key, value in s.items():
-        if key in ("kind", "corners") or isinstance(value, (list, dict)):
-            continue
-        lines.append(f"  {key:<28} {value:.6g}" if isinstance(value, float) else f"  {key:<28} {value}")
-    lines.append(f"Corners (Concus–Finn at contact angle {rep['contact_angle_deg']:.3g} deg):")
-    if not rep["corners"]:
-        lines.append("  none")
-    for c in rep["corners"]:
-        lines.append(f"  corner {c['index']}: half-angle {c['half_angle_deg']:.4g} deg -> "
-                     f"{'wicks' if c['wicks'] else 'does not wick'} (critical contact angle "
-                     f"{c['critical_contact_angle_deg']:.4g} deg)")
-    b = rep["gravity"]
-    lines.append(f"Residual acceleration {b['g_m_s2']:.4g} m/s^2 ({b['g_over_g0']:.3g} g0); "
-                 f"Bond number on {b['length_name']} {b['length_m'] * 1e3:.4g} mm: {b['bond_number']:.4g}")
-    lines.append(f"  {b['verdict']}")
-    for n in rep.get("notes", []):
-        lines.append(f"Note: {n}")
-    return "\n".join(lines)
-
-
-def build_parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(
-        prog="lowgmap",
-        description="Regime charts and margins for bubbly liquid flow in low-gravity conduits.",
-        epilog=CAUTION)
+def build_parser(command: str | None = None, *, every: bool = False) -> argparse.ArgumentParser:
+    """The argument parser: every command with its help line; the options of ``command`` (or of all
+    commands with ``every``), which imports the modules concerned.
+    """
+    p = argparse.ArgumentParser(prog="lowgmap", description=DESCRIPTION, epilog=CAUTION)
     p.add_argument("--version", action="version", version=f"lowgmap {__version__}")
     sub = p.add_subparsers(dest="command", metavar="COMMAND")
-
-    def add(name, func, help_text, case=True, json_flag=True):
-        sp = sub.add_parser(name, help=help_text, description=help_text, epilog=CAUTION)
-        if case:
-            sp.add_argument("case", metavar="CASE", help="case file (.toml)")
-        if json_flag:
-            sp.add_argument("--json", action="store_true", help="print JSON for scripting")
-        sp.set_defaults(func=func)
-        return sp
-
-    add("check", cmd_check, "validate a case file; exit 0 when valid, 2 with every problem when not")
-    add("fluids", cmd_fluids, "list the fluid names and property sources", case=False)
-    add("section", cmd_section, "geometry of the case's cross-section, Concus–Finn per corner, Bond number")
-    for extra in _EXTRA_COMMANDS:
-        extra(sub, add)
+    for c in COMMANDS:
+        sp = sub.add_parser(c.name, help=c.help, description=c.help, epilog=CAUTION)
+        if every or c.name == command:
+            _add_arguments(sp, c)
     return p
 
 
-#: Later modules append functions ``f(subparsers, add)`` that register more commands.
-_EXTRA_COMMANDS: list = []
+def _add_arguments(sp: argparse.ArgumentParser, c: Command) -> None:
+    if c.case:
+        sp.add_argument("case", metavar="CASE", help="case file (.toml)")
+    if c.json:
+        sp.add_argument("--json", action="store_true", help="print JSON for scripting")
+    importlib.import_module(c.module_name).add_arguments(sp)
+
+
+def _command_in(argv: list[str]) -> str | None:
+    """The command named on the command line (the first word that is not an option), if any."""
+    for i, word in enumerate(argv):
+        if word == "--":
+            return argv[i + 1] if i + 1 < len(argv) and argv[i + 1] in _BY_NAME else None
+        if not word.startswith("-"):
+            return word if word in _BY_NAME else None
+    return None
 
 
 def main(argv=None) -> int:
-    from lowgmap.app.files.casefile import CaseFileError
-    from lowgmap.app.files.units import UnitError
+    """Run the command line with ``argv`` (default ``sys.argv[1:]``); return the exit code.
 
-    _register_optional_commands()
-    parser = build_parser()
+    ``--version`` and ``--help`` raise :class:`SystemExit` (argparse), as usual.
+    """
+    argv = sys.argv[1:] if argv is None else list(argv)
+    try:
+        try:
+            return _run(argv)
+        finally:
+            sys.stdout.flush()
+    except BrokenPipeError:
+        _stdout_to_devnull()
+        return EXIT_BROKEN_PIPE
+
+
+def _run(argv: list[str]) -> int:
+    from lowgmap.app.files.problems import CaseFileError
+
+    parser = build_parser(_command_in(argv))
     args = parser.parse_args(argv)
-    if not getattr(args, "func", None):
+    if args.command is None:
         parser.print_help()
         return EXIT_INVALID
+    module = importlib.import_module(_BY_NAME[args.command].module_name)
     try:
-        return int(args.func(args) or 0)
+        return int(module.run(args) or 0)
     except CaseFileError as exc:
         print(f"{exc.source}: {len(exc.problems)} problem(s):", file=sys.stderr)
         for pr in exc.problems:
             print(f"  - {pr}", file=sys.stderr)
         return EXIT_INVALID
-    except (CliError, UnitError, ValueError, FileNotFoundError) as exc:
+    except (CliError, ValueError, FileNotFoundError) as exc:   # unit errors are ValueErrors
         print(f"lowgmap {args.command}: {exc}", file=sys.stderr)
         return EXIT_INVALID
 
 
-#: Modules that add sub-commands; each has ``register(subparsers, add)``.
-_COMMAND_MODULES = ("lowgmap.app.cli.serve", "lowgmap.app.cli.chart", "lowgmap.app.cli.margin", "lowgmap.app.cli.points", "lowgmap.app.cli.design",
-                    "lowgmap.app.cli.corner")
-
-
-def _register_optional_commands() -> None:
-    """Import the command modules (chart, margin, serve, ...) and collect their ``register`` functions."""
-    import importlib
-
-    for mod in _COMMAND_MODULES:
-        reg = importlib.import_module(mod).register
-        if reg not in _EXTRA_COMMANDS:
-            _EXTRA_COMMANDS.append(reg)
-
-
-if __name__ == "__main__":  # pragma: no cover - `python -m lowgmap.app.cli`
-    from lowgmap.app.cli import main as _main  # the package module, so its exception classes are the ones raised
-
-    sys.exit(_main())
+def _stdout_to_devnull() -> None:
+    """Point stdout at the null device, so that the flush at exit does not fail a second time."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        try:
+            os.dup2(devnull, sys.stdout.fileno())
+        finally:
+            os.close(devnull)
+    except (OSError, ValueError, AttributeError):  # stdout is not a file (e.g. captured by a test)
+        pass

@@ -3,12 +3,19 @@ from __future__ import annotations
 
 import socket
 
-from lowgmap.app.cli import CliError
+from lowgmap.app.cli.common import CliError
 
-__all__ = ["register"]
+__all__ = ["add_arguments", "run"]
 
 
-def cmd_serve(args) -> int:
+def add_arguments(parser) -> None:
+    parser.add_argument("case", metavar="CASE", nargs="?", help="case file (.toml); default: bundled tube sample")
+    parser.add_argument("--port", type=int, default=5006, help="port (0 = any free port; default 5006)")
+    parser.add_argument("--address", default="127.0.0.1", help="address to listen on (default 127.0.0.1)")
+    parser.add_argument("--show", action="store_true", help="open a browser window")
+
+
+def run(args) -> int:
     from lowgmap.app.files.casefile import load_case, sample_case_path
     from lowgmap.app.dashboard import serve
 
@@ -28,12 +35,3 @@ def _free_port(address: str) -> int:
     with socket.socket() as s:
         s.bind((address, 0))
         return s.getsockname()[1]
-
-
-def register(sub, add):
-    sp = add("serve", cmd_serve, "start the browser dashboard (default: a bundled sample case)", case=False,
-             json_flag=False)
-    sp.add_argument("case", metavar="CASE", nargs="?", help="case file (.toml); default: bundled tube sample")
-    sp.add_argument("--port", type=int, default=5006, help="port (0 = any free port; default 5006)")
-    sp.add_argument("--address", default="127.0.0.1", help="address to listen on (default 127.0.0.1)")
-    sp.add_argument("--show", action="store_true", help="open a browser window")

@@ -178,7 +178,7 @@ class DesignTab(pn.viewable.Viewer):
         """Compute the map in this thread (tests, scripts); returns the result DataFrame."""
         from lowgmap.physics.studies.sweep import sweep
 
-        from lowgmap.app.cli.design import fluid_spec
+        from lowgmap.app.files.studyfiles import fluid_spec
 
         designs = self.designs()
         doc, kw = self._spec_args()
@@ -187,9 +187,9 @@ class DesignTab(pn.viewable.Viewer):
         return df
 
     async def _on_run(self, event=None):
-        from lowgmap.physics.studies.sweep import SweepSpec, DesignEvaluator, _tidy
+        from lowgmap.physics.studies.sweep import SweepSpec, DesignEvaluator, tidy_results
 
-        from lowgmap.app.cli.design import fluid_spec
+        from lowgmap.app.files.studyfiles import fluid_spec
 
         if self.running:
             return
@@ -217,7 +217,7 @@ class DesignTab(pn.viewable.Viewer):
                 self.progress.value = int(100 * min(len(designs), a + _CHUNK) / len(designs))
             import pandas as pd
 
-            df = _tidy(pd.concat(parts, ignore_index=True), designs, spec)
+            df = tidy_results(pd.concat(parts, ignore_index=True), designs, spec)
             self._show(df, kw)
         except Exception as exc:  # shown in the page, never as a traceback
             self.status.object = f"<p class='design-error' style='color:#8B0000'>{html.escape(str(exc))}</p>"
@@ -229,7 +229,7 @@ class DesignTab(pn.viewable.Viewer):
     def _show(self, df, kw):
         from lowgmap.physics.studies.design import nominal_design_value
 
-        from lowgmap.app.cli.design import margin_map_png
+        from lowgmap.app.outputs.maps import margin_map_png
 
         self.result = df
         xv, yv = self.x_var.value, self.y_var.value

@@ -8,82 +8,10 @@ import numpy as np
 import panel as pn
 import param
 
-from lowgmap.app import CAUTION
 from lowgmap.app.files.units import UnitError, convert
+from lowgmap.app.outputs.tables import MARGIN_CSS, margin_table_html
 
-__all__ = ["PointPanel", "MarginTable", "TestPointsPanel", "ExportPanel", "margin_table_html"]
-
-
-def _factor_text(f) -> str:
-    if f is None or not np.isfinite(f):
-        return "—"
-    if f >= 10:
-        return f"{f:.3g} (×{f:.3g})"
-    pct = (f - 1.0) * 100.0
-    return f"{f:.3g} ({pct:+.0f} %)"
-
-
-def margin_table_html(margins, required: float) -> str:
-    """The margin table as HTML: one row per boundary, the symmetric margin with its limiting line.
-
-    Factors are Q_cross/Q along each axis (the other flow held); a row is highlighted when the
-    boundary lies closer than the required margin on either axis.
-    """
-    if margins is None:
-        return "<p>No regimes on this chart: no margins.</p>"
-    m = margins.symmetric_margin
-    low = m is not None and m < required
-    head = (f"<div class='margin-summary{' below-required' if low else ''}' data-margin='{m:.9g}' "
-            f"data-regime='{html.escape(margins.regime)}' data-ql='{margins.ql:.12g}' data-qg='{margins.qg:.12g}' "
-            f"data-limiting='{html.escape(margins.limiting_boundary or '')}'>"
-            f"Regime at the point: <b>{html.escape(margins.regime)}</b><br>"
-            f"Symmetric margin: <b class='sym-margin'>±{100 * m:.1f} %</b> "
-            f"(limited by {html.escape(_label_of(margins, margins.limiting_boundary))}); "
-            f"required ±{100 * required:.0f} %"
-            + (" — <b>BELOW REQUIRED MARGIN</b>" if low else "") + "</div>")
-    rows = []
-    for b in margins.boundaries:
-        close = any(f is not None and np.isfinite(f) and ((f >= 1 and f < 1 + required) or (f < 1 and f > 1 - required))
-                    for f in (b.ql_factor_up, b.ql_factor_down, b.qg_factor_up, b.qg_factor_down))
-        cls = "margin-row" + (" too-close" if close and b.role == "regions" else "")
-        dist = "—" if b.log_distance is None or not np.isfinite(b.log_distance) else f"{b.log_distance:.3f}"
-        rows.append(
-            f"<tr class='{cls}' data-name='{html.escape(b.name)}' data-ql-up='{_num(b.ql_factor_up)}' "
-            f"data-ql-down='{_num(b.ql_factor_down)}' data-qg-up='{_num(b.qg_factor_up)}' "
-            f"data-qg-down='{_num(b.qg_factor_down)}'>"
-            f"<td>{html.escape(b.label)}{'' if b.role == 'regions' else ' <i>(comparison)</i>'}</td>"
-            f"<td>{_factor_text(b.ql_factor_up)}</td><td>{_factor_text(b.ql_factor_down)}</td>"
-            f"<td>{_factor_text(b.qg_factor_up)}</td><td>{_factor_text(b.qg_factor_down)}</td><td>{dist}</td></tr>")
-    table = ("<table class='margin-table'><thead><tr><th>boundary</th><th>Q_L up</th><th>Q_L down</th>"
-             "<th>Q_G up</th><th>Q_G down</th><th>log<sub>10</sub> distance</th></tr></thead><tbody>"
-             + "".join(rows) + "</tbody></table>"
-             "<p class='margin-note'>Factor = flow at the crossing / present flow, the other flow held "
-             "(1.8 = may rise 80 %); — = no crossing inside the chart range.</p>")
-    return head + table
-
-
-def _num(f) -> str:
-    return "" if f is None or not np.isfinite(f) else f"{f:.9g}"
-
-
-def _label_of(margins, name) -> str:
-    if not name:
-        return "no boundary in the chart range"
-    for b in margins.boundaries:
-        if b.name == name:
-            return b.label
-    return str(name)
-
-
-MARGIN_CSS = """
-.margin-table {border-collapse: collapse; font-size: 12px; width: 100%;}
-.margin-table th, .margin-table td {border: 1px solid #ccc; padding: 3px 6px; text-align: right;}
-.margin-table td:first-child, .margin-table th:first-child {text-align: left;}
-.margin-table tr.too-close td {background: #fde0dc;}
-.margin-summary {font-size: 14px; margin-bottom: 6px; padding: 6px; border-radius: 4px; background: #eef6ee;}
-.margin-summary.below-required {background: #fde0dc; border: 2px solid #C00000;}
-.margin-note {font-size: 11px; color: #555;}
-"""
+__all__ = ["PointPanel", "MarginTable", "TestPointsPanel", "ExportPanel"]
 
 
 class PointPanel(pn.viewable.Viewer):
@@ -236,6 +164,7 @@ class TestPointsPanel(pn.viewable.Viewer):
                                    pressure=f.pressure, temperature=f.temperature)
         except TestPointError as exc:
             self.points = None
+            self.session.set_test_points(None)
             self.chart_pane._held(self.chart_pane.show_test_points, None, [], {})
             self.summary.object = ""
             items = "".join(f"<li>{html.escape(str(p))}</li>" for p in getattr(exc, "problems", [])) or \
@@ -245,6 +174,7 @@ class TestPointsPanel(pn.viewable.Viewer):
             return
         self.mapping_box.visible = False
         self.points = tps
+        self.session.set_test_points(tps)  # compared on the session's chart (the study's agreement)
         rej = [p for p in tps.problems if getattr(p, "severity", "error") == "error"]
         warn = [p for p in tps.problems if getattr(p, "severity", "error") != "error"]
         rows = "".join(f"<tr><td>{p.row}</td><td>{html.escape(str(p.column))}</td>"
@@ -301,16 +231,15 @@ class TestPointsPanel(pn.viewable.Viewer):
         self.load(mapping=mapping)
 
     def _redraw(self):
-        from lowgmap.physics.studies.agreement import agreement
-
         from lowgmap.app.outputs.chartview import regime_style
 
         tps = self.points
-        if tps is None:
+        study = self.session.study
+        if tps is None or study.agreement is None:
             return
-        chart = self.session.chart
+        chart = study.chart
         pts = tps.points
-        res = agreement(chart, tps)  # the same function as `lowgmap compare`
+        res = study.agreement  # lowgmap.physics.studies.agreement.agreement, as in `lowgmap compare`
         predicted = [p.predicted for p in res.points]
         styles = {name: regime_style(i)[0] for i, name in enumerate(chart.regime_names)}
         self.chart_pane._held(self.chart_pane.show_test_points, pts, predicted, styles)
@@ -381,7 +310,7 @@ class TestPointsPanel(pn.viewable.Viewer):
 
     def _apply_fit(self, event=None):
         from lowgmap.app.files.casefile import dumps_case
-        from lowgmap.app.cli.points import calibrated_document
+        from lowgmap.app.files.revisions import calibrated_document
 
         if self._calibration is None:
             return
@@ -406,7 +335,13 @@ def _fmt_num(x) -> str:
 
 
 class ExportPanel(pn.viewable.Viewer):
-    """Downloads for the design review: chart (PNG/SVG/PDF), review report (HTML) and the case file."""
+    """Downloads for the design review: chart (PNG/SVG/PDF), review report (HTML) and the case file.
+
+    Charts and reports are drawn from the session's :class:`~lowgmap.physics.studies.study.Study`
+    (its chart, point, margins and test-point agreement), so a download never rebuilds the chart.
+    ``test_points_panel`` is kept for callers that pass it; the test points reach the export
+    through the study.
+    """
 
     def __init__(self, session, test_points_panel=None, **params):
         super().__init__(**params)
@@ -428,22 +363,15 @@ class ExportPanel(pn.viewable.Viewer):
                                                 sizing_mode="stretch_width")
         self.case_upload.param.watch(self._open_case, "value")
 
-    def _current_doc(self):
-        from lowgmap.app.files.casefile import loads_case
-
-        return loads_case(self.session.case_text(), source=self.session.source_name,
-                          base_dir=self.session.base_dir)
-
-    def _test_point_marks(self):
-        if self.tp is None or self.tp.points is None:
-            return None
-        return self.tp.points.points
+    def _export_args(self) -> dict:
+        """The session's study (its chart already built) and the settings on screen."""
+        s = self.session
+        return {"settings": s.export_settings(), "invented": s.doc.invented}
 
     def _chart(self, fmt: str):
         from lowgmap.app.outputs.exports import chart_bytes
 
-        data = chart_bytes(self._current_doc(), fmt, test_points=self._test_point_marks(),
-                           log_axes=self.session_log())
+        data = chart_bytes(self.session.study, fmt, log_axes=self.session_log(), **self._export_args())
         return io.BytesIO(data)
 
     def session_log(self):
@@ -452,7 +380,7 @@ class ExportPanel(pn.viewable.Viewer):
     def _report(self):
         from lowgmap.app.outputs.exports import report_html
 
-        return io.BytesIO(report_html(self._current_doc(), test_points=self._test_point_marks()).encode("utf-8"))
+        return io.BytesIO(report_html(self.session.study, **self._export_args()).encode("utf-8"))
 
     def _case(self):
         return io.BytesIO(self.session.case_text().encode("utf-8"))

@@ -1,4 +1,4 @@
-"""Session state of the dashboard: the case being edited, its chart, the operating point and margins.
+"""Session state of the dashboard: the case being edited, its study (chart, point, margins, test points).
 
 No bokeh or panel widgets here: this is a ``param.Parameterized`` model that views bind to. Each
 browser session gets its own :class:`Session` (built by the server's factory function), so two users
@@ -7,12 +7,17 @@ of the case-file document; every change re-validates the whole case with :mod:`l
 same path the CLI uses. An invalid entry leaves the last good case and chart in place and files the
 problem under its input group.
 
-Expensive work (building the chart) happens only when the case changes; moving the operating point
-only classifies the point and computes its margins.
+Everything the views show comes from one :class:`lowgmap.physics.studies.study.Study`
+(:attr:`Session.study`): the chart pane draws its chart, the margin table shows its margins, the
+test-point panel its agreement, and the exports receive the study itself, so the chart is never
+rebuilt for an export. Expensive work (building the chart) happens only when the case changes;
+moving the operating point only computes the margins of the new point on the same chart
+(:meth:`Study.with_point`).
 """
 from __future__ import annotations
 
 import copy
+import dataclasses
 import math
 from dataclasses import dataclass
 
@@ -20,6 +25,7 @@ import param
 import tomlkit
 
 from lowgmap.physics.chart.composition import Chart
+from lowgmap.physics.studies.study import Study, run_study
 
 from lowgmap.app.files.casefile import CaseDocument, CaseFileError, build_case, dumps_case, loads_case
 from lowgmap.app.files.units import UnitError, convert, parse_flow
@@ -64,14 +70,16 @@ class MarginRow:
 
 
 class Session(param.Parameterized):
-    """One browser session's case, chart, operating point and margins."""
+    """One browser session's case, chart, operating point and margins (all read from :attr:`study`)."""
 
     doc = param.Parameter(doc="the last valid CaseDocument")
-    chart = param.Parameter(doc="chart of the last valid case")
+    study = param.ClassSelector(class_=Study, doc="Study of the last valid case at the current operating point")
+    chart = param.Parameter(doc="chart of the last valid case (the study's chart)")
     problems = param.Dict(default={}, doc="group key -> list of problem strings from the last edit")
     ql = param.Number(default=None, allow_None=True, doc="operating-point liquid flow [m^3/s]")
     qg = param.Number(default=None, allow_None=True, doc="operating-point gas flow [m^3/s]")
-    margins = param.Parameter(doc="PointMargins of the operating point")
+    margins = param.Parameter(doc="PointMargins of the operating point (the study's margins)")
+    test_points = param.Parameter(doc="the test points compared with the chart (TestPointSet or table), or None")
     required_margin = param.Number(default=0.2, bounds=(0, 0.99), doc="required symmetric margin (fraction)")
     show_uncertainty = param.Boolean(default=False)
     revision_counter = param.Integer(default=0, doc="increments on every successful case rebuild")
@@ -151,11 +159,12 @@ class Session(param.Parameterized):
         return dumps_case(self.data)
 
     def _apply_doc(self, doc: CaseDocument, chart: Chart | None = None):
-        chart = chart or Chart.build(doc.case)
+        study = run_study(doc.case, chart=chart, points=self.test_points)
         op = doc.case.operating_point
         with param.parameterized.batch_call_watchers(self):
             self.doc = doc
-            self.chart = chart
+            self.study = study
+            self.chart = study.chart
             self.problems = {}
             self.required_margin = doc.settings.required_margin
             if op is not None:
@@ -195,12 +204,26 @@ class Session(param.Parameterized):
         return self.chart.regime_at(ql, qg) if self.chart is not None else ""
 
     def update_margins(self) -> None:
-        from lowgmap.physics.chart.margins import point_margins
-
-        if self.chart is None or not self.chart.regime_names or self.ql is None:
+        """Move the study to the session's point (margins only; the chart is kept) and publish its margins."""
+        study = self.study
+        if study is None or self.ql is None:
             self.margins = None
             return
-        self.margins = point_margins(self.chart, self.ql, self.qg)
+        if study.point != (self.ql, self.qg):
+            study = study.with_point(self.ql, self.qg)
+        with param.parameterized.batch_call_watchers(self):
+            self.study = study
+            self.margins = study.margins
+
+    def set_test_points(self, points) -> None:
+        """Compare ``points`` (a TestPointSet, or None to drop them) with the chart; kept across case edits."""
+        with param.parameterized.batch_call_watchers(self):
+            self.test_points = points
+            self.study = self.study.with_test_points(points)
+
+    def export_settings(self):
+        """Chart settings for an export: the case's, with the required margin the person has set."""
+        return dataclasses.replace(self.doc.settings, required_margin=self.required_margin)
 
     def robust_point(self, regime: str):
         """Move the point to the most robust point of ``regime``; returns the RobustPoint."""

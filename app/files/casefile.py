@@ -4,20 +4,19 @@ The file format is lowgmap's own and is documented in README.md ("Case file"). Q
 units as text (``"12.7 mm"``); :mod:`lowgmap.app.files.units` converts them to SI and the physics receives a
 :class:`lowgmap.physics.case.Case`.
 
-Loading collects *every* problem before failing: :class:`CaseFileError` holds a list of
-:class:`Problem` (key path, value, message, line number where known). Saving writes the document
-back exactly as held (comments and layout kept, via tomlkit) and atomically: the text goes to a
-temporary file in the same folder, is flushed to disk, then renamed over the target.
+Loading collects *every* problem before failing (:class:`lowgmap.app.files.problems.ProblemCollector`):
+:class:`CaseFileError` holds a list of :class:`Problem` (key path, value, message, line number where
+known). Saving writes the document back exactly as held (comments and layout kept, via tomlkit) and
+atomically (:func:`lowgmap.app.files.atomic.write_atomic`): the text goes to a temporary file in the
+same folder, is flushed to disk, then renamed over the target.
 """
 from __future__ import annotations
 
 import math
 import os
-import re
-import tempfile
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
 import tomlkit
 from tomlkit.exceptions import ParseError
@@ -25,6 +24,8 @@ from tomlkit.exceptions import ParseError
 from lowgmap.physics.case import Case, FlowRange, ModelChoice, OperatingPoint
 from lowgmap.physics.studies.uncertainty import TARGETS as _UNCERTAIN_TARGETS, Uncertainty
 
+from lowgmap.app.files.atomic import write_atomic
+from lowgmap.app.files.problems import CaseFileError, Problem, ProblemCollector, line_index
 from lowgmap.app.files.units import UnitError, check_unit, parse_flow, to_si
 
 __all__ = ["SCHEMA_VERSION", "Problem", "CaseFileError", "CaseDocument", "ChartSettings", "Uncertainty",
@@ -38,44 +39,6 @@ SCHEMA_VERSION = 1
 SAMPLE_DIR = Path(__file__).resolve().parents[2] / "sample_cases"
 
 AXES_KINDS = ("flow", "superficial_velocity", "reynolds", "weber", "flow_ratio")
-
-_SECTION_FIELDS: dict[str, dict[str, str]] = {
-    "circle": {"diameter": "length"},
-    "rectangle": {"width": "length", "height": "length"},
-    "regular_polygon": {"n_sides": "int", "side": "length"},
-    "groove": {"half_angle": "angle", "depth": "length"},
-    "wedge_channel": {"half_angle": "angle", "wall_length": "length"},
-    "polygon": {"vertices": "vertices", "open_edges": "int_list?"},
-}
-
-
-
-@dataclass(frozen=True)
-class Problem:
-    """One thing wrong in a case file."""
-
-    path: str
-    message: str
-    value: Any = None
-    line: int | None = None
-
-    def __str__(self) -> str:
-        where = f"line {self.line}: " if self.line else ""
-        written = ""
-        if isinstance(self.value, str) and self.value not in self.message:
-            written = f" (written: {self.value!r})"
-        return f"{where}{self.path}: {self.message}{written}"
-
-
-class CaseFileError(ValueError):
-    """A case file has problems; ``problems`` lists all of them."""
-
-    def __init__(self, problems: list[Problem], source: str = "case"):
-        self.problems = problems
-        self.source = source
-        lines = "\n".join(f"  - {p}" for p in problems)
-        super().__init__(f"{source}: {len(problems)} problem(s)\n{lines}")
-
 
 @dataclass(frozen=True)
 class ChartSettings:
@@ -110,77 +73,7 @@ class CaseDocument:
         return target
 
 
-# --------------------------------------------------------------------------- line numbers
-def _line_index(text: str) -> dict[str, int]:
-    """Map dotted key paths to the 1-based line where they are written (best effort)."""
-    index: dict[str, int] = {}
-    table = ""
-    counts: dict[str, int] = {}
-    for n, raw in enumerate(text.splitlines(), start=1):
-        line = raw.strip()
-        if not line or line.startswith("#"):
-            continue
-        m = re.match(r"^\[\[\s*([^\]]+?)\s*\]\]", line)
-        if m:
-            name = m.group(1)
-            i = counts.get(name, 0)
-            counts[name] = i + 1
-            table = f"{name}[{i}]"
-            index.setdefault(table, n)
-            continue
-        m = re.match(r"^\[\s*([^\]]+?)\s*\]", line)
-        if m:
-            name = m.group(1)
-            # a sub-table of an array of tables: [models.constants] inside [[models]]
-            parent = name.split(".")[0]
-            if parent in counts and "." in name:
-                table = f"{parent}[{counts[parent] - 1}]." + name.split(".", 1)[1]
-            else:
-                table = name
-            index.setdefault(table, n)
-            continue
-        m = re.match(r'^([A-Za-z0-9_\-"\.]+)\s*=', line)
-        if m:
-            key = m.group(1).strip('"')
-            index.setdefault(f"{table}.{key}" if table else key, n)
-    return index
-
-
 # --------------------------------------------------------------------------- builder
-class _Collector:
-    def __init__(self, lines: dict[str, int]):
-        self.problems: list[Problem] = []
-        self.lines = lines
-
-    def add(self, path: str, message: str, value: Any = None):
-        line = self.lines.get(path)
-        if line is None:  # fall back to the nearest enclosing key written in the file
-            parts = path.split(".")
-            while parts and line is None:
-                parts.pop()
-                line = self.lines.get(".".join(parts))
-        self.problems.append(Problem(path, message, value, line))
-
-    def run(self, path: str, fn: Callable[[], Any], value: Any = None):
-        """Call fn; turn ValueError/TypeError into a problem at ``path``; return None on failure."""
-        try:
-            return fn()
-        except (UnitError, ValueError, TypeError) as exc:
-            msg = str(exc)
-            if msg.startswith(path + ": "):
-                msg = msg[len(path) + 2:]
-            # A model error naming a field ("wetting.contact_angle must be ...", "circle.diameter must
-            # be ...") is filed under that key of this table when the file has it.
-            m = (re.match(r"^(?:[A-Za-z_]+\.)?([A-Za-z_]+)\s+(must|is|has|should)\b", msg))
-            if m and f"{path}.{m.group(1)}" in self.lines:
-                path = f"{path}.{m.group(1)}"
-                msg = msg[m.start(2):]
-                if isinstance(value, dict):
-                    value = value.get(m.group(1), value)
-            self.add(path, msg, value)
-            return None
-
-
 def _plain(obj):
     """tomlkit items → plain Python (dict/list/str/float/int/bool)."""
     if hasattr(obj, "unwrap"):
@@ -188,7 +81,7 @@ def _plain(obj):
     return obj
 
 
-def _table(col: _Collector, data: dict, key: str, required: bool = True) -> dict:
+def _table(col: ProblemCollector, data: dict, key: str, required: bool = True) -> dict:
     val = data.get(key)
     if val is None:
         if required:
@@ -200,7 +93,7 @@ def _table(col: _Collector, data: dict, key: str, required: bool = True) -> dict
     return val
 
 
-def _quantity(col: _Collector, table: dict, path: str, key: str, kind: str, required: bool = True,
+def _quantity(col: ProblemCollector, table: dict, path: str, key: str, kind: str, required: bool = True,
               default=None):
     full = f"{path}.{key}"
     if key not in table:
@@ -211,20 +104,13 @@ def _quantity(col: _Collector, table: dict, path: str, key: str, kind: str, requ
     return col.run(full, lambda: to_si(value, kind, full), value)
 
 
-def _check_known(col: _Collector, table: dict, path: str, allowed):
-    for key in table:
-        if key not in allowed:
-            col.add(f"{path}.{key}" if path else key,
-                    f"unknown key; allowed here: {', '.join(sorted(allowed))}", table[key])
-
-
-def _build_fluid(col: _Collector, data: dict):
+def _build_fluid(col: ProblemCollector, data: dict):
     from lowgmap.physics.properties import fluids
 
     t = _table(col, data, "fluid")
     if not t:
         return None
-    _check_known(col, t, "fluid", {"liquid", "gas", "temperature", "pressure", "liquid_source", "gas_model",
+    col.unknown_keys(t, "fluid", {"liquid", "gas", "temperature", "pressure", "liquid_source", "gas_model",
                                    "overrides"})
     liquid = t.get("liquid")
     if not isinstance(liquid, str) or not liquid.strip():
@@ -260,44 +146,45 @@ def _build_fluid(col: _Collector, data: dict):
     return col.run("fluid", lambda: fluids.make_fluid_pair(liquid, temperature, pressure, **kwargs), t)
 
 
-def _build_section(col: _Collector, data: dict):
+def _build_section(col: ProblemCollector, data: dict):
+    """[section]: the kind and its fields as the physics lists them
+    (:func:`lowgmap.physics.geometry.sections.section_fields`), converted to SI."""
     from lowgmap.physics.geometry import sections
 
     t = _table(col, data, "section")
     if not t:
         return None
     kind = t.get("kind")
-    if kind not in _SECTION_FIELDS:
-        col.add("section.kind", f"must be one of {', '.join(_SECTION_FIELDS)}, got {kind!r}", kind)
+    if kind not in sections.SECTION_KINDS:
+        col.add("section.kind", f"must be one of {', '.join(sections.SECTION_KINDS)}, got {kind!r}", kind)
         return None
-    spec = _SECTION_FIELDS[kind]
-    _check_known(col, t, "section", {"kind", "vertices_unit", *spec})
+    spec = sections.section_fields(kind)
+    col.unknown_keys(t, "section", {"kind", "vertices_unit", *(f.name for f in spec)})
     params: dict[str, Any] = {}
     ok = True
-    for key, kind_of in spec.items():
+    for fld in spec:
+        key, quantity = fld.name, fld.quantity
         path = f"section.{key}"
-        optional = kind_of.endswith("?")
-        kind_of = kind_of.rstrip("?")
         if key not in t:
-            if not optional:
+            if fld.required:
                 col.add(path, f"missing (required for a {kind} section)")
                 ok = False
             continue
         value = t[key]
-        if kind_of == "int":
+        if quantity == "count":
             if isinstance(value, bool) or not isinstance(value, int):
                 col.add(path, f"must be a whole number, got {value!r}", value)
                 ok = False
             else:
                 params[key] = value
-        elif kind_of == "int_list":
+        elif quantity == "edges":
             if not isinstance(value, list) or not all(isinstance(v, int) and not isinstance(v, bool)
                                                       for v in value):
                 col.add(path, "must be a list of edge numbers (0 = edge from vertex 0 to vertex 1)", value)
                 ok = False
             else:
                 params[key] = tuple(value)
-        elif kind_of == "vertices":
+        elif quantity == "vertices":
             unit = t.get("vertices_unit")
             pts = []
             if not isinstance(value, list):
@@ -316,31 +203,23 @@ def _build_section(col: _Collector, data: dict):
                 else:
                     pts.append(tuple(xy))
             params[key] = tuple(pts)
-        else:
-            v = col.run(path, lambda value=value, kind_of=kind_of, path=path: to_si(value, kind_of, path), value)
+        else:                                    # "length" or "angle": text with units
+            v = col.run(path, lambda value=value, quantity=quantity, path=path: to_si(value, quantity, path), value)
             if v is None:
                 ok = False
             params[key] = v
     if not ok:
         return None
-    builders = {
-        "circle": lambda: sections.Circle(params["diameter"]),
-        "rectangle": lambda: sections.Rectangle(params["width"], params["height"]),
-        "regular_polygon": lambda: sections.RegularPolygon(params["n_sides"], params["side"]),
-        "groove": lambda: sections.Groove(params["half_angle"], params["depth"]),
-        "wedge_channel": lambda: sections.WedgeChannel(params["half_angle"], params["wall_length"]),
-        "polygon": lambda: sections.Polygon(params["vertices"], params.get("open_edges", ())),
-    }
-    return col.run("section", builders[kind], t)
+    return col.run("section", lambda: sections.Section.from_dict({"kind": kind, **params}), t)
 
 
-def _build_wetting(col: _Collector, data: dict):
+def _build_wetting(col: ProblemCollector, data: dict):
     from lowgmap.physics.properties.wetting import Wetting
 
     t = _table(col, data, "wetting")
     if not t:
         return None
-    _check_known(col, t, "wetting", {"contact_angle", "advancing", "receding"})
+    col.unknown_keys(t, "wetting", {"contact_angle", "advancing", "receding"})
     theta = _quantity(col, t, "wetting", "contact_angle", "angle")
     adv = _quantity(col, t, "wetting", "advancing", "angle", required=False)
     rec = _quantity(col, t, "wetting", "receding", "angle", required=False)
@@ -355,9 +234,9 @@ def _flow(col, value, path, fluid, gas):
     return col.run(path, lambda: parse_flow(value, path, pressure=p, temperature=temp, gas=gas), value)
 
 
-def _build_chart(col: _Collector, data: dict, fluid):
+def _build_chart(col: ProblemCollector, data: dict, fluid):
     t = _table(col, data, "chart")
-    _check_known(col, t, "chart", {"liquid_flow", "gas_flow", "axes", "log_axes", "liquid_flow_unit",
+    col.unknown_keys(t, "chart", {"liquid_flow", "gas_flow", "axes", "log_axes", "liquid_flow_unit",
                                    "gas_flow_unit", "required_margin", "intended_regime"})
     rng = {}
     for key, gas in (("liquid_flow", False), ("gas_flow", True)):
@@ -410,11 +289,11 @@ def _build_chart(col: _Collector, data: dict, fluid):
     return flow_range, ChartSettings(**settings_kwargs)
 
 
-def _build_operating_point(col: _Collector, data: dict, fluid):
+def _build_operating_point(col: ProblemCollector, data: dict, fluid):
     t = _table(col, data, "operating_point", required=False)
     if not t:
         return None, ()
-    _check_known(col, t, "operating_point", {"liquid_flow", "gas_flow", "uncertainty"})
+    col.unknown_keys(t, "operating_point", {"liquid_flow", "gas_flow", "uncertainty"})
     ql = _flow(col, t["liquid_flow"], "operating_point.liquid_flow", fluid, False) if "liquid_flow" in t else None
     qg = _flow(col, t["gas_flow"], "operating_point.gas_flow", fluid, True) if "gas_flow" in t else None
     for key in ("liquid_flow", "gas_flow"):
@@ -471,7 +350,7 @@ def _parse_uncertainty(key: str, spec, path: str) -> Uncertainty:
     return Uncertainty(key, distribution, size, relative)
 
 
-def _build_models(col: _Collector, data: dict) -> tuple[ModelChoice, ...]:
+def _build_models(col: ProblemCollector, data: dict) -> tuple[ModelChoice, ...]:
     models = data.get("models", [])
     if not isinstance(models, list):
         col.add("models", "must be an array of tables ([[models]])", models)
@@ -482,7 +361,7 @@ def _build_models(col: _Collector, data: dict) -> tuple[ModelChoice, ...]:
         if not isinstance(m, dict) or not isinstance(m.get("name"), str):
             col.add(f"{path}.name", "each [[models]] entry needs a name (a registered boundary model)", m)
             continue
-        _check_known(col, m, path, {"name", "constants"})
+        col.unknown_keys(m, path, {"name", "constants"})
         consts = {}
         for key, value in (m.get("constants") or {}).items():
             v = col.run(f"{path}.constants.{key}",
@@ -494,7 +373,7 @@ def _build_models(col: _Collector, data: dict) -> tuple[ModelChoice, ...]:
     return tuple(out)
 
 
-def _build_custom_boundaries(col: _Collector, data: dict) -> tuple:
+def _build_custom_boundaries(col: ProblemCollector, data: dict) -> tuple:
     """[[custom_boundaries]]: empirical lines, converted to SI and checked with the physics builder.
 
     power_law: Q_G = a Q_L^b with both flows in ``flow_unit`` (default m^3/s); table: ``points`` as
@@ -560,11 +439,11 @@ _TOP_KEYS = {"schema_version", "title", "revision", "author", "description", "in
 def build_case(data: dict, *, text: str = "", base_dir: Path | None = None, source: str = "case"
                ) -> CaseDocument:
     """Validate a parsed case document and build the physics :class:`Case` (all problems at once)."""
-    col = _Collector(_line_index(text) if text else {})
+    col = ProblemCollector(line_index(text) if text else {}, source=source)
     plain = _plain(data)
     if not isinstance(plain, dict):
         raise CaseFileError([Problem("(file)", "the case file must be a TOML document")], source)
-    _check_known(col, plain, "", _TOP_KEYS)
+    col.unknown_keys(plain, "", _TOP_KEYS)
     version = plain.get("schema_version")
     if version is None:
         col.add("schema_version", f"missing (this release writes schema_version = {SCHEMA_VERSION})")
@@ -577,7 +456,7 @@ def build_case(data: dict, *, text: str = "", base_dir: Path | None = None, sour
     section = _build_section(col, plain)
     wetting = _build_wetting(col, plain)
     conduit = _table(col, plain, "conduit")
-    _check_known(col, conduit, "conduit", {"length", "residual_acceleration"})
+    col.unknown_keys(conduit, "conduit", {"length", "residual_acceleration"})
     length = _quantity(col, conduit, "conduit", "length", "length") if conduit else None
     g = _quantity(col, conduit, "conduit", "residual_acceleration", "acceleration") if conduit else None
     if g is not None and g < 0:
@@ -653,23 +532,8 @@ def dumps_case(data) -> str:
 
 
 def save_case(data, path: str | os.PathLike) -> None:
-    """Write the case document atomically (temporary file + fsync + rename)."""
-    target = Path(path)
-    text = dumps_case(data)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, target)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
+    """Write the case document atomically (:func:`lowgmap.app.files.atomic.write_atomic`)."""
+    write_atomic(path, dumps_case(data))
 
 
 def sample_case_path(name: str | None = None) -> Path:

@@ -55,6 +55,7 @@ import pandas as pd
 from lowgmap.physics.studies.platforms import find_platform, points_conditions
 from lowgmap.physics.validate import positive
 
+from lowgmap.app.files.atomic import write_atomic
 from lowgmap.app.files.units import STANDARD_FLOW_UNITS, UnitError, check_unit, parse_flow, to_si, ureg
 
 __all__ = [
@@ -844,8 +845,8 @@ def template_text() -> str:
 
 
 def write_template(path, *, overwrite: bool = False) -> Path:
-    """Write :func:`template_text` to ``path`` (refuses to replace an existing file unless ``overwrite``)."""
-    path = Path(path)
-    with open(path, "w" if overwrite else "x", encoding="utf-8", newline="\n") as fh:
-        fh.write(template_text())
-    return path
+    """Write :func:`template_text` to ``path`` atomically (:func:`lowgmap.app.files.atomic.write_atomic`).
+
+    An existing file is replaced only with ``overwrite``; otherwise :class:`FileExistsError`.
+    """
+    return write_atomic(path, template_text(), overwrite=overwrite)

@@ -1,7 +1,9 @@
 """Exports for a design review: annotated chart (PNG/SVG/PDF) and the review report (HTML).
 
-The CLI (`lowgmap chart`) and the dashboard's download buttons both call these functions with a
-case document, so a file exported from either shows the same numbers.
+Each export takes a :class:`lowgmap.physics.studies.study.Study` (the dashboard passes its session's
+study, so an export never rebuilds the chart) or a case document (the CLI; its study is built once,
+see :func:`lowgmap.app.outputs.report.review_inputs`). A file exported from either shows the same
+numbers as the screen.
 """
 from __future__ import annotations
 
@@ -13,35 +15,26 @@ import numpy as np
 
 from lowgmap.app import CAUTION, __version__
 
+from lowgmap.app.files.atomic import write_atomic
 from lowgmap.app.outputs.chartview import chart_view, regime_style
 from lowgmap.app.outputs.render import render_chart
-from lowgmap.app.outputs.report import case_rows, format_flow
+from lowgmap.app.outputs.report import case_rows, format_flow, review_inputs
+from lowgmap.app.outputs.tables import MARGIN_CSS, margin_table_html
 
 __all__ = ["compose", "chart_bytes", "write_chart", "report_html", "test_point_marks"]
 
 
 def compose(doc):
-    """(chart, margins) of a case document; margins is None without an operating point or regimes."""
-    from lowgmap.physics.chart.composition import Chart
-    from lowgmap.physics.chart.margins import point_margins
-
-    chart = Chart.build(doc.case)
-    op = doc.case.operating_point
-    margins = point_margins(chart, op.ql, op.qg) if (op is not None and chart.regime_names) else None
-    return chart, margins
+    """(chart, margins) of a case document or study; margins is None without an operating point or regimes."""
+    study, _, _ = review_inputs(doc)
+    return study.chart, study.margins
 
 
-def test_point_marks(chart, view, points) -> list[dict]:
-    """Markers for test points: fill = observed regime's colour, red edge where the chart disagrees."""
-    if points is None or len(points) == 0:
-        return []
+def _marks(chart, view, ql, qg, observed, predicted) -> list[dict]:
     styles = {name: regime_style(i)[0] for i, name in enumerate(chart.regime_names)}
-    ql = points["ql_m3_s"].to_numpy()
-    qg = points["qg_m3_s"].to_numpy()
-    pred = chart.classify(ql, qg)
-    x, y = view.to_display(ql, qg)
+    x, y = view.to_display(np.asarray(ql, dtype=float), np.asarray(qg, dtype=float))
     out = []
-    for xi, yi, o, p in zip(np.asarray(x), np.asarray(y), points["observed_regime"].fillna("").astype(str), pred):
+    for xi, yi, o, p in zip(np.asarray(x), np.asarray(y), observed, predicted):
         agree = (o == p) if o else True
         out.append({"x": float(xi), "y": float(yi), "colour": styles.get(o, "#ffffff"),
                     "edge": "#222222" if agree else "#C00000", "marker": "o" if agree else "X",
@@ -49,44 +42,86 @@ def test_point_marks(chart, view, points) -> list[dict]:
     return out
 
 
-def _point_label(chart, doc, margins):
-    st = doc.settings
-    op = doc.case.operating_point
-    label = (f"{chart.regime_at(op.ql, op.qg)}\nQ_L {format_flow(op.ql, st.liquid_flow_unit)}, "
-             f"Q_G {format_flow(op.qg, st.gas_flow_unit)}")
-    if margins is not None:
-        label += f"\n±{100 * margins.symmetric_margin:.1f} % margin"
+def test_point_marks(chart, view, points) -> list[dict]:
+    """Markers for test points: fill = observed regime's colour, red edge where the chart disagrees.
+
+    ``points`` is a test-point table (``ql_m3_s``, ``qg_m3_s``, ``observed_regime``) or an
+    :class:`~lowgmap.physics.studies.agreement.Agreement` (its points, observed regimes after the
+    regime map, and the regimes it found on ``chart``).
+    """
+    if points is None:
+        return []
+    if hasattr(points, "confusion_all"):  # an Agreement: the regimes are already found
+        pts = points.points
+        return _marks(chart, view, [p.ql for p in pts], [p.qg for p in pts], [p.observed for p in pts],
+                      [p.predicted for p in pts])
+    if len(points) == 0:
+        return []
+    ql = points["ql_m3_s"].to_numpy()
+    qg = points["qg_m3_s"].to_numpy()
+    return _marks(chart, view, ql, qg, points["observed_regime"].fillna("").astype(str), chart.classify(ql, qg))
+
+
+def _point_label(study, settings):
+    ql, qg = study.point
+    label = (f"{study.chart.regime_at(ql, qg)}\nQ_L {format_flow(ql, settings.liquid_flow_unit)}, "
+             f"Q_G {format_flow(qg, settings.gas_flow_unit)}")
+    if study.margins is not None:
+        label += f"\n±{100 * study.margins.symmetric_margin:.1f} % margin"
     return label
 
 
-def chart_bytes(doc, fmt: str, *, axes=None, log_axes=None, with_point=True, test_points=None,
-                composed=None) -> bytes:
-    """The annotated chart of ``doc`` as PNG, SVG or PDF bytes (title block and caution included)."""
-    chart, margins = composed or compose(doc)
-    st = doc.settings
-    op = doc.case.operating_point
-    show_point = op is not None and with_point
+def chart_bytes(source, fmt: str, *, axes=None, log_axes=None, with_point=True, test_points=None,
+                settings=None, invented=None) -> bytes:
+    """The annotated chart as PNG, SVG or PDF bytes (title block and caution included).
+
+    Parameters
+    ----------
+    source : Study or CaseDocument   what to draw (a study's chart is used as it is, never rebuilt)
+    fmt : "png" | "svg" | "pdf"
+    axes, log_axes : optional        override the settings' axes kind and scale
+    with_point : bool                draw the operating point
+    test_points : table, optional    test points to draw (compared on the study's chart); default:
+                                     the study's agreement, if any
+    settings, invented : optional    see :func:`lowgmap.app.outputs.report.review_inputs`
+
+    Examples
+    --------
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.studies.study import run_study
+    >>> study = run_study(example_case(point=(1e-5, 1e-6), title="10 mm water/air tube"))
+    >>> svg = chart_bytes(study, "svg").decode("utf-8")
+    >>> "10 mm water/air tube" in svg, "dispersed bubbles" in svg, "CAUTION" in svg
+    (True, True, True)
+    """
+    study, st, inv = review_inputs(source, settings=settings, invented=invented, test_points=test_points)
+    return _chart_bytes(study, st, inv, fmt, axes=axes, log_axes=log_axes, with_point=with_point)
+
+
+def _chart_bytes(study, st, invented, fmt, *, axes=None, log_axes=None, with_point=True) -> bytes:
+    chart = study.chart
+    show_point = study.point is not None and with_point
     view = chart_view(chart, axes=axes or st.axes, log_axes=st.log_axes if log_axes is None else log_axes,
                       ql_unit=st.liquid_flow_unit, qg_unit=st.gas_flow_unit,
-                      point=(op.ql, op.qg) if show_point else None)
-    return render_chart(view, None, fmt=fmt, title=doc.case.title, title_block=case_rows(doc, chart, margins),
-                        point_label=_point_label(chart, doc, margins) if show_point else None,
-                        extra_points=test_point_marks(chart, view, test_points))
+                      point=study.point if show_point else None)
+    rows = case_rows(study, settings=st, invented=invented)
+    return render_chart(view, None, fmt=fmt, title=study.case.title, title_block=rows,
+                        point_label=_point_label(study, st) if show_point else None,
+                        extra_points=test_point_marks(chart, view, study.agreement))
 
 
-def write_chart(doc, path, **kwargs):
-    """Write the chart to ``path`` (format from the suffix) atomically; returns (chart, margins)."""
-    import os
+def write_chart(source, path, *, settings=None, invented=None, test_points=None, **kwargs):
+    """Write the chart to ``path`` (format from the suffix) atomically; returns (chart, margins).
 
+    ``source``, ``settings``, ``invented``, ``test_points`` and the other keywords as for
+    :func:`chart_bytes`.
+    """
     p = Path(path)
     fmt = p.suffix.lstrip(".").lower()
-    composed = compose(doc)
-    data = chart_bytes(doc, fmt, composed=composed, **kwargs)
-    p.parent.mkdir(parents=True, exist_ok=True)
-    tmp = p.with_name(f".{p.name}.tmp")
-    tmp.write_bytes(data)
-    os.replace(tmp, p)
-    return composed
+    study, st, inv = review_inputs(source, settings=settings, invented=invented, test_points=test_points)
+    data = _chart_bytes(study, st, inv, fmt, **kwargs)
+    write_atomic(p, data)
+    return study.chart, study.margins
 
 
 _REPORT_CSS = """
@@ -98,16 +133,30 @@ table {border-collapse: collapse; font-size: 13px;} td, th {border: 1px solid #b
 """
 
 
-def report_html(doc, *, test_points=None) -> str:
-    """A self-contained HTML review report: chart, margin table, case inputs, assumptions, warnings."""
-    from lowgmap.app.dashboard.panels import margin_table_html
+def report_html(source, *, test_points=None, settings=None, invented=None) -> str:
+    """A self-contained HTML review report: chart, margin table, case inputs, assumptions, warnings.
 
-    chart, margins = compose(doc)
-    svg = chart_bytes(doc, "svg", test_points=test_points, composed=(chart, margins)).decode("utf-8")
+    ``source`` is a :class:`~lowgmap.physics.studies.study.Study` (its chart is used as it is) or a
+    case document; ``test_points``, ``settings`` and ``invented`` as for :func:`chart_bytes`. The
+    test-point section shows the study's agreement
+    (:func:`lowgmap.physics.studies.agreement.agreement`).
+
+    Examples
+    --------
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.studies.study import run_study
+    >>> page = report_html(run_study(example_case(point=(1e-5, 1e-6))))
+    >>> page.startswith("<!DOCTYPE html>"), "margin-table" in page, "<svg" in page
+    (True, True, True)
+    """
+    from lowgmap.physics.chart.summary import section_report
+
+    study, st, inv = review_inputs(source, settings=settings, invented=invented, test_points=test_points)
+    chart, margins, case = study.chart, study.margins, study.case
+    svg = _chart_bytes(study, st, inv, "svg").decode("utf-8")
     svg = svg[svg.index("<svg"):]
-    st = doc.settings
     rows = "".join(f"<tr><th>{html.escape(k)}</th><td>{html.escape(str(v))}</td></tr>"
-                   for k, v in case_rows(doc, chart, margins))
+                   for k, v in case_rows(study, settings=st, invented=inv))
     models = "".join(
         f"<tr><td>{html.escape(m.label)}</td><td>{'defines regions' if role == 'r' else 'comparison'}</td>"
         f"<td>{html.escape(', '.join(f'{k} = {v:g}' for k, v in consts)) or 'defaults'}</td>"
@@ -118,27 +167,18 @@ def report_html(doc, *, test_points=None) -> str:
         f"<td>{html.escape(c.source)}</td></tr>"
         for m, _ in list(chart.region_models) + list(chart.comparison_models) for c in m.constants)
     warnings = "".join(f"<li class='warn'>{html.escape(w)}</li>" for w in chart.warnings) or "<li>none</li>"
-    from lowgmap.physics.chart.summary import section_report
-
-    sec = section_report(doc.case)
+    sec = section_report(case)
     corners = "".join(f"<li>corner {c['index']}: half-angle {c['half_angle_deg']:.4g} deg — "
                       f"{'wicks' if c['wicks'] else 'does not wick'} (Concus–Finn)</li>" for c in sec["corners"])
     margin_html = margin_table_html(margins, st.required_margin) if margins is not None else \
         "<p>No operating point or no regimes: no margins.</p>"
-    tp_html = ""
-    if test_points is not None and len(test_points):
-        pred = chart.classify(test_points["ql_m3_s"].to_numpy(), test_points["qg_m3_s"].to_numpy())
-        obs = test_points["observed_regime"].fillna("").astype(str).to_numpy()
-        lab = obs != ""
-        agree = int(np.sum(obs[lab] == pred[lab]))
-        tp_html = (f"<h2>Test points</h2><p>{agree} of {int(lab.sum())} labelled points fall in the regime they "
-                   f"were observed in.</p>")
+    tp_html = _agreement_html(study.agreement)
     return f"""<!DOCTYPE html>
-<html lang="en"><head><meta charset="utf-8"><title>{html.escape(doc.case.title)} — lowgmap review report</title>
-<style>{_REPORT_CSS}</style></head><body>
-<h1>{html.escape(doc.case.title)}</h1>
-<p>Revision {html.escape(doc.case.revision)} · {_dt.date.today().isoformat()} · lowgmap {__version__}
-{' · <b>INVENTED demonstration case</b>' if doc.invented else ''}</p>
+<html lang="en"><head><meta charset="utf-8"><title>{html.escape(case.title)} — lowgmap review report</title>
+<style>{_REPORT_CSS}{MARGIN_CSS}</style></head><body>
+<h1>{html.escape(case.title)}</h1>
+<p>Revision {html.escape(case.revision)} · {_dt.date.today().isoformat()} · lowgmap {__version__}
+{' · <b>INVENTED demonstration case</b>' if inv else ''}</p>
 <p class="caution">CAUTION: {html.escape(CAUTION)}</p>
 <h2>Regime chart</h2>
 <div class="chart">{svg}</div>
@@ -159,3 +199,24 @@ def report_html(doc, *, test_points=None) -> str:
 <p class="caution">CAUTION: {html.escape(CAUTION)}</p>
 </body></html>
 """
+
+
+def _agreement_html(res) -> str:
+    """The report's test-point section from an Agreement (empty without test points)."""
+    if res is None or res.n_points == 0:
+        return ""
+    ca, cv = res.confusion_all, res.confusion_valid
+
+    def pct(f):
+        return "—" if f is None else f"{100 * f:.0f} %"
+
+    text = (f"<h2>Test points</h2><p class='agreement' data-agree='{ca.agreeing}' data-total='{ca.compared}' "
+            f"data-valid='{res.n_valid}'>{ca.agreeing} of {ca.compared} labelled points ({pct(ca.fraction)}) fall "
+            f"in the regime they were observed in; valid points only: {cv.agreeing} of {cv.compared} "
+            f"({pct(cv.fraction)}). {res.n_points} points in all, {res.n_valid} valid for a low-gravity "
+            f"conclusion.</p>")
+    if res.unknown_labels:
+        text += ("<p>Observed labels that are not regimes of this chart (left out until mapped): "
+                 + html.escape(", ".join(f"{k} ({c})" for k, c in res.unknown_labels)) + "</p>")
+    return text
+

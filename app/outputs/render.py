@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import datetime as _dt
 import io
-import os
 from pathlib import Path
 
 import matplotlib
@@ -22,6 +21,7 @@ from matplotlib.patches import Patch  # noqa: E402
 from lowgmap.app import CAUTION
 
 from lowgmap.app import __version__  # noqa: E402
+from lowgmap.app.files.atomic import write_atomic  # noqa: E402
 from lowgmap.app.outputs.chartview import ChartView, line_label_positions  # noqa: E402
 
 __all__ = ["render_chart", "FORMATS"]
@@ -72,11 +72,7 @@ def render_chart(view: ChartView, target=None, *, fmt: str | None = None, title:
     if hasattr(target, "write"):
         target.write(data)
         return None
-    p = Path(target)
-    p.parent.mkdir(parents=True, exist_ok=True)
-    tmp = p.with_name(f".{p.name}.tmp")
-    tmp.write_bytes(data)
-    os.replace(tmp, p)
+    write_atomic(target, data)
     return None
 
 

@@ -55,19 +55,28 @@ where undefined) to a regime name. With such a scheme:
    lies inside one regime and bounds nothing).
 
 Regimes carry flags (:class:`RegimeInfo`, e.g. ``separates_gas``) shown by :attr:`Chart.separates_gas`.
+The scheme types and :class:`LinePiece` belong to the model layer (:mod:`lowgmap.physics.models.regimes`);
+they are re-exported here for existing callers.
+
+Every line is sampled by the one adaptive sampler of :mod:`lowgmap.physics.chart.sampling` (the
+margins use it too), each use with its own tolerance.
 """
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Callable, Mapping, Sequence
+from typing import Callable, Mapping
 
 import numpy as np
 from scipy.optimize import brentq
 
+from lowgmap.physics.case import ModelChoice
+from lowgmap.physics.chart.lines import piece_function
+from lowgmap.physics.chart.sampling import mask_runs, sample_line
 from lowgmap.physics.models import tube as tube_models
 from lowgmap.physics.models.boundary import BoundaryModel, resolve_model
-from lowgmap.physics.case import ModelChoice
+from lowgmap.physics.models.regimes import (CHAIN, ChainScheme, LinePiece, PartitionScheme, RegimeInfo,
+                                            RegimeScheme)
 from lowgmap.physics.properties.groups import conduit_diameter, positive_flows
 
 __all__ = ["BoundaryCurve", "Intersection", "Region", "Axes", "Chart", "AXIS_KINDS", "DEFAULT_MODELS",
@@ -168,208 +177,6 @@ class Axes:
         return self.to_xy(ql, qg)
 
 
-@dataclass(frozen=True)
-class RegimeInfo:
-    """A regime of a scheme: its name, whether it separates all the gas, and a sentence."""
-
-    name: str
-    separates_gas: bool = False
-    description: str = ""
-
-
-@dataclass(frozen=True)
-class LinePiece:
-    """One continuous piece of a boundary line, given parametrically.
-
-    ``func(t)`` maps an array of parameter values in [t0, t1] to ``(ql, qg)`` arrays [m^3/s] (NaN
-    where the piece has no point). The chart samples t adaptively (refining until chords in log-log
-    axes are straight to a small fraction of the chart) and includes ``breakpoints`` (kinks) exactly.
-    Lines of constant flow ratio are typically parametrised by t = log10 Q_L, lines Q_L = F(Q_G/Q_L)
-    by t = log10(Q_G/Q_L).
-    """
-
-    t0: float
-    t1: float
-    func: Callable
-    breakpoints: tuple = ()
-
-
-class RegimeScheme:
-    """How the region-defining lines of a chart make regimes (base class).
-
-    Sub-classes decide which of the chosen models define regions, the regime names, and the
-    vectorised classification. :class:`ChainScheme` (the sequence rule) and
-    :class:`PartitionScheme` (a rule on the signs of several lines) are provided.
-    """
-
-    name: str = ""
-    kind: str = ""
-
-    def region_indices(self, models: Sequence[BoundaryModel]) -> list[int]:
-        """Indices of the region-defining models among ``models``, in the scheme's order."""
-        raise NotImplementedError
-
-    def regime_names(self, region_models) -> tuple[str, ...]:
-        """Regime names the region-defining (model, constants) pairs can produce, in display order."""
-        raise NotImplementedError
-
-    def classify(self, case, region_models, regime_names, ql, qg) -> np.ndarray:
-        """Regime names at flow rates already checked by :func:`lowgmap.physics.properties.groups.positive_flows`."""
-        raise NotImplementedError
-
-    def info(self, name: str) -> RegimeInfo:
-        """Flags of a regime (default: none)."""
-        return RegimeInfo(name)
-
-    def notes(self, case, region_models) -> list[str]:
-        """Sentences the chart puts at the top of its warnings (default: none)."""
-        return []
-
-    def bounding_indices(self, region_models, regime_names, regime: str) -> tuple[int, ...]:
-        """Indices into ``region_models`` of the lines whose crossing can change the regime ``regime``."""
-        raise NotImplementedError
-
-
-class ChainScheme(RegimeScheme):
-    """The sequence rule: lines chained by regime names in order of increasing gas fraction.
-
-    See the module notes. A point's regime is ``regime_below`` of the first chained line it lies
-    below, or ``regime_above`` of the last line; only lines 0..i can change the regime i.
-    """
-
-    name = "sequence rule"
-    kind = "chain"
-
-    def region_indices(self, models):
-        return _sequence(list(models))
-
-    def regime_names(self, region_models):
-        if not region_models:
-            return ()
-        return tuple([region_models[0][0].regime_below] + [m.regime_above for m, _ in region_models])
-
-    def classify(self, case, region_models, regime_names, ql, qg):
-        n = len(region_models)
-        idx = np.full(ql.shape, n, dtype=np.intp)
-        decided = np.zeros(ql.shape, dtype=bool)
-        for k, (model, consts) in enumerate(region_models):
-            with np.errstate(invalid="ignore"):
-                g = np.asarray(model.implicit(case, ql, qg, **dict(consts)), dtype=float)
-            below = (g < 0) & ~decided
-            idx[below] = k
-            decided |= below
-        names = np.array(list(regime_names) + [""]) if n else np.array([""])
-        idx[~(np.isfinite(ql) & np.isfinite(qg))] = len(names) - 1
-        return names[idx]
-
-    def bounding_indices(self, region_models, regime_names, regime):
-        names = list(regime_names)
-        if regime not in names:
-            return ()
-        return tuple(range(min(names.index(regime) + 1, len(region_models))))
-
-
-#: The sequence rule, used by charts whose models belong to no other scheme.
-CHAIN = ChainScheme()
-
-
-class PartitionScheme(RegimeScheme):
-    r"""Regimes from the signs of several region-defining lines (a two-dimensional partition).
-
-    Parameters
-    ----------
-    name : str                    plain name of the scheme (shown in reports)
-    members : sequence of str     registry names of the models that define regions, in order
-    regimes : sequence of RegimeInfo   every regime the rule can return, in display order
-    rule : callable               ``rule(values) -> array of regime names``, vectorised, where
-        ``values`` maps the name of each *chosen* member to its implicit-function values (negative
-        below the line, positive above, NaN where undefined) at the points; members that were not
-        chosen are absent, and the rule must cope (typically by treating the mechanism as absent)
-    notes : callable, optional    ``notes(case, region_models) -> list of str`` (gravity checks,
-        physical caveats) put at the top of the chart's warnings
-    description : str             a sentence for reports
-
-    Notes
-    -----
-    A point exactly on a line counts as above it (value 0), as with the sequence rule. The scheme
-    also warns when a constant of the same name has different values in two of its lines (each line
-    then uses its own value).
-
-    Examples
-    --------
-    >>> import numpy as np
-    >>> rule = lambda v: np.where(v["a"] >= 0, "right", "left")
-    >>> sch = PartitionScheme("demo", ("a",), (RegimeInfo("left"), RegimeInfo("right", True)), rule)
-    >>> sch.info("right").separates_gas
-    True
-    """
-
-    kind = "partition"
-
-    def __init__(self, name: str, members: Sequence[str], regimes: Sequence[RegimeInfo], rule: Callable,
-                 notes: Callable | None = None, description: str = ""):
-        self.name = str(name)
-        self.members = tuple(members)
-        self.regimes = tuple(regimes)
-        self.rule = rule
-        self._notes = notes
-        self.description = description
-        names = [r.name for r in self.regimes]
-        if len(set(names)) != len(names):
-            raise ValueError(f"scheme {name}: regime names repeat: {names}")
-        if len(set(self.members)) != len(self.members):
-            raise ValueError(f"scheme {name}: member names repeat: {self.members}")
-
-    def __repr__(self) -> str:
-        return f"<PartitionScheme {self.name!r}>"
-
-    def region_indices(self, models):
-        pos = {m: i for i, m in enumerate(self.members)}
-        idx = [i for i, m in enumerate(models) if getattr(m, "scheme", None) is self and m.name in pos]
-        return sorted(idx, key=lambda i: pos[models[i].name])
-
-    def regime_names(self, region_models):
-        if not region_models:
-            return ()
-        names = [m.name for m, _ in region_models]
-        n = len(names)
-        combos = ((np.arange(2 ** n)[:, None] >> np.arange(n)[None, :]) & 1) * 2.0 - 1.0
-        got = set(np.asarray(self.rule({nm: combos[:, k] for k, nm in enumerate(names)})).tolist())
-        return tuple(r.name for r in self.regimes if r.name in got)
-
-    def classify(self, case, region_models, regime_names, ql, qg):
-        if not region_models:
-            return np.full(ql.shape, "", dtype="<U1")
-        values = {}
-        for model, consts in region_models:
-            with np.errstate(all="ignore"):
-                values[model.name] = np.broadcast_to(
-                    np.asarray(model.implicit(case, ql, qg, **dict(consts)), dtype=float), ql.shape)
-        names = np.broadcast_to(np.asarray(self.rule(values)), ql.shape)
-        bad = ~(np.isfinite(ql) & np.isfinite(qg))
-        return np.where(bad, "", names)
-
-    def info(self, name):
-        for r in self.regimes:
-            if r.name == name:
-                return r
-        return RegimeInfo(name)
-
-    def notes(self, case, region_models):
-        out = list(self._notes(case, region_models)) if self._notes is not None else []
-        seen: dict[str, tuple[float, str]] = {}
-        for m, consts in region_models:
-            for k, v in consts:
-                if k in seen and not math.isclose(seen[k][0], v, rel_tol=1e-12, abs_tol=0.0):
-                    out.append(f"Constant {k} is {seen[k][0]:g} in {seen[k][1]} but {v:g} in {m.label}: "
-                               f"each line uses its own value.")
-                seen.setdefault(k, (v, m.label))
-        return out
-
-    def bounding_indices(self, region_models, regime_names, regime):
-        return tuple(range(len(region_models))) if regime in regime_names else ()
-
-
 def default_models(case) -> tuple[str, ...]:
     """Default model names for the case's section family (open or closed)."""
     family = "open" if getattr(case.section, "is_open", False) else "closed"
@@ -411,32 +218,6 @@ def _resolve(case, models):
     return out
 
 
-def _sequence(models: Sequence[BoundaryModel]) -> list[int]:
-    """Indices of the region-defining models in order of increasing gas fraction (sequence rule)."""
-    if not models:
-        return []
-    chain = [0]
-    regimes = [models[0].regime_below, models[0].regime_above]
-    pairs = {(models[0].regime_below, models[0].regime_above)}
-    changed = True
-    while changed:
-        changed = False
-        for i, m in enumerate(models):
-            if i in chain or (m.regime_below, m.regime_above) in pairs:
-                continue
-            if m.regime_below == regimes[-1] and m.regime_above not in regimes:
-                chain.append(i)
-                regimes.append(m.regime_above)
-            elif m.regime_above == regimes[0] and m.regime_below not in regimes:
-                chain.insert(0, i)
-                regimes.insert(0, m.regime_below)
-            else:
-                continue
-            pairs.add((m.regime_below, m.regime_above))
-            changed = True
-    return chain
-
-
 def _log_curve(model, case, consts):
     """x = log10 Q_L  ->  y = log10 Q_G on the line (NaN where none)."""
     def f(x):
@@ -447,27 +228,10 @@ def _log_curve(model, case, consts):
 
 
 def _sample(f, x0, x1, tol, extra):
-    x = np.linspace(x0, x1, _N_START)
-    extra = np.asarray(extra, dtype=float)
-    extra = extra[(extra > x0) & (extra < x1)]
-    if extra.size:
-        x = np.unique(np.concatenate([x, extra]))
-    y = f(x)
-    min_dx = 1e-7 * (x1 - x0)
-    for _ in range(_DEPTH):
-        xm = 0.5 * (x[:-1] + x[1:])
-        ym = f(xm)
-        with np.errstate(invalid="ignore"):
-            err = np.abs(ym - 0.5 * (y[:-1] + y[1:]))
-        need = (err > tol) | (np.isnan(y[:-1]) != np.isnan(y[1:]))
-        need &= (x[1:] - x[:-1]) > min_dx
-        if not need.any() or x.size > _MAX_POINTS:
-            break
-        x = np.concatenate([x, xm[need]])
-        y = np.concatenate([y, ym[need]])
-        order = np.argsort(x, kind="stable")
-        x, y = x[order], y[order]
-    return x, y
+    """Samples (x, y) of y = f(x) on [x0, x1], chords within ``tol`` vertically (NaN where no line)."""
+    x, (y,) = sample_line(lambda t: (f(t),), x0, x1, tol=tol, n_start=_N_START, breakpoints=extra,
+                          min_step=1e-7 * (x1 - x0), max_passes=_DEPTH, max_points=_MAX_POINTS)
+    return x, np.array(y)
 
 
 def _roots(h, x, d):
@@ -489,20 +253,19 @@ def _roots(h, x, d):
 def _clip(x, y, ylo, yhi):
     """Keep the samples inside [ylo, yhi] (log10); NaN rows between pieces. Returns (ql, qg) [m^3/s]."""
     span = 1e-9 * (yhi - ylo)
-    inside = np.isfinite(y) & (y >= ylo - span) & (y <= yhi + span)
+    with np.errstate(invalid="ignore"):
+        inside = np.isfinite(y) & (y >= ylo - span) & (y <= yhi + span)
     y = np.clip(y, ylo, yhi)
     qx, qy = [], []
-    for i in range(len(x)):
-        if inside[i]:
-            qx.append(x[i])
-            qy.append(y[i])
-        elif qx and not math.isnan(qx[-1]):
-            qx.append(math.nan)
-            qy.append(math.nan)
-    while qx and math.isnan(qx[-1]):
-        qx.pop()
-        qy.pop()
-    return 10.0 ** np.array(qx, dtype=float), 10.0 ** np.array(qy, dtype=float)
+    for i, j in mask_runs(inside):
+        if qx:
+            qx.append([math.nan])
+            qy.append([math.nan])
+        qx.append(x[i:j])
+        qy.append(y[i:j])
+    if not qx:
+        return np.empty(0), np.empty(0)
+    return 10.0 ** np.concatenate(qx), 10.0 ** np.concatenate(qy)
 
 
 def _scalar(f):
@@ -578,14 +341,9 @@ class Chart:
 
         Examples
         --------
-        >>> from lowgmap.physics.case import Case, FlowRange
-        >>> from lowgmap.physics.properties.fluids import FluidPair
+        >>> from lowgmap.physics.examples import example_case
         >>> from lowgmap.physics.geometry.sections import Circle
-        >>> from lowgmap.physics.properties.wetting import Wetting
-        >>> air_water = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5,
-        ...                       "user", "user")
-        >>> case = Case(air_water, Circle(0.0127), Wetting(0.0), 1.0, 1e-4 * 9.80665,
-        ...             FlowRange(1e-7, 1e-3, 1e-7, 1e-2))
+        >>> case = example_case(Circle(0.0127), g=1e-4 * 9.80665, flow_range=(1e-7, 1e-3, 1e-7, 1e-2))
         >>> chart = Chart.build(case)
         >>> chart.regime_names
         ('dispersed bubbles', 'elongated bubbles / slugs', 'annular (gas core)')
@@ -623,7 +381,7 @@ class Chart:
                        f"not apply.")
             warnings.append("No boundary model applies to this case: the chart shows no regimes." + why)
 
-        seq = _sequence([m for m, _ in chosen])
+        seq = CHAIN.region_indices([m for m, _ in chosen])
         ordered = [chosen[i] for i in seq] + [c for i, c in enumerate(chosen) if i not in seq]
         n_reg = len(seq)
         roles = ["regions"] * n_reg + ["comparison"] * (len(ordered) - n_reg)
@@ -901,14 +659,8 @@ def _regions(case, chain, fns, samples, crossing_x, edge_x, regime_names, box):
         upper = np.full(X.shape, yhi) if k == n else Y[k]
         w = upper - lower
         pos = w > eps
-        i = 0
-        while i < len(X):
-            if not pos[i]:
-                i += 1
-                continue
-            j = i
-            while j + 1 < len(X) and pos[j + 1]:
-                j += 1
+        for i, stop in mask_runs(pos):
+            j = stop - 1
             top_x, top_y, bot_x, bot_y = [], [], [], []
             if i > 0:  # closing point where the region pinches off on the left
                 t = w[i - 1] / (w[i - 1] - w[i])
@@ -930,7 +682,6 @@ def _regions(case, chain, fns, samples, crossing_x, edge_x, regime_names, box):
             px, py = px[keep], py[keep]
             if px.size >= 3:
                 out.append(Region(regime_names[k], _ro(10.0 ** px), _ro(10.0 ** py)))
-            i = j + 1
     return out
 
 
@@ -958,57 +709,28 @@ def _model_pieces(model, case, consts, box):
 
 
 def _piece_uv(piece, box):
+    """t -> (u, v) of a line piece in box units (NaN where it has no point)."""
     x0, x1, ylo, yhi = box
+    xy = piece_function(piece)
 
     def f(t):
-        t = np.atleast_1d(np.asarray(t, dtype=float))
-        with np.errstate(all="ignore"):
-            ql, qg = piece.func(t)
-            ql = np.broadcast_to(np.asarray(ql, dtype=float), t.shape)
-            qg = np.broadcast_to(np.asarray(qg, dtype=float), t.shape)
-            ok = np.isfinite(ql) & np.isfinite(qg) & (ql > 0) & (qg > 0)
-            u = np.where(ok, (np.log10(np.where(ok, ql, 1.0)) - x0) / (x1 - x0), np.nan)
-            v = np.where(ok, (np.log10(np.where(ok, qg, 1.0)) - ylo) / (yhi - ylo), np.nan)
-        return u, v
+        x, y = xy(t)
+        return (x - x0) / (x1 - x0), (y - ylo) / (yhi - ylo)
     return f
 
 
-def _far(u, v):
-    """Points well outside the box, by side (for skipping refinement of segments outside it)."""
-    with np.errstate(invalid="ignore"):
-        return np.stack([u < -0.05, u > 1.05, v < -0.05, v > 1.05])
-
-
 def _sample_piece(f, piece, tol):
-    """Adaptive samples (t, u, v) of a piece: chords straight to ``tol`` box units inside the box."""
+    """Adaptive samples (t, u, v) of a piece: chords straight to ``tol`` box units inside the box.
+
+    Chords whose ends and middle lie more than 5 % of the box beyond one of its edges are not refined.
+    """
     t0, t1 = float(piece.t0), float(piece.t1)
-    if not t1 > t0:
+    t, uv = sample_line(f, t0, t1, tol=tol, n_start=_SCHEME_N0, breakpoints=piece.breakpoints,
+                        min_step=1e-10 * (t1 - t0), window=((-0.05, 1.05), (-0.05, 1.05)), window_middle=True,
+                        max_passes=_SCHEME_DEPTH, max_points=_SCHEME_MAX)
+    if not t.size:
         return np.empty(0), np.empty(0), np.empty(0)
-    t = np.linspace(t0, t1, _SCHEME_N0)
-    bp = np.asarray(piece.breakpoints, dtype=float)
-    bp = bp[(bp > t0) & (bp < t1)]
-    if bp.size:
-        t = np.unique(np.concatenate([t, bp]))
-    u, v = f(t)
-    min_dt = 1e-10 * (t1 - t0)
-    for _ in range(_SCHEME_DEPTH):
-        tm = 0.5 * (t[:-1] + t[1:])
-        um, vm = f(tm)
-        fa, fb, fm = np.isfinite(u[:-1]), np.isfinite(u[1:]), np.isfinite(um)
-        with np.errstate(invalid="ignore"):
-            dev = np.hypot(um - 0.5 * (u[:-1] + u[1:]), vm - 0.5 * (v[:-1] + v[1:]))
-            need = np.where(fa & fb & fm, dev > tol, (fa != fb) | (fa & fb & ~fm))
-        fa_, fb_, fm_ = _far(u[:-1], v[:-1]), _far(u[1:], v[1:]), _far(um, vm)
-        outside = np.any(fa_ & fb_ & fm_, axis=0)
-        need &= ~outside & ((t[1:] - t[:-1]) > min_dt)
-        if not need.any() or t.size > _SCHEME_MAX:
-            break
-        t = np.concatenate([t, tm[need]])
-        u = np.concatenate([u, um[need]])
-        v = np.concatenate([v, vm[need]])
-        order = np.argsort(t, kind="stable")
-        t, u, v = t[order], u[order], v[order]
-    return t, u, v
+    return t, uv[0], uv[1]
 
 
 def _outside(u, v):
@@ -1052,21 +774,14 @@ def _clip_runs(f, t, u, v):
         su, sv = _snap(float(uu[0]), float(vv[0]))
         return tt, su, sv
 
-    cur: list = []
     n = t.size
-    for i in range(n):
-        if inside[i]:
-            if not cur and i > 0 and fin[i - 1]:
-                cur.append(edge(t[i - 1], t[i]))
-            cur.append((t[i], u[i], v[i]))
-            if i + 1 < n and not inside[i + 1]:
-                if fin[i + 1]:
-                    cur.append(edge(t[i], t[i + 1]))
-                runs.append(cur)
-                cur = []
-        # two samples outside in a row: a chord cutting a corner of the box is ignored (within tolerance)
-    if cur:
+    for i, j in mask_runs(inside):             # samples i..j-1 inside; edges found where a neighbour is finite
+        cur = [edge(t[i - 1], t[i])] if i > 0 and fin[i - 1] else []
+        cur += list(zip(t[i:j], u[i:j], v[i:j]))
+        if j < n and fin[j]:
+            cur.append(edge(t[j - 1], t[j]))
         runs.append(cur)
+        # two samples outside in a row: a chord cutting a corner of the box is ignored (within tolerance)
     out = []
     for r in runs:
         arr = np.array(r, dtype=float)
@@ -1248,16 +963,8 @@ def _active_runs(runs, classify_uv):
         n = len(r["t"]) - 1
         act = active_all[pos:pos + n]
         pos += n
-        i = 0
-        while i < n:
-            if not act[i]:
-                i += 1
-                continue
-            j = i
-            while j + 1 < n and act[j + 1]:
-                j += 1
-            out.append({"t": r["t"][i:j + 2], "u": r["u"][i:j + 2], "v": r["v"][i:j + 2], "f": r["f"]})
-            i = j + 1
+        for i, j in mask_runs(act):            # segments i..j-1 active: samples i..j
+            out.append({"t": r["t"][i:j + 1], "u": r["u"][i:j + 1], "v": r["v"][i:j + 1], "f": r["f"]})
     return out
 
 

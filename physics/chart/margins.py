@@ -44,489 +44,41 @@ Method
 ------
 Each line is sampled once per chart (cached while the chart lives; the point can move freely) as
 a polyline in (log10 Q_L, log10 Q_G), refined until every chord lies within 1e-7 decade of the
-line: from the model's ``line_pieces`` when it has them (evaluated for the chart range widened by
-the margin windows), else from ``qg_of_ql``. Where ``qg_of_ql`` has no value the whole column lies
-on one side of the line (decided by the sign of ``implicit``, as the chart does); a change of side
-between columns is a vertical piece, located by bisection to 1e-11 decade. Axis crossings found on
-the chords are polished on the model's ``implicit`` function (Illinois variant of regula falsi).
-On each straight chord the box margin has a closed-form minimiser (:func:`box_margin_on_segments`),
-so the symmetric margin is exact for the sampled polyline: its error is that of the sampling,
-below 5e-7 in m.
+line (:mod:`lowgmap.physics.chart.lines`, with the one adaptive sampler of
+:mod:`lowgmap.physics.chart.sampling`): from the model's ``line_pieces`` when it has them (evaluated
+for the chart range widened by the margin windows), else from ``qg_of_ql``. Where ``qg_of_ql`` has
+no value the whole column lies on one side of the line (decided by the sign of ``implicit``, as the
+chart does); a change of side between columns is a vertical piece, located by bisection to 1e-11
+decade. Axis crossings found on the chords are polished by secant steps on the model's
+``implicit`` function. On each straight chord the box margin has a closed-form
+minimiser (:func:`box_margin_on_segments`), so the symmetric margin is exact for the sampled
+polyline: its error is that of the sampling, below 5e-7 in m.
+
+Internal interfaces for the studies (Monte Carlo, sweeps): :func:`regime_margins` (margins of many
+points on a :class:`~lowgmap.physics.chart.lines.LineGeometry`), its deferred form finished by
+:func:`resolve_deferred`, :func:`uncached_regime_margins` (lines sampled afresh, e.g. for a perturbed
+case) and :func:`check_point`.
 """
 from __future__ import annotations
 
 import math
-import threading
-import weakref
 from dataclasses import dataclass
-from typing import Mapping
 
 import numpy as np
 
+from lowgmap.physics.chart.lines import (LN10, MAX_MARGIN, WINDOW_HI, WINDOW_LO, GEOMETRY_CACHE, LineGeometry,
+                                         bounding_lines, geometry_of, is_chain, make_geometry, regime_indices)
 from lowgmap.physics.validate import positive
 
 __all__ = ["MAX_MARGIN", "DIRECTIONS", "BoundaryMargin", "PointMargins", "point_margins", "symmetric_margins",
            "CornerCheck", "EnvelopeLine", "EnvelopeCheck", "envelope_check", "RobustPoint", "robust_point",
-           "regime_index", "box_margin_on_segments"]
-
-#: Largest symmetric margin reported; a point with this margin has no boundary within ±99.9 %.
-MAX_MARGIN = 0.999
+           "regime_index", "box_margin_on_segments", "regime_margins", "resolve_deferred",
+           "uncached_regime_margins", "check_point"]
 
 #: The four axis directions of :attr:`PointMargins.limits`.
 DIRECTIONS = ("ql_up", "ql_down", "qg_up", "qg_down")
 
-_LN10 = math.log(10.0)
-_WIN_LO = math.log10(1.0 - MAX_MARGIN)       # margin window below the point [decade]
-_WIN_HI = math.log10(1.0 + MAX_MARGIN)       # and above it
-_N_START = 65                                 # initial samples of a line
-_TOL = 1e-7                                   # chord tolerance [decade]
-_WALL_DX = 1e-11                              # width at which a vertical piece is located [decade]
-_MIN_DX = 1e-9                                # narrowest cell refined for curvature [decade]
-_DEPTH = 60                                   # refinement passes
-_MAX_SAMPLES = 20000                          # cap on samples per line piece
-_FAR = 8.0                                    # decades beyond the coverage where open columns are closed
-_PROBE = 1e-6                                 # side-probe distance from a chord [decade]
 _CHUNK = 2_000_000                            # points x segments per block in vectorised margins
-
-
-# =============================================================================================
-# Sampling one line in log-log axes
-
-def _line_function(case, model, consts: Mapping[str, float], y_ref: float):
-    """x = log10 Q_L (array) -> log10 Q_G on the line (``qg_of_ql``), +-inf for columns without a line."""
-    q_ref = 10.0 ** y_ref
-
-    def f(x):
-        x = np.asarray(x, dtype=float)
-        ql = 10.0 ** x
-        with np.errstate(all="ignore"):
-            q = np.broadcast_to(np.asarray(model.qg_of_ql(case, ql, **consts), dtype=float), x.shape)
-            ok = np.isfinite(q) & (q > 0)
-            y = np.where(ok, np.log10(np.where(ok, q, 1.0)), np.nan)
-        bad = ~ok
-        if bad.any():
-            with np.errstate(all="ignore"):
-                g = np.asarray(model.implicit(case, ql[bad], np.full(int(bad.sum()), q_ref), **consts), dtype=float)
-            y[bad] = np.where(g < 0, np.inf, -np.inf)
-        return y
-
-    return f
-
-
-def _cls(y):
-    """0 for a finite value, +1 for +inf, -1 for -inf."""
-    return np.where(np.isfinite(y), 0, np.sign(y)).astype(np.int8)
-
-
-def _column_trace(f, x_lo: float, x_hi: float, breakpoints=(), tol: float = _TOL, wall_dx: float = _WALL_DX,
-                  n_start: int = _N_START):
-    """Samples (x, y) of y = f(x) on [x_lo, x_hi], y = +-inf in columns without a line.
-
-    Refined until chords are within ``tol``; a change of side between columns is located to
-    ``wall_dx`` and made vertical (two samples at the same x).
-    """
-    x = np.linspace(x_lo, x_hi, n_start)
-    bp = np.asarray(breakpoints, dtype=float)
-    bp = bp[np.isfinite(bp) & (bp > x_lo) & (bp < x_hi)]
-    if bp.size:
-        x = np.unique(np.concatenate([x, bp]))
-    y = f(x)
-    done = np.zeros(x.size, dtype=bool)          # done[i]: cell (i, i+1) needs no more work
-    done[-1] = True
-    for _ in range(_DEPTH):
-        dx = np.diff(x)
-        c = _cls(y)
-        finite_cell = (c[:-1] == 0) & (c[1:] == 0)
-        change = c[:-1] != c[1:]
-        work = ~done[:-1] & ((finite_cell & (dx > _MIN_DX)) | (change & (dx > wall_dx)))
-        done[:-1] |= ~work
-        if not work.any() or x.size > _MAX_SAMPLES:
-            break
-        idx = np.nonzero(work)[0]
-        xm = 0.5 * (x[idx] + x[idx + 1])
-        ym = f(xm)
-        with np.errstate(invalid="ignore"):
-            chord = np.abs(ym - 0.5 * (y[idx] + y[idx + 1]))
-        split = change[idx] | ~np.isfinite(ym) | (chord > tol)
-        done[idx[~split]] = True
-        s = idx[split]
-        if s.size == 0:
-            continue
-        done[s] = False
-        x = np.concatenate([x, xm[split]])
-        y = np.concatenate([y, ym[split]])
-        done = np.concatenate([done, np.zeros(s.size, dtype=bool)])
-        order = np.argsort(x, kind="stable")
-        x, y, done = x[order], y[order], done[order]
-    c = _cls(y)
-    change = np.nonzero(c[:-1] != c[1:])[0]
-    if change.size:
-        mid = 0.5 * (x[change] + x[change + 1])
-        x = x.copy()
-        x[change] = mid
-        x[change + 1] = mid
-    return x, y
-
-
-def _piece_function(piece):
-    """t -> (log10 Q_L, log10 Q_G) of a parametric line piece (NaN where it has no point)."""
-    def f(t):
-        t = np.atleast_1d(np.asarray(t, dtype=float))
-        with np.errstate(all="ignore"):
-            ql, qg = piece.func(t)
-            ql = np.broadcast_to(np.asarray(ql, dtype=float), t.shape)
-            qg = np.broadcast_to(np.asarray(qg, dtype=float), t.shape)
-            ok = np.isfinite(ql) & np.isfinite(qg) & (ql > 0) & (qg > 0)
-            x = np.where(ok, np.log10(np.where(ok, ql, 1.0)), np.nan)
-            y = np.where(ok, np.log10(np.where(ok, qg, 1.0)), np.nan)
-        return x, y
-    return f
-
-
-def _seg_distance(px, py, ax, ay, bx, by):
-    """Distance of points P to segments AB (arrays)."""
-    dx, dy = bx - ax, by - ay
-    L2 = dx * dx + dy * dy
-    with np.errstate(invalid="ignore", divide="ignore"):
-        w = np.clip(np.where(L2 > 0, ((px - ax) * dx + (py - ay) * dy) / np.where(L2 > 0, L2, 1.0), 0.0), 0.0, 1.0)
-    return np.hypot(ax + w * dx - px, ay + w * dy - py)
-
-
-def _piece_runs(piece, cov, tol: float = _TOL, n_start: int = _N_START):
-    """Polylines (x, y) of a parametric piece, refined to ``tol``; NaN gaps split runs."""
-    t0, t1 = float(piece.t0), float(piece.t1)
-    if not (math.isfinite(t0) and math.isfinite(t1) and t1 > t0):
-        return []
-    f = _piece_function(piece)
-    t = np.linspace(t0, t1, n_start)
-    bp = np.asarray(getattr(piece, "breakpoints", ()) or (), dtype=float)
-    bp = bp[np.isfinite(bp) & (bp > t0) & (bp < t1)]
-    if bp.size:
-        t = np.unique(np.concatenate([t, bp]))
-    x, y = f(t)
-    min_dt = 1e-12 * (t1 - t0)
-    X0, X1, Y0, Y1 = cov
-    done = np.zeros(t.size, dtype=bool)
-    done[-1] = True
-    for _ in range(_DEPTH):
-        fin = np.isfinite(x) & np.isfinite(y)
-        both = fin[:-1] & fin[1:]
-        change = fin[:-1] != fin[1:]
-        with np.errstate(invalid="ignore"):
-            far = ((x[:-1] < X0 - 1) & (x[1:] < X0 - 1)) | ((x[:-1] > X1 + 1) & (x[1:] > X1 + 1)) | \
-                  ((y[:-1] < Y0 - 1) & (y[1:] < Y0 - 1)) | ((y[:-1] > Y1 + 1) & (y[1:] > Y1 + 1))
-        work = ~done[:-1] & (np.diff(t) > min_dt) & (change | (both & ~far))
-        done[:-1] |= ~work
-        if not work.any() or t.size > _MAX_SAMPLES:
-            break
-        idx = np.nonzero(work)[0]
-        tm = 0.5 * (t[idx] + t[idx + 1])
-        xm, ym = f(tm)
-        finm = np.isfinite(xm) & np.isfinite(ym)
-        with np.errstate(invalid="ignore"):
-            dev = _seg_distance(xm, ym, x[idx], y[idx], x[idx + 1], y[idx + 1])
-        split = change[idx] | (both[idx] & (~finm | (dev > tol)))
-        done[idx[~split]] = True
-        s = idx[split]
-        if s.size == 0:
-            continue
-        done[s] = False
-        t = np.concatenate([t, tm[split]])
-        x = np.concatenate([x, xm[split]])
-        y = np.concatenate([y, ym[split]])
-        done = np.concatenate([done, np.zeros(s.size, dtype=bool)])
-        order = np.argsort(t, kind="stable")
-        t, x, y, done = t[order], x[order], y[order], done[order]
-    fin = np.isfinite(x) & np.isfinite(y)
-    runs = []
-    i, n = 0, t.size
-    while i < n:
-        if not fin[i]:
-            i += 1
-            continue
-        j = i
-        while j + 1 < n and fin[j + 1]:
-            j += 1
-        if j > i:
-            runs.append((x[i:j + 1].copy(), y[i:j + 1].copy()))
-        i = j + 1
-    return runs
-
-
-def _y_ref(case) -> float:
-    fr = case.flow_range
-    return 0.5 * (math.log10(fr.qg_min) + math.log10(fr.qg_max))
-
-
-def _widened(case, cov):
-    """The case with its chart range widened to the coverage (the physics is unchanged)."""
-    from lowgmap.physics.case import FlowRange
-
-    X0, X1, Y0, Y1 = cov
-    return case.with_(flow_range=FlowRange(10.0 ** X0, 10.0 ** X1, 10.0 ** Y0, 10.0 ** Y1))
-
-
-def _line_runs(case, model, consts, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_N_START, wide=None):
-    """Polylines of one line over the coverage box (x0, x1, y0, y1) [decades]."""
-    wide = wide if wide is not None else _widened(case, cov)
-    own = getattr(model, "line_pieces", None)
-    if callable(own):
-        runs = []
-        for piece in own(wide, **consts):
-            runs += _piece_runs(piece, cov, tol, n_start)
-        return runs
-    bp = np.asarray(model.breakpoints(wide, **consts), dtype=float)
-    bp = np.log10(bp[bp > 0]) if bp.size else bp
-    x, y = _column_trace(_line_function(wide, model, consts, _y_ref(case)), cov[0], cov[1], bp, tol, wall_dx,
-                         n_start)
-    return [(x, np.clip(y, cov[2] - _FAR, cov[3] + _FAR))]
-
-
-# =============================================================================================
-# Geometry: the segments of every line, with what they separate
-
-def _is_chain(chart) -> bool:
-    scheme = getattr(chart, "scheme", None)
-    return scheme is None or getattr(scheme, "kind", "chain") == "chain"
-
-
-def _bounding(chart, regime: str) -> tuple[int, ...]:
-    """Indices of the region lines whose crossing can change ``regime`` (sequence rule if not given)."""
-    f = getattr(chart, "bounding_models", None)
-    if callable(f):
-        return tuple(int(i) for i in f(regime))
-    names = list(chart.regime_names)
-    if regime not in names:
-        return ()
-    return tuple(range(min(names.index(regime) + 1, len(chart.region_models))))
-
-
-def _insert_points(x, y, px, py):
-    """Insert points lying on the polyline (x, y) as vertices (in order along it)."""
-    if px.size == 0 or x.size < 2:
-        return x, y
-    ax, ay, dx, dy = x[:-1], y[:-1], np.diff(x), np.diff(y)
-    L2 = dx * dx + dy * dy
-    with np.errstate(invalid="ignore", divide="ignore"):
-        w = np.clip(((px[:, None] - ax) * dx + (py[:, None] - ay) * dy) / np.where(L2 > 0, L2, 1.0), 0.0, 1.0)
-    d2 = (ax + w * dx - px[:, None]) ** 2 + (ay + w * dy - py[:, None]) ** 2
-    k = np.argmin(d2, axis=1)
-    rows = np.arange(px.size)
-    wk = w[rows, k]
-    keep = (d2[rows, k] < 1e-14) & (wk > 1e-9) & (wk < 1 - 1e-9)
-    if not keep.any():
-        return x, y
-    pos = np.concatenate([np.arange(x.size, dtype=float), k[keep] + wk[keep]])
-    order = np.argsort(pos, kind="stable")
-    return np.concatenate([x, px[keep]])[order], np.concatenate([y, py[keep]])[order]
-
-
-def _split_at_crossings(lines_runs):
-    """Insert the crossings of every pair of lines into both (so that each chord has one pair of sides)."""
-    from shapely.geometry import LineString, MultiLineString
-
-    geoms = []
-    for runs in lines_runs:
-        parts = [np.column_stack(r) for r in runs if len(r[0]) >= 2]
-        geoms.append(MultiLineString(parts) if parts else None)
-    pts: list[list] = [[] for _ in lines_runs]
-    for i in range(len(geoms)):
-        for j in range(i + 1, len(geoms)):
-            if geoms[i] is None or geoms[j] is None or not geoms[i].intersects(geoms[j]):
-                continue
-            hit = geoms[i].intersection(geoms[j])
-            coords = []
-            for g in getattr(hit, "geoms", [hit]):
-                if g.is_empty:
-                    continue
-                if g.geom_type == "Point":
-                    coords.append((g.x, g.y))
-                else:                                   # overlap: its ends
-                    for h in getattr(g, "geoms", [g]):
-                        b = h.boundary
-                        coords += [(p.x, p.y) for p in getattr(b, "geoms", [b]) if not p.is_empty]
-            pts[i] += coords
-            pts[j] += coords
-    out = []
-    for runs, p in zip(lines_runs, pts):
-        if not p:
-            out.append(runs)
-            continue
-        P = np.array(p, dtype=float)
-        out.append([_insert_points(x, y, P[:, 0], P[:, 1]) for x, y in runs])
-    return out
-
-
-@dataclass(frozen=True, eq=False)
-class _Geometry:
-    """Chords of every line in (log10 Q_L, log10 Q_G) and what they separate.
-
-    ``line``: index of the line (region lines first); ``usable``: the chord is part of the
-    boundary as drawn; ``left``/``right``: regime indices on the two sides (-2: not probed, -1: no
-    regime); ``bounding``: regime index -> region lines that can change it.
-    """
-
-    xa: np.ndarray
-    ya: np.ndarray
-    xb: np.ndarray
-    yb: np.ndarray
-    line: np.ndarray
-    usable: np.ndarray
-    left: np.ndarray
-    right: np.ndarray
-    n_lines: int
-    n_region: int
-    chain: bool
-    bounding: dict
-    cov: tuple
-
-    def __post_init__(self):
-        counts = np.bincount(self.line, minlength=self.n_lines) if self.line.size else np.zeros(self.n_lines, int)
-        starts = np.concatenate([[0], np.cumsum(counts)[:-1]]).astype(np.intp)
-        object.__setattr__(self, "_nonempty", np.nonzero(counts > 0)[0])
-        object.__setattr__(self, "_starts", starts[counts > 0])
-        object.__setattr__(self, "_adjacent", {})
-
-    def adjacent(self, r: int) -> np.ndarray:
-        """Chords that bound the regime of index ``r`` (read-only, cached)."""
-        got = self._adjacent.get(r)
-        if got is None:
-            lines = self.bounding.get(r, ())
-            got = self.usable & np.isin(self.line, np.asarray(lines, dtype=np.intp))
-            if not self.chain:
-                got &= (self.left == r) | (self.right == r)
-            got.flags.writeable = False
-            self._adjacent[r] = got
-        return got
-
-    def line_min(self, values):
-        """(minimum, index of the minimum) of per-chord ``values`` for each line (inf, -1 if none)."""
-        best = np.full(self.n_lines, np.inf)
-        arg = np.full(self.n_lines, -1, dtype=np.intp)
-        if values.size:
-            best[self._nonempty] = np.minimum.reduceat(values, self._starts)
-            hit = np.flatnonzero(values == best[self.line])
-            lines, first = np.unique(self.line[hit], return_index=True)
-            arg[lines] = hit[first]
-            arg[~np.isfinite(best)] = -1
-        return best, arg
-
-
-def _make_geometry(chart, case, lines, n_region, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_N_START,
-                   only=None) -> _Geometry:
-    """Sample ``lines`` [(model, consts dict)] of ``chart`` (classified with ``chart``) over ``cov``.
-
-    ``only``: indices of the lines to sample (others are left empty).
-    """
-    wide = _widened(case, cov)
-    runs_all = []
-    for k, (model, consts) in enumerate(lines):
-        if only is not None and k not in only:
-            runs_all.append([])
-            continue
-        runs_all.append(_line_runs(case, model, consts, cov, tol=tol, wall_dx=wall_dx, n_start=n_start, wide=wide))
-    chain = _is_chain(chart)
-    if not chain and n_region > 1:
-        runs_all[:n_region] = _split_at_crossings(runs_all[:n_region])
-    parts = {k: [] for k in ("xa", "ya", "xb", "yb", "line")}
-    for k, runs in enumerate(runs_all):
-        for x, y in runs:
-            if x.size < 2:
-                continue
-            keep = (np.diff(x) != 0) | (np.diff(y) != 0)
-            parts["xa"].append(x[:-1][keep])
-            parts["ya"].append(y[:-1][keep])
-            parts["xb"].append(x[1:][keep])
-            parts["yb"].append(y[1:][keep])
-            parts["line"].append(np.full(int(keep.sum()), k, dtype=np.intp))
-    arr = {k: (np.concatenate(v) if v else np.empty(0)) for k, v in parts.items()}
-    line = arr.pop("line").astype(np.intp)
-    s = line.size
-    left = np.full(s, -2, dtype=np.intp)
-    right = np.full(s, -2, dtype=np.intp)
-    usable = np.ones(s, dtype=bool)
-    names = list(chart.regime_names)
-    if not chain:
-        reg = line < n_region
-        if reg.any():
-            xa, ya, xb, yb = (arr[k][reg] for k in ("xa", "ya", "xb", "yb"))
-            mx, my = 0.5 * (xa + xb), 0.5 * (ya + yb)
-            dx, dy = xb - xa, yb - ya
-            nrm = np.hypot(dx, dy)
-            nx, ny = -dy / nrm, dx / nrm
-            px = np.concatenate([mx + _PROBE * nx, mx - _PROBE * nx])
-            py = np.concatenate([my + _PROBE * ny, my - _PROBE * ny])
-            sides = _index_of(names, np.asarray(chart.classify(10.0 ** px, 10.0 ** py)))
-            half = reg.sum()
-            left[reg], right[reg] = sides[:half], sides[half:]
-            usable[reg] = left[reg] != right[reg]
-    bounding = {r: _bounding(chart, name) for r, name in enumerate(names)}
-    return _Geometry(arr["xa"], arr["ya"], arr["xb"], arr["yb"], line, usable, left, right, len(lines), n_region,
-                     chain, bounding, tuple(cov))
-
-
-def _chart_lines(chart):
-    """(model, consts dict, role) of every line, region lines first."""
-    return ([(m, dict(c), "regions") for m, c in chart.region_models]
-            + [(m, dict(c), "comparison") for m, c in chart.comparison_models])
-
-
-def _coverage(chart, x_points=(), y_points=()) -> tuple[float, float, float, float]:
-    """Box the lines must cover: the chart range and the margin windows of every point [decades]."""
-    fr = chart.case.flow_range
-    xs = [math.log10(fr.ql_min), math.log10(fr.ql_max)] + [float(v) for v in np.ravel(x_points)]
-    ys = [math.log10(fr.qg_min), math.log10(fr.qg_max)] + [float(v) for v in np.ravel(y_points)]
-    return (min(xs) + _WIN_LO - 1e-9, max(xs) + _WIN_HI + 1e-9, min(ys) + _WIN_LO - 1e-9, max(ys) + _WIN_HI + 1e-9)
-
-
-class _ChartGeometry:
-    """The geometry of one chart, kept while the chart lives (rebuilt wider when a point needs it)."""
-
-    def __init__(self, chart):
-        self.lines = _chart_lines(chart)
-        self.geom: _Geometry | None = None
-        self.lock = threading.Lock()
-
-    def get(self, chart, cov) -> _Geometry:
-        g = self.geom
-        if g is not None and _covers(g.cov, cov):
-            return g
-        with self.lock:
-            g = self.geom
-            if g is not None and _covers(g.cov, cov):
-                return g
-            if g is not None:
-                cov = (min(cov[0], g.cov[0]), max(cov[1], g.cov[1]), min(cov[2], g.cov[2]), max(cov[3], g.cov[3]))
-            g = _make_geometry(chart, chart.case, [(m, c) for m, c, _ in self.lines], len(chart.region_models), cov)
-            self.geom = g
-            return g
-
-
-def _covers(have, need) -> bool:
-    return have[0] <= need[0] and have[1] >= need[1] and have[2] <= need[2] and have[3] >= need[3]
-
-
-_CACHE: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
-_CACHE_LOCK = threading.Lock()
-
-
-def _geometry_of(chart, x_points=(), y_points=()) -> tuple[_ChartGeometry, _Geometry]:
-    with _CACHE_LOCK:
-        holder = _CACHE.get(chart)
-        if holder is None:
-            holder = _ChartGeometry(chart)
-            _CACHE[chart] = holder
-    return holder, holder.get(chart, _coverage(chart, x_points, y_points))
-
-
-def _index_of(names, regimes):
-    """Index of each regime name in ``names`` (-1 if absent), vectorised."""
-    regimes = np.asarray(regimes)
-    if regimes.size == 0:
-        return np.empty(0, dtype=np.intp)
-    uniq, inv = np.unique(regimes, return_inverse=True)
-    lookup = {n: i for i, n in enumerate(names)}
-    return np.array([lookup.get(str(u), -1) for u in uniq], dtype=np.intp)[inv.ravel()].reshape(regimes.shape)
 
 
 # =============================================================================================
@@ -601,10 +153,10 @@ def box_margin_on_segments(la, al, lb, be):
 def _seg_bounds(xa, ya, xb, yb, x0, y0):
     """(upper, lower) bounds of the box margin on chords (broadcast): the better end, and a bound below."""
     with np.errstate(over="ignore", invalid="ignore"):
-        a0 = np.abs(np.expm1((xa - x0) * _LN10))
-        a1 = np.abs(np.expm1((xb - x0) * _LN10))
-        b0 = np.abs(np.expm1((ya - y0) * _LN10))
-        b1 = np.abs(np.expm1((yb - y0) * _LN10))
+        a0 = np.abs(np.expm1((xa - x0) * LN10))
+        a1 = np.abs(np.expm1((xb - x0) * LN10))
+        b0 = np.abs(np.expm1((ya - y0) * LN10))
+        b1 = np.abs(np.expm1((yb - y0) * LN10))
     upper = np.minimum(np.maximum(a0, b0), np.maximum(a1, b1))
     ma = np.where((np.minimum(xa, xb) <= x0) & (np.maximum(xa, xb) >= x0), 0.0, np.minimum(a0, a1))
     mb = np.where((np.minimum(ya, yb) <= y0) & (np.maximum(ya, yb) >= y0), 0.0, np.minimum(b0, b1))
@@ -613,7 +165,7 @@ def _seg_bounds(xa, ya, xb, yb, x0, y0):
 
 def _closed(xa, ya, xb, yb, x0, y0):
     """Closed-form box margin on chords: (m, x_touch, y_touch)."""
-    m, t = box_margin_on_segments((xa - x0) * _LN10, (xb - xa) * _LN10, (ya - y0) * _LN10, (yb - ya) * _LN10)
+    m, t = box_margin_on_segments((xa - x0) * LN10, (xb - xa) * LN10, (ya - y0) * LN10, (yb - ya) * LN10)
     return m, xa + t * (xb - xa), ya + t * (yb - ya)
 
 
@@ -631,7 +183,7 @@ def _per_line_min(values, lines, n):
     return best, arg
 
 
-def _point_box(g: _Geometry, x0: float, y0: float, r: int):
+def _point_box(g: LineGeometry, x0: float, y0: float, r: int):
     """Box margins of one point: per line (m, x, y) over its usable chords, and for its regime r."""
     n = g.n_lines
     m_line = np.full(n, np.inf)
@@ -659,12 +211,28 @@ def _point_box(g: _Geometry, x0: float, y0: float, r: int):
     return m_line, t_line, reg
 
 
-def _margins_many(g: _Geometry, x0, y0, ridx, pending=None, ids=None):
-    """Regime margins of many points (log10 flows, regime indices): (m, limiting line index).
+def regime_margins(g: LineGeometry, x0, y0, ridx, pending=None, ids=None):
+    """Symmetric margins of many points in their regimes, on the chords of ``g``: (m, limiting line).
 
+    Parameters
+    ----------
+    g : LineGeometry   the lines (e.g. from :func:`lowgmap.physics.chart.lines.geometry_of`)
+    x0, y0 : array     log10 Q_L and log10 Q_G of the points [decade]
+    ridx : array of int   regime index of each point in the chart's ``regime_names`` (-1: none)
+    pending : list, optional   defer the closed-form step: its inputs are appended here, to be
+                       finished by :func:`resolve_deferred` (the limiting lines are then untracked
+                       and m is not capped yet)
+    ids : array of int, optional   with ``pending``: the number of each point in the caller's array
+
+    Returns
+    -------
+    (m, line) : arrays   margin [fraction], capped at :data:`MAX_MARGIN`, and the index of the
+                  limiting line (-1 for none)
+
+    Notes
+    -----
     Per regime, every chord bounding it is bounded below and above for each point; the chords that
-    can beat the best end point are solved in closed form (exact global minimum). With ``pending``
-    (a list) the closed-form step is deferred (see :func:`_resolve_pending`; limits then untracked).
+    can beat the best end point are solved in closed form (exact global minimum).
     """
     x0 = np.asarray(x0, dtype=float)
     y0 = np.asarray(y0, dtype=float)
@@ -691,8 +259,8 @@ def _margins_many(g: _Geometry, x0, y0, ridx, pending=None, ids=None):
                 continue
             if pending is not None:
                 gx, gy = x0[p][i], y0[p][i]
-                pending.append((np.asarray(ids)[p][i], (xa[j] - gx) * _LN10, (xb[j] - xa[j]) * _LN10,
-                                (ya[j] - gy) * _LN10, (yb[j] - ya[j]) * _LN10))
+                pending.append((np.asarray(ids)[p][i], (xa[j] - gx) * LN10, (xb[j] - xa[j]) * LN10,
+                                (ya[j] - gy) * LN10, (yb[j] - ya[j]) * LN10))
                 continue
             mm, _, _ = _closed(xa[j], ya[j], xb[j], yb[j], x0[p][i], y0[p][i])
             order = np.lexsort((mm, i))
@@ -709,8 +277,13 @@ def _margins_many(g: _Geometry, x0, y0, ridx, pending=None, ids=None):
     return m, lim
 
 
-def _resolve_pending(pending, m):
-    """Finish deferred margins in place: m[ids] = min(m[ids], closed-form minima); capped."""
+def resolve_deferred(pending, m):
+    """Finish the margins deferred by :func:`regime_margins` in place and cap them; returns ``m``.
+
+    ``pending``: the list filled by :func:`regime_margins`; ``m``: the margins it returned, indexed
+    by the ``ids`` given to it. Sets m[ids] = min(m[ids], closed-form minima), then caps at
+    :data:`MAX_MARGIN`.
+    """
     if pending:
         ids = np.concatenate([p[0] for p in pending])
         parts = [np.concatenate([p[i] for p in pending]) for i in range(1, 5)]
@@ -720,20 +293,27 @@ def _resolve_pending(pending, m):
     return m
 
 
-def _draw_margins(chart, case, x0, y0, ridx, pending=None, ids=None, *, tol=1e-6, wall_dx=1e-8, n_start=17):
-    """Regime margins of points on a chart whose lines are not cached (one Monte Carlo draw)."""
+def uncached_regime_margins(chart, case, x0, y0, ridx, pending=None, ids=None, *, tol=1e-6, wall_dx=1e-8,
+                            n_start=17):
+    """Regime margins of points with the region lines of ``chart`` sampled afresh for ``case``.
+
+    For a chart whose lines are not worth caching (one Monte Carlo draw, one design of a sweep):
+    only the lines that bound the points' regimes are sampled, at the coarser ``tol`` [decade],
+    ``wall_dx`` [decade] and ``n_start``, over the windows of the points. Arguments and result as
+    :func:`regime_margins`.
+    """
     lines = [(m, dict(c)) for m, c in chart.region_models]
     n_region = len(lines)
-    cov = (float(np.min(x0)) + _WIN_LO - 1e-9, float(np.max(x0)) + _WIN_HI + 1e-9,
-           float(np.min(y0)) + _WIN_LO - 1e-9, float(np.max(y0)) + _WIN_HI + 1e-9)
+    cov = (float(np.min(x0)) + WINDOW_LO - 1e-9, float(np.max(x0)) + WINDOW_HI + 1e-9,
+           float(np.min(y0)) + WINDOW_LO - 1e-9, float(np.max(y0)) + WINDOW_HI + 1e-9)
     names = list(chart.regime_names)
     only = None
-    if _is_chain(chart):
+    if is_chain(chart):
         only = set()
         for r in np.unique(ridx[ridx >= 0]):
-            only |= set(_bounding(chart, names[int(r)]))
-    g = _make_geometry(chart, case, lines, n_region, cov, tol=tol, wall_dx=wall_dx, n_start=n_start, only=only)
-    return _margins_many(g, x0, y0, ridx, pending, ids)
+            only |= set(bounding_lines(chart, names[int(r)]))
+    g = make_geometry(chart, case, lines, n_region, cov, tol=tol, wall_dx=wall_dx, n_start=n_start, only=only)
+    return regime_margins(g, x0, y0, ridx, pending, ids)
 
 
 # =============================================================================================
@@ -749,7 +329,7 @@ def _clip_t(a, d, lo, hi):
     return tlo, thi
 
 
-def _nearest(g: _Geometry, sel, x0: float, y0: float, box):
+def _nearest(g: LineGeometry, sel, x0: float, y0: float, box):
     """Nearest point of every line (chords ``sel``) to (x0, y0) in log-log axes inside box."""
     X0, X1, Y0, Y1 = box
     n = g.n_lines
@@ -828,7 +408,7 @@ def _nearest_two(v, c, centre, lo, hi, adj):
     return np.array(sorted(out), dtype=np.intp)
 
 
-def _axis_crossings(g: _Geometry, sel, lines, case, x0: float, y0: float, box, adj):
+def _axis_crossings(g: LineGeometry, sel, lines, case, x0: float, y0: float, box, adj):
     """Crossings of the chords ``sel`` with the vertical x = x0 and the horizontal y = y0.
 
     Returns (along_y, along_x, g_point): per line, arrays of (value [decade], chord index) — y of the
@@ -1009,7 +589,8 @@ class PointMargins:
 # =============================================================================================
 # Public functions
 
-def _check_point(ql, qg) -> tuple[float, float]:
+def check_point(ql, qg) -> tuple[float, float]:
+    """The operating point (Q_L, Q_G) [m^3/s] as floats; ValueError naming the flow unless both are > 0."""
     return positive("ql", ql, "m^3/s"), positive("qg", qg, "m^3/s")
 
 
@@ -1046,14 +627,10 @@ def point_margins(chart, ql: float, qg: float) -> PointMargins:
 
     Examples
     --------
+    >>> from lowgmap.physics.examples import example_case
     >>> from lowgmap.physics.models.boundary import PowerLawBoundary
-    >>> from lowgmap.physics.case import Case, FlowRange
     >>> from lowgmap.physics.chart.composition import Chart
-    >>> from lowgmap.physics.properties.fluids import FluidPair
-    >>> from lowgmap.physics.geometry.sections import Circle
-    >>> from lowgmap.physics.properties.wetting import Wetting
-    >>> fluid = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
-    >>> case = Case(fluid, Circle(0.01), Wetting(0.0), 1.0, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3))
+    >>> case = example_case()                  # water/air, 10 mm tube, Q_L and Q_G from 1e-7 to 1e-3 m^3/s
     >>> line = PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")   # Q_G = Q_L
     >>> pm = point_margins(Chart.build(case, [line]), 1e-5, 0.5e-5)
     >>> pm.regime, round(pm.symmetric_margin, 6)       # (1 + m) / (1 - m) = 2
@@ -1061,7 +638,7 @@ def point_margins(chart, ql: float, qg: float) -> PointMargins:
     >>> round(pm.boundaries[0].qg_factor_up, 9), round(pm.boundaries[0].ql_factor_down, 9)
     (2.0, 0.5)
     """
-    ql, qg = _check_point(ql, qg)
+    ql, qg = check_point(ql, qg)
     x0, y0 = math.log10(ql), math.log10(qg)
     regime = str(chart.classify(ql, qg))
     names = list(chart.regime_names)
@@ -1069,7 +646,7 @@ def point_margins(chart, ql: float, qg: float) -> PointMargins:
     fr = chart.case.flow_range
     box = (min(math.log10(fr.ql_min), x0), max(math.log10(fr.ql_max), x0),
            min(math.log10(fr.qg_min), y0), max(math.log10(fr.qg_max), y0))
-    holder, g = _geometry_of(chart, [x0], [y0])
+    holder, g = geometry_of(chart, [x0], [y0])
     lines = [(m, c) for m, c, _ in holder.lines]
     adj = g.adjacent(r) if r >= 0 else np.zeros(g.xa.size, dtype=bool)
     m_line, t_line, reg = _point_box(g, x0, y0, r)
@@ -1137,14 +714,10 @@ def symmetric_margins(chart, ql, qg, *, regime=None):
 
     Examples
     --------
+    >>> from lowgmap.physics.examples import example_case
     >>> from lowgmap.physics.models.boundary import PowerLawBoundary
-    >>> from lowgmap.physics.case import Case, FlowRange
     >>> from lowgmap.physics.chart.composition import Chart
-    >>> from lowgmap.physics.properties.fluids import FluidPair
-    >>> from lowgmap.physics.geometry.sections import Circle
-    >>> from lowgmap.physics.properties.wetting import Wetting
-    >>> fluid = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
-    >>> case = Case(fluid, Circle(0.01), Wetting(0.0), 1.0, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3))
+    >>> case = example_case()                  # water/air, 10 mm tube, Q_L and Q_G from 1e-7 to 1e-3 m^3/s
     >>> chart = Chart.build(case, [PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")])
     >>> m, lim, reg = symmetric_margins(chart, [1e-5, 1e-5], [0.5e-5, 4e-5])
     >>> np.round(m, 6).tolist(), lim.tolist()
@@ -1160,8 +733,8 @@ def symmetric_margins(chart, ql, qg, *, regime=None):
     lim = np.full(ql.size, -1, dtype=np.intp)
     if ok.any():
         x0, y0 = np.log10(ql[ok]), np.log10(qg[ok])
-        _, g = _geometry_of(chart, [x0.min(), x0.max()], [y0.min(), y0.max()])
-        m[ok], lim[ok] = _margins_many(g, x0, y0, _index_of(list(chart.regime_names), regimes[ok]))
+        _, g = geometry_of(chart, [x0.min(), x0.max()], [y0.min(), y0.max()])
+        m[ok], lim[ok] = regime_margins(g, x0, y0, regime_indices(list(chart.regime_names), regimes[ok]))
     if regime is not None:
         regime_index(chart, regime)
         m = np.where(regimes == regime, m, -m)
@@ -1272,14 +845,10 @@ def envelope_check(chart, ql_range, qg_range, reference=None) -> EnvelopeCheck:
 
     Examples
     --------
+    >>> from lowgmap.physics.examples import example_case
     >>> from lowgmap.physics.models.boundary import PowerLawBoundary
-    >>> from lowgmap.physics.case import Case, FlowRange
     >>> from lowgmap.physics.chart.composition import Chart
-    >>> from lowgmap.physics.properties.fluids import FluidPair
-    >>> from lowgmap.physics.geometry.sections import Circle
-    >>> from lowgmap.physics.properties.wetting import Wetting
-    >>> fluid = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
-    >>> case = Case(fluid, Circle(0.01), Wetting(0.0), 1.0, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3))
+    >>> case = example_case()                  # water/air, 10 mm tube, Q_L and Q_G from 1e-7 to 1e-3 m^3/s
     >>> chart = Chart.build(case, [PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")])
     >>> env = envelope_check(chart, (1e-5, 2e-5), (1e-6, 3e-5))
     >>> env.wholly_inside, env.lines[0].corners_across
@@ -1290,7 +859,7 @@ def envelope_check(chart, ql_range, qg_range, reference=None) -> EnvelopeCheck:
     if reference is None:
         ref = (math.sqrt(ql_lo * ql_hi), math.sqrt(qg_lo * qg_hi))
     else:
-        ref = _check_point(*reference)
+        ref = check_point(*reference)
     corners = (("low Q_L, low Q_G", ql_lo, qg_lo), ("high Q_L, low Q_G", ql_hi, qg_lo),
                ("high Q_L, high Q_G", ql_hi, qg_hi), ("low Q_L, high Q_G", ql_lo, qg_hi))
     cq_l = np.array([c[1] for c in corners])
@@ -1300,7 +869,7 @@ def envelope_check(chart, ql_range, qg_range, reference=None) -> EnvelopeCheck:
     names = list(chart.regime_names)
     r = names.index(regime) if regime in names else -1
     box = (math.log10(ql_lo), math.log10(ql_hi), math.log10(qg_lo), math.log10(qg_hi))
-    holder, g = _geometry_of(chart, box[:2], box[2:])
+    holder, g = geometry_of(chart, box[:2], box[2:])
     cx, cy = 0.5 * (box[0] + box[1]), 0.5 * (box[2] + box[3])
     d_all, _, _ = _nearest(g, g.usable, cx, cy, box)
     adj = g.adjacent(r) if r >= 0 else np.zeros(g.xa.size, dtype=bool)
@@ -1395,14 +964,10 @@ def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, grid: int 
 
     Examples
     --------
+    >>> from lowgmap.physics.examples import example_case
     >>> from lowgmap.physics.models.boundary import PowerLawBoundary
-    >>> from lowgmap.physics.case import Case, FlowRange
     >>> from lowgmap.physics.chart.composition import Chart
-    >>> from lowgmap.physics.properties.fluids import FluidPair
-    >>> from lowgmap.physics.geometry.sections import Circle
-    >>> from lowgmap.physics.properties.wetting import Wetting
-    >>> fluid = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
-    >>> case = Case(fluid, Circle(0.01), Wetting(0.0), 1.0, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3))
+    >>> case = example_case()                  # water/air, 10 mm tube, Q_L and Q_G from 1e-7 to 1e-3 m^3/s
     >>> chart = Chart.build(case, [PowerLawBoundary("low", 0.1, 1.0, "a", "b"),
     ...                            PowerLawBoundary("high", 10.0, 1.0, "b", "c")])
     >>> rp = robust_point(chart, "b")
@@ -1416,7 +981,7 @@ def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, grid: int 
     ql_lo, ql_hi = _check_range("ql_range", ql_range if ql_range is not None else (fr.ql_min, fr.ql_max))
     qg_lo, qg_hi = _check_range("qg_range", qg_range if qg_range is not None else (fr.qg_min, fr.qg_max))
     bx = (math.log10(ql_lo), math.log10(ql_hi), math.log10(qg_lo), math.log10(qg_hi))
-    _, g = _geometry_of(chart, bx[:2], bx[2:])
+    _, g = geometry_of(chart, bx[:2], bx[2:])
 
     u = np.linspace(bx[0], bx[1], grid)
     v = np.linspace(bx[2], bx[3], grid)
@@ -1441,7 +1006,7 @@ def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, grid: int 
         raise ValueError(f"regime {regime!r} does not occur within Q_L [{ql_lo:.4g}, {ql_hi:.4g}] m^3/s, "
                          f"Q_G [{qg_lo:.4g}, {qg_hi:.4g}] m^3/s")
     U, V = U[inside], V[inside]
-    m0, _ = _margins_many(g, U, V, np.full(U.size, r_idx, dtype=np.intp))
+    m0, _ = regime_margins(g, U, V, np.full(U.size, r_idx, dtype=np.intp))
 
     def objective(p):
         x, y = float(p[0]), float(p[1])
@@ -1450,7 +1015,7 @@ def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, grid: int 
             return 1.0 + out
         if str(chart.classify(10.0 ** x, 10.0 ** y)) != regime:
             return 1.0
-        m, _ = _margins_many(g, np.array([x]), np.array([y]), np.array([r_idx], dtype=np.intp))
+        m, _ = regime_margins(g, np.array([x]), np.array([y]), np.array([r_idx], dtype=np.intp))
         return -float(m[0])
 
     order = np.argsort(-m0)
@@ -1476,3 +1041,6 @@ def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, grid: int 
     touching = tuple(b.name for b in pm.boundaries
                      if b.limits_regime and b.margin < MAX_MARGIN and b.margin <= m * (1 + 1e-4) + 1e-9)
     return RobustPoint(ql, qg, m, touching, regime, (ql_lo, ql_hi), (qg_lo, qg_hi))
+
+
+# ---------------------------------------------------------------------------------------------

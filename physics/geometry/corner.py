@@ -27,7 +27,7 @@ import sys
 
 import numpy as np
 
-from lowgmap.physics.validate import angle_deg_in_range
+from lowgmap.physics.validate import angle_deg_in_range, positive_array
 from lowgmap.physics.properties.wetting import concus_finn_wets
 
 __all__ = [
@@ -39,6 +39,7 @@ __all__ = [
     "flow_resistance",
     "flow_resistance_direct",
     "build_beta_table",
+    "meniscus_angles",
 ]
 
 TABLE_PATH = os.path.join(os.path.dirname(os.path.dirname(__file__)), "data", "corner_beta.npz")
@@ -52,10 +53,32 @@ _HALF_PI = math.pi / 2
 # input checks
 # ----------------------------------------------------------------------------------------------
 
-def _angles(half_angle, contact_angle):
-    """Validate the angles; return broadcast arrays, the meniscus mask and whether input was scalar.
+def meniscus_angles(half_angle, contact_angle):
+    """Check a corner's half-angle and contact angle for the corner-filament functions.
 
-    A scalar pair that cannot hold a meniscus raises ValueError; in arrays such points are masked.
+    Parameters
+    ----------
+    half_angle : float or array      corner half-angle alpha [rad], in (0, 90) deg
+    contact_angle : float or array   contact angle theta [rad], in [0, 180] deg
+
+    Returns
+    -------
+    (alpha, theta, ok, scalar)
+        the angles as broadcast float arrays [rad], the mask of pairs that hold a meniscus
+        (Concus–Finn, theta + alpha < 90 deg) and whether both inputs were scalars.
+
+    Raises
+    ------
+    ValueError
+        an angle outside its range, or a scalar pair that cannot hold a meniscus (in arrays such
+        pairs are masked instead, so the caller can return NaN there).
+
+    Examples
+    --------
+    >>> import math
+    >>> a, t, ok, scalar = meniscus_angles(math.radians(30.0), [0.0, math.radians(70.0)])
+    >>> ok.tolist(), scalar
+    ([True, False], False)
     """
     if isinstance(half_angle, (float, int)) and isinstance(contact_angle, (float, int)) \
             and not isinstance(half_angle, bool) and not isinstance(contact_angle, bool) \
@@ -76,16 +99,6 @@ def _angles(half_angle, contact_angle):
             f"contact_angle must be < 90 deg - half_angle = {lim:.6g} deg for a corner meniscus "
             f"(Concus-Finn: contact_angle + half_angle < 90 deg), got {math.degrees(float(t)):.6g} deg")
     return a, t, ok, scalar
-
-
-def _positive_array(name, value, unit):
-    arr = np.asarray(value, dtype=float)
-    if not np.all(np.isfinite(arr)):
-        raise ValueError(f"{name} must be finite [{unit}], got {value!r}")
-    if np.any(arr <= 0):
-        bad = float(np.atleast_1d(arr)[np.atleast_1d(arr <= 0)][0])
-        raise ValueError(f"{name} must be > 0 [{unit}], got {bad:.6g} {unit}")
-    return arr
 
 
 def _out(x, scalar):
@@ -136,7 +149,7 @@ def meniscus_area_factor(half_angle, contact_angle):
     >>> round(meniscus_area_factor(math.radians(45), 0.0), 6)   # 1 - pi/4
     0.214602
     """
-    a, t, ok, scalar = _angles(half_angle, contact_angle)
+    a, t, ok, scalar = meniscus_angles(half_angle, contact_angle)
     out = _masked(lambda a, t: np.cos(t) * np.cos(t + a) / np.sin(a) - (np.pi / 2 - t - a), a, t, ok)
     return _out(out, scalar)
 
@@ -168,8 +181,8 @@ def wetted_wall_length(R, half_angle, contact_angle):
     >>> round(wetted_wall_length(1e-3, math.radians(45), 0.0), 9)   # R cot(alpha)
     0.001
     """
-    R = _positive_array("R", R, "m")
-    a, t, ok, scalar = _angles(half_angle, contact_angle)
+    R = positive_array("R", R, "m")
+    a, t, ok, scalar = meniscus_angles(half_angle, contact_angle)
     out = _masked(lambda a, t: np.cos(t + a) / np.sin(a), a, t, ok) * R
     return _out(out, scalar and R.ndim == 0)
 
@@ -204,8 +217,8 @@ def bisector_height(R, half_angle, contact_angle):
     >>> round(bisector_height(1.0, math.radians(30), 0.0), 12)   # (1 - 1/2) / (1/2)
     1.0
     """
-    R = _positive_array("R", R, "m")
-    a, t, ok, scalar = _angles(half_angle, contact_angle)
+    R = positive_array("R", R, "m")
+    a, t, ok, scalar = meniscus_angles(half_angle, contact_angle)
     out = _masked(lambda a, t: (np.cos(t) - np.sin(a)) / np.sin(a), a, t, ok) * R
     return _out(out, scalar and R.ndim == 0)
 
@@ -234,8 +247,8 @@ def meniscus_pressure(R, sigma):
     >>> meniscus_pressure(1e-3, 0.072)
     -72.0
     """
-    R = _positive_array("R", R, "m")
-    s = _positive_array("sigma", sigma, "N/m")
+    R = positive_array("R", R, "m")
+    s = positive_array("sigma", sigma, "N/m")
     out = -s / R
     return float(out) if np.ndim(out) == 0 else out
 
@@ -311,7 +324,7 @@ def flow_resistance_direct(half_angle, contact_angle, interface="free", mesh_siz
     """
     if np.ndim(half_angle) or np.ndim(contact_angle):
         raise TypeError("flow_resistance_direct takes scalar angles; use flow_resistance for arrays")
-    a, t, _, _ = _angles(half_angle, contact_angle)
+    a, t, _, _ = meniscus_angles(half_angle, contact_angle)
     if interface not in _INTERFACES:
         raise ValueError(f"interface must be one of {_INTERFACES}, got {interface!r}")
     if not (isinstance(mesh_size, (int, float)) and 0 < mesh_size <= 0.5):
@@ -422,12 +435,12 @@ def flow_resistance(half_angle, contact_angle, interface="free"):
     >>> round(flow_resistance(math.radians(45), 0.0), 1)
     91.4
     """
-    a, t, ok, scalar = _angles(half_angle, contact_angle)
+    a, t, ok, scalar = meniscus_angles(half_angle, contact_angle)
     if interface not in _INTERFACES:
         raise ValueError(f"interface must be one of {_INTERFACES}, got {interface!r}")
     spl = _splines()[interface]
     if scalar and _TABLE_LO <= a <= _TABLE_HI:
-        # fast path: one point inside the table (ok is True here: _angles raised otherwise)
+        # fast path: one point inside the table (ok is True here: meniscus_angles raised otherwise)
         y = t / (_HALF_PI - a)
         g = float(spl.ev(a, y)[()]) if y <= 1.0 else math.nan
         s2a = math.sin(2.0 * a)

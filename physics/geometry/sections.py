@@ -17,6 +17,13 @@ Conventions shared by all kinds
   (interior angle > 180 deg), straight vertices (= 180 deg) and the edges where a wall meets an open
   side are not corners.
 * ``length_scale`` is the length used in Bond numbers: see each class.
+
+One table of section kinds
+--------------------------
+Each class states its defining parameters once, as dataclass field metadata: the quantity
+(length, angle, count, vertices, edges) and a label in plain words. :func:`section_fields` reads
+that table for a kind and :func:`section_label` gives the kind's name in words; the case-file
+checker, the dashboard inputs and :meth:`Section.from_dict` all read the same table.
 """
 from __future__ import annotations
 
@@ -41,6 +48,10 @@ __all__ = [
     "Polygon",
     "SECTION_KINDS",
     "CIRCLE_OUTLINE_VERTICES",
+    "SectionField",
+    "SECTION_QUANTITIES",
+    "section_fields",
+    "section_label",
 ]
 
 #: Number of vertices of the polygon that stands for a circle in :meth:`Circle.outline`.
@@ -57,8 +68,102 @@ _MIC_REL_TOL = 1e-10
 SECTION_KINDS: dict[str, type["Section"]] = {}
 
 
+#: What a section parameter is, in SI: a length [m], an angle [rad], a whole number, a list of
+#: (x, y) vertices [m], or a list of edge indices.
+SECTION_QUANTITIES = ("length", "angle", "count", "vertices", "edges")
+
+
 def _g(x: float) -> str:
     return f"{x:.6g}"
+
+
+@dataclass(frozen=True)
+class SectionField:
+    """One defining parameter of a section kind, as case files and inputs name it.
+
+    Parameters
+    ----------
+    name : str        parameter name (case-file key, :meth:`Section.to_dict` key, constructor argument)
+    quantity : str    one of :data:`SECTION_QUANTITIES`: "length" [m], "angle" [rad], "count"
+                      (whole number), "vertices" (list of (x, y) [m]), "edges" (list of edge indices)
+    label : str       plain words for people, e.g. "corner half-angle"
+    required : bool   True when the section cannot be built without it
+    default : object  value used when it is left out (None for a required field)
+    """
+
+    name: str
+    quantity: str
+    label: str
+    required: bool = True
+    default: Any = None
+
+
+def _param(quantity: str, label: str, *, name: str | None = None, **kwargs):
+    """A dataclass field carrying its :class:`SectionField` metadata (``name`` when the parameter
+    differs from the attribute, as for :attr:`Polygon.open_edge_indices`)."""
+    if quantity not in SECTION_QUANTITIES:
+        raise ValueError(f"quantity must be one of {', '.join(SECTION_QUANTITIES)}, got {quantity!r}")
+    meta = {"quantity": quantity, "label": label}
+    if name is not None:
+        meta["name"] = name
+    return field(metadata=meta, **kwargs)
+
+
+def section_fields(kind: str) -> tuple[SectionField, ...]:
+    """Defining parameters of a section kind, in constructor order.
+
+    Parameters
+    ----------
+    kind : str   a key of :data:`SECTION_KINDS` ("circle", "rectangle", "regular_polygon",
+                 "groove", "wedge_channel", "polygon")
+
+    Returns
+    -------
+    tuple of SectionField
+
+    Raises
+    ------
+    ValueError   unknown kind (the message lists the known ones)
+
+    Examples
+    --------
+    >>> [(f.name, f.quantity, f.label) for f in section_fields("groove")]
+    [('half_angle', 'angle', 'corner half-angle'), ('depth', 'length', 'depth')]
+    >>> [(f.name, f.required, f.default) for f in section_fields("polygon")]
+    [('vertices', True, None), ('open_edges', False, ())]
+    """
+    return _fields_of(_kind_class(kind))
+
+
+def section_label(kind: str) -> str:
+    """Name of a section kind in plain words, e.g. "circular tube" or "V-groove (open)".
+
+    >>> section_label("groove"), section_label("circle")
+    ('V-groove (open)', 'circular tube')
+    """
+    return _kind_class(kind).label
+
+
+def _kind_class(kind: str) -> type["Section"]:
+    if not isinstance(kind, str) or kind not in SECTION_KINDS:
+        raise ValueError(f"section kind must be one of {', '.join(SECTION_KINDS)}, got {kind!r}")
+    return SECTION_KINDS[kind]
+
+
+def _fields_of(cls) -> tuple[SectionField, ...]:
+    out = []
+    for f in fields(cls):
+        if "quantity" not in f.metadata:
+            raise TypeError(f"{cls.__name__}.{f.name} has no section-field metadata (use _param)")
+        default: Any = None
+        if f.default is not MISSING:
+            default = f.default
+        elif callable(f.default_factory):
+            default = f.default_factory()
+        required = f.default is MISSING and f.default_factory is MISSING
+        out.append(SectionField(f.metadata.get("name", f.name), f.metadata["quantity"], f.metadata["label"],
+                                required, default))
+    return tuple(out)
 
 
 @dataclass(frozen=True)
@@ -100,6 +205,8 @@ class Section(ABC):
     """
 
     kind: ClassVar[str] = ""
+    #: the kind's name in plain words (:func:`section_label`)
+    label: ClassVar[str] = ""
 
     def __init_subclass__(cls, **kwargs):
         super().__init_subclass__(**kwargs)
@@ -204,9 +311,8 @@ class Section(ABC):
 
     @classmethod
     def _from_params(cls, params: dict[str, Any]) -> "Section":
-        names = [f.name for f in fields(cls)]
-        required = [f.name for f in fields(cls) if f.default is MISSING and f.default_factory is MISSING]
-        _check_keys(cls.kind, params, names, required)
+        table = _fields_of(cls)
+        _check_keys(cls.kind, params, [f.name for f in table], [f.name for f in table if f.required])
         return cls(**params)
 
     def describe(self) -> dict[str, Any]:
@@ -295,7 +401,8 @@ class Circle(Section):
     """
 
     kind: ClassVar[str] = "circle"
-    diameter: float
+    label: ClassVar[str] = "circular tube"
+    diameter: float = _param("length", "inner diameter")
 
     def __post_init__(self):
         _set(self, "diameter", positive("circle.diameter", self.diameter, "m"))
@@ -364,8 +471,9 @@ class Rectangle(Section):
     """
 
     kind: ClassVar[str] = "rectangle"
-    width: float
-    height: float
+    label: ClassVar[str] = "rectangular duct"
+    width: float = _param("length", "width")
+    height: float = _param("length", "height")
 
     def __post_init__(self):
         _set(self, "width", positive("rectangle.width", self.width, "m"))
@@ -433,8 +541,9 @@ class RegularPolygon(Section):
     """
 
     kind: ClassVar[str] = "regular_polygon"
-    n_sides: int
-    side: float
+    label: ClassVar[str] = "regular polygon duct"
+    n_sides: int = _param("count", "number of sides")
+    side: float = _param("length", "side length")
 
     def __post_init__(self):
         n = self.n_sides
@@ -528,8 +637,9 @@ class Groove(Section):
     """
 
     kind: ClassVar[str] = "groove"
-    half_angle: float
-    depth: float
+    label: ClassVar[str] = "V-groove (open)"
+    half_angle: float = _param("angle", "corner half-angle")
+    depth: float = _param("length", "depth")
 
     def __post_init__(self):
         _set(self, "half_angle", _half_angle("groove", self.half_angle))
@@ -610,8 +720,9 @@ class WedgeChannel(Section):
     """
 
     kind: ClassVar[str] = "wedge_channel"
-    half_angle: float
-    wall_length: float
+    label: ClassVar[str] = "wedge channel (open)"
+    half_angle: float = _param("angle", "corner half-angle")
+    wall_length: float = _param("length", "wall length")
 
     def __post_init__(self):
         _set(self, "half_angle", _half_angle("wedge_channel", self.half_angle))
@@ -836,8 +947,9 @@ class Polygon(Section):
     """
 
     kind: ClassVar[str] = "polygon"
-    vertices: tuple[tuple[float, float], ...]
-    open_edge_indices: tuple[int, ...] = field(default=())
+    label: ClassVar[str] = "polygon (from vertices)"
+    vertices: tuple[tuple[float, float], ...] = _param("vertices", "vertices (x, y)")
+    open_edge_indices: tuple[int, ...] = _param("edges", "open edges", name="open_edges", default=())
 
     def __init__(self, vertices, open_edges=(), *, open_edge_indices=None):
         if open_edge_indices is not None:     # used by dataclasses.replace
@@ -860,7 +972,8 @@ class Polygon(Section):
 
     @classmethod
     def _from_params(cls, params: dict[str, Any]) -> "Polygon":
-        _check_keys(cls.kind, params, ["vertices", "open_edges"], ["vertices"])
+        table = _fields_of(cls)
+        _check_keys(cls.kind, params, [f.name for f in table], [f.name for f in table if f.required])
         return cls(params["vertices"], params.get("open_edges", ()))
 
     def to_dict(self) -> dict[str, Any]:

@@ -19,7 +19,7 @@ registry, composed of the sub-models of :mod:`lowgmap.physics.models.bubbles` an
                                channel (free surface collapses, gas drawn into the outlet)
 =============================  ==============================================================
 
-Together they form a :class:`~lowgmap.physics.chart.composition.PartitionScheme` (:data:`SCHEME`) with six regimes:
+Together they form a :class:`~lowgmap.physics.models.regimes.PartitionScheme` (:data:`SCHEME`) with six regimes:
 
 * gas ingestion above the critical flow (first), else gas blow-through above alpha_c, else
 * bubbles isolated or merging (merging line) x separated (confined enough *and* migration faster
@@ -49,9 +49,10 @@ import numpy as np
 from scipy.interpolate import PchipInterpolator
 from scipy.optimize import brentq
 
+from lowgmap.physics import cache
 from lowgmap.physics.models import bubbles as bb
 from lowgmap.physics.models.boundary import BoundaryModel, Constant, register
-from lowgmap.physics.chart.composition import LinePiece, PartitionScheme, RegimeInfo
+from lowgmap.physics.models.regimes import LinePiece, PartitionScheme, RegimeInfo
 from lowgmap.physics.properties.groups import positive_flows
 
 __all__ = [
@@ -388,17 +389,25 @@ _N_RHO = 11
 @functools.lru_cache(maxsize=64)
 def _qcrit_table(channel, length, rho_l, rho_g, mu, sigma, K_e, full):
     """PCHIP of log Q_crit against log density (one point when ``full`` is False) and the limits."""
-    from lowgmap.physics.models.open_channel import critical_flow_rate
+    def build():
+        from lowgmap.physics.models.open_channel import critical_flow_rate
 
-    rhos = np.geomspace(max(rho_g, 1e-6 * rho_l), rho_l, _N_RHO) if full else np.array([rho_l])
-    q, lim = [], []
-    for rho in rhos:
-        res = critical_flow_rate(channel, length, rho=float(rho), mu=mu, sigma=sigma, K_e=K_e)
-        q.append(res.Q_crit)
-        lim.append(res.limited_by)
-    lr, lq = np.log(rhos), np.log(np.array(q))
+        rhos = np.geomspace(max(rho_g, 1e-6 * rho_l), rho_l, _N_RHO) if full else np.array([rho_l])
+        q, lim = [], []
+        for rho in rhos:
+            res = critical_flow_rate(channel, length, rho=float(rho), mu=mu, sigma=sigma, K_e=K_e)
+            q.append(res.Q_crit)
+            lim.append(res.limited_by)
+        return {"log_rho": np.log(rhos), "log_q": np.log(np.array(q)), "limited_by": np.array(lim, dtype=str)}
+
+    # kept on disk too (lowgmap.physics.cache): one table costs 11 critical-flow solves
+    arrays = cache.cached_arrays("corner.critical_flow_table",
+                                 (channel, length, rho_l, rho_g, mu, sigma, K_e, bool(full), _N_RHO), build)
+    lr, lq = arrays["log_rho"], arrays["log_q"]
+    for a in (lr, lq):
+        a.flags.writeable = False
     interp = PchipInterpolator(lr, lq, extrapolate=True) if full else None
-    return lr, lq, interp, tuple(lim)
+    return lr, lq, interp, tuple(str(x) for x in arrays["limited_by"])
 
 
 def _q_crit(case, rho_m, c):
@@ -642,7 +651,7 @@ class _CornerModel(BoundaryModel):
         return float(out) if out.ndim == 0 else out
 
     def line_pieces(self, case, **consts):
-        """The line as :class:`~lowgmap.physics.chart.composition.LinePiece` objects (one per constant ratio, t = log10 Q_L)."""
+        """The line as :class:`~lowgmap.physics.models.regimes.LinePiece` objects (one per constant ratio, t = log10 Q_L)."""
         c = self._c(consts)
         fr = case.flow_range
         x0, x1 = math.log10(fr.ql_min), math.log10(fr.ql_max)

@@ -250,9 +250,9 @@ def gravity_check(case, limit: float = EOTVOS_LIMIT) -> GravityCheck:
 
     Examples
     --------
-    >>> from types import SimpleNamespace as NS
-    >>> case = NS(fluid=NS(rho_l=998.2, rho_g=1.2, sigma=0.0727),
-    ...           section=NS(hydraulic_diameter=0.0127), g=9.80665e-2)
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.geometry.sections import Circle
+    >>> case = example_case(Circle(0.0127), g=9.80665e-2)        # water/air, 12.7 mm tube, 1e-2 g0
     >>> chk = gravity_check(case)
     >>> round(chk.eotvos, 3), chk.negligible
     (0.217, True)

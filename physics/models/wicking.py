@@ -33,7 +33,8 @@ import functools
 
 import numpy as np
 
-from lowgmap.physics.geometry.corner import _angles, _positive_array, flow_resistance, meniscus_area_factor
+from lowgmap.physics.geometry.corner import flow_resistance, meniscus_angles, meniscus_area_factor
+from lowgmap.physics.validate import positive_array
 
 __all__ = ["wicking_front", "time_to_wick", "wicking_front_constant_inflow"]
 
@@ -76,7 +77,7 @@ def _similarity(case: str):
 
 
 def _setup(half_angle, contact_angle, interface):
-    a, t, ok, scalar = _angles(half_angle, contact_angle)
+    a, t, ok, scalar = meniscus_angles(half_angle, contact_angle)
     beta = flow_resistance(a, t, interface=interface)
     return np.asarray(beta, dtype=float), scalar
 
@@ -127,9 +128,9 @@ def wicking_front(t, half_angle, contact_angle, sigma, mu, inlet_radius, interfa
     tt = np.asarray(t, dtype=float)
     if not np.all(np.isfinite(tt)) or np.any(tt < 0):
         raise ValueError(f"t must be finite and >= 0 [s], got {t!r}")
-    s = _positive_array("sigma", sigma, "N/m")
-    m = _positive_array("mu", mu, "Pa s")
-    r0 = _positive_array("inlet_radius", inlet_radius, "m")
+    s = positive_array("sigma", sigma, "N/m")
+    m = positive_array("mu", mu, "Pa s")
+    r0 = positive_array("inlet_radius", inlet_radius, "m")
     beta, scalar = _setup(half_angle, contact_angle, interface)
     eta_a = _similarity("height")[0]
     z = eta_a * np.sqrt(s * r0 * tt / (beta * m))
@@ -171,9 +172,9 @@ def time_to_wick(length, half_angle, contact_angle, sigma, mu, inlet_radius, int
     L = np.asarray(length, dtype=float)
     if not np.all(np.isfinite(L)) or np.any(L < 0):
         raise ValueError(f"length must be finite and >= 0 [m], got {length!r}")
-    s = _positive_array("sigma", sigma, "N/m")
-    m = _positive_array("mu", mu, "Pa s")
-    r0 = _positive_array("inlet_radius", inlet_radius, "m")
+    s = positive_array("sigma", sigma, "N/m")
+    m = positive_array("mu", mu, "Pa s")
+    r0 = positive_array("inlet_radius", inlet_radius, "m")
     beta, scalar = _setup(half_angle, contact_angle, interface)
     eta_a = _similarity("height")[0]
     t = beta * m / (s * r0) * (L / eta_a) ** 2
@@ -221,9 +222,9 @@ def wicking_front_constant_inflow(t, half_angle, contact_angle, sigma, mu, Q, in
     tt = np.asarray(t, dtype=float)
     if not np.all(np.isfinite(tt)) or np.any(tt < 0):
         raise ValueError(f"t must be finite and >= 0 [s], got {t!r}")
-    s = _positive_array("sigma", sigma, "N/m")
-    m = _positive_array("mu", mu, "Pa s")
-    q = _positive_array("Q", Q, "m^3/s")
+    s = positive_array("sigma", sigma, "N/m")
+    m = positive_array("mu", mu, "Pa s")
+    q = positive_array("Q", Q, "m^3/s")
     beta, scalar = _setup(half_angle, contact_angle, interface)
     F = np.asarray(meniscus_area_factor(half_angle, contact_angle), dtype=float)
     eta_b = _similarity("inflow")[0]

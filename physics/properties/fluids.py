@@ -29,6 +29,7 @@ from typing import Mapping
 
 import numpy as np
 
+from lowgmap.physics import cache
 from lowgmap.physics.validate import finite, positive
 
 __all__ = [
@@ -729,6 +730,8 @@ def make_fluid_pair(liquid: str, temperature: float, pressure: float | None = No
       [T_min, T_max] only; pressure does not enter (incompressible). Values are engineering estimates
       with the stated sources; override them with the supplier's data when known.
     * Errors name the field and the allowed range; temperatures are given in K and degC.
+    * Resolved pairs are kept in the persistent cache (:mod:`lowgmap.physics.cache`), keyed by the inputs,
+      the property library's version and lowgmap's, so a repeated command does not load the library.
 
     References
     ----------
@@ -744,6 +747,58 @@ def make_fluid_pair(liquid: str, temperature: float, pressure: float | None = No
     >>> make_fluid_pair("nitrogen", 77.355).pressure > 101000
     True
     """
+    try:
+        key_parts = (liquid, float(temperature), None if pressure is None else float(pressure), gas, gas_model,
+                     liquid_source, dict(overrides or {}), _library_version())
+        key = cache.make_key("fluids.pair", *key_parts)
+    except (TypeError, ValueError):       # inputs the checks below will refuse with a proper message
+        key = None
+    if key is not None:
+        hit = cache.load("fluids.pair", key)
+        if hit is not None:
+            try:
+                return _pair_from_arrays(hit)
+            except (KeyError, ValueError, TypeError):
+                pass                      # an entry of another layout: rebuild it
+    fp = _make_fluid_pair(liquid, temperature, pressure, gas=gas, gas_model=gas_model,
+                          liquid_source=liquid_source, overrides=overrides)
+    if key is not None:
+        cache.store("fluids.pair", key, _pair_to_arrays(fp))
+    return fp
+
+
+def _library_version() -> str:
+    """Version of the property library, read without importing it (importing it takes seconds)."""
+    from importlib.metadata import PackageNotFoundError, version
+
+    try:
+        return version("CoolProp")
+    except PackageNotFoundError:  # pragma: no cover - CoolProp is a dependency
+        return "none"
+
+
+_PAIR_NUMBERS = ("temperature", "pressure", "rho_l", "mu_l", "sigma", "rho_g", "mu_g")
+_PAIR_TEXTS = ("liquid", "gas", "liquid_source", "gas_source")
+
+
+def _pair_to_arrays(fp: FluidPair) -> dict:
+    return {"numbers": np.array([getattr(fp, k) for k in _PAIR_NUMBERS], dtype=float),
+            "texts": np.array([getattr(fp, k) for k in _PAIR_TEXTS], dtype=str),
+            "notes": np.array(list(fp.notes), dtype=str) if fp.notes else np.zeros(0, dtype="<U1")}
+
+
+def _pair_from_arrays(arrays) -> FluidPair:
+    numbers, texts = arrays["numbers"], arrays["texts"]
+    if numbers.shape != (len(_PAIR_NUMBERS),) or texts.shape != (len(_PAIR_TEXTS),):
+        raise ValueError("cached fluid pair of another layout")
+    values = {k: float(v) for k, v in zip(_PAIR_NUMBERS, numbers)}
+    values.update({k: str(v) for k, v in zip(_PAIR_TEXTS, texts)})
+    return FluidPair(notes=tuple(str(n) for n in arrays["notes"]), **values)
+
+
+def _make_fluid_pair(liquid, temperature, pressure=None, *, gas=None, gas_model="auto", liquid_source="auto",
+                     overrides=None) -> FluidPair:
+    """:func:`make_fluid_pair` without the persistent cache."""
     T = positive("temperature", temperature, "K")
     p = None if pressure is None else positive("pressure", pressure, "Pa")
     if liquid_source not in _LIQUID_SOURCES:

@@ -285,9 +285,9 @@ def point_validity(case, points, criteria: ValidityCriteria | None = None, *, ch
     --------
     Water in a 12.7 mm tube, 1 m observed, 100 + 20 mL/min in a 24 m drop tower (2.2 s, 1e-3 g0):
 
-    >>> from types import SimpleNamespace as NS
-    >>> case = NS(fluid=NS(rho_l=998.2, rho_g=1.2, mu_l=1.0e-3, sigma=0.0728),
-    ...           section=NS(length_scale=0.0127, area=math.pi * 0.0127 ** 2 / 4), length=1.0)
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.geometry.sections import Circle
+    >>> case = example_case(Circle(0.0127))
     >>> v = point_validity(case, {"ql_m3_s": [100e-6 / 60], "qg_m3_s": [20e-6 / 60],
     ...                           "platform": ["24 m drop tower"]})
     >>> round(float(v.bond[0]), 4), round(float(v.t_transit[0]), 2), bool(v.valid[0])
@@ -682,14 +682,10 @@ def agreement(chart, points, *, regime_map: Mapping[str, str] | None = None,
 
     Examples
     --------
-    >>> from lowgmap.physics.models.boundary import PowerLawBoundary
-    >>> from lowgmap.physics.case import Case, FlowRange
     >>> from lowgmap.physics.chart.composition import Chart
-    >>> from lowgmap.physics.properties.fluids import FluidPair
-    >>> from lowgmap.physics.geometry.sections import Circle
-    >>> from lowgmap.physics.properties.wetting import Wetting
-    >>> fluid = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
-    >>> case = Case(fluid, Circle(0.01), Wetting(0.0), 0.05, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3))
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.models.boundary import PowerLawBoundary
+    >>> case = example_case(length=0.05)                        # water/air, 10 mm tube, 5 cm
     >>> chart = Chart.build(case, [PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")])  # Q_G = Q_L
     >>> pts = {"ql_m3_s": [1e-5, 1e-5, 1e-5], "qg_m3_s": [0.5e-5, 2e-5, 0.8e-5],
     ...        "observed_regime": ["bubbles", "slugs", "slugs"], "platform": ["orbital station"] * 3}

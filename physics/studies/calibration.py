@@ -707,14 +707,10 @@ def calibrate(chart, points, fit, *, regime_map: Mapping[str, str] | None = None
 
     Examples
     --------
-    >>> from lowgmap.physics.models.boundary import PowerLawBoundary
-    >>> from lowgmap.physics.case import Case, FlowRange
     >>> from lowgmap.physics.chart.composition import Chart
-    >>> from lowgmap.physics.properties.fluids import FluidPair
-    >>> from lowgmap.physics.geometry.sections import Circle
-    >>> from lowgmap.physics.properties.wetting import Wetting
-    >>> fluid = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
-    >>> case = Case(fluid, Circle(0.01), Wetting(0.0), 0.05, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3))
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.models.boundary import PowerLawBoundary
+    >>> case = example_case(length=0.05)                        # water/air, 10 mm tube, 5 cm
     >>> chart = Chart.build(case, [PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")])
     >>> qg = np.geomspace(1e-6, 1e-4, 21)                       # Q_L = 1e-5; truth: a = 2 (Q_G = 2 Q_L)
     >>> pts = {"ql_m3_s": np.full(21, 1e-5), "qg_m3_s": qg, "platform": ["orbital station"] * 21,
@@ -921,13 +917,9 @@ def fit_empirical_boundary(chart, points, regimes, *, name: str | None = None,
 
     Examples
     --------
-    >>> from lowgmap.physics.case import Case, FlowRange
     >>> from lowgmap.physics.chart.composition import Chart
-    >>> from lowgmap.physics.properties.fluids import FluidPair
-    >>> from lowgmap.physics.geometry.sections import Circle
-    >>> from lowgmap.physics.properties.wetting import Wetting
-    >>> fluid = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
-    >>> case = Case(fluid, Circle(0.01), Wetting(0.0), 0.05, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3))
+    >>> from lowgmap.physics.examples import example_case
+    >>> case = example_case(length=0.05)                        # water/air, 10 mm tube, 5 cm
     >>> chart = Chart.build(case, [])
     >>> ql, qg = np.meshgrid(np.geomspace(1e-6, 1e-4, 5), np.geomspace(1e-6, 1e-3, 6))
     >>> lab = np.where(qg.ravel() < 0.3 * ql.ravel() ** 0.9, "wet", "dry")          # truth a = 0.3, b = 0.9

@@ -10,7 +10,7 @@ quantities (:class:`DesignConstraint`, e.g. a maximum length or volume) and one 
           m_{env} = \min_{(Q_L, Q_G) \in E} m_R(Q_L, Q_G; x)
 
 where :math:`m_R` is the signed symmetric margin in the wanted regime R
-(:func:`lowgmap.physics.studies.sweep.envelope_margin`: the largest growth of the envelope that stays in R; negative
+(:func:`lowgmap.physics.studies.envelope.envelope_margin`: the largest growth of the envelope that stays in R; negative
 when a boundary crosses the envelope).
 
 Method
@@ -50,7 +50,9 @@ from typing import Callable, Mapping
 import numpy as np
 import pandas as pd
 
-from lowgmap.physics.studies import sweep as _sw
+from lowgmap.physics.studies.design_space import FLUID_KEYS, check_flow_range, check_key, model_choices
+from lowgmap.physics.studies.envelope import envelope_margin
+from lowgmap.physics.studies.sweep import DesignEvaluator, SweepSpec
 from lowgmap.physics.validate import finite, positive
 
 __all__ = ["DesignVariable", "DesignConstraint", "DesignGoal", "Sensitivity", "DesignResult", "QUANTITIES",
@@ -87,12 +89,9 @@ def quantity_value(case, quantity: str) -> float:
 
     Examples
     --------
-    >>> from lowgmap.physics.case import Case, FlowRange
-    >>> from lowgmap.physics.properties.fluids import FluidPair
+    >>> from lowgmap.physics.examples import example_case
     >>> from lowgmap.physics.geometry.sections import Circle
-    >>> from lowgmap.physics.properties.wetting import Wetting
-    >>> f = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
-    >>> case = Case(f, Circle(0.02), Wetting(0.0), 2.0, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-2))
+    >>> case = example_case(Circle(0.02), length=2.0, flow_range=(1e-7, 1e-3, 1e-7, 1e-2))
     >>> round(quantity_value(case, "volume") * 1e6, 6)       # pi/4 * 0.02^2 * 2 m^3, in litres x 1000
     628.318531
     """
@@ -115,12 +114,9 @@ def nominal_design_value(case, name: str) -> float | None:
 
     Examples
     --------
-    >>> from lowgmap.physics.case import Case, FlowRange
-    >>> from lowgmap.physics.properties.fluids import FluidPair
+    >>> from lowgmap.physics.examples import example_case
     >>> from lowgmap.physics.geometry.sections import Circle
-    >>> from lowgmap.physics.properties.wetting import Wetting
-    >>> f = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
-    >>> case = Case(f, Circle(0.02), Wetting(0.0), 2.0, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-2))
+    >>> case = example_case(Circle(0.02), length=2.0, flow_range=(1e-7, 1e-3, 1e-7, 1e-2))
     >>> nominal_design_value(case, "length"), nominal_design_value(case, "size")
     (2.0, 0.02)
     """
@@ -143,7 +139,7 @@ def nominal_design_value(case, name: str) -> float | None:
     if name.startswith(("model.", "constant.")):
         from lowgmap.physics.models.boundary import resolve_model
 
-        choices = _sw._model_choices(case)
+        choices = model_choices(case)
         const = name.split(".")[-1]
         for c in choices:
             if name.startswith("model.") and c.name != name.split(".")[1]:
@@ -164,7 +160,7 @@ class DesignVariable:
 
     Parameters
     ----------
-    name : str     a sweep variable (:data:`lowgmap.physics.studies.sweep.VARIABLES`, ``section.<field>``,
+    name : str     a sweep variable (:data:`lowgmap.physics.studies.design_space.VARIABLES`, ``section.<field>``,
                    ``model.<name>.<constant>``, ``constant.<constant>``); fluid names are not
                    variables here (list fluids in :class:`DesignGoal` instead)
     low, high : float   bounds, low < high
@@ -263,7 +259,8 @@ class DesignGoal:
     required_margin : float    fraction, in [0, 1)
     constraints : tuple of DesignConstraint
     fluids : tuple of mapping  fluid options, each a change dict such as ``{"liquid": "water"}``
-                               (keys of :data:`lowgmap.physics.studies.sweep.FLUID_KEYS`); empty: the case's fluid
+                               (keys of :data:`lowgmap.physics.studies.design_space.FLUID_KEYS`);
+                               empty: the case's fluid
     starts : int               local searches (>= 1)
     screen : int               screening points (0: 16 per variable, at least 16)
     max_evaluations : int      model evaluations per local search
@@ -281,8 +278,8 @@ class DesignGoal:
     max_evaluations: int = 150
 
     def __post_init__(self):
-        object.__setattr__(self, "ql_range", _sw._range("ql_range", self.ql_range))
-        object.__setattr__(self, "qg_range", _sw._range("qg_range", self.qg_range))
+        object.__setattr__(self, "ql_range", check_flow_range("ql_range", self.ql_range))
+        object.__setattr__(self, "qg_range", check_flow_range("qg_range", self.qg_range))
         object.__setattr__(self, "variables", tuple(self.variables))
         object.__setattr__(self, "constraints", tuple(self.constraints))
         object.__setattr__(self, "fluids", tuple(dict(f) for f in self.fluids))
@@ -292,9 +289,9 @@ class DesignGoal:
         if len(set(names)) != len(names):
             raise ValueError(f"design variables repeat: {names}")
         for f in self.fluids:
-            bad = [k for k in f if k not in _sw.FLUID_KEYS]
+            bad = [k for k in f if k not in FLUID_KEYS]
             if bad or not f:
-                raise ValueError(f"a fluid option must set {', '.join(_sw.FLUID_KEYS)} only, got {f!r}")
+                raise ValueError(f"a fluid option must set {', '.join(FLUID_KEYS)} only, got {f!r}")
         m = finite("required_margin", self.required_margin)
         if not 0 <= m < 1:
             raise ValueError(f"required_margin must be within [0, 1), got {m:g}")
@@ -385,7 +382,7 @@ class _Problem:
     def __init__(self, base, goal: DesignGoal, fluid: Mapping, fluid_spec, method: str):
         self.goal = goal
         self.fluid = dict(fluid)
-        self.ev = _sw.DesignEvaluator(_sw.SweepSpec(base, envelope=(goal.ql_range, goal.qg_range), regime=goal.regime,
+        self.ev = DesignEvaluator(SweepSpec(base, envelope=(goal.ql_range, goal.qg_range), regime=goal.regime,
                                                     required_margin=goal.required_margin, fluid_spec=fluid_spec,
                                                     method=method))
         self.cache: dict = {}
@@ -464,8 +461,8 @@ def optimize_design(base, goal: DesignGoal, *, fluid_spec: Mapping | None = None
     ----------
     base : Case
     goal : DesignGoal
-    fluid_spec : mapping, optional   base fluid description (see :func:`lowgmap.physics.studies.sweep.apply_changes`),
-                                     needed for fluid options of a user-defined fluid
+    fluid_spec : mapping, optional   base fluid description, needed for fluid options of a user-defined
+                                     fluid (see :func:`lowgmap.physics.studies.design_space.apply_changes`)
     seed : int        seed of the Sobol screening (the result is reproducible)
     method : str      evaluation method of :func:`lowgmap.physics.studies.sweep.sweep` ("auto" or "full")
     progress : callable(done, planned), optional   called after the screening and each local search
@@ -493,10 +490,7 @@ def optimize_design(base, goal: DesignGoal, *, fluid_spec: Mapping | None = None
     (1 - m)/(1 + m) = 0.1/0.5:
 
     >>> from lowgmap.physics.models.boundary import ExplicitBoundary
-    >>> from lowgmap.physics.case import Case, FlowRange, ModelChoice
-    >>> from lowgmap.physics.properties.fluids import FluidPair
-    >>> from lowgmap.physics.geometry.sections import Circle
-    >>> from lowgmap.physics.properties.wetting import Wetting
+    >>> from lowgmap.physics.examples import example_case
     >>> class Ratio(ExplicitBoundary):
     ...     citation = "closed-form test line"
     ...     def __init__(self, name, c, below, above):
@@ -504,10 +498,8 @@ def optimize_design(base, goal: DesignGoal, *, fluid_spec: Mapping | None = None
     ...         self.regime_below, self.regime_above = below, above
     ...     def qg_of_ql(self, case, ql, **k):
     ...         return self.c * case.length * np.asarray(ql, dtype=float)
-    >>> f = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
-    >>> case = Case(f, Circle(0.01), Wetting(0.0), 0.5, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3),
-    ...             models=(ModelChoice("low"), ModelChoice("high")),
-    ...             extra=(("custom_boundaries", (Ratio("low", 0.1, "a", "b"), Ratio("high", 10.0, "b", "c"))),))
+    >>> lines = (Ratio("low", 0.1, "a", "b"), Ratio("high", 10.0, "b", "c"))
+    >>> case = example_case(length=0.5, models=("low", "high"), extra=(("custom_boundaries", lines),))
     >>> goal = DesignGoal((1e-5, 2e-5), (1e-5, 2e-5), (DesignVariable("length", 0.2, 5.0, "log"),),
     ...                   regime="b", starts=2)
     >>> res = optimize_design(case, goal)
@@ -519,7 +511,7 @@ def optimize_design(base, goal: DesignGoal, *, fluid_spec: Mapping | None = None
     if not isinstance(goal, DesignGoal):
         raise TypeError(f"goal must be a DesignGoal, got {type(goal).__name__}")
     for v in goal.variables:
-        _sw._check_key(v.name, base)
+        check_key(v.name, base)
     for c in goal.constraints:
         quantity_value(base, c.quantity)
     goal = _with_regime(base, goal)
@@ -542,7 +534,7 @@ def optimize_design(base, goal: DesignGoal, *, fluid_spec: Mapping | None = None
         if progress is not None:
             progress(done, planned)
         order = sorted(range(len(U)), key=lambda i: (not problem.feasible(rows[i]), -rows[i]["objective"]))
-        starts = []
+        starts: list[int] = []
         for i in order:
             if not problem.feasible(rows[i]) and starts:
                 break
@@ -602,7 +594,7 @@ def _report(base, goal, problem, u, row, evaluations, candidates) -> DesignResul
     limiting: tuple = ()
     try:
         chart = Chart.build(case)
-        env = _sw.envelope_margin(chart, goal.ql_range, goal.qg_range, regime or None)
+        env = envelope_margin(chart, goal.ql_range, goal.qg_range, regime or None)
         if env["inside"]:
             tol = _LIMIT_TOL * max(abs(env["margin"]), 1e-12)
             limiting = tuple(n for n, m in env["line_margins"].items() if m <= env["margin"] + tol)

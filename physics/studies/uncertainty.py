@@ -43,6 +43,7 @@ from typing import Callable, Mapping, Sequence
 
 import numpy as np
 
+from lowgmap.physics.chart import lines as _lines
 from lowgmap.physics.chart import margins as _mg
 from lowgmap.physics.validate import finite, non_negative
 
@@ -161,12 +162,8 @@ def nominal_value(case, target: str, point: tuple[float, float] | None = None) -
 
     Examples
     --------
-    >>> from lowgmap.physics.case import Case, FlowRange
-    >>> from lowgmap.physics.properties.fluids import FluidPair
-    >>> from lowgmap.physics.geometry.sections import Circle
-    >>> from lowgmap.physics.properties.wetting import Wetting
-    >>> f = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
-    >>> case = Case(f, Circle(0.01), Wetting(0.0), 1.0, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3))
+    >>> from lowgmap.physics.examples import example_case
+    >>> case = example_case()                   # water/air, 10 mm tube
     >>> nominal_value(case, "surface_tension"), nominal_value(case, "size")
     (0.0727, 0.01)
     """
@@ -214,12 +211,8 @@ def perturbed_case(case, values: Mapping[str, float]):
 
     Examples
     --------
-    >>> from lowgmap.physics.case import Case, FlowRange
-    >>> from lowgmap.physics.properties.fluids import FluidPair
-    >>> from lowgmap.physics.geometry.sections import Circle
-    >>> from lowgmap.physics.properties.wetting import Wetting
-    >>> f = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
-    >>> case = Case(f, Circle(0.01), Wetting(0.0), 1.0, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3))
+    >>> from lowgmap.physics.examples import example_case
+    >>> case = example_case()                   # water/air, 10 mm tube
     >>> c2 = perturbed_case(case, {"size": 0.011, "surface_tension": 0.07})
     >>> round(c2.section.diameter, 9), c2.fluid.sigma
     (0.011, 0.07)
@@ -364,14 +357,9 @@ def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, i
     Examples
     --------
     >>> from lowgmap.physics.models.boundary import PowerLawBoundary
-    >>> from lowgmap.physics.case import Case, FlowRange, OperatingPoint
     >>> from lowgmap.physics.chart.composition import Chart
-    >>> from lowgmap.physics.properties.fluids import FluidPair
-    >>> from lowgmap.physics.geometry.sections import Circle
-    >>> from lowgmap.physics.properties.wetting import Wetting
-    >>> f = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
-    >>> case = Case(f, Circle(0.01), Wetting(0.0), 1.0, 1e-5, FlowRange(1e-7, 1e-3, 1e-7, 1e-3),
-    ...             OperatingPoint(1e-5, 0.5e-5))
+    >>> from lowgmap.physics.examples import example_case
+    >>> case = example_case(point=(1e-5, 0.5e-5))
     >>> chart = Chart.build(case, [PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")])
     >>> res = monte_carlo(case, [Uncertainty("gas_flow", "normal", 0.0, True)], n=100, chart=chart)
     >>> res.probability, res.std_error, round(res.nominal_margin, 6)
@@ -393,7 +381,7 @@ def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, i
         if op is None:
             raise ValueError("monte_carlo needs an operating point: the case has none and no point was given")
         point = (op.ql, op.qg)
-    ql0, qg0 = _mg._check_point(*point)
+    ql0, qg0 = _mg.check_point(*point)
     if not chart.regime_names:
         raise ValueError("the chart has no regimes: there is nothing to stay in (no boundary model applies)")
     if intended_regime is None:
@@ -462,12 +450,12 @@ def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, i
                 light = _light_chart(chart, case_b)
                 reg = np.asarray(light.classify(ql[sl], qg[sl]))
                 regimes[sl] = reg
-                m[sl], _ = _mg._draw_margins(light, case_b, np.log10(ql[sl]), np.log10(qg[sl]),
-                                             _mg._index_of(names, reg), pending, sl, tol=_MC_TOL,
+                m[sl], _ = _mg.uncached_regime_margins(light, case_b, np.log10(ql[sl]), np.log10(qg[sl]),
+                                             _lines.regime_indices(names, reg), pending, sl, tol=_MC_TOL,
                                              wall_dx=_MC_WALL_DX, n_start=_MC_N_START)
             if progress is not None and ((b + 1) % every == 0 or b + 1 == k):
                 progress(int(starts[b + 1]), n)
-        _mg._resolve_pending(pending, m)
+        _mg.resolve_deferred(pending, m)
 
     ok = valid & np.isfinite(m)
     inside = regimes == intended_regime

@@ -1,0 +1,92 @@
+"""`lowgmap compare`: test points against the chart.
+
+Validity of each point (Bond number, low-g time), confusion matrix, agreement and the disagreeing
+points by boundary, all from :func:`lowgmap.physics.studies.agreement.agreement` on the chart built by
+:meth:`lowgmap.physics.chart.composition.Chart.build`, as in the dashboard's test-point panel.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+from lowgmap.app import CAUTION
+from lowgmap.app.cli.common import clean, emit, load_case_file
+from lowgmap.app.cli.points import add_point_arguments, criteria_from_args, load_points, parse_regime_map
+from lowgmap.app.outputs.formatting import format_share
+
+__all__ = ["add_arguments", "run", "compare_report", "format_compare"]
+
+
+def add_arguments(parser) -> None:
+    add_point_arguments(parser)
+
+
+def run(args) -> int:
+    from lowgmap.physics.chart.composition import Chart
+    from lowgmap.physics.studies.agreement import agreement
+
+    doc = load_case_file(args.case)
+    tps = load_points(args.points, doc)
+    chart = Chart.build(doc.case)
+    res = agreement(chart, tps, regime_map=parse_regime_map(args.map), criteria=criteria_from_args(args))
+    emit(args, compare_report(doc, tps, res, args.points), format_compare(doc, tps, res, args.points))
+    return 0
+
+
+def compare_report(doc, tps, res, points_path: str = "") -> dict:
+    """JSON-ready report of :func:`lowgmap.physics.studies.agreement.agreement`, with the file and the case named."""
+    d = res.to_dict()
+    d.update({"case": str(doc.path) if doc.path else "", "title": doc.case.title, "revision": doc.case.revision,
+              "points_file": str(points_path), "rows_set_aside": tps.rejected_rows,
+              "read_problems": [str(p) for p in tps.problems]})
+    return clean(d)
+
+
+def format_compare(doc, tps, res, points_path) -> str:
+    """The comparison as text for a person: per-point table, confusion matrices, disagreeing points."""
+    st = doc.settings
+    ul, ug = st.liquid_flow_unit, st.gas_flow_unit
+    from lowgmap.app.files.units import convert
+
+    c = res.criteria
+    lines = [f"{doc.case.title} (revision {doc.case.revision}): {res.n_points} test point(s) from "
+             f"{Path(points_path).name}" + (f"; {len(tps.rejected_rows)} row(s) set aside" if tps.rejected_rows
+                                            else "")]
+    lines.append(f"Validity: {res.n_valid} of {res.n_points} valid. Checks: Bond number < {c.bond_max:g} on "
+                 f"L = {res.length_scale * 1e3:.4g} mm (Brauner 1990); low-g time >= {c.safety_factor:g} x required "
+                 f"time (capillary settling x {c.capillary_multiple:g} + transit over {res.observation_length:.4g} m; "
+                 f"factors: common practice, no source)")
+    head = (f"  {'test id':<10} {'Q_L [' + ul + ']':>13} {'Q_G [' + ug + ']':>13} {'Bo':>9} {'needs [s]':>10} "
+            f"{'has [s]':>9}  valid  observed -> chart")
+    lines.append(head)
+    for p in res.points:
+        mark = "" if p.agrees is None else ("  ok" if p.agrees else "  DIFFERS")
+        obs = p.observed or "(none)"
+        lines.append(f"  {p.test_id:<10} {convert(p.ql, 'flow', ul):13.4g} {convert(p.qg, 'flow', ug):13.4g} "
+                     f"{p.bond:9.3g} {c.safety_factor * p.t_required:10.3g} {p.duration:9.3g}  "
+                     f"{'yes' if p.valid else 'no ':<5}  {obs} -> {p.predicted}{mark}")
+    invalid = [p for p in res.points if not p.valid]
+    if invalid:
+        lines.append("Why points are not valid:")
+        for p in invalid:
+            for r in p.reasons:
+                lines.append(f"  {p.test_id}: {r}")
+    lines.append(f"Agreement with the chart: {format_share(res.fraction_valid)} of {res.confusion_valid.compared} "
+                 f"valid point(s); {format_share(res.fraction_all)} of {res.confusion_all.compared} point(s) in all")
+    lines.append("Confusion matrix, valid points (rows observed, columns chart):")
+    lines += ["  " + ln for ln in res.confusion_valid.format().splitlines()]
+    lines.append("Confusion matrix, all points:")
+    lines += ["  " + ln for ln in res.confusion_all.format().splitlines()]
+    if res.unknown_labels:
+        lines.append("Observed labels that are not chart regimes (map them with --map \"LABEL=REGIME\"): "
+                     + ", ".join(f"{k!r} ({n})" for k, n in res.unknown_labels)
+                     + f". Chart regimes: {'; '.join(res.regimes)}")
+    if res.by_boundary:
+        lines.append("Disagreeing points by boundary (log distance to the line in decades):")
+        for b in res.by_boundary:
+            lines.append(f"  {b.label}:")
+            for q in b.points:
+                how = "" if q.crossing_explains else " (crossing this line alone does not give the observed regime)"
+                lines.append(f"    {q.test_id:<10} observed {q.observed}, chart {q.predicted}; "
+                             f"{q.log_distance:.3g} decade{'' if q.valid else '; point not valid'}{how}")
+    lines += ["", CAUTION]
+    return "\n".join(lines)

@@ -1,0 +1,135 @@
+"""Margin maps of design sweeps and the chart of a best design (matplotlib, headless).
+
+:func:`margin_map_figure` draws the symmetric (or worst-case envelope) margin of every design of a
+sweep over one or two design variables; :func:`margin_map_png` gives it as PNG bytes (the dashboard's
+design tab, ``lowgmap sweep --plot``). :func:`design_chart_bytes` draws the regime chart of the
+best design of an inverse design with the operating envelope marked (``lowgmap design --plot``).
+Values arrive in SI and are shown in the units of the study file
+(:func:`lowgmap.app.files.studyfiles.to_display`).
+"""
+from __future__ import annotations
+
+import io
+import math
+from dataclasses import replace
+
+import numpy as np
+
+from lowgmap.app.files.studyfiles import to_display
+
+__all__ = ["margin_map_figure", "margin_map_png", "design_chart_bytes"]
+
+
+def margin_map_figure(df, xvar: str, yvar: str | None, *, column: str = "margin", required: float | None = None,
+                      kinds=None, units=None, log=(False, False), title: str = "", base=None):
+    """Margin map over two design variables (filled contours, required-margin and zero lines).
+
+    With ``yvar`` None a margin-versus-variable plot. Designs without a margin are hatched grey.
+    Returns a matplotlib Figure (not attached to pyplot).
+    """
+    from matplotlib.figure import Figure
+
+    kinds = kinds or {}
+    units = units or {}
+
+    def disp(name, v):
+        k = kinds.get(name, "dimensionless")
+        u = units.get(name, "")
+        return np.asarray(to_display(np.asarray(v, dtype=float), k, u), dtype=float) if k != "name" else v
+
+    def label(name):
+        u = units.get(name, "")
+        return f"{name.replace('_', ' ')}" + (f" [{u}]" if u and u != "-" else "")
+
+    fig = Figure(figsize=(7.5, 5.6), layout="constrained")
+    ax = fig.add_subplot()
+    what = "worst-case margin over the envelope" if column == "envelope_margin" else "symmetric margin"
+    if yvar is None:
+        x = disp(xvar, df[xvar].to_numpy())
+        m = df[column].to_numpy(dtype=float)
+        order = np.argsort(x)
+        ax.plot(x[order], 100 * m[order], "-o", color="#0072B2", label=what)
+        if required is not None:
+            ax.axhline(100 * required, color="black", linewidth=1.6, label=f"required ±{100 * required:.0f} %")
+        ax.axhline(0.0, color="#444444", linewidth=1.0, linestyle="--", label="regime boundary reached")
+        ax.set_xlabel(label(xvar))
+        ax.set_ylabel(f"{what} [%]")
+        if log[0]:
+            ax.set_xscale("log")
+        ax.legend(fontsize=8, loc="best")
+    else:
+        xs = np.unique(df[xvar].to_numpy(dtype=float))
+        ys = np.unique(df[yvar].to_numpy(dtype=float))
+        M = np.full((ys.size, xs.size), np.nan)
+        ix = np.searchsorted(xs, df[xvar].to_numpy(dtype=float))
+        iy = np.searchsorted(ys, df[yvar].to_numpy(dtype=float))
+        M[iy, ix] = df[column].to_numpy(dtype=float)
+        X, Y = np.meshgrid(disp(xvar, xs), disp(yvar, ys))
+        P = 100 * M
+        finite = np.isfinite(P)
+        lim = max(1.0, float(np.nanmax(np.abs(P)))) if finite.any() else 100.0
+        lim = 10.0 * math.ceil(lim / 10.0)
+        levels = np.linspace(-lim, lim, 21)
+        if finite.sum() >= 4 and xs.size >= 2 and ys.size >= 2:
+            cs = ax.contourf(X, Y, np.where(finite, P, np.nan), levels=levels, cmap="RdBu", extend="both")
+            cb = fig.colorbar(cs, ax=ax)
+            cb.set_label(f"{what} [%] (negative: outside the wanted regime)")
+            if required is not None and np.nanmin(P) < 100 * required < np.nanmax(P):
+                c1 = ax.contour(X, Y, P, levels=[100 * required], colors="black", linewidths=2.0)
+                ax.clabel(c1, fmt=lambda _v: f"required ±{100 * required:.0f} %", fontsize=8)
+            if np.nanmin(P) < 0 < np.nanmax(P):
+                c0 = ax.contour(X, Y, P, levels=[0.0], colors="#444444", linewidths=1.2, linestyles="dashed")
+                ax.clabel(c0, fmt=lambda _v: "0 (boundary)", fontsize=8)
+        ax.scatter(X[finite], Y[finite], s=6, color="#222222", zorder=3)
+        if (~finite).any():
+            ax.scatter(X[~finite], Y[~finite], s=40, marker="x", color="#888888", zorder=3,
+                       label="no margin (design invalid)")
+            ax.legend(fontsize=8, loc="best")
+        if base is not None:
+            bx, by = base
+            if bx is not None and by is not None:
+                ax.scatter(disp(xvar, [bx]), disp(yvar, [by]), marker="*", s=200, color="#D55E00",
+                           edgecolor="black", zorder=4)
+        ax.set_xlabel(label(xvar))
+        ax.set_ylabel(label(yvar))
+        if log[0]:
+            ax.set_xscale("log")
+        if log[1]:
+            ax.set_yscale("log")
+    ax.set_title(title or f"{what} by design", fontsize=11, loc="left")
+    return fig
+
+
+def margin_map_png(df, xvar, yvar, **kwargs) -> bytes:
+    """:func:`margin_map_figure` as PNG bytes."""
+    fig = margin_map_figure(df, xvar, yvar, **kwargs)
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=110, metadata={"Software": "lowgmap"})
+    return buf.getvalue()
+
+
+def design_chart_bytes(doc, result, goal, fmt: str = "png") -> bytes:
+    """The best design's regime chart with the envelope's corners marked (PNG/SVG/PDF bytes)."""
+    from lowgmap.physics.chart.composition import Chart
+
+    from lowgmap.app.outputs.chartview import chart_view
+    from lowgmap.app.outputs.render import render_chart
+    from lowgmap.app.outputs.report import case_rows, format_flow
+
+    st = doc.settings
+    best_doc = replace(doc, case=result.case)
+    chart = Chart.build(result.case)
+    view = chart_view(chart, axes="flow", log_axes=st.log_axes, ql_unit=st.liquid_flow_unit, qg_unit=st.gas_flow_unit)
+    (a, b), (c, d) = goal.ql_range, goal.qg_range
+    xs, ys = view.to_display(np.array([a, b, b, a]), np.array([c, c, d, d]))
+    marks = [{"x": float(x), "y": float(y), "marker": "s", "colour": "#F0E442", "edge": "#000000", "size": 46}
+             for x, y in zip(np.asarray(xs), np.asarray(ys))]
+    rows = case_rows(best_doc, chart)
+    rows.append(("envelope", f"Q_L {format_flow(a, st.liquid_flow_unit)} to {format_flow(b, st.liquid_flow_unit)}, "
+                             f"Q_G {format_flow(c, st.gas_flow_unit)} to {format_flow(d, st.gas_flow_unit)} "
+                             f"(yellow squares)"))
+    rows.append(("worst-case margin", f"±{100 * result.margin:.1f} % in {result.regime}"
+                                      + (f", limited by {', '.join(result.limiting)}" if result.limiting else "")
+                                      + f"; required ±{100 * result.required_margin:.0f} %"))
+    return render_chart(view, None, fmt=fmt, title=f"{doc.case.title}: best design", title_block=rows,
+                        extra_points=marks)

@@ -1,0 +1,479 @@
+r"""Lines of a chart in the log plane: sampled polylines, their chords, coverage and the geometry cache.
+
+The margins (:mod:`lowgmap.physics.chart.margins`) and the studies built on them measure distances
+from operating points to the boundary lines of a chart in the plane (log10 Q_L, log10 Q_G). This
+module turns each line into a polyline there, once per chart, and keeps the chords with what they
+separate (:class:`LineGeometry`):
+
+* a line with its own parametric pieces (``line_pieces``) is sampled piece by piece, chords
+  refined until they lie within ``tol`` of the line (distance from the chord segment);
+* a line given only by ``qg_of_ql`` is sampled column by column in log10 Q_L. Where ``qg_of_ql``
+  has no value the whole column lies on one side of the line (the sign of ``implicit`` decides:
+  +inf above, -inf below); a change of side between columns is located to ``wall_dx`` by bisection
+  and drawn as a vertical piece;
+* under a scheme other than the sequence rule the region lines are split where they cross, and
+  every chord is probed on both sides (which regimes it separates).
+
+Both samplings use the one adaptive sampler of :mod:`lowgmap.physics.chart.sampling`. The lines must
+cover the chart range and the margin window of every point, :data:`WINDOW_LO` .. :data:`WINDOW_HI`
+decades around it (the box of half-size :data:`MAX_MARGIN`): :func:`coverage`. :func:`geometry_of`
+keeps one geometry per chart (weakly, it dies with the chart), rebuilt wider when a point needs it.
+
+Examples
+--------
+>>> from lowgmap.physics.examples import example_case
+>>> from lowgmap.physics.chart.composition import Chart
+>>> from lowgmap.physics.models.boundary import PowerLawBoundary
+>>> chart = Chart.build(example_case(), [PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")])
+>>> holder, g = geometry_of(chart, [-5.0], [-5.0])
+>>> g.n_lines, bool(np.allclose(g.ya, g.xa)), bool(np.allclose(g.yb, g.xb))     # Q_G = Q_L: y = x
+(1, True, True)
+"""
+from __future__ import annotations
+
+import math
+import threading
+import weakref
+from dataclasses import dataclass
+from typing import Mapping
+
+import numpy as np
+
+from lowgmap.physics.chart.sampling import finite_runs, sample_line
+
+__all__ = ["MAX_MARGIN", "LN10", "WINDOW_LO", "WINDOW_HI", "GEOMETRY_CACHE", "column_function", "piece_function",
+           "line_runs", "is_chain", "bounding_lines", "LineGeometry", "make_geometry", "coverage", "ChartGeometry",
+           "geometry_of", "regime_indices"]
+
+#: Largest symmetric margin reported; a point with this margin has no boundary within ±99.9 %.
+MAX_MARGIN = 0.999
+
+#: ln 10, to turn decades into natural logs of flow ratios.
+LN10 = math.log(10.0)
+#: Margin window below a point [decade]: log10(1 - MAX_MARGIN).
+WINDOW_LO = math.log10(1.0 - MAX_MARGIN)
+#: Margin window above a point [decade]: log10(1 + MAX_MARGIN).
+WINDOW_HI = math.log10(1.0 + MAX_MARGIN)
+
+_N_START = 65                                 # initial samples of a line
+_TOL = 1e-7                                   # chord tolerance [decade]
+_WALL_DX = 1e-11                              # width at which a vertical piece is located [decade]
+_MIN_DX = 1e-9                                # narrowest cell refined for curvature [decade]
+_DEPTH = 60                                   # refinement passes
+_MAX_SAMPLES = 20000                          # cap on samples per line piece
+_FAR = 8.0                                    # decades beyond the coverage where open columns are closed
+_PROBE = 1e-6                                 # side-probe distance from a chord [decade]
+
+
+# =============================================================================================
+# Sampling one line in log-log axes
+
+def column_function(case, model, consts: Mapping[str, float], y_ref: float):
+    """The line as ``x = log10 Q_L (array) -> log10 Q_G`` from ``qg_of_ql``, +-inf in columns without a line.
+
+    Parameters
+    ----------
+    case : Case
+    model : BoundaryModel
+    consts : mapping   the model's constants
+    y_ref : float      log10 Q_G [decade] at which ``implicit`` decides the side of a column
+                       without a line: +inf when the column lies below the line there, else -inf
+
+    Returns
+    -------
+    callable
+    """
+    q_ref = 10.0 ** y_ref
+
+    def f(x):
+        x = np.asarray(x, dtype=float)
+        ql = 10.0 ** x
+        with np.errstate(all="ignore"):
+            q = np.broadcast_to(np.asarray(model.qg_of_ql(case, ql, **consts), dtype=float), x.shape)
+            ok = np.isfinite(q) & (q > 0)
+            y = np.where(ok, np.log10(np.where(ok, q, 1.0)), np.nan)
+        bad = ~ok
+        if bad.any():
+            with np.errstate(all="ignore"):
+                g = np.asarray(model.implicit(case, ql[bad], np.full(int(bad.sum()), q_ref), **consts), dtype=float)
+            y[bad] = np.where(g < 0, np.inf, -np.inf)
+        return y
+
+    return f
+
+
+def _column_trace(f, x_lo: float, x_hi: float, breakpoints=(), tol: float = _TOL, wall_dx: float = _WALL_DX,
+                  n_start: int = _N_START):
+    """Samples (x, y) of y = f(x) on [x_lo, x_hi], y = +-inf in columns without a line.
+
+    Refined until chords are within ``tol``; a change of side between columns is located to
+    ``wall_dx`` and made vertical (two samples at the same x).
+    """
+    x, (y,) = sample_line(lambda t: (f(t),), x_lo, x_hi, tol=tol, n_start=n_start, breakpoints=breakpoints,
+                          min_step=_MIN_DX, jump_step=wall_dx, max_passes=_DEPTH, max_points=_MAX_SAMPLES)
+    y = np.array(y)
+    c = np.where(np.isfinite(y), 0, np.sign(y))
+    change = np.nonzero(c[:-1] != c[1:])[0]
+    if change.size:
+        mid = 0.5 * (x[change] + x[change + 1])
+        x = x.copy()
+        x[change] = mid
+        x[change + 1] = mid
+    return x, y
+
+
+def piece_function(piece):
+    """The piece as ``t -> (log10 Q_L, log10 Q_G)`` [decade], NaN where it has no point.
+
+    Parameters
+    ----------
+    piece : LinePiece   (:class:`lowgmap.physics.models.regimes.LinePiece`)
+
+    Returns
+    -------
+    callable   vectorised over an array of parameter values
+
+    Examples
+    --------
+    >>> from lowgmap.physics.models.regimes import LinePiece
+    >>> f = piece_function(LinePiece(-6.0, -4.0, lambda t: (10.0 ** t, 2.0 * 10.0 ** t)))
+    >>> x, y = f([-5.0])
+    >>> float(x[0]), round(float(y[0] - x[0]), 6)           # log10 2
+    (-5.0, 0.30103)
+    """
+    def f(t):
+        t = np.atleast_1d(np.asarray(t, dtype=float))
+        with np.errstate(all="ignore"):
+            ql, qg = piece.func(t)
+            ql = np.broadcast_to(np.asarray(ql, dtype=float), t.shape)
+            qg = np.broadcast_to(np.asarray(qg, dtype=float), t.shape)
+            ok = np.isfinite(ql) & np.isfinite(qg) & (ql > 0) & (qg > 0)
+            x = np.where(ok, np.log10(np.where(ok, ql, 1.0)), np.nan)
+            y = np.where(ok, np.log10(np.where(ok, qg, 1.0)), np.nan)
+        return x, y
+    return f
+
+
+def _piece_runs(piece, cov, tol: float = _TOL, n_start: int = _N_START):
+    """Polylines (x, y) of a parametric piece, refined to ``tol``; NaN gaps split runs.
+
+    Chords more than a decade beyond one edge of the coverage ``cov`` are not refined.
+    """
+    t0, t1 = float(piece.t0), float(piece.t1)
+    if not (math.isfinite(t0) and math.isfinite(t1) and t1 > t0):
+        return []
+    X0, X1, Y0, Y1 = cov
+    t, (x, y) = sample_line(piece_function(piece), t0, t1, tol=tol, n_start=n_start,
+                            breakpoints=getattr(piece, "breakpoints", ()) or (), deviation="segment",
+                            min_step=1e-12 * (t1 - t0), window=((X0 - 1, X1 + 1), (Y0 - 1, Y1 + 1)),
+                            max_passes=_DEPTH, max_points=_MAX_SAMPLES)
+    return [xy for _, xy in finite_runs(t, (x, y))]
+
+
+def _y_ref(case) -> float:
+    fr = case.flow_range
+    return 0.5 * (math.log10(fr.qg_min) + math.log10(fr.qg_max))
+
+
+def _widened(case, cov):
+    """The case with its chart range widened to the coverage (the physics is unchanged)."""
+    from lowgmap.physics.case import FlowRange
+
+    X0, X1, Y0, Y1 = cov
+    return case.with_(flow_range=FlowRange(10.0 ** X0, 10.0 ** X1, 10.0 ** Y0, 10.0 ** Y1))
+
+
+def line_runs(case, model, consts, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_N_START, wide=None):
+    """Polylines ``[(x, y), ...]`` of one line over the coverage box ``cov`` = (x0, x1, y0, y1) [decade].
+
+    From the model's ``line_pieces`` (asked for the case widened to ``cov``, or ``wide``) when it
+    has them, else one column trace of ``qg_of_ql`` whose columns without a line lie 8 decades
+    beyond the coverage. ``tol`` [decade] chord tolerance, ``wall_dx`` [decade] width at which a
+    vertical piece is located, ``n_start`` initial samples.
+    """
+    wide = wide if wide is not None else _widened(case, cov)
+    own = getattr(model, "line_pieces", None)
+    if callable(own):
+        runs = []
+        for piece in own(wide, **consts):
+            runs += _piece_runs(piece, cov, tol, n_start)
+        return runs
+    bp = np.asarray(model.breakpoints(wide, **consts), dtype=float)
+    bp = np.log10(bp[bp > 0]) if bp.size else bp
+    x, y = _column_trace(column_function(wide, model, consts, _y_ref(case)), cov[0], cov[1], bp, tol, wall_dx,
+                         n_start)
+    return [(x, np.clip(y, cov[2] - _FAR, cov[3] + _FAR))]
+
+
+# =============================================================================================
+# Geometry: the segments of every line, with what they separate
+
+def is_chain(chart) -> bool:
+    """True when the chart's regimes follow the sequence rule (no scheme, or a scheme of kind "chain")."""
+    scheme = getattr(chart, "scheme", None)
+    return scheme is None or getattr(scheme, "kind", "chain") == "chain"
+
+
+def bounding_lines(chart, regime: str) -> tuple[int, ...]:
+    """Indices into ``chart.region_models`` of the lines whose crossing can change ``regime``.
+
+    From ``chart.bounding_models`` when the chart has it, else by the sequence rule (lines 0..i for
+    the regime i); empty for a regime the chart does not have.
+    """
+    f = getattr(chart, "bounding_models", None)
+    if callable(f):
+        return tuple(int(i) for i in f(regime))
+    names = list(chart.regime_names)
+    if regime not in names:
+        return ()
+    return tuple(range(min(names.index(regime) + 1, len(chart.region_models))))
+
+
+def _insert_points(x, y, px, py):
+    """Insert points lying on the polyline (x, y) as vertices (in order along it)."""
+    if px.size == 0 or x.size < 2:
+        return x, y
+    ax, ay, dx, dy = x[:-1], y[:-1], np.diff(x), np.diff(y)
+    L2 = dx * dx + dy * dy
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w = np.clip(((px[:, None] - ax) * dx + (py[:, None] - ay) * dy) / np.where(L2 > 0, L2, 1.0), 0.0, 1.0)
+    d2 = (ax + w * dx - px[:, None]) ** 2 + (ay + w * dy - py[:, None]) ** 2
+    k = np.argmin(d2, axis=1)
+    rows = np.arange(px.size)
+    wk = w[rows, k]
+    keep = (d2[rows, k] < 1e-14) & (wk > 1e-9) & (wk < 1 - 1e-9)
+    if not keep.any():
+        return x, y
+    pos = np.concatenate([np.arange(x.size, dtype=float), k[keep] + wk[keep]])
+    order = np.argsort(pos, kind="stable")
+    return np.concatenate([x, px[keep]])[order], np.concatenate([y, py[keep]])[order]
+
+
+def _split_at_crossings(lines_runs):
+    """Insert the crossings of every pair of lines into both (so that each chord has one pair of sides)."""
+    from shapely.geometry import MultiLineString
+
+    geoms = []
+    for runs in lines_runs:
+        parts = [np.column_stack(r) for r in runs if len(r[0]) >= 2]
+        geoms.append(MultiLineString(parts) if parts else None)
+    pts: list[list] = [[] for _ in lines_runs]
+    for i in range(len(geoms)):
+        for j in range(i + 1, len(geoms)):
+            if geoms[i] is None or geoms[j] is None or not geoms[i].intersects(geoms[j]):
+                continue
+            hit = geoms[i].intersection(geoms[j])
+            coords = []
+            for g in getattr(hit, "geoms", [hit]):
+                if g.is_empty:
+                    continue
+                if g.geom_type == "Point":
+                    coords.append((g.x, g.y))
+                else:                                   # overlap: its ends
+                    for h in getattr(g, "geoms", [g]):
+                        b = h.boundary
+                        coords += [(p.x, p.y) for p in getattr(b, "geoms", [b]) if not p.is_empty]
+            pts[i] += coords
+            pts[j] += coords
+    out = []
+    for runs, p in zip(lines_runs, pts):
+        if not p:
+            out.append(runs)
+            continue
+        P = np.array(p, dtype=float)
+        out.append([_insert_points(x, y, P[:, 0], P[:, 1]) for x, y in runs])
+    return out
+
+
+@dataclass(frozen=True, eq=False)
+class LineGeometry:
+    """Chords of every line in (log10 Q_L, log10 Q_G) [decade] and what they separate.
+
+    ``xa, ya, xb, yb``: chord ends; ``line``: index of the line (region lines first, grouped by
+    line); ``usable``: the chord is part of the boundary as drawn; ``left``/``right``: regime
+    indices on the two sides (-2: not probed, -1: no regime); ``n_lines``, ``n_region``: number of
+    lines and of region lines; ``chain``: sequence rule; ``bounding``: regime index -> region lines
+    that can change it; ``cov``: the box the lines cover [decade].
+    """
+
+    xa: np.ndarray
+    ya: np.ndarray
+    xb: np.ndarray
+    yb: np.ndarray
+    line: np.ndarray
+    usable: np.ndarray
+    left: np.ndarray
+    right: np.ndarray
+    n_lines: int
+    n_region: int
+    chain: bool
+    bounding: dict
+    cov: tuple
+
+    def __post_init__(self):
+        counts = np.bincount(self.line, minlength=self.n_lines) if self.line.size else np.zeros(self.n_lines, int)
+        starts = np.concatenate([[0], np.cumsum(counts)[:-1]]).astype(np.intp)
+        object.__setattr__(self, "_nonempty", np.nonzero(counts > 0)[0])
+        object.__setattr__(self, "_starts", starts[counts > 0])
+        object.__setattr__(self, "_adjacent", {})
+
+    def adjacent(self, r: int) -> np.ndarray:
+        """Chords that bound the regime of index ``r`` (read-only, cached)."""
+        got = self._adjacent.get(r)
+        if got is None:
+            lines = self.bounding.get(r, ())
+            got = self.usable & np.isin(self.line, np.asarray(lines, dtype=np.intp))
+            if not self.chain:
+                got &= (self.left == r) | (self.right == r)
+            got.flags.writeable = False
+            self._adjacent[r] = got
+        return got
+
+    def line_min(self, values):
+        """(minimum, index of the minimum) of per-chord ``values`` for each line (inf, -1 if none)."""
+        best = np.full(self.n_lines, np.inf)
+        arg = np.full(self.n_lines, -1, dtype=np.intp)
+        if values.size:
+            best[self._nonempty] = np.minimum.reduceat(values, self._starts)
+            hit = np.flatnonzero(values == best[self.line])
+            lines, first = np.unique(self.line[hit], return_index=True)
+            arg[lines] = hit[first]
+            arg[~np.isfinite(best)] = -1
+        return best, arg
+
+
+def make_geometry(chart, case, lines, n_region, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_N_START,
+                   only=None) -> LineGeometry:
+    """Sample ``lines`` [(model, consts dict)] of ``chart`` over ``cov`` into a :class:`LineGeometry`.
+
+    ``case``: the case whose physics the lines follow (the chart's, or a perturbed one);
+    ``n_region``: how many of ``lines`` (the first) are region lines, probed on both sides with
+    ``chart.classify`` under a scheme other than the sequence rule; ``cov`` = (x0, x1, y0, y1)
+    [decade]; ``tol``, ``wall_dx``, ``n_start``: sampling (see :func:`line_runs`); ``only``: indices
+    of the lines to sample (others are left empty).
+    """
+    wide = _widened(case, cov)
+    runs_all = []
+    for k, (model, consts) in enumerate(lines):
+        if only is not None and k not in only:
+            runs_all.append([])
+            continue
+        runs_all.append(line_runs(case, model, consts, cov, tol=tol, wall_dx=wall_dx, n_start=n_start, wide=wide))
+    chain = is_chain(chart)
+    if not chain and n_region > 1:
+        runs_all[:n_region] = _split_at_crossings(runs_all[:n_region])
+    parts = {k: [] for k in ("xa", "ya", "xb", "yb", "line")}
+    for k, runs in enumerate(runs_all):
+        for x, y in runs:
+            if x.size < 2:
+                continue
+            keep = (np.diff(x) != 0) | (np.diff(y) != 0)
+            parts["xa"].append(x[:-1][keep])
+            parts["ya"].append(y[:-1][keep])
+            parts["xb"].append(x[1:][keep])
+            parts["yb"].append(y[1:][keep])
+            parts["line"].append(np.full(int(keep.sum()), k, dtype=np.intp))
+    arr = {k: (np.concatenate(v) if v else np.empty(0)) for k, v in parts.items()}
+    line = arr.pop("line").astype(np.intp)
+    s = line.size
+    left = np.full(s, -2, dtype=np.intp)
+    right = np.full(s, -2, dtype=np.intp)
+    usable = np.ones(s, dtype=bool)
+    names = list(chart.regime_names)
+    if not chain:
+        reg = line < n_region
+        if reg.any():
+            xa, ya, xb, yb = (arr[k][reg] for k in ("xa", "ya", "xb", "yb"))
+            mx, my = 0.5 * (xa + xb), 0.5 * (ya + yb)
+            dx, dy = xb - xa, yb - ya
+            nrm = np.hypot(dx, dy)
+            nx, ny = -dy / nrm, dx / nrm
+            px = np.concatenate([mx + _PROBE * nx, mx - _PROBE * nx])
+            py = np.concatenate([my + _PROBE * ny, my - _PROBE * ny])
+            sides = regime_indices(names, np.asarray(chart.classify(10.0 ** px, 10.0 ** py)))
+            half = reg.sum()
+            left[reg], right[reg] = sides[:half], sides[half:]
+            usable[reg] = left[reg] != right[reg]
+    bounding = {r: bounding_lines(chart, name) for r, name in enumerate(names)}
+    return LineGeometry(arr["xa"], arr["ya"], arr["xb"], arr["yb"], line, usable, left, right, len(lines),
+                        n_region, chain, bounding, tuple(cov))
+
+
+def _chart_lines(chart):
+    """(model, consts dict, role) of every line, region lines first."""
+    return ([(m, dict(c), "regions") for m, c in chart.region_models]
+            + [(m, dict(c), "comparison") for m, c in chart.comparison_models])
+
+
+def coverage(chart, x_points=(), y_points=()) -> tuple[float, float, float, float]:
+    """Box the lines must cover: the chart range and the margin windows of every point [decades]."""
+    fr = chart.case.flow_range
+    xs = [math.log10(fr.ql_min), math.log10(fr.ql_max)] + [float(v) for v in np.ravel(x_points)]
+    ys = [math.log10(fr.qg_min), math.log10(fr.qg_max)] + [float(v) for v in np.ravel(y_points)]
+    return (min(xs) + WINDOW_LO - 1e-9, max(xs) + WINDOW_HI + 1e-9,
+            min(ys) + WINDOW_LO - 1e-9, max(ys) + WINDOW_HI + 1e-9)
+
+
+class ChartGeometry:
+    """The geometry of one chart, kept while the chart lives (rebuilt wider when a point needs it).
+
+    ``lines``: (model, consts dict, role) of every line of the chart, region lines first.
+    """
+
+    def __init__(self, chart):
+        self.lines = _chart_lines(chart)
+        self.geom: LineGeometry | None = None
+        self.lock = threading.Lock()
+
+    def get(self, chart, cov) -> LineGeometry:
+        """The geometry covering ``cov`` (the kept one, or a new one covering both)."""
+        g = self.geom
+        if g is not None and _covers(g.cov, cov):
+            return g
+        with self.lock:
+            g = self.geom
+            if g is not None and _covers(g.cov, cov):
+                return g
+            if g is not None:
+                cov = (min(cov[0], g.cov[0]), max(cov[1], g.cov[1]), min(cov[2], g.cov[2]), max(cov[3], g.cov[3]))
+            g = make_geometry(chart, chart.case, [(m, c) for m, c, _ in self.lines], len(chart.region_models), cov)
+            self.geom = g
+            return g
+
+
+def _covers(have, need) -> bool:
+    return have[0] <= need[0] and have[1] >= need[1] and have[2] <= need[2] and have[3] >= need[3]
+
+
+#: chart -> :class:`ChartGeometry`; weak keys, so a chart that is no longer used is not kept alive.
+GEOMETRY_CACHE: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+_CACHE_LOCK = threading.Lock()
+
+
+def geometry_of(chart, x_points=(), y_points=()) -> tuple[ChartGeometry, LineGeometry]:
+    """The cached lines of ``chart``, covering the chart range and the windows of the points.
+
+    ``x_points``, ``y_points``: log10 Q_L and log10 Q_G of the points [decade]. Returns the
+    chart's :class:`ChartGeometry` (its ``lines``) and a :class:`LineGeometry` that covers them.
+    """
+    with _CACHE_LOCK:
+        holder = GEOMETRY_CACHE.get(chart)
+        if holder is None:
+            holder = ChartGeometry(chart)
+            GEOMETRY_CACHE[chart] = holder
+    return holder, holder.get(chart, coverage(chart, x_points, y_points))
+
+
+def regime_indices(names, regimes):
+    """Index of each regime name in ``names`` (-1 if absent), vectorised.
+
+    >>> regime_indices(["a", "b"], np.array(["b", "x", "a"])).tolist()
+    [1, -1, 0]
+    """
+    regimes = np.asarray(regimes)
+    if regimes.size == 0:
+        return np.empty(0, dtype=np.intp)
+    uniq, inv = np.unique(regimes, return_inverse=True)
+    lookup = {n: i for i, n in enumerate(names)}
+    return np.array([lookup.get(str(u), -1) for u in uniq], dtype=np.intp)[inv.ravel()].reshape(regimes.shape)
+
