@@ -180,7 +180,8 @@ def store(namespace: str, key: str, arrays: Mapping[str, np.ndarray]) -> Path | 
         clean[name] = a
     path = _path(namespace, key)
     buf = io.BytesIO()
-    np.savez(buf, **clean, **{_DIGEST: np.array(_digest(clean))})
+    payload = {**clean, _DIGEST: np.array(_digest(clean))}
+    np.savez(buf, **payload)  # type: ignore[arg-type]  # (numpy's stub: a name could clash with allow_pickle)
     tmp = None
     try:
         path.parent.mkdir(parents=True, exist_ok=True)

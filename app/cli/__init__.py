@@ -68,6 +68,10 @@ COMMANDS: tuple[Command, ...] = (
     Command("design", "inverse design: the inputs that maximise the worst-case margin of an envelope", "design"),
     Command("corner", "corner meniscus numbers: Concus–Finn, area factor, flow resistance", "corner", case=False),
     Command("limit", "open-channel flow-rate limit (gas ingestion) vs length, and surface shape", "limit"),
+    Command("samples", "list the bundled sample files (invented scenarios), or copy them into a folder", "samples",
+            case=False),
+    Command("cache", "where the persistent table cache is and how big it is; --clear empties it", "cache",
+            case=False),
 )
 
 _BY_NAME = {c.name: c for c in COMMANDS}

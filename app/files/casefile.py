@@ -25,6 +25,7 @@ from lowgmap.physics.case import Case, FlowRange, ModelChoice, OperatingPoint
 from lowgmap.physics.studies.uncertainty import TARGETS as _UNCERTAIN_TARGETS, Uncertainty
 
 from lowgmap.app.files.atomic import write_atomic
+from lowgmap.app.files.samples import sample_dir, sample_path
 from lowgmap.app.files.problems import CaseFileError, Problem, ProblemCollector, line_index
 from lowgmap.app.files.units import UnitError, check_unit, parse_flow, to_si
 
@@ -35,8 +36,8 @@ __all__ = ["SCHEMA_VERSION", "Problem", "CaseFileError", "CaseDocument", "ChartS
 #: Version of the case-file layout written by this release.
 SCHEMA_VERSION = 1
 
-#: Folder of the bundled sample cases (in a source checkout or an editable install).
-SAMPLE_DIR = Path(__file__).resolve().parents[2] / "sample_cases"
+#: Folder of the bundled sample cases (package data of ``lowgmap.samples``; see :mod:`lowgmap.app.files.samples`).
+SAMPLE_DIR = sample_dir()
 
 AXES_KINDS = ("flow", "superficial_velocity", "reynolds", "weber", "flow_ratio")
 
@@ -537,13 +538,9 @@ def save_case(data, path: str | os.PathLike) -> None:
 
 
 def sample_case_path(name: str | None = None) -> Path:
-    """Path of a bundled sample case (default: the condensate-line tube case)."""
-    stem = name or "condensate_line"
-    p = SAMPLE_DIR / (stem if stem.endswith(".toml") else f"{stem}.toml")
-    if not p.exists():
-        known = sorted(x.stem for x in SAMPLE_DIR.glob("*.toml"))
-        raise FileNotFoundError(f"no bundled sample case {stem!r}; bundled: {', '.join(known)}")
-    return p
+    """Path of a bundled sample file: a case by name (default: the condensate-line tube case), or any
+    sample file by its relative name (``"drop_tower_points.csv"``); see :func:`lowgmap.app.files.samples.sample_path`."""
+    return sample_path(name)
 
 
 def _is_number(x) -> bool:

@@ -1,6 +1,6 @@
 """Browser-test fixtures: a real dashboard server on a free local port, driven in Debian's Chromium.
 
-The server is started as a subprocess (`python -m lowgmap.app.cli serve CASE --port N`); readiness is the
+The server is started as a subprocess (`python -m lowgmap serve CASE --port N`); readiness is the
 server accepting connections (polled against a deadline, not a fixed sleep).
 """
 from __future__ import annotations

@@ -9,6 +9,8 @@ on the bundled sample case ``condensate_line.toml``:
 - ``lowgmap check CASE``                 (units, fluid properties)
 - ``lowgmap margin CASE``                (plus the chart and its margins)
 - ``lowgmap chart CASE -o TEMP.png``     (plus matplotlib)
+- ``lowgmap chart CORNER -o TEMP.png``   the wedge-separator corner sample: with the cache on, its Stokes and
+                                         critical-flow tables come from the cache after the first run
 
 The median, fastest and slowest wall time of the N runs are printed, twice: with lowgmap's table
 cache as it is (after the first run it holds the fluid properties, so CoolProp is not imported) and
@@ -31,6 +33,7 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[2]
 CASE = ROOT / "sample_cases" / "condensate_line.toml"
+CORNER = ROOT / "sample_cases" / "wedge_separator.toml"
 
 
 def command_line() -> list[str]:
@@ -84,6 +87,7 @@ def main() -> None:
             "check": ["check", str(CASE)],
             "margin": ["margin", str(CASE)],
             "chart": ["chart", str(CASE), "-o", str(tmp / "chart.png")],
+            "chart corner": ["chart", str(CORNER), "-o", str(tmp / "corner.png")],
         }
         print(f"lowgmap cold start, {opts.runs} runs each ({' '.join(Path(b).name for b in base)}; "
               f"case {CASE.name}; {os.cpu_count()} cores)")
