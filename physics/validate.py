@@ -1,7 +1,10 @@
-"""Input checks shared by every physics module.
+"""Input checks shared by every physics module, and the exception type of the user's errors.
 
-Each check raises :class:`ValueError` (or :class:`TypeError`) whose message names the field, the value
-and what is allowed, e.g. ``contact_angle must be within [0, 180] deg, got 210 deg``.
+Each check raises :class:`InputError` (a :class:`ValueError`) or :class:`InputTypeError` (also a
+:class:`TypeError`) whose message names the field, the value and what is allowed, e.g.
+``contact_angle must be within [0, 180] deg, got 210 deg``. These two types mean "the input is wrong":
+the command line and the dashboard show their message and carry on. Any other exception is a defect
+of lowgmap and is reported as one.
 """
 from __future__ import annotations
 
@@ -9,8 +12,17 @@ import math
 
 import numpy as np
 
-__all__ = ["finite", "positive", "non_negative", "in_range", "angle_deg_in_range", "positive_array",
+__all__ = ["InputError", "InputTypeError", "finite", "positive", "non_negative", "in_range", "angle_deg_in_range", "positive_array",
            "format_number"]
+
+
+class InputError(ValueError):
+    """The user's input is outside what lowgmap accepts; the message names the field, the value and
+    the allowed range (or what to do instead)."""
+
+
+class InputTypeError(InputError, TypeError):
+    """The user's input is of the wrong kind (a text where a number belongs, a list for a table...)."""
 
 
 def format_number(value) -> str:
@@ -28,13 +40,13 @@ def format_number(value) -> str:
 def finite(name: str, value, unit: str = "") -> float:
     """Return ``value`` as a float; raise if it is not a finite real number."""
     if isinstance(value, bool):
-        raise TypeError(f"{name} must be a number{_u(unit)}, got a boolean ({value!r})")
+        raise InputTypeError(f"{name} must be a number{_u(unit)}, got a boolean ({value!r})")
     try:
         x = float(value)
     except (TypeError, ValueError):
-        raise TypeError(f"{name} must be a number{_u(unit)}, got {value!r}") from None
+        raise InputTypeError(f"{name} must be a number{_u(unit)}, got {value!r}") from None
     if not math.isfinite(x):
-        raise ValueError(f"{name} must be a finite number{_u(unit)}, got {value!r}")
+        raise InputError(f"{name} must be a finite number{_u(unit)}, got {value!r}")
     return x
 
 
@@ -46,7 +58,7 @@ def positive(name: str, value, unit: str = "") -> float:
     """Return ``value`` as a float; raise unless it is finite and > 0."""
     x = finite(name, value, unit)
     if x <= 0:
-        raise ValueError(f"{name} must be > 0{_u(unit)}, got {format_number(x)} {unit}".rstrip())
+        raise InputError(f"{name} must be > 0{_u(unit)}, got {format_number(x)} {unit}".rstrip())
     return x
 
 
@@ -54,7 +66,7 @@ def non_negative(name: str, value, unit: str = "") -> float:
     """Return ``value`` as a float; raise unless it is finite and >= 0."""
     x = finite(name, value, unit)
     if x < 0:
-        raise ValueError(f"{name} must be >= 0{_u(unit)}, got {format_number(x)} {unit}".rstrip())
+        raise InputError(f"{name} must be >= 0{_u(unit)}, got {format_number(x)} {unit}".rstrip())
     return x
 
 
@@ -66,7 +78,7 @@ def in_range(name: str, value, lo: float, hi: float, unit: str = "", *,
     if bad:
         lb = "(" if lo_open else "["
         rb = ")" if hi_open else "]"
-        raise ValueError(
+        raise InputError(
             f"{name} must be within {lb}{format_number(lo)}, {format_number(hi)}{rb} {unit}".rstrip()
             + f", got {format_number(x)} {unit}".rstrip()
         )
@@ -81,7 +93,7 @@ def angle_deg_in_range(name: str, value_rad, lo_deg: float, hi_deg: float, *,
     """
     arr = np.asarray(value_rad, dtype=float)
     if not np.all(np.isfinite(arr)):
-        raise ValueError(f"{name} must be finite, got {value_rad!r}")
+        raise InputError(f"{name} must be finite, got {value_rad!r}")
     deg = np.degrees(arr)
     lo_bad = deg < lo_deg - 1e-12 if not lo_open else deg <= lo_deg
     hi_bad = deg > hi_deg + 1e-12 if not hi_open else deg >= hi_deg
@@ -90,7 +102,7 @@ def angle_deg_in_range(name: str, value_rad, lo_deg: float, hi_deg: float, *,
         worst = float(np.atleast_1d(deg)[np.atleast_1d(bad)][0])
         lb = "(" if lo_open else "["
         rb = ")" if hi_open else "]"
-        raise ValueError(f"{name} must be within {lb}{lo_deg:g}, {hi_deg:g}{rb} deg, got {worst:.6g} deg")
+        raise InputError(f"{name} must be within {lb}{lo_deg:g}, {hi_deg:g}{rb} deg, got {worst:.6g} deg")
     return float(arr) if arr.ndim == 0 else arr
 
 
@@ -104,8 +116,8 @@ def positive_array(name: str, value, unit: str):
     """
     arr = np.asarray(value, dtype=float)
     if not np.all(np.isfinite(arr)):
-        raise ValueError(f"{name} must be finite [{unit}], got {value!r}")
+        raise InputError(f"{name} must be finite [{unit}], got {value!r}")
     if np.any(arr <= 0):
         bad = float(np.atleast_1d(arr)[np.atleast_1d(arr <= 0)][0])
-        raise ValueError(f"{name} must be > 0 [{unit}], got {bad:.6g} {unit}")
+        raise InputError(f"{name} must be > 0 [{unit}], got {bad:.6g} {unit}")
     return arr
