@@ -14,7 +14,8 @@ from lowgmap.physics.properties.fluids import FluidPair
 from lowgmap.physics.geometry.sections import Circle, Groove
 from lowgmap.physics.properties.wetting import Wetting
 
-# Water 20 degC (IAPWS, reference list section 7); air 1.205 kg/m^3 (reference list), mu_g from memory.
+# Water 20 degC (IAPWS-95, IAPWS 2008 viscosity, IAPWS R1-76(2014)); air 1.205 kg/m^3 (handbook value, from
+# memory), mu_g from memory.
 WATER_AIR = FluidPair("water", "air", 293.15, 101325.0, 998.207, 1.0016e-3, 0.07274, 1.205, 1.81e-5,
                       "IAPWS", "from memory")
 RANGE = FlowRange(1e-7, 1e-3, 1e-7, 1e-2)

@@ -16,13 +16,13 @@ from lowgmap.physics.models.tube import (ANNULAR, BUBBLES, CAPILLARY_ZONE, INERT
                                  drift_flux_flow_ratio, suratman_reynolds_ratio, weber_gas_velocity)
 from lowgmap.physics.properties.wetting import Wetting
 
-# Water 20 degC, 1 atm (IAPWS; reference list section 7); air rho 1.205 kg/m^3 (reference list
-# section 1), mu 1.81e-5 Pa s (from memory).
+# Water 20 degC, 1 atm (IAPWS-95, IAPWS 2008 viscosity, IAPWS R1-76(2014)); air rho 1.205 kg/m^3 (handbook
+# value, from memory), mu 1.81e-5 Pa s (from memory).
 WATER_AIR = FluidPair("water", "air", 293.15, 101325.0, 998.207, 1.0016e-3, 0.07274, 1.205, 1.81e-5,
                       "IAPWS", "from memory")
 D = 0.0127
 RANGE = FlowRange(1e-7, 1e-3, 1e-7, 1e-2)
-G_SOUNDING_ROCKET = 1e-4 * 9.80665  # reference list section 5: sounding rocket <= 1e-4 g
+G_SOUNDING_ROCKET = 1e-4 * 9.80665  # sounding rocket <= 1e-4 g (typical figure, from memory)
 DUKLER_PAIR = ("bubble_slug_dukler_1988", "slug_annular_dukler_1988")
 WEBER_PAIR = ("slug_transitional_zhao_rezkallah_1993", "transitional_annular_zhao_rezkallah_1993")
 

@@ -21,7 +21,8 @@ D = math.radians
 
 
 def test_area_factor_regression_pins():
-    # [calc] regression pins of the closed form (PHYSICS-REFERENCES section 3), not published numbers
+    # [calc] regression pins of the closed form F = cos(t) cos(t + a)/sin(a) - (pi/2 - t - a) (plane geometry of
+    # the circular-arc meniscus), not published numbers
     assert meniscus_area_factor(D(45), 0.0) == pytest.approx(0.214602, abs=1e-6)   # = 1 - pi/4
     assert meniscus_area_factor(D(30), 0.0) == pytest.approx(0.684853, abs=1e-6)
     assert meniscus_area_factor(D(15), 0.0) == pytest.approx(2.423054, abs=1e-6)
@@ -41,7 +42,7 @@ def test_area_factor_against_meshed_section(alpha, theta):
 
 
 def test_wall_length_and_bisector_height_geometry():
-    # closed forms (PHYSICS-REFERENCES section 3) checked against the construction: the contact
+    # closed forms (plane geometry of the circular-arc meniscus) checked against the construction: the contact
     # point at distance b from the corner lies on the meniscus circle, which meets the wall at theta,
     # and the circle crosses the bisector at height h
     R, a, t = 2.0, D(25), D(20)
@@ -105,7 +106,7 @@ def test_beta_trends_ransohoff_radke():
 def test_zhou_blunt_orr_fit_within_its_stated_accuracy():
     # Zhou, Blunt & Orr (1997) closed-form fit, as written in Piri & Blunt (2005) eqs. B10-B15;
     # transcribed from a public pore-network code, NOT checked against the paper itself.
-    # PHYSICS-REFERENCES: the fit deviates from full solutions by up to tens of per cent.
+    # From memory: the fit deviates from full numerical solutions by up to tens of per cent for some angles.
     # Measured ratio beta/beta_fit over alpha 10-45 deg, theta 0-30 deg: 0.68 ... 1.26. Tolerance 35 %.
     def fit(a, t, f):
         f1 = math.pi / 2 - a - t

@@ -62,9 +62,11 @@ def test_water_pair_uses_iapws_sigma_not_coolprop():
 # ---------------------------------------------------------------------------------------------
 def test_water_20C_1atm_density_viscosity():
     fp = make_fluid_pair("Water", 293.15, ATM, gas="air")
-    # IAPWS-95 (Wagner & Pruss 2002): 998.207 kg/m3 at 20 degC, 101325 Pa (PHYSICS-REFERENCES section 7)
+    # IAPWS-95 (Wagner & Pruss, J. Phys. Chem. Ref. Data 31:387, 2002, doi:10.1063/1.1461829):
+    # 998.207 kg/m3 at 20 degC, 101325 Pa
     assert fp.rho_l == pytest.approx(998.207, abs=0.001)
-    # IAPWS 2008 viscosity (Huber et al. 2009): 1.0016 mPa s at 20 degC, 1 atm (PHYSICS-REFERENCES section 7)
+    # IAPWS 2008 viscosity (Huber et al., J. Phys. Chem. Ref. Data 38:101, 2009, doi:10.1063/1.3088050):
+    # 1.0016 mPa s at 20 degC, 1 atm
     assert fp.mu_l == pytest.approx(1.0016e-3, abs=0.00005e-3)
     assert fp.pressure == ATM
 
@@ -195,7 +197,8 @@ def test_table_values_at_reference_temperature():
 
 def test_glycerol_water_against_cheng_2008():
     # Cheng (2008), Ind. Eng. Chem. Res. 47, 3285: mu of glycerol/water; formula recalled from memory,
-    # it reproduces the Glycerine Producers' Association value 6.00 mPa s for 50 wt% at 20 degC.
+    # it reproduces the value 6.00 mPa s for 50 wt% at 20 degC of the 1963 table 'Physical properties of
+    # glycerine and its solutions' (from memory).
     def cheng(cm, t):
         a = 0.705 - 0.0017 * t
         b = (4.9 + 0.036 * t) * a ** 2.5

@@ -14,8 +14,8 @@ from lowgmap.physics.geometry.sections import Circle, Rectangle
 from lowgmap.physics.properties.wetting import Wetting
 
 # Water at 20 degC, 1 atm: rho 998.207 kg/m^3 (IAPWS-95), mu 1.0016 mPa s (IAPWS 2008),
-# sigma 72.74 mN/m (IAPWS R1-76(2014)) -- reference list section 7.
-# Air at 20 degC, 1 atm: rho 1.205 kg/m^3 (value used by the reference list's [calc] checks);
+# sigma 72.74 mN/m (IAPWS R1-76(2014)).
+# Air at 20 degC, 1 atm: rho 1.205 kg/m^3 (handbook value, from memory; used by the [calc] checks below);
 # mu 1.81e-5 Pa s (from memory, handbook value).
 WATER_AIR = FluidPair("water", "air", 293.15, 101325.0, 998.207, 1.0016e-3, 0.07274, 1.205, 1.81e-5,
                       "IAPWS-95 / IAPWS 2008 / IAPWS R1-76", "from memory")
@@ -27,18 +27,20 @@ def tube_case(section=None, g=0.0):
 
 
 def test_suratman_air_water_12_7_mm():
-    # reference list section 1, check value [calc]: air/water 20 degC, D 12.7 mm -> Su 9.19e5
+    # check value [calc] from Su = rho_L sigma D / mu_L^2 (Jayawardena, Balakotaiah & Witte 1997):
+    # air/water 20 degC, D 12.7 mm -> Su 9.19e5
     assert suratman(998.207, 0.07274, 0.0127, 1.0016e-3) == pytest.approx(9.19e5, rel=1e-3)
 
 
 def test_eotvos_water_one_centimetre_one_g():
-    # reference list section 5, check value [calc]: water, L 1 cm, Bo(1 g) = 13.45
-    # (rounding of the listed value: 1e-3)
+    # check value [calc] from Bo = delta_rho g L^2 / sigma: water, L 1 cm, Bo(1 g) = 13.45
+    # (13.45 is rounded to 4 figures: tolerance 1e-3)
     assert eotvos(998.207, 9.80665, 0.01, 0.07274) == pytest.approx(13.45, rel=1e-3)
 
 
 def test_weber_one_at_2_18_m_per_s():
-    # reference list section 1, check value [calc]: air 1.205 kg/m^3, sigma 0.072736 N/m, D 12.7 mm:
+    # check value [calc] from We_SG = rho_G U_SG^2 D / sigma (Zhao & Rezkallah 1993): air 1.205 kg/m^3,
+    # sigma 0.072736 N/m, D 12.7 mm:
     # We_SG = 1 at U_SG = 2.18 m/s and = 20 at 9.75 m/s (3 figures)
     assert weber(1.205, 2.18, 0.0127, 0.072736) == pytest.approx(1.0, rel=2e-3)
     assert weber(1.205, 9.75, 0.0127, 0.072736) == pytest.approx(20.0, rel=2e-3)

@@ -300,7 +300,8 @@ def test_concus_finn_per_corner(section, alpha_deg):
 
 
 def test_concus_finn_groove_7_9_deg():
-    # Concus & Finn (1969): 7.9 deg half-angle wicks for theta < 82.1 deg (PHYSICS-REFERENCES check)
+    # [calc] from the Concus & Finn (1969) condition theta + alpha < 90 deg (PNAS 63(2):292-299):
+    # a 7.9 deg half-angle wicks for theta < 82.1 deg
     g = Groove(R(7.9), 0.001)
     assert Wetting(R(82.0)).corners_that_wick(g) == [(0, R(7.9), True)]
     assert Wetting(R(82.2)).corners_that_wick(g) == [(0, R(7.9), False)]

@@ -16,11 +16,12 @@ from lowgmap.physics.models.tube import (ANNULAR, BUBBLE_SLUG_DUKLER_1988, BUBBL
                                  weber_gas_velocity)
 from lowgmap.physics.properties.wetting import Wetting
 
-# Water 20 degC, 1 atm: rho 998.207 kg/m^3, mu 1.0016 mPa s, sigma 72.74 mN/m (IAPWS; reference list
-# section 7). Air 20 degC: rho 1.205 kg/m^3 (reference list section 1); mu 1.81e-5 Pa s (from memory).
+# Water 20 degC, 1 atm: rho 998.207 kg/m^3, mu 1.0016 mPa s, sigma 72.74 mN/m (IAPWS-95, IAPWS 2008
+# viscosity, IAPWS R1-76(2014)). Air 20 degC: rho 1.205 kg/m^3 (handbook value, from memory); mu 1.81e-5 Pa s
+# (from memory).
 WATER_AIR = FluidPair("water", "air", 293.15, 101325.0, 998.207, 1.0016e-3, 0.07274, 1.205, 1.81e-5,
                       "IAPWS", "from memory")
-# The Weber check values of the reference list use sigma = 0.072736 N/m.
+# The Weber check values below ([calc]) use sigma = 0.072736 N/m.
 WATER_AIR_W = FluidPair("water", "air", 293.15, 101325.0, 998.207, 1.0016e-3, 0.072736, 1.205, 1.81e-5,
                         "IAPWS", "from memory")
 RANGE = FlowRange(1e-7, 1e-3, 1e-7, 1e-2)
@@ -34,7 +35,8 @@ def make_case(section=None, g=0.0, fluid=WATER_AIR):
 # --- void fraction / drift flux -----------------------------------------------------------------
 
 def test_drift_flux_check_values():
-    # reference list section 1, check values [calc]: U_SL/U_SG = 1/(C0 alpha_c) - 1
+    # check values [calc] from the drift-flux line of Dukler, Fabre, McQuillen & Vernon (1988):
+    # U_SL/U_SG = 1/(C0 alpha_c) - 1
     assert 1 / drift_flux_flow_ratio(0.45, 1.0) == pytest.approx(1.2222, abs=5e-5)
     assert 1 / drift_flux_flow_ratio(0.45, 1.2) == pytest.approx(0.8519, abs=5e-5)
     assert np.isnan(drift_flux_flow_ratio(0.9, 1.2))  # C0 alpha_c >= 1: no line
@@ -44,7 +46,7 @@ def test_dukler_line_reproduces_check_values_through_the_model():
     case = make_case()
     area = math.pi * D ** 2 / 4
     ql = np.array([1e-6, 1e-5, 1e-4])
-    for c0, usl_over_usg in ((1.0, 1.2222), (1.2, 0.8519)):  # reference list section 1 [calc]
+    for c0, usl_over_usg in ((1.0, 1.2222), (1.2, 0.8519)):  # [calc], Dukler et al. (1988) line
         qg = BUBBLE_SLUG_DUKLER_1988.qg_of_ql(case, ql, alpha_c=0.45, c0=c0)
         assert np.allclose((ql / area) / (qg / area), usl_over_usg, atol=5e-5)
 
@@ -88,7 +90,8 @@ def test_slug_annular_lies_above_bubble_slug_with_defaults():
 # --- Weber zones ----------------------------------------------------------------------------------
 
 def test_weber_velocity_check_values():
-    # reference list section 1, check values [calc]: air 1.205, sigma 0.072736, D 12.7 mm
+    # check values [calc] from We_SG = rho_G U_SG^2 D / sigma (Zhao & Rezkallah 1993):
+    # air 1.205, sigma 0.072736, D 12.7 mm
     assert weber_gas_velocity(1.0, 1.205, 0.072736, D) == pytest.approx(2.18, abs=5e-3)
     assert weber_gas_velocity(20.0, 1.205, 0.072736, D) == pytest.approx(9.75, abs=5e-3)
 
@@ -99,8 +102,8 @@ def test_weber_zone_lines_through_the_model():
     ql = np.array([1e-7, 1e-5, 1e-3])
     u1 = SLUG_TRANSITIONAL_ZHAO_REZKALLAH_1993.qg_of_ql(case, ql) / area
     u20 = TRANSITIONAL_ANNULAR_ZHAO_REZKALLAH_1993.qg_of_ql(case, ql) / area
-    assert np.allclose(u1, 2.18, atol=5e-3)    # reference list section 1 [calc]
-    assert np.allclose(u20, 9.75, atol=5e-3)   # reference list section 1 [calc]
+    assert np.allclose(u1, 2.18, atol=5e-3)    # [calc] from We_SG (Zhao & Rezkallah 1993)
+    assert np.allclose(u20, 9.75, atol=5e-3)   # [calc] from We_SG (Zhao & Rezkallah 1993)
     # independent of the liquid flow: horizontal lines
     assert np.ptp(u1) == 0.0 and np.ptp(u20) == 0.0
     # on the line, the superficial gas Weber number is the constant
@@ -119,7 +122,8 @@ def test_weber_line_in_a_duct_uses_the_hydraulic_diameter():
 # --- Suratman line -----------------------------------------------------------------------------------
 
 def test_suratman_check_values():
-    # reference list section 1, check values [calc]: air/water 20 degC, D 12.7 mm -> Su 9.19e5,
+    # check values [calc] from the Suratman line of Jayawardena, Balakotaiah & Witte (1997): air/water
+    # 20 degC, D 12.7 mm -> Su 9.19e5,
     # Re_SG/Re_SL 0.0491
     su = suratman(998.207, 0.07274, D, 1.0016e-3)
     assert su == pytest.approx(9.19e5, rel=1e-3)
@@ -131,14 +135,14 @@ def test_suratman_line_through_the_model():
     ql = np.logspace(-7, -3, 7)
     qg = BUBBLE_SLUG_JAYAWARDENA_1997.qg_of_ql(case, ql)
     ratio = evaluate_group("re_sg", case, ql, qg) / evaluate_group("re_sl", case, ql, qg)
-    assert np.allclose(ratio, 0.0491, atol=1e-4)  # reference list section 1 [calc]
-    # reference list: "U_SL about 1.35 U_SG" on this line for air/water in 12.7 mm
+    assert np.allclose(ratio, 0.0491, atol=1e-4)  # [calc], Jayawardena et al. (1997) line
+    # [calc] from the same line: U_SL about 1.35 U_SG for air/water in 12.7 mm
     assert np.allclose(ql / qg, 1.35, rtol=0.02)
 
 
 def test_bubble_slug_lines_agree_within_a_factor_of_two():
-    # reference list section 1: for air/water in a 12.7 mm tube the void-fraction and Suratman
-    # bubble-slug lines are of the same order (plausibility cross-check between two criteria)
+    # Dukler et al. (1988) vs Jayawardena et al. (1997): for air/water in a 12.7 mm tube the void-fraction and
+    # Suratman bubble-slug lines are of the same order (plausibility cross-check between two criteria)
     case = make_case()
     ql = np.logspace(-7, -3, 9)
     suratman_line = BUBBLE_SLUG_JAYAWARDENA_1997.qg_of_ql(case, ql)
@@ -151,7 +155,7 @@ def test_bubble_slug_lines_agree_within_a_factor_of_two():
 # --- gravity and ducts --------------------------------------------------------------------------------
 
 def test_gravity_check_one_centimetre_tube_at_one_g():
-    # reference list section 5 [calc]: water, 1 cm, Bo(1 g) = 13.45 -> gravity not negligible
+    # [calc] from Bo = delta_rho g L^2 / sigma: water, 1 cm, Bo(1 g) = 13.45 -> gravity not negligible
     # (we use rho_L - rho_G; the air density shifts Eo by 0.1 %, inside the tolerance)
     chk = gravity_check(make_case(Circle(0.01), g=9.80665))
     assert chk.eotvos == pytest.approx(13.45, rel=1e-3)

@@ -67,7 +67,7 @@ KINDS: dict[str, tuple[str, str, str]] = {
     "viscosity": ("Pa*s", "[mass] / [length] / [time]", "1.0 mPa*s"),
     "kinematic_viscosity": ("m^2/s", "[length] ** 2 / [time]", "2 cSt"),
     "surface_tension": ("N/m", "[mass] / [time] ** 2", "72 mN/m"),
-    "time": ("s", "[time]", "4.7 s"),
+    "time": ("s", "[time]", "10 s"),
     "dimensionless": ("", "", "0.45"),
 }
 

@@ -106,7 +106,7 @@ def drift_flux_flow_ratio(alpha_c, c0):
 
     Examples
     --------
-    Check values [calc] of the reference list, U_SL/U_SG = 1/(C0 alpha_c) - 1:
+    Check values [calc] from the drift-flux line of Dukler et al. (1988), U_SL/U_SG = 1/(C0 alpha_c) - 1:
 
     >>> round(1 / drift_flux_flow_ratio(0.45, 1.0), 4)
     1.2222
@@ -166,7 +166,7 @@ def weber_gas_velocity(we_sg, rho_g, sigma, diameter):
 
     Examples
     --------
-    Check values [calc] of the reference list (air 1.205 kg/m^3, sigma 0.072736 N/m, D 12.7 mm):
+    Check values [calc] from We_SG = rho_G U_SG^2 D / sigma (air 1.205 kg/m^3, sigma 0.072736 N/m, D 12.7 mm):
 
     >>> round(weber_gas_velocity(1.0, 1.205, 0.072736, 0.0127), 2)
     2.18

@@ -154,7 +154,7 @@ def eotvos(delta_rho, g, length, sigma):
 
     Examples
     --------
-    Water, L = 1 cm, at standard gravity (check value [calc] of the reference list):
+    Water, L = 1 cm, at standard gravity (check value [calc] from the definition above):
 
     >>> round(eotvos(998.2, 9.80665, 0.01, 0.07274), 2)
     13.46

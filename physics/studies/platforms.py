@@ -1,9 +1,12 @@
 """Low-gravity test platforms: typical low-g time and residual acceleration, and capillary time scales.
 
-A built-in table :data:`PLATFORMS` gives, for each kind of platform, the low-gravity time of one
-experiment and the residual acceleration range. The figures are the typical published ones collected
-in PHYSICS-REFERENCES section 5; they were entered from memory, not from a document in hand, and each
-row says so in ``source``. Platforms are named generically (by kind and size), not by facility.
+A built-in table :data:`PLATFORMS` gives, for each class of platform (short drop tower, drop tube,
+launched drop, parabolic flight, sounding rocket, orbital station), the low-gravity time of one
+experiment and the residual acceleration as ranges typical of the class. The figures are typical
+figures, entered from memory, not from a document in hand, and each row says so in ``source``. Rows
+describe classes of facility, never one facility (no facility names or heights): for a particular
+facility, name it in the test-point file and give each point its own residual acceleration and
+low-g duration (an unknown platform name is kept as written).
 
 Conventions
 -----------
@@ -11,9 +14,10 @@ Conventions
   g0 = 9.80665 m/s^2 and converted on import).
 - ``g_typical`` is the **upper end** of the stated range, so that a Bond number computed with it is
   not underestimated (conservative for a "surface tension dominates" claim).
-- ``duration_s`` is the low-g time used by default: the single published figure, or the short end of a
-  stated range (sounding rocket); ``duration_max_s`` is the long end.
-- A figure the source does not state is NaN (e.g. the lower bound of "<= 1e-4 g").
+- ``duration_s`` is the low-g time used by default: the short end of the class's range (conservative
+  for an "enough low-g time" check; for parabolic flight the usual longest parabola, so give each
+  point's own duration); ``duration_max_s`` is the long end.
+- A figure that is not stated is NaN (e.g. the lower bound of "<= 1e-4 g").
 
 A test point may carry its own residual acceleration and duration; :func:`point_conditions` uses
 those first and falls back on the platform figures.
@@ -37,8 +41,8 @@ __all__ = [
     "CapillaryTimes", "capillary_times", "bond_number", "SOURCE_FROM_MEMORY",
 ]
 
-#: Source text of figures entered without the document in hand.
-SOURCE_FROM_MEMORY = "typical published figures (see PHYSICS-REFERENCES section 5), from memory"
+#: Source text of the built-in figures (entered without a document in hand).
+SOURCE_FROM_MEMORY = "typical figures, from memory"
 
 _G0 = STANDARD_GRAVITY
 _NAN = math.nan
@@ -50,7 +54,7 @@ class Platform:
 
     Parameters
     ----------
-    name : str                  generic name, e.g. ``"24 m drop tower"``
+    name : str                  class of facility, e.g. ``"short drop tower"``
     aliases : tuple of str      other accepted spellings (matched ignoring case, spaces and punctuation)
     duration_s : float          low-g time of one experiment used by default [s]
     duration_max_s : float      longest low-g time stated [s] (``inf``: continuous)
@@ -93,21 +97,21 @@ def _p(name, aliases, duration, duration_max, g_low_g0, g_high_g0, note=""):
                     g_typical=g_high_g0 * _G0, note=note)
 
 
-#: Built-in platforms, by name (PHYSICS-REFERENCES section 5; typical published figures, from memory).
+#: Built-in platforms, by class of facility (typical figures, from memory).
 PLATFORMS: dict[str, Platform] = {p.name: p for p in (
-    _p("110 m drop tube", ("110 m drop tube, drop", "drop tube 110 m", "110 m drop"), 4.7, 4.7, 1e-7, 1e-6,
-       "free drop in an evacuated tube"),
-    _p("110 m drop tube, catapult", ("110 m catapult", "drop tube catapult", "catapult"), 9.3, 9.3, 1e-7, 1e-6,
-       "capsule launched upward from the bottom, rises and falls"),
-    _p("132 m drop facility", ("132 m drop", "drop facility 132 m"), 5.2, 5.2, 1e-5, 1e-5),
-    _p("24 m drop tower", ("24 m drop", "drop tower 24 m", "2.2 s drop tower"), 2.2, 2.2, 1e-4, 1e-3),
-    _p("490 m mine-shaft drop", ("490 m drop", "mine-shaft drop", "mine shaft"), 10.0, 10.0, 1e-5, 1e-5),
+    _p("short drop tower", ("short drop tower, ~2 s", "short drop", "2 s drop tower", "2 s drop"),
+       2.0, 2.5, 1e-4, 1e-3, "free fall of about 2 s (2 to 2.5 s)"),
+    _p("drop tube", ("drop tube, ~5 s", "evacuated drop tube", "long drop tower", "5 s drop"),
+       4.5, 5.5, 1e-7, 1e-5, "free fall of about 5 s (4.5 to 5.5 s) in an evacuated tube or tower"),
+    _p("launched drop", ("launched drop, ~9 s", "catapult", "catapult launch", "9 s drop"),
+       9.0, 10.0, 1e-7, 1e-5,
+       "capsule launched upward from the bottom of a drop tube, rises and falls: about 9 to 10 s"),
     _p("parabolic flight", ("parabolic", "parabolic aircraft", "reduced-gravity aircraft", "aircraft"),
        22.0, 22.0, 1e-3, 1e-2,
        "up to ~22 s per parabola (often less), with ~1.8 g phases before and after; "
        "give low_g_duration per point where known"),
     _p("sounding rocket", ("rocket", "suborbital rocket"), 180.0, 780.0, _NAN, 1e-4,
-       "3 to 13 min depending on the vehicle; the source states only an upper bound on the acceleration"),
+       "3 to 13 min depending on the vehicle; only an upper bound on the acceleration is given"),
     _p("orbital station", ("orbit", "orbital", "on orbit", "space station", "orbital laboratory"),
        30 * 86400.0, math.inf, 1e-6, 1e-6,
        "continuous for months (30 days is used as a lower bound); ~1e-6 g is the quasi-steady level, "
@@ -135,8 +139,8 @@ def platform_names() -> list[str]:
 def find_platform(name) -> Platform | None:
     """The platform called ``name`` (name or alias, ignoring case, spaces and punctuation), or None.
 
-    >>> find_platform("24M drop-tower").name
-    '24 m drop tower'
+    >>> find_platform("Short Drop-Tower, ~2 s").name
+    'short drop tower'
     >>> find_platform("balloon") is None
     True
     """
@@ -201,9 +205,9 @@ def point_conditions(platform=None, g=None, duration=None) -> Conditions:
 
     Examples
     --------
-    >>> point_conditions("24 m drop tower")
-    Conditions(g=0.00980665, duration=2.2)
-    >>> point_conditions("24 m drop tower", g=1e-4 * 9.80665).g
+    >>> point_conditions("short drop tower")
+    Conditions(g=0.00980665, duration=2.0)
+    >>> point_conditions("short drop tower", g=1e-4 * 9.80665).g
     0.000980665
     """
     pl = None if platform is None or platform == "" else get_platform(platform)
@@ -277,7 +281,7 @@ def platform_bond_numbers(platform, delta_rho, length, sigma) -> tuple[float, fl
 
     Examples
     --------
-    >>> [round(b, 5) for b in platform_bond_numbers("24 m drop tower", 998.2, 0.01, 0.0728)]
+    >>> [round(b, 5) for b in platform_bond_numbers("short drop tower", 998.2, 0.01, 0.0728)]
     [0.00134, 0.01345, 0.01345]
     """
     pl = get_platform(platform)
@@ -321,8 +325,8 @@ def capillary_times(rho, mu, sigma, L) -> CapillaryTimes:
 
     References
     ----------
-    PHYSICS-REFERENCES section 5 (time scales); the scales follow from dimensional analysis of
-    the Navier-Stokes equations with a capillary boundary condition.
+    No single source: the scales follow from dimensional analysis of the Navier-Stokes equations with
+    a capillary boundary condition (common practice).
 
     Examples
     --------
