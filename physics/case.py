@@ -8,7 +8,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING, Mapping
 
-from lowgmap.physics.validate import non_negative, positive
+from lowgmap.physics.validate import InputTypeError, non_negative, positive
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from lowgmap.physics.properties.fluids import FluidPair
@@ -83,6 +83,8 @@ class Case:
     operating_point : OperatingPoint or None
     models : tuple of ModelChoice   boundary models on the chart (empty: the defaults for the section)
     title, revision, author : str   identification, carried into reports
+    intended_regime : str   the regime the device must run in (a regime name of the chart), or "" when
+        the case does not state one; verdicts say whether the operating point is in it
     """
 
     fluid: "FluidPair"
@@ -97,9 +99,12 @@ class Case:
     revision: str = "A"
     author: str = ""
     extra: tuple[tuple[str, object], ...] = field(default=(), compare=False)
+    intended_regime: str = ""
 
     def __post_init__(self):
         positive("length", self.length, "m")
+        if not isinstance(self.intended_regime, str):
+            raise InputTypeError(f"intended_regime must be a regime name (text), got {self.intended_regime!r}")
         non_negative("g", self.g, "m/s^2")
 
     def with_(self, **changes) -> "Case":

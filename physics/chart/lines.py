@@ -17,7 +17,16 @@ separate (:class:`LineGeometry`):
 Both samplings use the one adaptive sampler of :mod:`lowgmap.physics.chart.sampling`. The lines must
 cover the chart range and the margin window of every point, :data:`WINDOW_LO` .. :data:`WINDOW_HI`
 decades around it (the box of half-size :data:`MAX_MARGIN`): :func:`coverage`. :func:`geometry_of`
-keeps one geometry per chart (weakly, it dies with the chart), rebuilt wider when a point needs it.
+keeps one geometry per chart (weakly, it dies with the chart), rebuilt wider when a point needs it,
+so the lines follow every query wherever it lies, inside or far outside the drawn chart range.
+
+Where a line cannot be evaluated the margins must say so rather than count on it:
+
+* with ``keep_going`` (as the margins ask), a model that raises while its line is sampled leaves
+  that line empty and is recorded in :attr:`LineGeometry.failed` (such a geometry is not kept in
+  the cache); without it (the studies) the model's error propagates as before;
+* :func:`evaluation_gaps` probes the region lines and the classification on a log grid over a
+  box of flows and reports where they give no value (:class:`EvaluationGap`).
 
 Examples
 --------
@@ -41,9 +50,10 @@ import numpy as np
 
 from lowgmap.physics.chart.sampling import finite_runs, sample_line
 
-__all__ = ["MAX_MARGIN", "LN10", "WINDOW_LO", "WINDOW_HI", "GEOMETRY_CACHE", "column_function", "piece_function",
-           "line_runs", "is_chain", "bounding_lines", "LineGeometry", "make_geometry", "coverage", "ChartGeometry",
-           "geometry_of", "regime_indices"]
+__all__ = ["MAX_MARGIN", "LN10", "WINDOW_LO", "WINDOW_HI", "GEOMETRY_CACHE", "MODEL_ERRORS", "column_function",
+           "piece_function", "line_runs", "is_chain", "bounding_lines", "LineGeometry", "make_geometry", "coverage",
+           "margin_window", "ChartGeometry", "geometry_of", "regime_indices", "EvaluationGap", "evaluation_gaps",
+           "chart_lines"]
 
 #: Largest symmetric margin reported; a point with this margin has no boundary within ±99.9 %.
 MAX_MARGIN = 0.999
@@ -63,6 +73,11 @@ _DEPTH = 60                                   # refinement passes
 _MAX_SAMPLES = 20000                          # cap on samples per line piece
 _FAR = 8.0                                    # decades beyond the coverage where open columns are closed
 _PROBE = 1e-6                                 # side-probe distance from a chord [decade]
+_GAP_N = 25                                   # grid of the evaluation probe: _GAP_N x _GAP_N points
+
+#: Errors a model may raise where it cannot be evaluated (outside its domain, overflow); a line
+#: that raises one of these is reported as not evaluable instead of stopping the margins.
+MODEL_ERRORS = (ArithmeticError, ValueError, RuntimeError)
 
 
 # =============================================================================================
@@ -293,7 +308,8 @@ class LineGeometry:
     line); ``usable``: the chord is part of the boundary as drawn; ``left``/``right``: regime
     indices on the two sides (-2: not probed, -1: no regime); ``n_lines``, ``n_region``: number of
     lines and of region lines; ``chain``: sequence rule; ``bounding``: regime index -> region lines
-    that can change it; ``cov``: the box the lines cover [decade].
+    that can change it; ``cov``: the box the lines cover [decade]; ``failed``: (line index, message)
+    of every line whose model raised while it was sampled (the line has no chords).
     """
 
     xa: np.ndarray
@@ -309,6 +325,7 @@ class LineGeometry:
     chain: bool
     bounding: dict
     cov: tuple
+    failed: tuple = ()
 
     def __post_init__(self):
         counts = np.bincount(self.line, minlength=self.n_lines) if self.line.size else np.zeros(self.n_lines, int)
@@ -343,26 +360,35 @@ class LineGeometry:
 
 
 def make_geometry(chart, case, lines, n_region, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_N_START,
-                   only=None) -> LineGeometry:
+                   only=None, keep_going=False) -> LineGeometry:
     """Sample ``lines`` [(model, consts dict)] of ``chart`` over ``cov`` into a :class:`LineGeometry`.
 
     ``case``: the case whose physics the lines follow (the chart's, or a perturbed one);
     ``n_region``: how many of ``lines`` (the first) are region lines, probed on both sides with
     ``chart.classify`` under a scheme other than the sequence rule; ``cov`` = (x0, x1, y0, y1)
     [decade]; ``tol``, ``wall_dx``, ``n_start``: sampling (see :func:`line_runs`); ``only``: indices
-    of the lines to sample (others are left empty).
+    of the lines to sample (others are left empty); ``keep_going``: a line whose model raises one of
+    :data:`MODEL_ERRORS` is left empty and recorded in ``failed`` instead of raising.
     """
     wide = _widened(case, cov)
-    runs_all = []
+    runs_all: list[list] = []
+    failed: list[tuple[int, str]] = []
     for k, (model, consts) in enumerate(lines):
         if only is not None and k not in only:
             runs_all.append([])
             continue
-        runs_all.append(line_runs(case, model, consts, cov, tol=tol, wall_dx=wall_dx, n_start=n_start, wide=wide))
+        try:
+            runs_all.append(line_runs(case, model, consts, cov, tol=tol, wall_dx=wall_dx, n_start=n_start,
+                                      wide=wide))
+        except MODEL_ERRORS as exc:
+            if not keep_going:
+                raise
+            runs_all.append([])
+            failed.append((k, f"{type(exc).__name__}: {exc}"))
     chain = is_chain(chart)
     if not chain and n_region > 1:
         runs_all[:n_region] = _split_at_crossings(runs_all[:n_region])
-    parts = {k: [] for k in ("xa", "ya", "xb", "yb", "line")}
+    parts: dict[str, list] = {k: [] for k in ("xa", "ya", "xb", "yb", "line")}
     for k, runs in enumerate(runs_all):
         for x, y in runs:
             if x.size < 2:
@@ -396,17 +422,21 @@ def make_geometry(chart, case, lines, n_region, cov, *, tol=_TOL, wall_dx=_WALL_
             usable[reg] = left[reg] != right[reg]
     bounding = {r: bounding_lines(chart, name) for r, name in enumerate(names)}
     return LineGeometry(arr["xa"], arr["ya"], arr["xb"], arr["yb"], line, usable, left, right, len(lines),
-                        n_region, chain, bounding, tuple(cov))
+                        n_region, chain, bounding, tuple(cov), tuple(failed))
 
 
-def _chart_lines(chart):
-    """(model, consts dict, role) of every line, region lines first."""
+def chart_lines(chart):
+    """(model, consts dict, role) of every line of ``chart``, region lines first (the order of the geometry)."""
     return ([(m, dict(c), "regions") for m, c in chart.region_models]
             + [(m, dict(c), "comparison") for m, c in chart.comparison_models])
 
 
 def coverage(chart, x_points=(), y_points=()) -> tuple[float, float, float, float]:
-    """Box the lines must cover: the chart range and the margin windows of every point [decades]."""
+    """Box the lines must cover: the chart range and the margin windows of every point [decades].
+
+    The windows follow the points wherever they lie, so a point far outside the chart range gets
+    its lines sampled where it needs them (its margin does not depend on the chart range).
+    """
     fr = chart.case.flow_range
     xs = [math.log10(fr.ql_min), math.log10(fr.ql_max)] + [float(v) for v in np.ravel(x_points)]
     ys = [math.log10(fr.qg_min), math.log10(fr.qg_max)] + [float(v) for v in np.ravel(y_points)]
@@ -414,19 +444,37 @@ def coverage(chart, x_points=(), y_points=()) -> tuple[float, float, float, floa
             min(ys) + WINDOW_LO - 1e-9, max(ys) + WINDOW_HI + 1e-9)
 
 
+def margin_window(x0: float, y0: float, m: float = MAX_MARGIN) -> tuple[float, float, float, float]:
+    """The box of half-size ``m`` around the point (x0, y0) = (log10 Q_L, log10 Q_G), in decades.
+
+    The box [(1 - m) Q_L, (1 + m) Q_L] x [(1 - m) Q_G, (1 + m) Q_G] as (x_lo, x_hi, y_lo, y_hi).
+
+    >>> [round(v, 6) for v in margin_window(0.0, -5.0, 0.5)]
+    [-0.30103, 0.176091, -5.30103, -4.823909]
+    """
+    lo, hi = math.log10(1.0 - m), math.log10(1.0 + m)
+    return (x0 + lo, x0 + hi, y0 + lo, y0 + hi)
+
+
 class ChartGeometry:
     """The geometry of one chart, kept while the chart lives (rebuilt wider when a point needs it).
 
-    ``lines``: (model, consts dict, role) of every line of the chart, region lines first.
+    ``lines``: (model, consts dict, role) of every line of the chart, region lines first. A geometry
+    in which a line could not be sampled (:attr:`LineGeometry.failed`) is returned but not kept, so
+    one query far outside a model's domain does not spoil the lines for the next.
     """
 
     def __init__(self, chart):
-        self.lines = _chart_lines(chart)
+        self.lines = chart_lines(chart)
         self.geom: LineGeometry | None = None
         self.lock = threading.Lock()
 
-    def get(self, chart, cov) -> LineGeometry:
-        """The geometry covering ``cov`` (the kept one, or a new one covering both)."""
+    def get(self, chart, cov, keep_going: bool = False) -> LineGeometry:
+        """The geometry covering ``cov`` (the kept one, or a new one covering both).
+
+        ``keep_going``: a line whose model raises is left empty and named in ``failed`` (else the
+        model's error propagates).
+        """
         g = self.geom
         if g is not None and _covers(g.cov, cov):
             return g
@@ -436,9 +484,11 @@ class ChartGeometry:
                 return g
             if g is not None:
                 cov = (min(cov[0], g.cov[0]), max(cov[1], g.cov[1]), min(cov[2], g.cov[2]), max(cov[3], g.cov[3]))
-            g = make_geometry(chart, chart.case, [(m, c) for m, c, _ in self.lines], len(chart.region_models), cov)
-            self.geom = g
-            return g
+            new = make_geometry(chart, chart.case, [(m, c) for m, c, _ in self.lines], len(chart.region_models), cov,
+                                keep_going=keep_going)
+            if not new.failed:
+                self.geom = new
+            return new
 
 
 def _covers(have, need) -> bool:
@@ -450,18 +500,20 @@ GEOMETRY_CACHE: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
 _CACHE_LOCK = threading.Lock()
 
 
-def geometry_of(chart, x_points=(), y_points=()) -> tuple[ChartGeometry, LineGeometry]:
+def geometry_of(chart, x_points=(), y_points=(), *, keep_going: bool = False) -> tuple[ChartGeometry, LineGeometry]:
     """The cached lines of ``chart``, covering the chart range and the windows of the points.
 
     ``x_points``, ``y_points``: log10 Q_L and log10 Q_G of the points [decade]. Returns the
     chart's :class:`ChartGeometry` (its ``lines``) and a :class:`LineGeometry` that covers them.
+    ``keep_going``: a line whose model raises one of :data:`MODEL_ERRORS` is left empty and named
+    in :attr:`LineGeometry.failed` (the margins then say so) instead of raising.
     """
     with _CACHE_LOCK:
         holder = GEOMETRY_CACHE.get(chart)
         if holder is None:
             holder = ChartGeometry(chart)
             GEOMETRY_CACHE[chart] = holder
-    return holder, holder.get(chart, coverage(chart, x_points, y_points))
+    return holder, holder.get(chart, coverage(chart, x_points, y_points), keep_going)
 
 
 def regime_indices(names, regimes):
@@ -477,3 +529,99 @@ def regime_indices(names, regimes):
     lookup = {n: i for i, n in enumerate(names)}
     return np.array([lookup.get(str(u), -1) for u in uniq], dtype=np.intp)[inv.ravel()].reshape(regimes.shape)
 
+
+
+# =============================================================================================
+# Where the lines cannot be evaluated
+
+@dataclass(frozen=True)
+class EvaluationGap:
+    """A region line, or the classification, without a value over part of a box of flows.
+
+    ``line``: index of the line in :func:`chart_lines` order (-1: the chart's classification);
+    ``label``: its chart label (or "the regime classification"); ``bad``, ``total``: test points
+    without a value and test points probed; ``error``: the message when the model raised.
+    """
+
+    line: int
+    label: str
+    bad: int
+    total: int
+    error: str | None = None
+
+
+def evaluation_gaps(chart, box, lines=(), *, n: int = _GAP_N, undefined_ok: bool | None = None,
+                    points=None) -> tuple[EvaluationGap, ...]:
+    """Where the region lines ``lines`` or the classification of ``chart`` give no value in ``box``.
+
+    Parameters
+    ----------
+    chart : Chart
+    box : (x0, x1, y0, y1)   the flows probed, log10 Q_L and log10 Q_G [decade]
+    lines : sequence of int  indices into ``chart.region_models`` of the lines that matter (e.g. the
+                             lines bounding a regime)
+    n : int                  the box is probed on an n x n grid, log-spaced, edges included
+    undefined_ok : bool, optional   a NaN value of a line's implicit function counts as a gap
+                             unless this is True; default: True under a scheme other than the
+                             sequence rule (whose rule maps a member's NaN, "undefined", to a regime)
+                             and False under the sequence rule (where a NaN would silently count as
+                             "above the line")
+    points : (x, y), optional   more points to probe, log10 Q_L and log10 Q_G [decade] (arrays)
+
+    Returns
+    -------
+    tuple of EvaluationGap   empty when every probed value exists
+
+    Notes
+    -----
+    A probe, not a proof: a patch without values narrower than the grid spacing can be missed.
+    A model that raises one of :data:`MODEL_ERRORS` gives a gap over the whole box.
+
+    Examples
+    --------
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.chart.composition import Chart
+    >>> from lowgmap.physics.models.boundary import PowerLawBoundary
+    >>> chart = Chart.build(example_case(), [PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")])
+    >>> evaluation_gaps(chart, (-6.0, -4.0, -6.0, -4.0), [0])
+    ()
+    """
+    if undefined_ok is None:
+        undefined_ok = not is_chain(chart)
+    x0, x1, y0, y1 = (float(v) for v in box)
+    u = np.linspace(x0, x1, n) if x1 > x0 else np.array([x0])
+    v = np.linspace(y0, y1, n) if y1 > y0 else np.array([y0])
+    GU, GV = np.meshgrid(10.0 ** u, 10.0 ** v)
+    U, V = GU.ravel(), GV.ravel()
+    if points is not None:
+        px, py = (np.ravel(np.asarray(c, dtype=float)) for c in points)
+        U, V = np.concatenate([U, 10.0 ** px]), np.concatenate([V, 10.0 ** py])
+    total = int(U.size)
+    out = []
+    region = list(chart.region_models)
+    for k in sorted(set(int(i) for i in lines)):
+        if not 0 <= k < len(region):
+            continue
+        model, consts = region[k]
+        try:
+            with np.errstate(all="ignore"):
+                g = np.broadcast_to(np.asarray(model.implicit(chart.case, U, V, **dict(consts)), dtype=float),
+                                    U.shape)
+        except MODEL_ERRORS as exc:
+            out.append(EvaluationGap(k, model.label, total, total, f"{type(exc).__name__}: {exc}"))
+            continue
+        bad = 0 if undefined_ok else int(np.count_nonzero(np.isnan(g)))
+        if bad:
+            out.append(EvaluationGap(k, model.label, bad, total))
+    if chart.regime_names:
+        try:
+            with np.errstate(all="ignore"):
+                reg = np.asarray(chart.classify(U, V)).ravel()
+        except MODEL_ERRORS as exc:
+            out.append(EvaluationGap(-1, "the regime classification", total, total, f"{type(exc).__name__}: {exc}"))
+        else:
+            names = set(chart.regime_names)
+            bad = int(sum(1 for r in reg.tolist() if r not in names))
+            if bad:
+                out.append(EvaluationGap(-1, "the regime classification", bad, total))
+    return tuple(out)

@@ -32,9 +32,24 @@ sides. For one piece the box of half-size m first touches it at
 pieces that bound the point's regime. Under the sequence rule these are the whole lines 0..i
 (``chart.bounding_models``); under other schemes the pieces are found by classifying both sides
 of every sampled chord (lines are first split where they cross each other). The box is not
-limited to the chart range: the lines extend as far as the models give them, as in
-:meth:`Chart.classify`. A margin of :data:`MAX_MARGIN` means that no boundary comes closer (the
-box would reach a flow 1000 times smaller); then no boundary is named.
+limited to the chart range: the lines are sampled over the point's ±:data:`MAX_MARGIN` box
+wherever the point lies (:func:`lowgmap.physics.chart.lines.coverage`), as far as the models give
+them, as in :meth:`Chart.classify`; so the margin of a point does not depend on the chart range. A
+margin of :data:`MAX_MARGIN` means that no boundary comes closer (the box would reach a flow 1000
+times smaller); then no boundary is named.
+
+What a result claims
+--------------------
+:class:`PointMargins`, :class:`EnvelopeCheck` and :class:`RobustPoint` say whether their answer is
+*established*, over which flows it was searched, and if not, why (plain sentences naming the line
+and the flows): a line that raises or (under the sequence rule) gives NaN over part of the box, a
+classification without a regime there, a regime that cannot be computed at the point, or a
+margin capped at :data:`MAX_MARGIN` because no boundary was found within the ±99.9 % box. They
+also say when the point or envelope lies outside the drawn chart range. :func:`margin_verdict`
+turns the margins and the requirement into a :class:`Verdict` in words ("met", "NOT MET", "not
+established"; "in the intended regime", "NOT IN THE INTENDED REGIME", "no intended regime
+stated") with its basis and limits: the one statement every view shows. It never says "met" for a
+margin that is not established.
 
 Which lines are reported: comparison lines whole; region-defining lines where they are drawn as
 boundaries: whole under the sequence rule, only where they separate two regimes under other
@@ -58,6 +73,16 @@ Internal interfaces for the studies (Monte Carlo, sweeps): :func:`regime_margins
 points on a :class:`~lowgmap.physics.chart.lines.LineGeometry`), its deferred form finished by
 :func:`resolve_deferred`, :func:`uncached_regime_margins` (lines sampled afresh, e.g. for a perturbed
 case) and :func:`check_point`.
+
+Examples
+--------
+>>> from lowgmap.physics.examples import example_case
+>>> from lowgmap.physics.models.boundary import PowerLawBoundary
+>>> from lowgmap.physics.chart.composition import Chart
+>>> chart = Chart.build(example_case(), [PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")])
+>>> far = point_margins(chart, 1e-5, 1e3)         # far above the chart, no boundary within ±99.9 %
+>>> far.established, far.outside_chart, margin_verdict(far, 0.3).margin_status
+(False, True, 'not established')
 """
 from __future__ import annotations
 
@@ -66,12 +91,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from lowgmap.physics.chart.lines import (LN10, MAX_MARGIN, WINDOW_HI, WINDOW_LO, GEOMETRY_CACHE, LineGeometry,
-                                         bounding_lines, geometry_of, is_chain, make_geometry, regime_indices)
-from lowgmap.physics.validate import positive
+from lowgmap.physics.chart.lines import (LN10, MAX_MARGIN, MODEL_ERRORS, WINDOW_HI, WINDOW_LO,
+                                         LineGeometry, bounding_lines, evaluation_gaps, geometry_of, is_chain,
+                                         make_geometry, margin_window, regime_indices)
+from lowgmap.physics.validate import finite, positive
 
 __all__ = ["MAX_MARGIN", "DIRECTIONS", "BoundaryMargin", "PointMargins", "point_margins", "symmetric_margins",
            "CornerCheck", "EnvelopeLine", "EnvelopeCheck", "envelope_check", "RobustPoint", "robust_point",
+           "Verdict", "margin_verdict", "REGIME_STATUSES", "MARGIN_STATUSES",
            "regime_index", "box_margin_on_segments", "regime_margins", "resolve_deferred",
            "uncached_regime_margins", "check_point"]
 
@@ -79,6 +106,79 @@ __all__ = ["MAX_MARGIN", "DIRECTIONS", "BoundaryMargin", "PointMargins", "point_
 DIRECTIONS = ("ql_up", "ql_down", "qg_up", "qg_down")
 
 _CHUNK = 2_000_000                            # points x segments per block in vectorised margins
+_BEYOND = 1e-6                                # gaps are probed over the ±m (1 + _BEYOND) box: just past the touch
+
+#: The words of :attr:`Verdict.regime_status`: in it, not in it, none stated.
+REGIME_STATUSES = ("in the intended regime", "NOT IN THE INTENDED REGIME", "no intended regime stated")
+#: The words of :attr:`Verdict.margin_status`.
+MARGIN_STATUSES = ("met", "NOT MET", "not established")
+
+
+# =============================================================================================
+# Words: the sentences of the results (flows with 4 significant digits, percentages with 3)
+
+def _q(v: float) -> str:
+    return f"{v:.4g}"
+
+
+def _pct(m: float) -> str:
+    return f"{100.0 * m:.3g} %"
+
+
+def _flows_text(ql_lo, ql_hi, qg_lo, qg_hi) -> str:
+    """'Q_L a to b m³/s, Q_G c to d m³/s'."""
+    return f"Q_L {_q(ql_lo)} to {_q(ql_hi)} m³/s, Q_G {_q(qg_lo)} to {_q(qg_hi)} m³/s"
+
+
+def _box_flows(box) -> tuple[float, float, float, float]:
+    return tuple(10.0 ** float(v) for v in box)
+
+
+def _outside_chart(chart, ql_lo, ql_hi, qg_lo, qg_hi, what: str) -> tuple[bool, str]:
+    """Whether flows of [ql_lo, ql_hi] x [qg_lo, qg_hi] lie outside the chart range, with a sentence."""
+    fr = chart.case.flow_range
+    rel = 1e-9
+    parts = []
+    if ql_lo < fr.ql_min * (1 - rel):
+        parts.append("liquid flow below it")
+    if ql_hi > fr.ql_max * (1 + rel):
+        parts.append("liquid flow above it")
+    if qg_lo < fr.qg_min * (1 - rel):
+        parts.append("gas flow below it")
+    if qg_hi > fr.qg_max * (1 + rel):
+        parts.append("gas flow above it")
+    if not parts:
+        return False, ""
+    return True, (f"{what} lies outside the drawn chart range "
+                  f"({_flows_text(fr.ql_min, fr.ql_max, fr.qg_min, fr.qg_max)}), with {' and '.join(parts)}: "
+                  f"the chart does not show it, and the sources of the models may not cover it.")
+
+
+def _gap_reasons(gaps, box) -> list[str]:
+    """Sentences for :func:`lowgmap.physics.chart.lines.evaluation_gaps` results over ``box`` [decade]."""
+    where = _flows_text(*_box_flows(box))
+    out = []
+    for gp in gaps:
+        name = gp.label if gp.line < 0 else f"the line {gp.label}"
+        if gp.error is not None:
+            out.append(f"{name[0].upper()}{name[1:]} could not be evaluated over {where} ({gp.error}).")
+        else:
+            out.append(f"{name[0].upper()}{name[1:]} gives no value at {gp.bad} of {gp.total} test points over "
+                       f"{where}, so the regime there is assumed, not computed.")
+    return out
+
+
+def _failed_reasons(holder_lines, g: LineGeometry, wanted) -> list[str]:
+    """Sentences for the lines among ``wanted`` that could not be sampled in ``g``."""
+    where = _flows_text(*_box_flows(g.cov))
+    return [f"The line {holder_lines[k][0].label} could not be sampled over {where} ({msg})."
+            for k, msg in g.failed if k in wanted]
+
+
+def _cap_reason(regime: str, box) -> str:
+    return (f"No boundary of the regime \"{regime}\" was found within the searched ±{_pct(MAX_MARGIN)} box "
+            f"({_flows_text(*_box_flows(box))}): the margin is at least ±{_pct(MAX_MARGIN)} on the lines as "
+            f"modelled, but no boundary limits it, so it is not established.")
 
 
 # =============================================================================================
@@ -435,22 +535,30 @@ def _axis_crossings(g: LineGeometry, sel, lines, case, x0: float, y0: float, box
         def G(s, na=na, model=model, consts=consts):
             ql = np.concatenate([np.full(na, 10.0 ** x0), 10.0 ** s[na:]])
             qg = np.concatenate([10.0 ** s[:na], np.full(s.size - na, 10.0 ** y0)])
-            with np.errstate(all="ignore"):
-                return np.asarray(model.implicit(case, ql, qg, **consts), dtype=float).reshape(-1)
+            return _implicit(model, case, ql, qg, consts)
 
         est = np.concatenate([yv[a], xh[b]])
-        with np.errstate(all="ignore"):          # the point and the estimates in one call
-            vals = np.asarray(model.implicit(case, np.concatenate([[10.0 ** x0], np.full(na, 10.0 ** x0),
-                                                                   10.0 ** est[na:]]),
-                                             np.concatenate([[10.0 ** y0], 10.0 ** est[:na],
-                                                             np.full(b.size, 10.0 ** y0)]), **consts),
-                              dtype=float).reshape(-1)
+        vals = _implicit(model, case,                # the point and the estimates in one call
+                         np.concatenate([[10.0 ** x0], np.full(na, 10.0 ** x0), 10.0 ** est[na:]]),
+                         np.concatenate([[10.0 ** y0], 10.0 ** est[:na], np.full(b.size, 10.0 ** y0)]), consts)
         g_point[k] = vals[0]
         if est.size:
             s = _polish(G, est, vals[1:])
             along_y[k] = (s[:na], iv[a])
             along_x[k] = (s[na:], ih[b])
     return along_y, along_x, g_point
+
+
+def _implicit(model, case, ql, qg, consts):
+    """The model's implicit function at the points, flat; NaN everywhere if it raises one of MODEL_ERRORS."""
+    ql = np.atleast_1d(np.asarray(ql, dtype=float))
+    try:
+        with np.errstate(all="ignore"):
+            out = np.asarray(model.implicit(case, ql, np.atleast_1d(np.asarray(qg, dtype=float)), **consts),
+                             dtype=float)
+        return np.broadcast_to(out, ql.shape).reshape(-1).copy()
+    except MODEL_ERRORS:
+        return np.full(ql.size, np.nan)
 
 
 def _nearest_factors(values, chords, centre, lo, hi, allowed=None):
@@ -547,6 +655,22 @@ class PointMargins:
     limits : dict              direction ("ql_up", "ql_down", "qg_up", "qg_down") -> name of the
                                line where the regime changes first along that axis, or None
     regime_factors : dict      direction -> factor at which the regime changes first, or None
+    established : bool         True when the margin is established: the regime at the point is
+                               known, a boundary of it was found within the searched box, every
+                               line bounding the regime could be evaluated over the ±m box and just
+                               past the point where it touches the boundary, and the classification
+                               gives a regime everywhere there
+    reasons : tuple of str     why it is not established (plain sentences naming the line and the
+                               flows); empty when it is
+    search_ql, search_qg : (float, float)   the flows searched for a boundary: the ±MAX_MARGIN box
+                               of the point [m^3/s] (independent of the chart range)
+    outside_chart : bool       the point lies outside the chart range (``case.flow_range``)
+    outside_chart_note : str   a sentence saying so ("" when inside)
+    regime_determined : bool   the regime at the point could be computed (every line that decides
+                               it has a value there)
+    regimes : tuple of str     the regimes of the chart (for checking an intended regime)
+    caveats : tuple of str     other limits of the result, e.g. the point outside the range of a
+                               source's data
     """
 
     ql: float
@@ -557,6 +681,15 @@ class PointMargins:
     limiting_boundary: str | None
     limits: dict
     regime_factors: dict
+    established: bool = True
+    reasons: tuple[str, ...] = ()
+    search_ql: tuple[float, float] | None = None
+    search_qg: tuple[float, float] | None = None
+    outside_chart: bool = False
+    outside_chart_note: str = ""
+    regime_determined: bool = True
+    regimes: tuple[str, ...] = ()
+    caveats: tuple[str, ...] = ()
 
     def boundary(self, name: str) -> BoundaryMargin:
         """The :class:`BoundaryMargin` of the line called ``name``."""
@@ -583,6 +716,14 @@ class PointMargins:
             "limits": dict(self.limits),
             "regime_factors": dict(self.regime_factors),
             "boundaries": [b.to_dict() for b in self.boundaries],
+            "margin_established": self.established,
+            "margin_reasons": list(self.reasons),
+            "search_range_m3_s": {"ql": list(self.search_ql) if self.search_ql else None,
+                                  "qg": list(self.search_qg) if self.search_qg else None},
+            "outside_chart": self.outside_chart,
+            "outside_chart_note": self.outside_chart_note,
+            "regime_determined": self.regime_determined,
+            "caveats": list(self.caveats),
         }
 
 
@@ -622,8 +763,19 @@ def point_margins(chart, ql: float, qg: float) -> PointMargins:
     Notes
     -----
     Axis factors, nearest points and distances are searched inside the chart range widened to
-    contain the point; the symmetric margin uses the lines wherever they run. Comparison lines get
-    factors and distances but never limit the regime. Method and accuracy: see the module notes.
+    contain the point; the symmetric margin uses the lines wherever they run: they are sampled over
+    the point's ±:data:`MAX_MARGIN` box wherever the point lies, so the margin does not depend on
+    the chart range. Comparison lines get factors and distances but never limit the regime.
+    Method and accuracy: see the module notes.
+
+    The result says whether the margin is *established* (see :class:`PointMargins`): not when the
+    regime at the point cannot be computed, when a line bounding the regime cannot be evaluated
+    (its model raises, or, under the sequence rule, gives NaN) over part of the ±m box or just
+    past the point where the box touches the limiting boundary (a boundary that is only the edge
+    of a model's domain is assumed, not computed), when the classification gives no regime there,
+    or when no boundary was found within the ±MAX_MARGIN box (the margin is then a lower bound that
+    no boundary limits). The gaps are probed on a 25 x 25 log grid over the ±m(1 + 1e-6) box and
+    just past the touch point (:func:`lowgmap.physics.chart.lines.evaluation_gaps`).
 
     Examples
     --------
@@ -640,13 +792,19 @@ def point_margins(chart, ql: float, qg: float) -> PointMargins:
     """
     ql, qg = check_point(ql, qg)
     x0, y0 = math.log10(ql), math.log10(qg)
-    regime = str(chart.classify(ql, qg))
+    reasons: list[str] = []
+    try:
+        with np.errstate(all="ignore"):
+            regime = str(chart.classify(ql, qg))
+    except MODEL_ERRORS as exc:
+        regime = ""
+        reasons.append(f"The regime at the point could not be computed ({type(exc).__name__}: {exc}).")
     names = list(chart.regime_names)
     r = names.index(regime) if regime in names else -1
     fr = chart.case.flow_range
     box = (min(math.log10(fr.ql_min), x0), max(math.log10(fr.ql_max), x0),
            min(math.log10(fr.qg_min), y0), max(math.log10(fr.qg_max), y0))
-    holder, g = geometry_of(chart, [x0], [y0])
+    holder, g = geometry_of(chart, [x0], [y0], keep_going=True)
     lines = [(m, c) for m, c, _ in holder.lines]
     adj = g.adjacent(r) if r >= 0 else np.zeros(g.xa.size, dtype=bool)
     m_line, t_line, reg = _point_box(g, x0, y0, r)
@@ -686,9 +844,69 @@ def point_margins(chart, ql: float, qg: float) -> PointMargins:
     m_reg, lim = MAX_MARGIN, None
     if reg[1] >= 0 and reg[0] < MAX_MARGIN:
         m_reg, lim = float(reg[0]), lines[reg[1]][0].name
+    touch_at = (reg[2], reg[3]) if lim is not None else None
+    determined, more, caveats = _point_evidence(chart, holder.lines, g, regime, r, x0, y0, m_reg, g_point,
+                                                touch_at)
+    reasons += more
+    outside, note = _outside_chart(chart, ql, ql, qg, qg,
+                                   f"The point (Q_L {_q(ql)} m³/s, Q_G {_q(qg)} m³/s)")
     return PointMargins(ql, qg, regime, tuple(out), m_reg, lim,
                         {d: (first[d][1] if first[d] else None) for d in DIRECTIONS},
-                        {d: (first[d][0] if first[d] else None) for d in DIRECTIONS})
+                        {d: (first[d][0] if first[d] else None) for d in DIRECTIONS},
+                        established=not reasons, reasons=tuple(reasons),
+                        search_ql=(ql * (1.0 - MAX_MARGIN), ql * (1.0 + MAX_MARGIN)),
+                        search_qg=(qg * (1.0 - MAX_MARGIN), qg * (1.0 + MAX_MARGIN)),
+                        outside_chart=outside, outside_chart_note=note, regime_determined=determined,
+                        regimes=tuple(names), caveats=tuple(caveats))
+
+
+def _point_evidence(chart, holder_lines, g: LineGeometry, regime: str, r: int, x0: float, y0: float,
+                    m: float, g_point, touch=None) -> tuple[bool, list[str], list[str]]:
+    """(regime determined, reasons the margin m is not established, caveats) for one point.
+
+    ``touch``: (x, y) [decade] where the ±m box touches the limiting boundary, or None.
+    """
+    names = list(chart.regime_names)
+    if not names:
+        return False, ["The chart has no regimes (no boundary model on it defines regimes), so there is no "
+                       "margin to establish."], []
+    if r < 0:
+        return False, ["The regime at the point could not be determined: the chart's lines give no regime "
+                       "there."], []
+    wanted = set(g.bounding.get(r, ()))
+    reasons = _failed_reasons(holder_lines, g, wanted)
+    determined = not reasons
+    if g.chain:
+        bad = [k for k in sorted(wanted) if not math.isfinite(float(g_point[k]))]
+        if bad:
+            determined = False
+            reasons.append("The regime at the point is assumed, not computed: "
+                           + "; ".join(f"the line {holder_lines[k][0].label}" for k in bad)
+                           + " gives no value there.")
+    box = margin_window(x0, y0, min(m * (1.0 + _BEYOND) + 1e-12, MAX_MARGIN))
+    extra = None
+    if touch is not None:                       # just past the touch point, away from the point
+        tx, ty = touch
+        extra = ([x0 + (tx - x0) * (1 + _BEYOND) + math.copysign(1e-9, tx - x0)],
+                 [y0 + (ty - y0) * (1 + _BEYOND) + math.copysign(1e-9, ty - y0)])
+    reasons += _gap_reasons(evaluation_gaps(chart, box, sorted(wanted), points=extra), box)
+    if m >= MAX_MARGIN:
+        reasons.append(_cap_reason(regime, margin_window(x0, y0)))
+    caveats = []
+    ql, qg = 10.0 ** x0, 10.0 ** y0
+    for k in sorted(wanted):
+        model, consts, _ = holder_lines[k]
+        try:
+            with np.errstate(all="ignore"):
+                if getattr(model, "validity_uses_constants", False):
+                    ok = np.asarray(model.validity_mask(chart.case, ql, qg, **consts), dtype=bool)
+                else:
+                    ok = np.asarray(model.validity_mask(chart.case, ql, qg), dtype=bool)
+        except MODEL_ERRORS:
+            continue
+        if not bool(np.all(ok)):
+            caveats.append(f"The point lies outside the range of the source data of the line {model.label}.")
+    return determined, reasons, caveats
 
 
 def symmetric_margins(chart, ql, qg, *, regime=None):
@@ -711,6 +929,9 @@ def symmetric_margins(chart, ql, qg, *, regime=None):
     Notes
     -----
     Same definition and result as :func:`point_margins` (exact minimum over the sampled lines).
+    A point whose regime is bounded by a line that could not be sampled over its window (the model
+    raised there) gets NaN. Whether each margin is established is reported by
+    :func:`point_margins` only.
 
     Examples
     --------
@@ -733,8 +954,16 @@ def symmetric_margins(chart, ql, qg, *, regime=None):
     lim = np.full(ql.size, -1, dtype=np.intp)
     if ok.any():
         x0, y0 = np.log10(ql[ok]), np.log10(qg[ok])
-        _, g = geometry_of(chart, [x0.min(), x0.max()], [y0.min(), y0.max()])
-        m[ok], lim[ok] = regime_margins(g, x0, y0, regime_indices(list(chart.regime_names), regimes[ok]))
+        _, g = geometry_of(chart, [x0.min(), x0.max()], [y0.min(), y0.max()], keep_going=True)
+        ridx = regime_indices(list(chart.regime_names), regimes[ok])
+        mo, lo = regime_margins(g, x0, y0, ridx)
+        if g.failed:
+            dead = {k for k, _ in g.failed}
+            for r in np.unique(ridx[ridx >= 0]):
+                if dead & set(g.bounding.get(int(r), ())):
+                    mo[ridx == r] = np.nan
+                    lo[ridx == r] = -1
+        m[ok], lim[ok] = mo, lo
     if regime is not None:
         regime_index(chart, regime)
         m = np.where(regimes == regime, m, -m)
@@ -787,6 +1016,14 @@ class EnvelopeCheck:
                                 found on a 41 x 41 grid, the corners and beside each crossing line)
     corners : tuple of CornerCheck
     lines : tuple of EnvelopeLine
+    established : bool          the answer is established: every line bounding the reference regime
+                                could be evaluated over the rectangle and the classification gives a
+                                regime everywhere in it
+    reasons : tuple of str      why it is not established (plain sentences)
+    outside_chart : bool        part of the rectangle (or the reference point) lies outside the chart
+                                range (``case.flow_range``)
+    outside_chart_note : str    a sentence saying so ("" when inside)
+    boundary_inside : bool      a sampled boundary of the reference regime passes through the rectangle
     """
 
     ql_range: tuple[float, float]
@@ -797,6 +1034,18 @@ class EnvelopeCheck:
     regimes: tuple[str, ...]
     corners: tuple
     lines: tuple
+    established: bool = True
+    reasons: tuple[str, ...] = ()
+    outside_chart: bool = False
+    outside_chart_note: str = ""
+    boundary_inside: bool = False
+
+    @property
+    def status(self) -> str:
+        """'wholly inside one regime', 'NOT WHOLLY INSIDE ONE REGIME' or 'not established'."""
+        if not self.established:
+            return "not established"
+        return "wholly inside one regime" if self.wholly_inside else "NOT WHOLLY INSIDE ONE REGIME"
 
     def to_dict(self) -> dict:
         return {
@@ -808,6 +1057,9 @@ class EnvelopeCheck:
             "lines": [{"name": ln.name, "label": ln.label, "role": ln.role, "crosses": ln.crosses,
                        "corners_across": list(ln.corners_across), "limits_regime": ln.limits_regime}
                       for ln in self.lines],
+            "established": self.established, "reasons": list(self.reasons), "status": self.status,
+            "boundary_inside": self.boundary_inside,
+            "outside_chart": self.outside_chart, "outside_chart_note": self.outside_chart_note,
         }
 
 
@@ -842,6 +1094,9 @@ def envelope_check(chart, ql_range, qg_range, reference=None) -> EnvelopeCheck:
     The rectangle keeps one regime exactly when no boundary of the reference regime has a point
     in the closed rectangle (the same argument as for the symmetric box). ``corners_across``
     compares the sign of each line's implicit function at the corners with the reference point.
+    The lines are sampled over the rectangle wherever it lies (not only over the chart range); the
+    result says whether the answer is established (:class:`EnvelopeCheck`) and whether the
+    rectangle leaves the chart range.
 
     Examples
     --------
@@ -864,21 +1119,21 @@ def envelope_check(chart, ql_range, qg_range, reference=None) -> EnvelopeCheck:
                ("high Q_L, high Q_G", ql_hi, qg_hi), ("low Q_L, high Q_G", ql_lo, qg_hi))
     cq_l = np.array([c[1] for c in corners])
     cq_g = np.array([c[2] for c in corners])
-    c_reg = chart.classify(cq_l, cq_g)
-    regime = str(chart.classify(*ref))
+    with np.errstate(all="ignore"):
+        c_reg = chart.classify(cq_l, cq_g)
+        regime = str(chart.classify(*ref))
     names = list(chart.regime_names)
     r = names.index(regime) if regime in names else -1
     box = (math.log10(ql_lo), math.log10(ql_hi), math.log10(qg_lo), math.log10(qg_hi))
-    holder, g = geometry_of(chart, box[:2], box[2:])
+    holder, g = geometry_of(chart, box[:2], box[2:], keep_going=True)
     cx, cy = 0.5 * (box[0] + box[1]), 0.5 * (box[2] + box[3])
     d_all, _, _ = _nearest(g, g.usable, cx, cy, box)
     adj = g.adjacent(r) if r >= 0 else np.zeros(g.xa.size, dtype=bool)
     d_adj, _, _ = _nearest(g, adj, cx, cy, box)
     lines = []
     for k, (model, consts, role) in enumerate(holder.lines):
-        with np.errstate(all="ignore"):
-            g_ref = float(np.asarray(model.implicit(chart.case, ref[0], ref[1], **consts), dtype=float).reshape(-1)[0])
-            g_c = np.asarray(model.implicit(chart.case, cq_l, cq_g, **consts), dtype=float).reshape(-1)
+        g_ref = float(_implicit(model, chart.case, ref[0], ref[1], consts)[0])
+        g_c = _implicit(model, chart.case, cq_l, cq_g, consts)
         across = tuple(c[0] for c, gc in zip(corners, g_c) if (gc < 0) != (g_ref < 0))
         lines.append(EnvelopeLine(model.name, model.label, role, not math.isnan(d_all[k]), across,
                                   bool(np.any(adj & (g.line == k)))))
@@ -900,9 +1155,22 @@ def envelope_check(chart, ql_range, qg_range, reference=None) -> EnvelopeCheck:
                 found |= set(np.unique(chart.classify(10.0 ** xm[sel], 10.0 ** np.clip(ym[sel] + dy, box[2], box[3])))
                              .tolist())
         regimes = tuple(n for n in names if n in found)
+    reasons: list[str] = []
+    if not names:
+        reasons.append("The chart has no regimes (no boundary model on it defines regimes).")
+    elif r < 0:
+        reasons.append("The regime at the reference point could not be determined: the chart's lines give no "
+                       "regime there.")
+    else:
+        wanted = set(g.bounding.get(r, ()))
+        reasons += _failed_reasons(holder.lines, g, wanted)
+        reasons += _gap_reasons(evaluation_gaps(chart, box, sorted(wanted)), box)
+    outside, note = _outside_chart(chart, min(ql_lo, ref[0]), max(ql_hi, ref[0]), min(qg_lo, ref[1]),
+                                   max(qg_hi, ref[1]), "The operating envelope")
     return EnvelopeCheck((ql_lo, ql_hi), (qg_lo, qg_hi), ref, regime, wholly, regimes,
                          tuple(CornerCheck(c[0], c[1], c[2], str(rg)) for c, rg in zip(corners, c_reg)),
-                         tuple(lines))
+                         tuple(lines), established=not reasons, reasons=tuple(reasons), outside_chart=outside,
+                         outside_chart_note=note, boundary_inside=r >= 0 and not bool(np.all(np.isnan(d_adj))))
 
 
 # ---------------------------------------------------------------------------------------------
@@ -913,8 +1181,14 @@ class RobustPoint:
     """The point of a regime with the largest symmetric margin.
 
     ``ql``, ``qg`` [m^3/s]; ``margin`` [fraction]; ``limiting``: names of the lines the ±margin box
-    touches (usually two at the optimum), ``regime``; ``ql_range``, ``qg_range``: the allowed
-    flow ranges searched [m^3/s].
+    touches (usually two at the optimum), ``regime``; ``ql_range``, ``qg_range``: the flow ranges
+    searched [m^3/s]; ``range_basis``: where they come from ("given", "a decade either side of the
+    operating point", "the chart range"), one phrase per axis joined by "; " when they differ;
+    ``established``: the margin of the point is established and every line bounding the regime could
+    be evaluated over the searched ranges; ``reasons``: why not (plain sentences); ``outside_chart``,
+    ``outside_chart_note``: the point lies outside the chart range; ``caveats``: other limits (e.g.
+    the best point lies on the edge of the searched range); ``margins``: the full
+    :class:`PointMargins` of the point (for :func:`margin_verdict`).
     """
 
     ql: float
@@ -924,16 +1198,61 @@ class RobustPoint:
     regime: str
     ql_range: tuple[float, float]
     qg_range: tuple[float, float]
+    range_basis: str = "given"
+    established: bool = True
+    reasons: tuple[str, ...] = ()
+    outside_chart: bool = False
+    outside_chart_note: str = ""
+    caveats: tuple[str, ...] = ()
+    margins: PointMargins | None = None
+
+    @property
+    def search_note(self) -> str:
+        """One sentence: the flows searched and where that range comes from."""
+        return (f"Searched within {_flows_text(*self.ql_range, *self.qg_range)} "
+                f"({self.range_basis}).")
 
     def to_dict(self) -> dict:
         return {"regime": self.regime, "ql_m3_s": self.ql, "qg_m3_s": self.qg, "symmetric_margin": self.margin,
                 "limiting": list(self.limiting), "ql_range_m3_s": list(self.ql_range),
-                "qg_range_m3_s": list(self.qg_range)}
+                "qg_range_m3_s": list(self.qg_range), "range_basis": self.range_basis,
+                "search_note": self.search_note, "margin_established": self.established,
+                "margin_reasons": list(self.reasons), "outside_chart": self.outside_chart,
+                "outside_chart_note": self.outside_chart_note, "caveats": list(self.caveats)}
 
 
-def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, grid: int = 25, starts: int = 4
-                 ) -> RobustPoint:
-    r"""The point of ``regime`` with the largest symmetric margin, within allowed flow ranges.
+_AROUND = 10.0                                # default search: a factor 10 either side of the operating point
+
+
+def _search_ranges(chart, ql_range, qg_range, around):
+    """The search ranges [m^3/s] of :func:`robust_point` and a phrase saying where they come from."""
+    fr = chart.case.flow_range
+    if around is None:
+        op = getattr(chart.case, "operating_point", None)
+        centre = None if op is None else (float(op.ql), float(op.qg))
+        what = "the operating point"
+    else:
+        centre = check_point(*around)
+        what = "the given point"
+    out, basis = [], []
+    for i, (name, rng, lo, hi) in enumerate((("ql_range", ql_range, fr.ql_min, fr.ql_max),
+                                              ("qg_range", qg_range, fr.qg_min, fr.qg_max))):
+        if rng is not None:
+            out.append(_check_range(name, rng))
+            basis.append("given")
+        elif centre is not None:
+            out.append((centre[i] / _AROUND, centre[i] * _AROUND))
+            basis.append(f"a decade either side of {what}")
+        else:
+            out.append((lo, hi))
+            basis.append("the chart range (the case has no operating point)")
+    phrase = basis[0] if basis[0] == basis[1] else f"Q_L: {basis[0]}; Q_G: {basis[1]}"
+    return out[0], out[1], phrase
+
+
+def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, around=None, grid: int = 25,
+                 starts: int = 4) -> RobustPoint:
+    r"""The point of ``regime`` with the largest symmetric margin, within stated flow ranges.
 
     .. math:: \max_{(Q_L, Q_G) \in R \cap [Q_{L,lo}, Q_{L,hi}] \times [Q_{G,lo}, Q_{G,hi}]} m(Q_L, Q_G)
 
@@ -941,13 +1260,17 @@ def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, grid: int 
     ----------
     chart : Chart
     regime : str     one of ``chart.regime_names``
-    ql_range, qg_range : (float, float), optional   allowed flows [m^3/s]; default: the chart range
+    ql_range, qg_range : (float, float), optional   flows searched [m^3/s]; default: a decade either
+                     side of ``around`` (Q/10 to 10 Q), or the chart range when there is no such point
+    around : (float, float), optional   the point (Q_L, Q_G) [m^3/s] the default ranges are centred
+                     on; default: the case's operating point (``chart.case.operating_point``)
     grid : int       start search: margins on a grid x grid of log-spaced points
     starts : int     number of the best grid points polished by Nelder–Mead in (log Q_L, log Q_G)
 
     Returns
     -------
-    RobustPoint
+    RobustPoint      with the ranges searched, where they come from, and whether its margin is
+                     established
 
     Raises
     ------
@@ -957,6 +1280,10 @@ def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, grid: int 
 
     Notes
     -----
+    The default range is a decade either side of the operating point, not the chart range: the
+    chart range is chosen for the picture, while the robust point is a design suggestion near the
+    intended operation. The optimum may lie on the edge of the range (then a caveat says so).
+
     The margin is a minimum of smooth functions, largest where two lines are equally close; the
     polish (scipy Nelder–Mead, tolerance 1e-8 decade) handles that kink. Between two lines
     Q_G = c_1 Q_L and Q_G = c_2 Q_L the optimum is the ratio Q_G/Q_L = sqrt(c_1 c_2) with
@@ -973,21 +1300,22 @@ def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, grid: int 
     >>> rp = robust_point(chart, "b")
     >>> round(rp.qg / rp.ql, 4), round(rp.margin, 6)     # ratio 1; (1 - m)/(1 + m) = 0.1
     (1.0, 0.818182)
+    >>> rp.range_basis, rp.established
+    ('the chart range (the case has no operating point)', True)
     """
     from scipy.optimize import minimize
 
     r_idx = regime_index(chart, regime)
-    fr = chart.case.flow_range
-    ql_lo, ql_hi = _check_range("ql_range", ql_range if ql_range is not None else (fr.ql_min, fr.ql_max))
-    qg_lo, qg_hi = _check_range("qg_range", qg_range if qg_range is not None else (fr.qg_min, fr.qg_max))
+    (ql_lo, ql_hi), (qg_lo, qg_hi), basis = _search_ranges(chart, ql_range, qg_range, around)
     bx = (math.log10(ql_lo), math.log10(ql_hi), math.log10(qg_lo), math.log10(qg_hi))
-    _, g = geometry_of(chart, bx[:2], bx[2:])
+    holder, g = geometry_of(chart, bx[:2], bx[2:], keep_going=True)
 
     u = np.linspace(bx[0], bx[1], grid)
     v = np.linspace(bx[2], bx[3], grid)
-    U, V = np.meshgrid(u, v)
-    U, V = U.ravel(), V.ravel()
-    reg = np.asarray(chart.classify(10.0 ** U, 10.0 ** V))
+    GU, GV = np.meshgrid(u, v)
+    U, V = GU.ravel(), GV.ravel()
+    with np.errstate(all="ignore"):
+        reg = np.asarray(chart.classify(10.0 ** U, 10.0 ** V))
     inside = reg == regime
     if not inside.any():                        # a thin region: try the region polygons' vertices
         pu, pv = [], []
@@ -1003,8 +1331,9 @@ def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, grid: int 
             reg = np.asarray(chart.classify(10.0 ** U, 10.0 ** V))
             inside = reg == regime
     if not inside.any():
+        hint = "" if basis == "given" else f" ({basis}); give ql_range and qg_range to search elsewhere"
         raise ValueError(f"regime {regime!r} does not occur within Q_L [{ql_lo:.4g}, {ql_hi:.4g}] m^3/s, "
-                         f"Q_G [{qg_lo:.4g}, {qg_hi:.4g}] m^3/s")
+                         f"Q_G [{qg_lo:.4g}, {qg_hi:.4g}] m^3/s{hint}")
     U, V = U[inside], V[inside]
     m0, _ = regime_margins(g, U, V, np.full(U.size, r_idx, dtype=np.intp))
 
@@ -1040,7 +1369,179 @@ def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, grid: int 
     m = pm.symmetric_margin
     touching = tuple(b.name for b in pm.boundaries
                      if b.limits_regime and b.margin < MAX_MARGIN and b.margin <= m * (1 + 1e-4) + 1e-9)
-    return RobustPoint(ql, qg, m, touching, regime, (ql_lo, ql_hi), (qg_lo, qg_hi))
+    reasons = list(pm.reasons)
+    wanted = set(g.bounding.get(r_idx, ()))
+    reasons += [t for t in _failed_reasons(holder.lines, g, wanted) if t not in reasons]
+    reasons += _gap_reasons(evaluation_gaps(chart, bx, sorted(wanted)), bx)
+    caveats = list(pm.caveats)
+    edges = [w for w, hit in (("the lowest Q_L", best[1] - bx[0] < 1e-6), ("the highest Q_L", bx[1] - best[1] < 1e-6),
+                              ("the lowest Q_G", best[2] - bx[2] < 1e-6), ("the highest Q_G", bx[3] - best[2] < 1e-6))
+             if hit]
+    if edges:
+        caveats.append(f"The best point lies on the edge of the searched range ({' and '.join(edges)}): a wider "
+                       f"range may give a larger margin.")
+    return RobustPoint(ql, qg, m, touching, regime, (ql_lo, ql_hi), (qg_lo, qg_hi), basis,
+                       established=not reasons, reasons=tuple(reasons), outside_chart=pm.outside_chart,
+                       outside_chart_note=pm.outside_chart_note, caveats=tuple(caveats), margins=pm)
 
 
 # ---------------------------------------------------------------------------------------------
+# Verdict: one statement of the margin for every view
+
+@dataclass(frozen=True)
+class Verdict:
+    """What the margins of an operating point say against the requirement, in words.
+
+    Every view (command line, dashboard, exported chart, review report) shows these words and
+    sentences; none decides "met" on its own.
+
+    Attributes
+    ----------
+    regime : str                  regime at the point ("" when none)
+    intended_regime : str or None the regime the design wants (None: none stated)
+    in_intended_regime : bool or None   None when no intended regime is stated; False also when the
+                                  regime at the point could not be determined
+    regime_status : str           "in the intended regime", "NOT IN THE INTENDED REGIME" or "no intended
+                                  regime stated" (:data:`REGIME_STATUSES`)
+    margin_status : str           "met", "NOT MET" or "not established" (:data:`MARGIN_STATUSES`)
+    required : float              required symmetric margin [fraction]
+    margin : float                the symmetric margin computed [fraction] (a lower bound when it is
+                                  :data:`MAX_MARGIN`)
+    limiting_boundary : str or None   name of the line that sets it
+    limiting_label : str or None  its chart label
+    established : bool            the margin is established (:class:`PointMargins`)
+    outside_chart : bool          the point lies outside the drawn chart range
+    basis : str                   one sentence: what was computed
+    limits : tuple of str         sentences: what the verdict does not cover (why the margin is not
+                                  established, the point outside the drawn chart, lines not counted,
+                                  effects not included)
+    """
+
+    regime: str
+    intended_regime: str | None
+    in_intended_regime: bool | None
+    regime_status: str
+    margin_status: str
+    required: float
+    margin: float
+    limiting_boundary: str | None
+    limiting_label: str | None
+    established: bool
+    outside_chart: bool
+    basis: str
+    limits: tuple[str, ...]
+
+    @property
+    def met(self) -> bool:
+        """True only when the margin status is "met"."""
+        return self.margin_status == "met"
+
+    @property
+    def headline(self) -> str:
+        """One line for a title block, e.g. 'Required margin ±30 %: met (±78.1 %); in the intended regime'."""
+        shown = f"at least ±{_pct(self.margin)}" if self.margin >= MAX_MARGIN else f"±{_pct(self.margin)}"
+        return (f"Required margin ±{_pct(self.required)}: {self.margin_status} (symmetric margin {shown}); "
+                f"{self.regime_status}")
+
+    def to_dict(self) -> dict:
+        """JSON-ready dict (fractions for margins)."""
+        return {"regime": self.regime, "intended_regime": self.intended_regime,
+                "in_intended_regime": self.in_intended_regime, "regime_status": self.regime_status,
+                "margin_status": self.margin_status, "met": self.met, "required_margin": self.required,
+                "symmetric_margin": self.margin if math.isfinite(self.margin) else None,
+                "limiting_boundary": self.limiting_boundary, "limiting_label": self.limiting_label,
+                "margin_established": self.established, "outside_chart": self.outside_chart,
+                "basis": self.basis, "limits": list(self.limits), "headline": self.headline}
+
+
+def margin_verdict(margins: PointMargins, required_margin: float, intended_regime: str | None = None) -> Verdict:
+    r"""The verdict on an operating point's margins: intended regime, required margin, basis, limits.
+
+    .. math:: \text{met} \iff \text{established} \wedge m \ge m_\mathrm{req}
+              \wedge (\text{no intended regime} \vee \text{regime} = \text{intended})
+
+    Parameters
+    ----------
+    margins : PointMargins        from :func:`point_margins` (or ``RobustPoint.margins``)
+    required_margin : float       required symmetric margin [fraction], in [0, 1)
+    intended_regime : str, optional   the regime the design wants; must be a regime of the chart
+
+    Returns
+    -------
+    Verdict
+
+    Raises
+    ------
+    ValueError
+        ``required_margin`` outside [0, 1), or an intended regime the chart does not have (the
+        message lists the known ones).
+
+    Notes
+    -----
+    Order of the decision: a point determinately in another regime than the intended one is
+    "NOT MET" (its margin in the intended regime is below zero); otherwise a margin that is not
+    established (see :class:`PointMargins`: a line not evaluable, the regime undetermined, or no
+    boundary found within the ±99.9 % box) is "not established", never "met"; otherwise "met" when
+    m >= required, else "NOT MET".
+
+    Examples
+    --------
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.models.boundary import PowerLawBoundary
+    >>> from lowgmap.physics.chart.composition import Chart
+    >>> chart = Chart.build(example_case(), [PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")])
+    >>> v = margin_verdict(point_margins(chart, 1e-5, 0.5e-5), 0.3, "bubbles")   # m = 1/3
+    >>> v.regime_status, v.margin_status
+    ('in the intended regime', 'met')
+    >>> margin_verdict(point_margins(chart, 1e-5, 0.5e-5), 0.4).margin_status
+    'NOT MET'
+    >>> margin_verdict(point_margins(chart, 1e-5, 0.5e-5), 0.3, "slugs").regime_status
+    'NOT IN THE INTENDED REGIME'
+    """
+    req = finite("required_margin", required_margin)
+    if not 0.0 <= req < 1.0:
+        raise ValueError(f"required_margin must be within [0, 1) (a fraction, 0.3 for ±30 %), got {req:.6g}")
+    pm = margins
+    if intended_regime is not None:
+        intended_regime = str(intended_regime)
+        if pm.regimes and intended_regime not in pm.regimes:
+            raise ValueError(f"intended regime {intended_regime!r} is not a regime of this chart; regimes: "
+                             + "; ".join(pm.regimes))
+    if intended_regime is None:
+        inside, regime_status = None, REGIME_STATUSES[2]
+    else:
+        inside = bool(pm.regime_determined and pm.regime == intended_regime)
+        regime_status = REGIME_STATUSES[0] if inside else REGIME_STATUSES[1]
+    m = float(pm.symmetric_margin)
+    established = bool(pm.established) and math.isfinite(m)
+    if intended_regime is not None and pm.regime_determined and not inside:
+        status = MARGIN_STATUSES[1]
+    elif not established:
+        status = MARGIN_STATUSES[2]
+    else:
+        status = MARGIN_STATUSES[0] if m >= req else MARGIN_STATUSES[1]
+    lim = pm.limiting
+    if pm.search_ql is not None and pm.search_qg is not None:
+        where = _flows_text(*pm.search_ql, *pm.search_qg)
+    else:
+        where = _flows_text(pm.ql * (1 - MAX_MARGIN), pm.ql * (1 + MAX_MARGIN), pm.qg * (1 - MAX_MARGIN),
+                            pm.qg * (1 + MAX_MARGIN))
+    basis = (f"Symmetric ±m box on the sampled lines over {where} (the point's ±{_pct(MAX_MARGIN)} box): the largest "
+             f"m for which every flow pair within ±m of Q_L {_q(pm.ql)} m³/s and Q_G {_q(pm.qg)} m³/s stays in "
+             f"the regime \"{pm.regime}\".")
+    limits = list(pm.reasons)
+    if intended_regime is not None and not pm.regime_determined:
+        limits.append(f"Whether the point lies in the intended regime \"{intended_regime}\" could not be "
+                      f"determined; it is not counted as in it.")
+    if pm.outside_chart:
+        limits.append(pm.outside_chart_note)
+    limits += list(pm.caveats)
+    comparison = [b.label for b in pm.boundaries if b.role == "comparison"]
+    if comparison:
+        limits.append("Comparison lines are drawn for reference and not counted: " + "; ".join(comparison) + ".")
+    limits.append("The margin measures changes of the flow rates only, on the boundary lines as modelled: the "
+                  "scatter of the models and the uncertainty of fluid properties, geometry and residual "
+                  "acceleration are not included.")
+    return Verdict(pm.regime, intended_regime, inside, regime_status, status, req, m, pm.limiting_boundary,
+                   lim.label if lim is not None else None, established, bool(pm.outside_chart), basis,
+                   tuple(limits))

@@ -18,7 +18,7 @@ import dataclasses
 from dataclasses import dataclass
 
 from lowgmap.physics.chart.composition import Chart
-from lowgmap.physics.chart.margins import envelope_check, point_margins
+from lowgmap.physics.chart.margins import envelope_check, margin_verdict, point_margins
 from lowgmap.physics.studies.agreement import agreement as _agreement_of
 from lowgmap.physics.validate import positive
 
@@ -61,6 +61,17 @@ class Study:
         if self.point is None or not self.chart.regime_names:
             return None
         return str(self.chart.regime_at(*self.point))
+
+    def verdict(self, required_margin: float, intended_regime: str | None = None):
+        """The verdict on the operating point, in words (:func:`lowgmap.physics.chart.margins.margin_verdict`).
+
+        ``intended_regime`` defaults to the case's own (``case.intended_regime``); None when the study has
+        no point or the chart has no regimes.
+        """
+        if self.margins is None:
+            return None
+        intended = intended_regime if intended_regime is not None else (self.case.intended_regime or None)
+        return margin_verdict(self.margins, required_margin, intended)
 
     def with_point(self, ql: float, qg: float) -> "Study":
         """The same study with the operating point moved to (``ql``, ``qg``) [m^3/s].
@@ -126,6 +137,9 @@ def run_study(case, *, chart=None, points=None, regime_map=None, criteria=None, 
     >>> moved = study.with_point(1e-5, 1e-3)                   # same chart, new margins
     >>> moved.chart is study.chart, moved.regime
     (True, 'annular (gas core)')
+    >>> v = moved.verdict(0.3, "dispersed bubbles")
+    >>> v.regime_status, v.margin_status
+    ('NOT IN THE INTENDED REGIME', 'NOT MET')
     """
     if chart is None:
         chart = Chart.build(case)
