@@ -1,8 +1,8 @@
 """Validity of test points and agreement with the chart (lowgmap.physics.studies.agreement).
 
-Check values: the Bond number and capillary time of water over 1 cm from PHYSICS-REFERENCES section 5
-([calc] there: Bo(1 g) = 13.45, t_ic = 0.117 s); platform figures from the same section (typical published
-figures, entered from memory, as the platform table says); transit times and log distances to straight
+Check values: the Bond number and capillary time of water over 1 cm ([calc] from Bo = delta_rho g L^2 / sigma
+and t_ic = sqrt(rho L^3 / sigma): Bo(1 g) = 13.45, t_ic = 0.117 s); platform figures are the typical figures of
+each class of facility (entered from memory, as the platform table says); transit times and log distances to straight
 lines in log-log axes are closed forms computed by hand in the comments. Test points below are made up
 for the purpose of each check; they are inputs, never check values.
 """
@@ -27,7 +27,7 @@ from lowgmap.physics.properties.wetting import Wetting
 G0 = STANDARD_GRAVITY
 D = 0.01
 AREA = math.pi * D ** 2 / 4
-# water as in PHYSICS-REFERENCES section 5 (delta rho = 998.2 kg/m^3, sigma = 72.8 mN/m), 1 cm tube
+# water, rounded inputs of the [calc] checks (delta rho = 998.2 kg/m^3, sigma = 72.8 mN/m), 1 cm tube
 WATER_1CM = NS(fluid=NS(rho_l=998.2, rho_g=0.0, mu_l=1.0e-3, sigma=0.0728),
                section=NS(length_scale=D, area=AREA), length=0.5)
 SAMPLES = sample_case_path().parent
@@ -40,10 +40,10 @@ def one_point(platform="", g=math.nan, duration=math.nan, ql=1e-6, qg=0.5e-6):
 # ------------------------------------------------------------------------------------------ validity
 
 @pytest.mark.parametrize("platform,g_g0,duration", [
-    # PHYSICS-REFERENCES section 5 (typical published figures, from memory): upper-end residual
-    # acceleration and the low-g time of one experiment
-    ("24 m drop tower", 1e-3, 2.2),
-    ("110 m drop tube", 1e-6, 4.7),
+    # typical figures of the class (from memory): upper-end residual acceleration and the short end of
+    # the low-g time of one experiment
+    ("short drop tower", 1e-3, 2.0),
+    ("drop tube", 1e-5, 4.5),
     ("parabolic flight", 1e-2, 22.0),
     ("sounding rocket", 1e-4, 180.0),   # 3-13 min: the short end is used
 ])
@@ -52,13 +52,13 @@ def test_bond_number_and_duration_from_the_platform_table(platform, g_g0, durati
     assert v.g_from[0] == "platform" and v.duration_from[0] == "platform"
     assert v.g[0] == pytest.approx(g_g0 * G0, rel=1e-12)
     assert v.duration[0] == pytest.approx(duration)
-    # PHYSICS-REFERENCES section 5 [calc]: water, L = 1 cm, Bo(1 g) = 13.45; Bo scales with g
+    # [calc] from Bo = delta_rho g L^2 / sigma: water, L = 1 cm, Bo(1 g) = 13.45; Bo scales with g
     assert v.bond[0] == pytest.approx(13.45 * g_g0, rel=2e-3)
 
 
 def test_capillary_and_transit_times_by_hand():
     v = point_validity(WATER_1CM, one_point("sounding rocket"))
-    # PHYSICS-REFERENCES section 5 [calc]: t_ic = sqrt(rho L^3 / sigma) = 0.117 s for water over 1 cm;
+    # [calc] from t_ic = sqrt(rho L^3 / sigma): 0.117 s for water over 1 cm;
     # t_vc = mu L / sigma = 1e-5 / 0.0728 = 1.37e-4 s is smaller, so t_ic counts
     assert v.t_capillary[0] == pytest.approx(0.117, abs=6e-4)
     # closed form: transit = l A / (Q_L + Q_G) = 0.5 * 7.854e-5 / 1.5e-6 = 26.18 s
@@ -71,12 +71,12 @@ def test_capillary_and_transit_times_by_hand():
 
 
 def test_short_low_g_time_is_flagged_with_the_numbers():
-    v = point_validity(WATER_1CM, one_point("24 m drop tower"))
+    v = point_validity(WATER_1CM, one_point("short drop tower"))
     assert not v.valid[0]
     (reason,) = v.reasons[0]
-    assert "not enough low-g time" in reason and "has 2.2 s" in reason and "26.2 s" in reason
+    assert "not enough low-g time" in reason and "has 2 s" in reason and "26.2 s" in reason
     # a shorter observation length brings the need below the drop time: 2 (0.117 + 0.5 * 26.18 / 50) = 0.76 s
-    v = point_validity(WATER_1CM, one_point("24 m drop tower"), ValidityCriteria(observation_length=0.01))
+    v = point_validity(WATER_1CM, one_point("short drop tower"), ValidityCriteria(observation_length=0.01))
     assert v.valid[0]
     assert v.observation_length == 0.01
     assert v.t_transit[0] == pytest.approx(26.18 / 50, abs=1e-4)
@@ -92,7 +92,7 @@ def test_safety_factor_is_a_parameter():
 def test_point_values_override_the_platform_and_large_bond_numbers_are_flagged():
     v = point_validity(WATER_1CM, one_point("sounding rocket", g=0.1 * G0))
     assert v.g_from[0] == "point" and v.duration_from[0] == "platform"
-    assert v.bond[0] == pytest.approx(1.345, rel=2e-3)            # 13.45 x 0.1 (section 5 [calc])
+    assert v.bond[0] == pytest.approx(1.345, rel=2e-3)            # 13.45 x 0.1 ([calc] from Bo)
     assert not v.valid[0]
     assert any("Bond number 1.34 >= 1" in r and "Brauner 1990" in r for r in v.reasons[0])
     # Brauner (1990) limit Bo < 1 is a parameter
@@ -142,9 +142,9 @@ def test_sample_points_drop_tower_times_by_hand():
     assert v.t_transit[i] == pytest.approx(1.5 * math.pi * 0.0127 ** 2 / 4 / (301.2e-6 / 60), rel=1e-9)
     assert v.t_transit[i] == pytest.approx(37.85, abs=0.01)
     drops = [k for k, d in enumerate(tps.points["duration_s"].fillna(2.2)) if d <= 2.2 + 1e-9]
-    assert drops and not v.valid[drops].any()                    # 2.2 s drops: too short for 1.5 m
+    assert drops and not v.valid[drops].any()                    # short drops (<= 2.2 s): too short for 1.5 m
     k = ids.index("DT-05")                                        # no values in the file: the platform's
-    assert v.g_from[k] == "platform" and v.g[k] == pytest.approx(1e-3 * G0)  # section 5, 24 m drop tower
+    assert v.g_from[k] == "platform" and v.g[k] == pytest.approx(1e-3 * G0)  # short drop tower (from memory)
 
 
 def test_migration_time_enters_with_corner_models():
@@ -198,7 +198,7 @@ def test_agreement_on_a_hand_made_set():
     pts = {"test_id": ["p1", "p2", "p3", "p4", "p5", "p6"],
            "ql_m3_s": [1e-5] * 6, "qg_m3_s": [0.5e-5, 2e-5, 0.8e-5, 3e-5, 0.2e-5, 4e-5],
            "observed_regime": ["Bubbly", "slugs", "slugs", "bubbles", "froth", "slugs"],
-           "platform": ["24 m drop tower"] * 5 + ["parabolic flight"],
+           "platform": ["short drop tower"] * 5 + ["parabolic flight"],
            "g_m_s2": [np.nan] * 5 + [G0]}                      # p6: 1 g, Bond number far above 1
     res = agreement(chart, pts, regime_map={"bubbly": "bubbles"})
     by = {p.test_id: p for p in res.points}
@@ -253,3 +253,16 @@ def test_agreement_of_the_sample_points_with_a_regime_map():
         assert (p.agrees is None) == (p.observed not in chart.regime_names)
     disagree = [p.test_id for p in mapped.points if p.agrees is False]
     assert sorted(disagree) == sorted(q.test_id for b in mapped.by_boundary for q in b.points)
+
+
+def test_default_validity_criteria_are_pinned_with_their_source():
+    crit = ValidityCriteria()
+    # Brauner (1990), Int. Commun. Heat Mass Transf. 17(3):271-281: gravity negligible for Eo < 1
+    assert crit.bond_max == 1.0 and "Brauner (1990)" in ValidityCriteria.SOURCES["bond_max"]
+    # a choice, common practice, no source: twice the required low-g time, one capillary time to settle
+    assert crit.safety_factor == 2.0 and "no source" in ValidityCriteria.SOURCES["safety_factor"]
+    assert crit.capillary_multiple == 1.0 and "no source" in ValidityCriteria.SOURCES["capillary_multiple"]
+    assert crit.observation_length is None                       # design input: the whole conduit
+    d = crit.to_dict()
+    assert d["bond_max_source"] == "Brauner (1990)" and "choice" in d["safety_factor_source"]
+    assert set(ValidityCriteria.SOURCES) == {"bond_max", "safety_factor", "capillary_multiple", "observation_length"}

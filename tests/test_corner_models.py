@@ -27,6 +27,7 @@ RANGE = FlowRange(1e-9, 1e-4, 1e-10, 1e-4)
 G = 1e-6 * 9.80665
 ALL = cm.CORNER_MODEL_NAMES
 SEPARATED = {cm.ISOLATED_SEPARATED, cm.MERGING_SEPARATED}
+KE = 1.0            # default entrance loss of open_channel_ingestion (safe-side choice, theory manual)
 
 
 def make_case(section=None, theta=0.0, length=0.05, fluid=OIL, g=G, flow_range=RANGE, models=()):
@@ -196,7 +197,9 @@ def test_comparison_line_on_a_partition_chart():
 def test_blow_through_line_closed_form():
     # void fraction r/(C0 (1 + r)) = alpha_c -> r = C0 alpha_c / (1 - C0 alpha_c) (Dukler et al. 1988 form)
     m = get_model("corner_blow_through")
-    assert m.ratio_roots(make_case())[0] == pytest.approx(4.0, rel=1e-12)
+    assert m.ratio_roots(make_case(), alpha_c=0.8, c0=1.0)[0] == pytest.approx(4.0, rel=1e-12)
+    # default alpha_c = 0.45 (safe-side choice, theory manual): r = 0.45/0.55
+    assert m.ratio_roots(make_case())[0] == pytest.approx(0.45 / 0.55, rel=1e-12)
     assert m.ratio_roots(make_case(), alpha_c=0.5, c0=1.2)[0] == pytest.approx(1.5, rel=1e-12)
     with pytest.raises(ValueError, match="c0 \\* alpha_c must be < 1"):
         m.resolve_constants({"alpha_c": 0.9, "c0": 1.2})
@@ -228,21 +231,31 @@ def test_confinement_line_closed_form_with_the_squeezing_law():
     assert get_model("corner_confinement").ratio_roots(case, **consts)[0] < r_exact
 
 
+def fade_integral(x0, x1):
+    """Closed form of the integral of dx/(1 - x^3) (partial fractions), the fading push of a wedge."""
+    G = lambda x: (-math.log(1 - x) / 3 + math.log(x * x + x + 1) / 6  # noqa: E731
+                   + math.atan((2 * x + 1) / math.sqrt(3)) / math.sqrt(3))
+    return G(x1) - G(x0)
+
+
 def test_separation_line_closed_form():
-    # Hele-Shaw drag only, fixed bubble: U = sigma c_cap cos(theta) h'/(c_HS mu), h' = 2 sin(alpha);
-    # t_mig = (S - d/2 - s_inj)/U; Q_L = l A / (s_f t_mig (1 + r))   (theory manual, hand algebra)
+    # Hele-Shaw drag only, fixed bubble: U = sigma c_cap cos(theta) h' phi/(c_HS mu), h' = 2 sin(alpha),
+    # phi = 1 - (h/d)^3 with h = 2 s sin(alpha); t_mig = (c_HS mu d/(sigma c_cap cos(theta) h'^2)) int dx/(1 - x^3),
+    # x = h/d from s_inj to s_touch = S - d/2; Q_L = l A / (s_f t_mig (1 + r))   (theory manual, hand algebra)
     theta = math.radians(20.0)
     case = make_case(theta=theta)
     c = dict(bubble_diameter_ratio=0.5, injection_position=0.2, film_drag=0.0, form_drag=0.0, safety_factor=1.7)
-    U = OIL.sigma * 2.0 * math.cos(theta) * 2 * math.sin(ALPHA) / (12.0 * OIL.mu_l)
-    t = (DEPTH - 0.25 * DEPTH - 0.2 * DEPTH) / U
+    hp, d = 2 * math.sin(ALPHA), 0.5 * DEPTH
+    t = 12.0 * OIL.mu_l * d / (OIL.sigma * 2.0 * math.cos(theta) * hp ** 2) * \
+        fade_integral(hp * 0.2 * DEPTH / d, hp * (DEPTH - d / 2) / d)
     r = np.array([1e-3, 1e-2])
     exact = 0.05 * case.section.area / (1.7 * t * (1 + r))
-    assert np.allclose(cm.separation_liquid_flow(case, r, **c), exact, rtol=1e-9)
+    # migration-time table: cubic spline in ln t, measured error < 1e-5 against direct quadrature
+    assert np.allclose(cm.separation_liquid_flow(case, r, **c), exact, rtol=1e-5, atol=0.0)
     # on the line the implicit function is zero (below: separated)
     m = get_model("corner_separation")
     cc = m.resolve_constants(c)
-    assert np.allclose(m.implicit(case, exact, r * exact, **cc), 0.0, atol=1e-9)
+    assert np.allclose(m.implicit(case, exact, r * exact, **cc), 0.0, atol=1e-5)
     assert np.all(m.implicit(case, 0.9 * exact, 0.9 * r * exact, **cc) < 0)
 
 
@@ -250,14 +263,67 @@ def test_ingestion_line_against_the_open_channel_model():
     # the line is Q_crit of lowgmap.physics.models.open_channel (wedge of plate length d / cos(alpha)) loaded by the mixture
     case = make_case()
     ch = OpenWedge(ALPHA, DEPTH / math.cos(ALPHA), 0.0)
-    q_liquid = critical_flow_rate(ch, 0.05, rho=OIL.rho_l, mu=OIL.mu_l, sigma=OIL.sigma).Q_crit
+    q_liquid = critical_flow_rate(ch, 0.05, rho=OIL.rho_l, mu=OIL.mu_l, sigma=OIL.sigma, K_e=KE).Q_crit
     assert cm.ingestion_liquid_flow(case, 1e-9, gas_effect=0.0) == pytest.approx(q_liquid, rel=1e-12)
     assert cm.ingestion_liquid_flow(case, 50.0, gas_effect=0.0) == pytest.approx(q_liquid, rel=1e-12)
     # mixture at r = 0.3: Q_L + Q_G = Q_crit(rho_m), rho_m = (rho_L + r rho_G)/(1 + r); table interpolation
     r = 0.3
     rho_m = (OIL.rho_l + r * OIL.rho_g) / (1 + r)
-    q_mix = critical_flow_rate(ch, 0.05, rho=rho_m, mu=OIL.mu_l, sigma=OIL.sigma).Q_crit
+    q_mix = critical_flow_rate(ch, 0.05, rho=rho_m, mu=OIL.mu_l, sigma=OIL.sigma, K_e=KE).Q_crit
     assert cm.ingestion_liquid_flow(case, r) * (1 + r) == pytest.approx(q_mix, rel=2e-3)
+
+
+def test_separation_line_meets_the_confinement_line_where_the_time_diverges():
+    # fixed bubble size: d_eff = d_b, the confinement line is d_b = d_reach. The migration time rises without
+    # bound as d_b -> d_reach (logarithmically, theory manual), so the separation line falls toward Q_L = 0 there;
+    # the charts take the time at the resolvable margin d/d_reach - 1 = 1e-9 on the line itself.
+    from lowgmap.physics.models import bubbles as bb
+    case = make_case()
+    geom = cm.corner_geometry(case)
+    c = get_model("corner_separation").resolve_constants({"injection_position": 0.2})
+    d_reach = geom.path.reach_diameter(0.2, 1.0)
+    eps = np.array([1e-2, 1e-4, 1e-6, 1e-8])
+    t = cm._t_mig(case, geom, d_reach * (1 + eps), c)
+    assert np.all(np.diff(t) > 0)
+    f = case.fluid
+    direct = bb.migration_time(geom.path, d_reach * (1 + eps), injection=0.2, rho=f.rho_l, mu=f.mu_l, sigma=f.sigma)
+    assert np.allclose(t, direct, rtol=1e-5)                    # table (cubic spline in ln t) vs quadrature
+    on_line = cm._t_mig(case, geom, np.array([d_reach, d_reach * (1 + 1e-12)]), c)
+    res = bb.migration_time(geom.path, d_reach * (1 + 1e-9), injection=0.2, rho=f.rho_l, mu=f.mu_l, sigma=f.sigma)
+    assert np.allclose(on_line, res, rtol=1e-5) and on_line[0] > t[-1]
+    assert math.isnan(float(cm._t_mig(case, geom, np.array([0.999 * d_reach]), c)[0]))
+    # sizes as a ratio of the depth: the separation line at d_b slightly above d_reach lies below the one far above
+    q = [cm.separation_liquid_flow(case, 0.01, bubble_diameter_ratio=x * d_reach / DEPTH, injection_position=0.2)
+         for x in (1 + 1e-8, 1 + 1e-3, 1.3)]
+    assert q[0] < q[1] < q[2]
+
+
+def test_defaults_that_are_choices_sit_on_the_safe_side():
+    # theory manual, "Conservative defaults": moving each chosen default the other way enlarges the separating
+    # regimes (the ingestion, separation and blow-through lines move to more flow; merging credits bigger bubbles)
+    case = make_case()
+    ing = get_model("open_channel_ingestion")
+    assert ing.defaults["entrance_loss"] == 1.0 and ing.defaults["gas_effect"] == 1.0
+    r = np.array([0.01, 0.3, 3.0])
+    base = cm.ingestion_liquid_flow(case, r)
+    assert np.all(cm.ingestion_liquid_flow(case, r, entrance_loss=0.0) > base)       # K_e = 0: upper bound
+    assert np.all(cm.ingestion_liquid_flow(case, r, gas_effect=0.5) > base)          # less gas load
+    sep = get_model("corner_separation")
+    assert sep.defaults["safety_factor"] == 2.0 and sep.defaults["merge_length_ratio"] == 1.0
+    kw = dict(bubble_diameter_ratio=0.4)
+    assert cm.separation_liquid_flow(case, 0.1, safety_factor=1.0, **kw) == \
+        pytest.approx(2.0 * cm.separation_liquid_flow(case, 0.1, **kw), rel=1e-12)
+    blow = get_model("corner_blow_through")
+    assert blow.defaults["alpha_c"] == 0.45
+    assert blow.ratio_roots(case, alpha_c=0.8, c0=1.0)[0] > blow.ratio_roots(case)[0]
+    # merging on contact (k_m = 1) separates less of the chart than merging at a distance (k_m = 2)
+    rng = np.random.default_rng(11)
+    ql, qg = random_points(4000, rng)
+    frac = []
+    for k in (1.0, 2.0):
+        ch = Chart.build(make_case(models=with_constants({"merge_length_ratio": k})))
+        frac.append(np.isin(ch.classify(ql, qg), list(SEPARATED)).mean())
+    assert frac[0] < frac[1]
 
 
 # --- limiting cases ----------------------------------------------------------------------------------------
@@ -273,7 +339,7 @@ def test_zero_gas_flow_limit():
     assert st_["spacing"] > 1e15 and st_["frequency"] < 1e-15
     # the ingestion line tends to the liquid-only critical flow rate, whatever the gas effect
     ch = OpenWedge(ALPHA, DEPTH / math.cos(ALPHA), 0.0)
-    q_liquid = critical_flow_rate(ch, 0.05, rho=OIL.rho_l, mu=OIL.mu_l, sigma=OIL.sigma).Q_crit
+    q_liquid = critical_flow_rate(ch, 0.05, rho=OIL.rho_l, mu=OIL.mu_l, sigma=OIL.sigma, K_e=KE).Q_crit
     assert cm.ingestion_liquid_flow(case, 1e-12) == pytest.approx(q_liquid, rel=1e-9)
     chart = Chart.build(case)
     regimes = chart.classify(np.logspace(-9, -4, 30), 1e-25)
@@ -309,21 +375,66 @@ def test_very_long_conduit_separates_every_confined_bubble():
     assert not np.isin(got[~confined], list(SEPARATED)).any()
 
 
-def test_concus_finn_failure_draws_no_capillary_lines():
-    # Concus & Finn (1969): the corner wets only for theta + alpha < 90 deg; here 85 + 10 = 95 deg
+def test_concus_finn_failure_means_gas_drawn_in_at_any_flow():
+    # Concus & Finn (1969): the corner holds liquid only for theta + alpha < 90 deg; here 85 + 10 = 95 deg.
+    # At the groove's top edges the wall meets the open side at 90 - 10 = 80 deg < theta: the pinned surface
+    # cannot curve into the liquid (Gibbs' edge condition), so no flow is held below the gas pressure
     case = make_case(theta=math.radians(85.0))
+    ms = cm.meniscus_state(case.section, case.wetting.contact_angle)
+    assert not ms.holds_liquid and not any(ok for *_, ok in ms.corners + ms.edges)
     ch = Chart.build(case)
-    assert ch.boundaries == () and ch.regions == () and ch.regime_names == ()
-    cf = [w for w in ch.warnings if "Concus–Finn" in w]
-    assert len(cf) == 1 and "not drawn" in cf[0] and all(get_model(n).label in cf[0] for n in ALL)
-    assert any("No boundary model applies" in w for w in ch.warnings)
-    for name in ALL:
-        assert "Concus–Finn" in get_model(name).applies_to(case)
-    # chosen explicitly (as in a case file): still no line and the same plain sentence, not an error
+    # one regime over the whole chart, no line drawn
+    assert [r.name for r in ch.regions] == [cm.INGESTION]
+    box = math.log10(RANGE.ql_max / RANGE.ql_min) * math.log10(RANGE.qg_max / RANGE.qg_min)
+    assert log_area(ch.regions[0].polygon_ql, ch.regions[0].polygon_qg) == pytest.approx(box, rel=1e-9)
+    assert [b.name for b in ch.boundaries] == ["open_channel_ingestion"] and ch.boundaries[0].ql.size == 0
+    rng = np.random.default_rng(8)
+    ql, qg = random_points(2000, rng)
+    assert set(ch.classify(ql, qg).tolist()) == {cm.INGESTION}
+    assert not any(ch.separates_gas[ch.regime_at(q, g)] for q, g in zip(ql[:50], qg[:50]))
+    # a plain warning first, and the bubble models left out with the same physical reason
+    assert ch.warnings[0].startswith("GAS DRAWN IN AT ANY FLOW") and "Concus–Finn" in ch.warnings[0]
+    left = [w for w in ch.warnings if w.startswith("Left out")]
+    assert len(left) == 1 and all(get_model(n).label in left[0] for n in ALL[:4])
+    assert get_model("open_channel_ingestion").applies_to(case) is None
+    assert cm.ingestion_liquid_flow(case, np.array([0.1, 10.0])).tolist() == [0.0, 0.0]
+    assert get_model("open_channel_ingestion").critical_flow(case) == (0.0, "no_hold")
+    for name in ALL[:4]:
+        assert "drawn in at any flow" in get_model(name).applies_to(case)
+    # chosen explicitly without the ingestion line (as in a case file): no line, a plain sentence, not an error
     explicit = Chart.build(case, models=["corner_separation", "corner_merging"])
-    assert explicit.boundaries == () and any("Concus–Finn" in w for w in explicit.warnings)
-    # wetting again (theta + alpha = 79 deg): the models apply
+    assert explicit.boundaries == () and any("drawn in at any flow" in w for w in explicit.warnings)
+    # holding again (theta + alpha = 79 deg): the models apply
     assert all(r is None for n, r in usable_models(make_case(theta=math.radians(69.0))).items() if n in ALL)
+
+
+def test_meniscus_logic_applies_to_every_corner_and_edge():
+    # Concus & Finn (1969) at each wall corner, Gibbs' edge condition (theta below the wall/open-side angle)
+    # at each pinning edge. Rectangle 4 x 1 open on top: corners 45 deg, edges 90 deg.
+    rect = Polygon([(0, 0), (0.004, 0), (0.004, 0.001), (0, 0.001)], open_edges=(2,))
+    ms = cm.meniscus_state(rect, math.radians(50.0))
+    assert [ok for *_, ok in ms.corners] == [False, False] and ms.holds_liquid       # 50 + 45 > 90; 50 < 90
+    assert [round(math.degrees(a), 9) for _, a, _ in ms.edges] == [90.0, 90.0]
+    case = make_case(rect, theta=math.radians(50.0))
+    geom = cm.corner_geometry(case)
+    # the channel holds, but no corner facing the open side holds liquid: no capillary push (left out, not an
+    # error), while the flow-rate limit of the rectangular groove still applies
+    assert geom.holds_liquid and geom.mechanism_absent and "every corner" in geom.reason
+    reasons = usable_models(case)
+    assert reasons["open_channel_ingestion"] is None and all("Concus–Finn" in reasons[n] for n in ALL[:4])
+    ch = Chart.build(case, models=list(ALL))
+    assert [b.name for b in ch.boundaries] == ["open_channel_ingestion"]
+    # below the Concus–Finn limit of the corners the bubble path starts there again
+    assert cm.corner_geometry(make_case(rect, theta=math.radians(40.0))).reason is None
+    # a polygon whose deepest corner is dry (half-angle 71.6 deg, theta 30 deg) pushes from its wet corner
+    quad = Polygon([(0.005, 0.009), (0.008, 0.005), (0.008, 0.002), (0.001, 0.003)], open_edges=(2,))
+    half = {c.index: math.degrees(c.half_angle) for c in quad.corners}
+    from lowgmap.physics.models import bubbles as bb
+    dry = bb.taper_path(quad)
+    assert half[dry.corner_index] + 30.0 > 90.0
+    geom = cm.corner_geometry(make_case(quad, theta=math.radians(30.0)))
+    assert geom.reason is None and geom.path.corner_index != dry.corner_index
+    assert half[geom.path.corner_index] + 30.0 < 90.0
 
 
 # --- invariance and trends ---------------------------------------------------------------------------------

@@ -69,7 +69,7 @@ def rectangle_mean(w, h, terms=50):
 # geometry
 # ---------------------------------------------------------------------------------------------
 def test_areas_match_the_arc_formulas():
-    # area functions of PHYSICS-REFERENCES section 2 (plain plane geometry)
+    # area functions of circular-arc free surfaces (plain plane geometry, no source needed)
     a, b = 0.004, 0.01
     pp = ParallelPlates(a, b)
     for R in (0.003, 0.0025, 0.01, 1.0):
@@ -89,7 +89,7 @@ def test_areas_match_the_arc_formulas():
 
 
 def test_corner_area_factor_values():
-    # PHYSICS-REFERENCES section 3 [calc]: F(45,0) = 0.214602, F(30,30) = 0.342427
+    # [calc] from the circular-arc corner-meniscus area A = R^2 F: F(45,0) = 0.214602, F(30,30) = 0.342427
     assert CornerFilament(45 * DEG).area(1.0) == pytest.approx(0.214602, abs=1e-6)
     assert CornerFilament(30 * DEG, 30 * DEG).area(2.0) == pytest.approx(4 * 0.342427, abs=4e-6)
 
@@ -120,7 +120,7 @@ def test_minimum_radius_from_geometry():
 @pytest.mark.parametrize("th_deg", [0.0, 10.0])
 def test_wedge_transition(th_deg):
     # at R_t = L sin(a)/cos(a + t) the pinned arc meets the plates at theta: it is the corner
-    # meniscus with wetted length L (section 3 formula b = R cos(t + a)/sin(a)), so A is continuous.
+    # meniscus with wetted length L (corner-meniscus formula b = R cos(t + a)/sin(a)), so A is continuous.
     # Derived: pinned dA/dR = 2R(sin^2(b) tan(b) - (b - sin b cos b)) at b = 90 deg - a - t,
     # corner dA/dR = 2RF; equal for theta = 0 (both arcs tangent to the walls), not for theta > 0
     al, th, L = 30 * DEG, th_deg * DEG, 0.01
@@ -201,7 +201,8 @@ def test_resistance_table_between_nodes():
 # ---------------------------------------------------------------------------------------------
 @pytest.mark.parametrize("b_over_a, ref", [(1.0, 1.2053), (2.0, 2.9629), (5.0, 8.7157)])
 def test_inviscid_plates_closed_form(b_over_a, ref):
-    # [calc, derived, not published] PHYSICS-REFERENCES section 2: Q_crit/(a^2 sqrt(sigma/(rho a)))
+    # [calc, derived, not published] from the steady 1-D speed-index model (S = 1 at the outlet, after
+    # Rosendahl, Ohlhoff & Dreyer 2004): Q_crit/(a^2 sqrt(sigma/(rho a)))
     q, R = inviscid_plates(b_over_a)
     assert q == pytest.approx(ref, abs=1e-4)             # 4-decimal reference (2.96285 rounds either way)
     a, rho, sigma = 0.003, 1200.0, 0.02
@@ -352,6 +353,44 @@ def test_critical_flow_decreases_with_length(channel, kw):
     assert all(x in LIMITS for x in cur.limited_by)
     r = critical_flow_rate(channel, ls[5], 1.0, 0.01, 1.0, **kw)
     assert cur.Q_crit[5] == pytest.approx(r.Q_crit, rel=1e-12)
+
+
+def test_depinning_is_reported_as_the_choking_mechanism():
+    # wedge with theta > 0 (derived in the theory manual): at R_t = L sin(a)/cos(a + theta) the contact lines
+    # leave the plate edges and -dA/dkappa jumps up, so the speed index jumps. Where it jumps across 1 the
+    # flow chokes there with S < 1 on the pinned side: the mechanism is depinning, not S = 1.
+    w = WedgeChannel(6 * DEG, 0.04, 5 * DEG)
+    rho, mu, sigma = 913.0, 4.565e-3, 0.0197
+    lengths = np.geomspace(0.004, 0.2, 9)
+    cur = critical_flow_curve(w, lengths, rho, mu, sigma)
+    assert "depinning" in cur.limited_by and "speed_index" in cur.limited_by
+    for l, q, why in zip(lengths, cur.Q_crit, cur.limited_by):
+        r = critical_flow_rate(w, float(l), rho, mu, sigma)
+        m = r.mechanism
+        assert r.limited_by == why and m.key == why and r.Q_crit == pytest.approx(q, rel=1e-12)
+        if why == "depinning":
+            # the outlet sits at the transition radius; S below 1 on the pinned side, at least 1 beyond
+            assert r.profile.R1[-1] == pytest.approx(w.transition_radius, rel=1e-6)
+            assert m.speed_index == pytest.approx(r.outlet_speed_index) and m.speed_index < 1.0 <= m.speed_index_beyond
+            F = w.area_factor                                  # corner filament beyond: A = F R^2
+            kt = 1.0 / w.transition_radius
+            assert m.speed_index_beyond == pytest.approx(math.sqrt(2 * rho * q * q * kt ** 3 / (sigma * F * F)),
+                                                         rel=1e-12)
+            assert "depinning" in m.description and "pinned side" in m.description
+        else:
+            assert r.outlet_speed_index == pytest.approx(1.0, abs=1e-5) and math.isnan(m.speed_index_beyond)
+    # with theta = 0 both branches join smoothly: never depinning
+    w0 = WedgeChannel(6 * DEG, 0.04, 0.0)
+    assert "depinning" not in critical_flow_curve(w0, lengths, rho, mu, sigma).limited_by
+    assert set(LIMITS) >= {"speed_index", "inlet", "meniscus_limit", "no_solution", "depinning", "no_hold"}
+
+
+def test_entrance_loss_lowers_the_critical_flow():
+    # p(0) = p0 - (1 + K_e) rho v^2/2: a larger entrance loss leaves less suction for the channel, so the
+    # critical flow falls with K_e (the safe direction for the ingestion line; K_e = 0 is an upper bound)
+    for ch in (ParallelPlates(0.004, 0.01), WedgeChannel(15 * DEG, 0.01), RectangularGroove(0.004, 0.004)):
+        q = [critical_flow_rate(ch, 0.05, 1000.0, 1e-3, 0.07, K_e=k).Q_crit for k in (0.0, 0.5, 1.0, 3.0)]
+        assert np.all(np.diff(q) < 0)
 
 
 def test_speed_index_rises_with_curvature():

@@ -17,6 +17,9 @@ Conventions shared by all kinds
   (interior angle > 180 deg), straight vertices (= 180 deg) and the edges where a wall meets an open
   side are not corners.
 * ``length_scale`` is the length used in Bond numbers: see each class.
+* :func:`pinning_edges` lists the other liquid-holding vertices of an open section: each end of an
+  open edge where a wall meets the open side, with the angle between them inside the section (a free
+  surface pinned there can curve into the liquid only while that angle exceeds the contact angle).
 
 One table of section kinds
 --------------------------
@@ -52,6 +55,8 @@ __all__ = [
     "SECTION_QUANTITIES",
     "section_fields",
     "section_label",
+    "PinningEdge",
+    "pinning_edges",
 ]
 
 #: Number of vertices of the polygon that stands for a circle in :meth:`Circle.outline`.
@@ -193,6 +198,77 @@ class Corner:
     def half_angle_deg(self) -> float:
         """Interior half-angle [deg]."""
         return math.degrees(self.half_angle)
+
+
+@dataclass(frozen=True)
+class PinningEdge:
+    """An end of an open edge where a wall meets the open side: a sharp edge that can pin a free surface.
+
+    Parameters
+    ----------
+    vertex : int        vertex index in the section's ``outline()``
+    open_edge : int     index of the open edge
+    wall_edge : int     index of the wall edge on the other side of the vertex
+    angle : float       angle between the wall and the open side inside the section [rad], in (0, 360) deg
+    """
+
+    vertex: int
+    open_edge: int
+    wall_edge: int
+    angle: float
+
+    @property
+    def angle_deg(self) -> float:
+        """The angle in degrees."""
+        return math.degrees(self.angle)
+
+
+def pinning_edges(section) -> tuple[PinningEdge, ...]:
+    r"""Each end of each open edge of a section where a wall meets the open side, with the angle between them.
+
+    .. math:: \varphi_i = \pi - \operatorname{atan2}\big(\mathbf e_\mathrm{in} \times \mathbf e_\mathrm{out},\,
+              \mathbf e_\mathrm{in} \cdot \mathbf e_\mathrm{out}\big)
+
+    (interior angle at vertex i of the counter-clockwise outline, e_in and e_out the edges into and
+    out of it).
+
+    Parameters
+    ----------
+    section : Section
+
+    Returns
+    -------
+    tuple of PinningEdge   empty for a closed section; a vertex between two open edges is left out
+
+    Notes
+    -----
+    A free surface pinned at such an edge meets the wall at the angle phi when it is flat (liquid at
+    the gas pressure); to carry liquid below the gas pressure it curves into the liquid and that angle
+    shrinks. The contact line stays at the edge while the angle is at least the contact angle
+    (Gibbs' condition at a sharp edge), so the edge holds liquid below the gas pressure only when
+    phi > theta. For a V-groove or a wedge channel phi = 90 deg - alpha, and the condition is the
+    Concus–Finn condition theta + alpha < 90 deg of the apex corner (Concus & Finn 1969).
+
+    Examples
+    --------
+    >>> [round(e.angle_deg, 9) for e in pinning_edges(Groove(math.radians(20.0), 0.004))]
+    [70.0, 70.0]
+    """
+    opened = set(section.open_edges())
+    if not opened:
+        return ()
+    v = np.asarray(section.outline(), dtype=float)
+    n = len(v)
+    out = []
+    for k in sorted(opened):
+        for vert, wall in ((k, (k - 1) % n), ((k + 1) % n, (k + 1) % n)):
+            if wall in opened:
+                continue
+            e_in = v[vert] - v[(vert - 1) % n]
+            e_out = v[(vert + 1) % n] - v[vert]
+            turn = math.atan2(float(e_in[0] * e_out[1] - e_in[1] * e_out[0]), float(np.dot(e_in, e_out)))
+            out.append(PinningEdge(int(vert), int(k), int(wall), math.pi - turn))
+    return tuple(out)
 
 
 @dataclass(frozen=True)

@@ -31,12 +31,23 @@ Every line depends on the flows only through r = Q_G/Q_L and the residence time,
 line of constant ratio (confinement, merging, blow-through) or a curve Q_L = F(r) (separation,
 ingestion); the models draw themselves as such (``line_pieces``).
 
-Guard: when the Concus–Finn condition fails at the apex corner (theta + alpha >= 90 deg) the
-liquid is not drawn into the corner, bubbles are not pushed, and none of these models applies; the
-chart then says so instead of drawing lines.
+Meniscus logic (:func:`meniscus_state`), applied to every corner and open-side edge of the section:
+a wall corner holds liquid below the gas pressure only when the Concus–Finn condition
+theta + alpha < 90 deg holds, and a free surface pinned where a wall meets the open side only when
+the angle between them exceeds theta. When an open-side edge fails (for a V-groove or wedge channel:
+the Concus–Finn condition of the apex) the open channel cannot hold liquid below the gas pressure, so
+gas is drawn in at any flow: the ingestion model then covers the whole chart (its critical flow is 0)
+with a plain warning, and the bubble models are left out (no capillary push). When only the corners
+fail, the bubble path starts from a corner that holds liquid, or the bubble models are left out.
+
+Near the confinement line the capillary push fades: only the part of the bubble pressed flat between
+the walls is pushed (:func:`lowgmap.physics.models.bubbles.squeezed_fraction`), so the migration time
+diverges (logarithmically) as the bubble size falls to the reach diameter.
 
 All constants are exposed (:class:`~lowgmap.physics.models.boundary.Constant`); the defaults are order-of-magnitude
-values or design inputs, meant to be calibrated against test points. Theory manual:
+values or design inputs, meant to be calibrated against test points. Where a default is a choice it
+sits on the safe side for the separating regimes (entrance loss 1, gas share 1, safety factor 2,
+merging only on contact, alpha_c 0.45); each choice and its safe direction is in the theory manual,
 physics/manual/bubbles.md.
 """
 from __future__ import annotations
@@ -46,7 +57,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.interpolate import PchipInterpolator
+from scipy.interpolate import CubicSpline, PchipInterpolator
 from scipy.optimize import brentq
 
 from lowgmap.physics import cache
@@ -82,7 +93,8 @@ REGIMES = (
     RegimeInfo(MERGING_CARRIED, False, "bubbles merge but leave with the liquid"),
     RegimeInfo(BLOW_THROUGH, False, "the gas is a continuous phase and reaches the liquid outlet"),
     RegimeInfo(INGESTION, False, "the channel cannot carry this flow: the free surface collapses at the outlet "
-               "and gas is drawn in"),
+               "and gas is drawn in (at any flow when the open channel cannot hold liquid below the gas "
+               "pressure)"),
 )
 
 # Sources ---------------------------------------------------------------------------------------
@@ -113,36 +125,48 @@ _C_CONF = Constant(
     "confinement_ratio", 1.0, "-", "geometric: a bubble is squeezed while larger than the local gap", 0.2, 5.0,
     "k_c: a bubble of diameter d is pushed while d > k_c h (h local gap)")
 _C_MERGE = Constant(
-    "merge_length_ratio", 2.0, "-", "common practice, no source: bubbles closer than about a diameter of "
-    "liquid touch; calibrate", 1.0, 50.0, "k_m: bubbles merge when their spacing is below k_m d")
+    "merge_length_ratio", 1.0, "-", "a choice, no source: bubbles merge when they touch (spacing = bubble "
+    "length), the least merging the geometry allows; merged bubbles are larger and separate more easily, so "
+    "the smaller value is the safe one; calibrate", 1.0, 50.0,
+    "k_m: bubbles merge when their spacing is below k_m bubble lengths")
 _C_CAP = Constant(
-    "capillary_coefficient", 2.0, "-", "order-of-magnitude estimate F = 2 sigma cos(theta) V h'/h^2 (reference "
-    "list section 4, after Reyssat 2014)", 0.1, 20.0, "c_cap in the capillary push c_cap sigma cos(theta) V h'/h^2")
+    "capillary_coefficient", 2.0, "-", "our derivation (theory manual): the normal force of the walls on the "
+    "flattened faces, 2 sigma cos(theta)/h over the faces, times the taper gives 2; the same order as the "
+    "estimate after Reyssat 2014; uncertain, calibrate", 0.1, 20.0,
+    "c_cap in the capillary push c_cap sigma cos(theta) phi V h'/h^2")
 _C_HS = Constant(
     "hele_shaw_drag", 12.0, "-", "our derivation: Darcy flow of the liquid round a circular flattened bubble "
-    "(theory manual)", 0.0, 200.0, "c_HS in the Hele-Shaw drag c_HS mu U V/h^2")
+    "(theory manual); > 0: a bubble moving in the gap always drives liquid round it", 1.0, 200.0,
+    "c_HS in the Hele-Shaw drag c_HS mu U V/h^2")
 _C_FILM = Constant(
     "film_drag", 1.0, "-", "1 = wetting films sheared over both faces (rigid interface, slowest); 0 = clean "
     "interface; film thickness after Aussillous & Quere (2000)", 0.0, 1.0,
-    "c_f in the film drag c_f 4 mu U V/(h^2 f(Ca))")
+    "c_f in the film drag c_f 4 mu U phi V/(h^2 f(Ca)) on the flattened faces")
 _C_FORM = Constant(
     "form_drag", 1.0, "-", "common practice, no source: a drag coefficient of order 1", 0.0, 20.0,
     "C_D in the inertial drag C_D rho U^2 a h")
 _C_SF = Constant(
-    "safety_factor", 1.0, "-", "design choice (1: the migration and residence times are equal on the line)",
+    "safety_factor", 2.0, "-", "a choice, no source: 2 leaves room for the order-of-magnitude migration "
+    "constants; larger is safe (1: migration and residence times equal on the line, no margin)",
     1.0, 100.0, "separation requires residence time >= safety_factor x migration time")
 _C_ALPHA = Constant(
-    "alpha_c", 0.8, "-", "by analogy with the slug-annular void fraction in tubes (Dukler et al. 1988, from "
-    "memory); no corner data, calibrate", 0.05, 0.99, "void fraction at which the gas becomes continuous")
+    "alpha_c", 0.45, "-", "a choice on the safe side: the bubble-slug void fraction of low-gravity tube flow "
+    "(Dukler et al. 1988, from memory), where bubbles crowd into plugs; continuous gas needs at least that "
+    "much gas, and a lower value is safe; no corner data, calibrate", 0.05, 0.99,
+    "void fraction at which the gas becomes continuous")
 _C_C0 = Constant(
-    "c0", 1.0, "-", "1 = no slip between bubbles and liquid (low gravity, no buoyant drift)", 0.8, 2.0,
+    "c0", 1.0, "-", "1 = no slip between bubbles and liquid (low gravity, no buoyant drift); not a bound: "
+    "C0 < 1 (gas in the slower liquid near the walls) moves the blow-through line to less gas", 0.8, 2.0,
     "drift-flux distribution parameter")
 _C_KE = Constant(
-    "entrance_loss", 0.0, "-", "default of the open-channel model (reservoir at the gas pressure, no loss)",
-    0.0, 10.0, "entrance loss coefficient K_e of the open channel")
+    "entrance_loss", 1.0, "-", "a choice on the safe side: the loss of a thin re-entrant entrance, zeta = 1.0 "
+    "(Idelchik, Handbook of Hydraulic Resistance, 3rd ed. 1994, Diagram 3-1; a flush sharp entrance has 0.5); "
+    "a larger loss lowers the critical flow, 0 makes the ingestion line an upper bound", 0.0, 10.0,
+    "entrance loss coefficient K_e of the open channel")
 _C_GAS = Constant(
-    "gas_effect", 1.0, "-", "1 = bubbles carried as a no-slip mixture through the channel (conservative); 0 = "
-    "liquid only", 0.0, 1.0, "share of the gas flow that loads the channel (mixture volume flow and density)")
+    "gas_effect", 1.0, "-", "1 = all the gas carried as a no-slip mixture through the channel: the safe end "
+    "(the line falls as the share grows, theory manual); 0 = liquid only", 0.0, 1.0,
+    "share of the gas flow that loads the channel (mixture volume flow and density)")
 
 _SIZE = (_C_BUBBLE, _C_INJ_W, _C_SQ_A)
 
@@ -154,6 +178,77 @@ SQUEEZING_CA_MAX = 1e-2
 # =============================================================================================
 # geometry
 # =============================================================================================
+@dataclass(frozen=True)
+class MeniscusState:
+    """Where the liquid of an open section can stand below the gas pressure, at one contact angle.
+
+    corners : tuple of (vertex index, half-angle alpha [rad], holds)   each wall corner of the section:
+        it holds a liquid filament below the gas pressure iff theta + alpha < 90 deg (Concus & Finn 1969)
+    edges : tuple of (vertex index, angle phi [rad], holds)   each end of each open edge where a wall meets
+        the open side (:func:`lowgmap.physics.geometry.sections.pinning_edges`): a free surface pinned
+        there can curve into the liquid iff phi > theta
+    holds_liquid : bool   every pinning edge holds: the open channel can carry liquid below the gas
+        pressure (False: gas is drawn in at any flow)
+    """
+
+    corners: tuple
+    edges: tuple
+    holds_liquid: bool
+
+    def describe(self) -> str:
+        """The failing corners and edges in words (empty when everything holds)."""
+        parts = [f"corner at vertex {i} (half-angle {math.degrees(a):.4g} deg)" for i, a, ok in self.corners if not ok]
+        parts += [f"open-side edge at vertex {i} (wall meets the open side at {math.degrees(a):.4g} deg)"
+                  for i, a, ok in self.edges if not ok]
+        return ", ".join(parts)
+
+
+def meniscus_state(section, contact_angle) -> MeniscusState:
+    r"""Which corners and open-side edges of a section hold liquid below the gas pressure.
+
+    .. math:: \theta + \alpha_i < 90° \ \text{(wall corner } i\text{)}, \qquad
+              \theta < \varphi_j \ \text{(edge } j \text{ where a wall meets the open side)}
+
+    Parameters
+    ----------
+    section : Section        an open or closed section
+    contact_angle : float    theta [rad]
+
+    Returns
+    -------
+    MeniscusState
+
+    Notes
+    -----
+    The same meniscus logic at every vertex that can hold liquid: at a wall corner of half-angle
+    alpha, a liquid filament with its pressure below the gas pressure exists only for
+    theta + alpha < 90 deg (Concus & Finn 1969); at a sharp edge where a wall meets the open side at
+    the angle phi (inside the section) a flat free surface meets the wall at phi, and curving into the
+    liquid (liquid below the gas pressure) lowers that angle, so the surface stays pinned only while
+    theta < phi (Gibbs' condition at an edge). For a V-groove or wedge channel phi = 90 deg - alpha and
+    both conditions are the Concus–Finn condition of the apex. When an edge fails, the open channel
+    cannot hold liquid below the gas pressure: any flow lowers the liquid pressure (entrance and
+    viscous losses), the surface leaves the edge and gas is drawn in at any flow.
+
+    Examples
+    --------
+    >>> import math
+    >>> from lowgmap.physics.geometry.sections import Groove
+    >>> meniscus_state(Groove(math.radians(15.0), 0.004), math.radians(80.0)).holds_liquid
+    False
+    >>> meniscus_state(Groove(math.radians(15.0), 0.004), math.radians(70.0)).holds_liquid
+    True
+    """
+    from lowgmap.physics.geometry.sections import pinning_edges
+
+    theta = float(contact_angle)
+    tol = 1e-12
+    corners = tuple((c.index, c.half_angle, bool(theta + c.half_angle < 0.5 * math.pi - tol))
+                    for c in getattr(section, "corners", ()))
+    edges = tuple((e.vertex, e.angle, bool(theta < e.angle - tol)) for e in pinning_edges(section))
+    return MeniscusState(corners, edges, all(ok for *_, ok in edges))
+
+
 @dataclass(frozen=True, eq=False)
 class CornerGeometry:
     """What the corner models need from a case's section and wetting.
@@ -162,7 +257,10 @@ class CornerGeometry:
     depth : float              path length S from apex to open side [m] (nan without a path)
     area : float               section flow area A [m^2]
     half_angle, contact_angle : float   apex half-angle alpha and contact angle theta [rad]
-    reason : str or None       why the models do not apply (None: they do)
+    reason : str or None       why the bubble models do not apply (None: they do)
+    holds_liquid : bool        the open channel holds liquid below the gas pressure (False: gas is drawn
+                               in at any flow, see :func:`meniscus_state`)
+    mechanism_absent : bool    the reason is physical (no liquid-holding meniscus), not a misuse
     """
 
     path: object
@@ -171,11 +269,23 @@ class CornerGeometry:
     half_angle: float
     contact_angle: float
     reason: str | None
+    holds_liquid: bool = True
+    mechanism_absent: bool = False
 
 
 def corner_geometry(case) -> CornerGeometry:
     """The :class:`CornerGeometry` of a case (cached by section and contact angle)."""
     return _geometry(case.section, float(case.wetting.contact_angle))
+
+
+def _no_hold_reason(theta, ms):
+    angles = sorted({round(math.degrees(a), 4) for _, a, ok in ms.edges if not ok})
+    return (f"gas is drawn in at any flow: at contact angle {math.degrees(theta):.4g} deg the free surface cannot "
+            f"curve into the liquid where the walls meet the open side (angle {', '.join(f'{a:.4g}' for a in angles)} "
+            f"deg; pinning needs a contact angle below it, which for a V-groove or wedge channel is the Concus–Finn "
+            f"condition contact angle + half-angle < 90 deg at the apex), so the open channel cannot hold liquid "
+            f"below the gas pressure, and any flow lowers the liquid pressure below it; bubbles are not pushed "
+            f"toward the open side and there is no capillary separation")
 
 
 @functools.lru_cache(maxsize=128)
@@ -185,19 +295,22 @@ def _geometry(section, theta):
         return CornerGeometry(None, math.nan, area, math.nan, theta,
                               f"closed section ({getattr(section, 'kind', 'closed')}): the corner separation "
                               f"models need an open side (free surface or plenum) where the gas leaves")
-    path = bb.taper_path(section)
+    ms = meniscus_state(section, theta)
+    if not ms.holds_liquid:
+        return CornerGeometry(None, math.nan, area, math.nan, theta, _no_hold_reason(theta, ms), False, True)
+    path = bb.taper_path(section, contact_angle=theta)
     if path is None:
+        if bb.taper_path(section) is None:
+            return CornerGeometry(None, math.nan, area, math.nan, theta,
+                                  "no wall corner of this section has its bisector pointing at the open side (no "
+                                  "taper toward the free surface)")
+        dry = ", ".join(f"{math.degrees(a):.4g} deg" for _, a, ok in ms.corners if not ok)
         return CornerGeometry(None, math.nan, area, math.nan, theta,
-                              "no wall corner of this section has its bisector pointing at the open side (no "
-                              "taper toward the free surface)")
-    alpha = path.half_angle
-    reason = None
-    if theta + alpha >= 0.5 * math.pi - 1e-12:
-        reason = (f"the Concus–Finn condition fails at the apex corner (contact angle {math.degrees(theta):.4g} "
-                  f"deg + half-angle {math.degrees(alpha):.4g} deg >= 90 deg): the liquid is not drawn into the corner "
-                  f"and bubbles are not pushed toward the open side, so there is no capillary separation and no "
-                  f"capillary boundary is drawn")
-    return CornerGeometry(path, path.length, area, alpha, theta, reason)
+                              f"the Concus–Finn condition fails at every corner that faces the open side (contact "
+                              f"angle {math.degrees(theta):.4g} deg + half-angle >= 90 deg; half-angles {dry}): gas, "
+                              f"not liquid, fills those corners, so bubbles are not squeezed toward the open side "
+                              f"and there is no capillary separation", True, True)
+    return CornerGeometry(path, path.length, area, path.half_angle, theta, None)
 
 
 def open_channel_of(section, contact_angle):
@@ -319,37 +432,73 @@ def _usable_geometry(case):
 # migration-time table ----------------------------------------------------------------------
 _MIG_KEYS = ("injection_position", "confinement_ratio", "capillary_coefficient", "hele_shaw_drag", "film_drag",
              "form_drag")
-_N_TABLE = 160
+_N_TABLE = 241
+#: The table's abscissa z = ln(w / (W - w)), w = d - d_reach, W = d_touch - d_reach, spans |z| <= _Z_END:
+#: geometric grading toward both ends (the time diverges at d_reach and falls to 0 at d_touch).
+_Z_END = 30.0
 
 
 @functools.lru_cache(maxsize=256)
 def _mig_table(path, rho, mu, sigma, theta, injection, k_c, c_cap, c_hs, c_f, c_d):
-    """(d grid, t grid, d_reach, d_touch): migration time against bubble diameter (geometric grid)."""
+    """(z grid, ln t grid, d_reach, d_touch, interpolator): migration time against bubble diameter.
+
+    z = ln(w/(W - w)) with w = d - d_reach and W = d_touch - d_reach; ln t is smooth in z and close to
+    linear at both ends (t ~ ln(1/w) near the confinement line, t ~ W - w near the touching size), so
+    it is interpolated by a cubic spline in z (measured error below 1e-5 against direct quadrature)
+    and extrapolated linearly.
+    """
     d_reach = path.reach_diameter(injection, k_c)
     d_touch = 2.0 * float(np.interp(injection * path.length, path.s, path.open_distance))
-    lo = max(d_reach, 1e-9 * path.length)
-    if not d_touch > lo:
-        return np.array([lo]), np.zeros(1), d_reach, d_touch
-    d = np.geomspace(lo, d_touch, _N_TABLE)
-    t = bb.migration_time(path, d, injection=injection, confinement_ratio=k_c, rho=rho, mu=mu, sigma=sigma,
-                          contact_angle=theta, capillary_coefficient=c_cap, hele_shaw_drag=c_hs, film_drag=c_f,
-                          form_drag=c_d)
-    t[0] = t[1] if not np.isfinite(t[0]) else t[0]       # the reach diameter itself, up to rounding
-    t[-1] = 0.0
-    for a in (d, t):
+    W = d_touch - d_reach
+    if not W > 1e-12 * max(d_touch, 1e-300):
+        return np.zeros(0), np.zeros(0), d_reach, d_touch, None
+    z = np.linspace(-_Z_END, _Z_END, _N_TABLE)
+    w = W * 0.5 * (1.0 + np.tanh(0.5 * z))                # = W / (1 + exp(-z)), without overflow
+    t = bb.migration_time(path, d_reach + w, injection=injection, confinement_ratio=k_c, rho=rho, mu=mu,
+                          sigma=sigma, contact_angle=theta, capillary_coefficient=c_cap, hele_shaw_drag=c_hs,
+                          film_drag=c_f, form_drag=c_d)
+    with np.errstate(divide="ignore"):
+        lt = np.log(np.asarray(t, dtype=float))
+    good = np.isfinite(lt)
+    z, lt = z[good], lt[good]
+    for a in (z, lt):
         a.flags.writeable = False
-    return d, t, d_reach, d_touch
+    return z, lt, d_reach, d_touch, (CubicSpline(z, lt, extrapolate=False) if z.size >= 4 else None)
+
+
+#: Relative margin (d - d_reach)/d_reach below which the charts take the migration time at this margin.
+#: The time diverges only logarithmically at the confinement line (theory manual), and a flow ratio
+#: Q_G/Q_L known to rounding resolves the margin no finer than about 1e-15/1e-9 = 1e-6 of itself here:
+#: so the lines, the regions and the classification use one finite, resolvable value on the line.
+_REACH_RESOLUTION = 1e-9
 
 
 def _t_mig(case, geom, d, c):
-    """Migration time [s] of bubbles of diameter d: NaN if they do not reach, 0 if they touch at once."""
+    """Migration time [s] of bubbles of diameter d: NaN if they do not reach, 0 if they touch at once; for
+    d within _REACH_RESOLUTION of d_reach, the time at that margin (the exact time diverges there)."""
     f = case.fluid
-    dg, t, d_reach, d_touch = _mig_table(geom.path, f.rho_l, f.mu_l, f.sigma, geom.contact_angle,
-                                         *(float(c[k]) for k in _MIG_KEYS))
-    d = np.asarray(d, dtype=float)
-    out = np.interp(d, dg, t)
+    z, lt, d_reach, d_touch, interp = _mig_table(geom.path, f.rho_l, f.mu_l, f.sigma, geom.contact_angle,
+                                                 *(float(c[k]) for k in _MIG_KEYS))
+    d0 = np.asarray(d, dtype=float)
+    d = np.where(d0 >= d_reach * (1.0 - 1e-12), np.maximum(d0, d_reach * (1.0 + _REACH_RESOLUTION)), d0)
+    out = np.full(d.shape, np.nan)
+    if interp is not None:
+        W = d_touch - d_reach
+        w = d - d_reach
+        with np.errstate(all="ignore"):
+            zz = np.log(w) - np.log(W - w)
+        inside = np.isfinite(zz)
+        zc = np.clip(np.where(inside, zz, 0.0), z[0], z[-1])
+        val = interp(zc)
+        lo_slope = (lt[1] - lt[0]) / (z[1] - z[0])
+        hi_slope = (lt[-1] - lt[-2]) / (z[-1] - z[-2])
+        val = np.where(zz < z[0], lt[0] + lo_slope * (zz - z[0]), val)
+        val = np.where(zz > z[-1], lt[-1] + hi_slope * (zz - z[-1]), val)
+        with np.errstate(over="ignore"):
+            out = np.where(inside, np.exp(val), out)
+        out = np.where(w <= 0, np.inf, out)
     out = np.where(d >= d_touch, 0.0, out)
-    return np.where(d >= d_reach * (1.0 - 1e-12), out, np.nan)
+    return np.where(d0 >= d_reach * (1.0 - 1e-12), out, np.nan)
 
 
 def separation_liquid_flow(case, ratio, **consts):
@@ -401,7 +550,7 @@ def _qcrit_table(channel, length, rho_l, rho_g, mu, sigma, K_e, full):
         return {"log_rho": np.log(rhos), "log_q": np.log(np.array(q)), "limited_by": np.array(lim, dtype=str)}
 
     # kept on disk too (lowgmap.physics.cache): one table costs 11 critical-flow solves
-    arrays = cache.cached_arrays("corner.critical_flow_table",
+    arrays = cache.cached_arrays("corner.critical_flow_table.v2",
                                  (channel, length, rho_l, rho_g, mu, sigma, K_e, bool(full), _N_RHO), build)
     lr, lq = arrays["log_rho"], arrays["log_q"]
     for a in (lr, lq):
@@ -441,7 +590,8 @@ def ingestion_liquid_flow(case, ratio, **consts):
 
     Returns
     -------
-    float or array   Q_L [m^3/s]
+    float or array   Q_L [m^3/s]; 0 when the open channel cannot hold liquid below the gas pressure
+    (:func:`meniscus_state`): gas is then drawn in at any flow
     """
     c = OPEN_CHANNEL_INGESTION.resolve_constants(consts)
     r = np.asarray(ratio, dtype=float)
@@ -450,6 +600,8 @@ def ingestion_liquid_flow(case, ratio, **consts):
 
 
 def _ing_ql(case, r, c):
+    if not corner_geometry(case).holds_liquid:
+        return np.zeros(np.shape(r))            # gas drawn in at any flow
     phi = c["gas_effect"]
     f = case.fluid
     load = 1.0 + phi * r
@@ -492,6 +644,11 @@ def _notes(case, region_models):
     geom = corner_geometry(case)
     names = {m.name for m, _ in region_models}
     f = case.fluid
+    if not geom.holds_liquid and "open_channel_ingestion" in names:
+        out.append(f"GAS DRAWN IN AT ANY FLOW: {geom.reason[len('gas is drawn in at any flow: '):]}. Every flow rate "
+                   f"on this chart lies in the regime '{INGESTION}'. The open channel holds liquid only with a lower "
+                   f"contact angle or walls that meet the open side more steeply (for a V-groove or wedge channel: a "
+                   f"smaller half-angle).")
     if geom.path is not None:
         S = geom.depth
         bo = (f.rho_l - f.rho_g) * case.g * S ** 2 / f.sigma
@@ -507,15 +664,14 @@ def _notes(case, region_models):
                        f"g = {case.g:.3g} m/s^2. The corner lines ignore buoyancy; use them as indications only.")
     present = set(SCHEME.regime_names(region_models))
     sep = [r.name for r in REGIMES if r.separates_gas and r.name in present]
-    if sep:
+    if not geom.holds_liquid:
+        pass
+    elif sep:
         out.append(f"Regimes that separate all the gas within the conduit: {', '.join(sep)}; in the others gas "
                    f"reaches the liquid outlet.")
     else:
         out.append("No regime on this chart separates the gas: without the separation line the gas always "
                    "reaches the liquid outlet.")
-    if "corner_separation" in names and "corner_confinement" not in names:
-        out.append("The separation line ends on the confinement line, which is not on this chart: add "
-                   "corner_confinement to close the separated regions.")
     return out
 
 
@@ -572,9 +728,9 @@ class _CornerModel(BoundaryModel):
         return corner_geometry(case).reason
 
     def inactive_reason(self, case):
-        """The Concus–Finn failure, if any: the mechanism is absent (not a misuse of the model)."""
+        """Why the mechanism is physically absent, if it is (no liquid-holding meniscus; not a misuse)."""
         geom = corner_geometry(case)
-        return geom.reason if geom.path is not None else None
+        return geom.reason if geom.mechanism_absent else None
 
     def _c(self, consts):
         return self.resolve_constants(consts) if set(consts) != set(self.defaults) else \
@@ -793,7 +949,10 @@ class CornerSeparation(_CornerModel):
     Below the line (g < 0, smaller flows) the bubbles reach the open side before the stream carries
     them out. g is NaN where the bubble does not reach the open side (see
     :class:`CornerConfinement`). The line is :math:`Q_L = l A/(s_f t_\mathrm{mig}(1 + r))`
-    (:func:`separation_liquid_flow`).
+    (:func:`separation_liquid_flow`). As d_eff falls to the reach diameter the push fades and
+    t_mig grows like ln(1/(d_eff - d_reach)), so the line bends down toward the confinement line;
+    the charts take t_mig at the resolvable margin (d_eff/d_reach - 1 = 1e-9) on the line itself,
+    where the separation line ends on the confinement line.
 
     Examples
     --------
@@ -854,6 +1013,10 @@ class OpenChannelIngestion(_CornerModel):
     tabulated once per case over the mixture density. :math:`\phi` (``gas_effect``) = 1 loads the
     channel with the no-slip mixture (volume flow Q_L + Q_G, density rho_m); 0 with the liquid alone.
 
+    When the open channel cannot hold liquid below the gas pressure (:func:`meniscus_state`; for a
+    V-groove or wedge the Concus–Finn condition of the apex fails) the critical flow is 0: every flow
+    lies above the line (g = +inf), the whole chart is the gas-ingestion regime and no line is drawn.
+
     Examples
     --------
     >>> OPEN_CHANNEL_INGESTION.regime_above
@@ -864,11 +1027,16 @@ class OpenChannelIngestion(_CornerModel):
 
     def applies_to(self, case):
         geom = corner_geometry(case)
-        if geom.reason is not None and (geom.path is not None or not getattr(case.section, "is_open", False)):
-            return geom.reason                  # Concus–Finn failure, or a closed section
+        if not getattr(case.section, "is_open", False):
+            return geom.reason                  # closed section
+        if not geom.holds_liquid:
+            return None                         # gas drawn in at any flow: the whole chart
         if open_channel_of(case.section, case.wetting.contact_angle) is None:
             return ("no open-channel flow-rate model for this section (V-groove, wedge channel, rectangle open on "
                     "one side or on two opposite sides)")
+        return None
+
+    def inactive_reason(self, case):
         return None
 
     def validity_mask(self, case, ql, qg, **consts):
@@ -887,8 +1055,13 @@ class OpenChannelIngestion(_CornerModel):
         return float(out) if np.ndim(out) == 0 else out
 
     def critical_flow(self, case, **consts):
-        """Critical liquid flow rate without gas [m^3/s] and what limits it (a key of open_channel.LIMITS)."""
+        """Critical liquid flow rate without gas [m^3/s] and what limits it (a key of open_channel.LIMITS).
+
+        (0.0, "no_hold") when the open channel cannot hold liquid below the gas pressure.
+        """
         c = self._c(consts)
+        if not corner_geometry(case).holds_liquid:
+            return 0.0, "no_hold"
         f = case.fluid
         ch = open_channel_of(case.section, case.wetting.contact_angle)
         lr, lq, _, lim = _qcrit_table(ch, float(case.length), f.rho_l, f.rho_g, f.mu_l, f.sigma,
@@ -897,6 +1070,8 @@ class OpenChannelIngestion(_CornerModel):
 
     def line_pieces(self, case, **consts):
         c = self._c(consts)
+        if not corner_geometry(case).holds_liquid:
+            return []                           # the line lies at zero flow: nothing to draw
         lo, hi = self._r_range(case)
 
         def func(t):

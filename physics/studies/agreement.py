@@ -49,7 +49,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Mapping, Sequence
+from typing import ClassVar, Mapping, Sequence
 
 import numpy as np
 
@@ -82,12 +82,29 @@ class ValidityCriteria:
     bond_max : float            largest Bond number at which gravity counts as negligible [-]
                                 (default 1, Brauner 1990)
     safety_factor : float       the available low-g time must be at least this many times the required
-                                time [-] (default 2, common practice, no source)
+                                time [-] (default 2: a choice, common practice, no source; larger is
+                                stricter)
     capillary_multiple : float  how many capillary time scales the interface needs to settle after the
-                                step into low gravity [-] (default 1, common practice, no source)
+                                step into low gravity [-] (default 1: a choice, common practice, no
+                                source; larger is stricter)
     observation_length : float or None   distance from the conduit inlet (gas injection) to where the
-                                regime is observed [m]; None: the case's conduit length
+                                regime is observed [m]; None: the case's conduit length (the longest
+                                transit, the strict end)
+
+    Notes
+    -----
+    :attr:`SOURCES` gives the source of each default, or says that it is a choice. The times are
+    order-of-magnitude scales, so the two time factors are judgement, not data: a point is
+    "valid" only in that sense.
     """
+
+    #: Where each default comes from (a publication, or "a choice ... no source").
+    SOURCES: ClassVar[dict] = {
+        "bond_max": "Brauner (1990): Eo < 1, no stratification in reduced gravity",
+        "safety_factor": "a choice: common practice, no source",
+        "capillary_multiple": "a choice: common practice, no source",
+        "observation_length": "design input (default: the conduit length)",
+    }
 
     bond_max: float = 1.0
     safety_factor: float = 2.0
@@ -107,6 +124,8 @@ class ValidityCriteria:
         return {"bond_max": self.bond_max, "bond_max_source": "Brauner (1990)",
                 "safety_factor": self.safety_factor, "capillary_multiple": self.capillary_multiple,
                 "time_factors_source": "common practice, no source",
+                "safety_factor_source": self.SOURCES["safety_factor"],
+                "capillary_multiple_source": self.SOURCES["capillary_multiple"],
                 "observation_length_m": self.observation_length}
 
 
@@ -283,13 +302,13 @@ def point_validity(case, points, criteria: ValidityCriteria | None = None, *, ch
 
     Examples
     --------
-    Water in a 12.7 mm tube, 1 m observed, 100 + 20 mL/min in a 24 m drop tower (2.2 s, 1e-3 g0):
+    Water in a 12.7 mm tube, 1 m observed, 100 + 20 mL/min in a short drop tower (2 s, 1e-3 g0):
 
     >>> from lowgmap.physics.examples import example_case
     >>> from lowgmap.physics.geometry.sections import Circle
     >>> case = example_case(Circle(0.0127))
     >>> v = point_validity(case, {"ql_m3_s": [100e-6 / 60], "qg_m3_s": [20e-6 / 60],
-    ...                           "platform": ["24 m drop tower"]})
+    ...                           "platform": ["short drop tower"]})
     >>> round(float(v.bond[0]), 4), round(float(v.t_transit[0]), 2), bool(v.valid[0])
     (0.0217, 63.34, False)
     """

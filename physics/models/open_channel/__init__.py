@@ -66,7 +66,8 @@ hydraulics     the steady 1-D model: entrance loss and inlet state, :func:`speed
                choking length, :func:`critical_flow_curve` (Q_crit over lengths), :data:`LIMITS`
 profile        the free-surface shape along the channel: :func:`surface_profile`, and
                :func:`critical_flow_rate` (the critical flow with its surface; also with
-               streamwise curvature)
+               streamwise curvature); :func:`choking_mechanism` (speed index 1 or
+               depinning of the free surface)
 =============  ==============================================================================
 """
 from __future__ import annotations
@@ -85,8 +86,10 @@ from lowgmap.physics.models.open_channel.hydraulics import (
     speed_index,
 )
 from lowgmap.physics.models.open_channel.profile import (
+    ChokingMechanism,
     CriticalFlow,
     Profile,
+    choking_mechanism,
     critical_flow_rate,
     surface_profile,
 )
@@ -99,10 +102,12 @@ __all__ = [
     "CornerFilament",
     "Profile",
     "CriticalFlow",
+    "ChokingMechanism",
     "CriticalFlowCurve",
     "speed_index",
     "surface_profile",
     "critical_flow_rate",
     "critical_flow_curve",
+    "choking_mechanism",
     "LIMITS",
 ]

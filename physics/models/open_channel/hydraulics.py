@@ -36,7 +36,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import brentq
 
-from lowgmap.physics.models.open_channel.geometry import CornerFilament, OpenChannel
+from lowgmap.physics.models.open_channel.geometry import CornerFilament, OpenChannel, WedgeChannel
 from lowgmap.physics.models.open_channel.tables import section_tables
 from lowgmap.physics.validate import finite, format_number, non_negative, positive
 
@@ -51,6 +51,12 @@ LIMITS = {
                       "or touches the opposite wall or surface) before the speed index reaches 1",
     "no_solution": "streamwise-curvature model: the boundary-value problem has no solution for a "
                    "larger flow (fold of the solution branch)",
+    "depinning": "the free surface leaves the plate edges at the outlet: its contact lines slide toward the "
+                 "apex, the flow area gives way faster and the speed index jumps past 1 there (wedge "
+                 "channel with a contact angle > 0; the speed index on the pinned side stays below 1)",
+    "no_hold": "the free surface cannot curve into the liquid at the open-side edges (contact angle not "
+               "below the angle between wall and open side; Concus–Finn for a wedge): no flow is held "
+               "below the gas pressure, gas is drawn in at any flow",
 }
 
 
@@ -162,6 +168,15 @@ class SteadyFlow:
             return kf
         return brentq(lambda k: float(self.Q_in(k)) - Q, self.k0, kf, xtol=1e-15 * kf, rtol=1e-14)
 
+    def depins_at(self, k, Q):
+        """Whether a flow Q choking at curvature k does so by depinning: a wedge channel whose surface leaves
+        the plate edges there, with the speed index below 1 on the pinned side (it jumps past 1 beyond)."""
+        ch = self.channel
+        if not isinstance(ch, WedgeChannel) or ch.contact_angle <= 0.0:
+            return False
+        kt = ch.kappa_pinned
+        return bool(abs(k - kt) <= 1e-9 * kt and float(self.S(kt, Q)) < 1.0 - 1e-9)
+
     def S(self, k, Q):
         """Speed index at curvature k [1/m] and flow Q [m^3/s]."""
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -196,11 +211,15 @@ class SteadyFlow:
                 Q = brentq(f, q_lo, Qup, xtol=1e-14 * Qup, rtol=1e-12)
                 kin, kend, _ = self.choke(Q)
                 lim = "speed_index" if kend < self.channel.kappa_max * (1 - 1e-12) else "meniscus_limit"
+                if lim == "speed_index" and self.depins_at(kend, Q):
+                    lim = "depinning"
                 return float(Q), lim
         if kf >= self.channel.kappa_max * (1 - 1e-12):
             lim = "meniscus_limit"
         elif S_up >= 1.0 - 1e-9:
             lim = "speed_index"
+        elif self.depins_at(kf, Qup):
+            lim = "depinning"
         else:
             lim = "inlet"
         return float(Qup), lim

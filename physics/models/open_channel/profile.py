@@ -21,17 +21,18 @@ surface at that flow. Two models:
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.integrate import solve_bvp
 
-from lowgmap.physics.models.open_channel.geometry import OpenChannel, PinnedChannel
+from lowgmap.physics.models.open_channel.geometry import OpenChannel, PinnedChannel, WedgeChannel
 from lowgmap.physics.models.open_channel.hydraulics import LIMITS, SteadyFlow
 from lowgmap.physics.validate import format_number, positive
 
-__all__ = ["Profile", "CriticalFlow", "surface_profile", "critical_flow_rate"]
+__all__ = ["Profile", "CriticalFlow", "ChokingMechanism", "surface_profile", "critical_flow_rate", "choking_mechanism"]
 
 #: Streamwise-curvature model: collocation tolerance of scipy's solve_bvp, and the relative step in
 #: the flow rate at which the continuation stops (the accuracy of Q_crit).
@@ -90,6 +91,90 @@ class CriticalFlow:
     limited_by: str
     outlet_speed_index: float
     profile: Profile
+    mechanism: "ChokingMechanism | None" = None
+
+
+@dataclass(frozen=True)
+class ChokingMechanism:
+    """What chokes an open channel at its critical flow, in numbers consistent with :class:`CriticalFlow`.
+
+    key : key of :data:`~lowgmap.physics.models.open_channel.hydraulics.LIMITS` (``limited_by``)
+    description : the mechanism in words, with the numbers
+    outlet_radius : surface radius R1 at the outlet at Q_crit [m]
+    speed_index : speed index at the outlet (for a depinning choke: on the pinned side, below 1)
+    speed_index_beyond : speed index just past the depinning radius (the corner filament; NaN unless
+        the choke is by depinning)
+    """
+
+    key: str
+    description: str
+    outlet_radius: float
+    speed_index: float
+    speed_index_beyond: float
+
+
+def choking_mechanism(channel: OpenChannel, critical: CriticalFlow, rho: float, sigma: float) -> ChokingMechanism:
+    r"""The real choking mechanism of a critical flow: speed index 1, depinning of the free surface, or another limit.
+
+    .. math:: S_\mathrm{pinned} = S(\kappa_t^-) < 1 \le S(\kappa_t^+) = \sqrt{\frac{2\rho Q^2 \kappa_t^3}{\sigma F^2}}
+              \quad\Rightarrow\quad \text{depinning}
+
+    (:math:`\kappa_t = 1/R_t` where the contact lines of a wedge channel leave the plate edges, F the
+    corner area factor: :math:`A = F/\kappa^2`, :math:`-\mathrm{d}A/\mathrm{d}\kappa = 2F/\kappa^3` beyond).
+
+    Parameters
+    ----------
+    channel : OpenChannel     the channel of the result
+    critical : CriticalFlow   from :func:`critical_flow_rate`
+    rho, sigma : float        liquid density [kg/m^3] and surface tension [N/m] used there
+
+    Returns
+    -------
+    ChokingMechanism
+
+    Notes
+    -----
+    For a wedge channel with a contact angle > 0, the compliance dA/dp jumps up where the surface
+    leaves the plate edges (the contact lines slide toward the apex), so the speed index jumps. When
+    it jumps across 1 the flow chokes right there although the speed index on the pinned side, the
+    outlet value reported by :func:`critical_flow_rate`, is below 1: the surface collapses because it
+    depins. Otherwise the key is ``limited_by`` itself.
+
+    Examples
+    --------
+    >>> import math
+    >>> from lowgmap.physics.models.open_channel import WedgeChannel, critical_flow_rate
+    >>> w = WedgeChannel(math.radians(6.0), 0.04, math.radians(5.0))
+    >>> res = critical_flow_rate(w, 0.04, rho=913.0, mu=4.565e-3, sigma=0.0197)
+    >>> m = choking_mechanism(w, res, 913.0, 0.0197)
+    >>> m.key, m.speed_index < 1.0 < m.speed_index_beyond
+    ('depinning', True)
+    """
+    rho = positive("rho", rho, "kg/m^3")
+    sigma = positive("sigma", sigma, "N/m")
+    prof = critical.profile
+    R_out = float(prof.R1[-1]) if prof is not None and len(prof.R1) else math.nan
+    s_out = float(critical.outlet_speed_index)
+    key = critical.limited_by
+    beyond = math.nan
+    Q = float(critical.Q_crit)
+    if isinstance(channel, WedgeChannel) and channel.contact_angle > 0.0 and math.isfinite(R_out):
+        kt = channel.kappa_pinned
+        if abs(1.0 / R_out - kt) <= 1e-6 * kt:
+            F = channel.area_factor
+            beyond = math.sqrt(2.0 * rho * Q * Q * kt ** 3 / (sigma * F * F))
+            if s_out < 1.0 - 1e-9 and beyond >= 1.0 - 1e-9 and key in ("speed_index", "depinning"):
+                key = "depinning"
+    text = LIMITS.get(key, key)
+    if key == "depinning":
+        text = (f"depinning: at the critical flow the free surface reaches the plate edges' limit at the outlet "
+                f"(R1 = {format_number(R_out)} m, where it meets the plates at the contact angle); the speed index "
+                f"is {s_out:.3g} on the pinned side and {beyond:.3g} once the contact lines slide toward the apex, "
+                f"so the surface collapses by leaving the edges, not by the speed index reaching 1 on a pinned "
+                f"surface")
+    elif key == "speed_index":
+        text = f"speed index 1 at the outlet (R1 = {format_number(R_out)} m, S = {s_out:.3g}): " + text
+    return ChokingMechanism(key, text, R_out, s_out, beyond)
 
 
 # =============================================================================================
@@ -278,8 +363,9 @@ def critical_flow_rate(channel: OpenChannel, length: float, rho: float, mu: floa
     flow = SteadyFlow(channel, rho, mu, sigma, K_e, inlet_pressure, inlet_radius, resistance)
     Q, limited_by = flow.critical(length)
     prof = _critical_profile(flow, Q, length)
-    return CriticalFlow(Q_crit=Q, limited_by=limited_by, outlet_speed_index=float(prof.speed_index[-1]),
-                        profile=prof)
+    res = CriticalFlow(Q_crit=Q, limited_by=limited_by, outlet_speed_index=float(prof.speed_index[-1]),
+                       profile=prof)
+    return dataclasses.replace(res, mechanism=choking_mechanism(channel, res, flow.rho, flow.sigma))
 
 
 # =============================================================================================
@@ -434,4 +520,6 @@ def _curved_critical(channel, length, rho, mu, sigma, K_e, inlet_pressure, inlet
     prof = cv.profile(q, sol, 201)
     # the surface is flat at the outlet itself: report the largest speed index (just upstream)
     return CriticalFlow(Q_crit=float(prof.flow_rate), limited_by=why,
-                        outlet_speed_index=float(np.max(prof.speed_index)), profile=prof)
+                        outlet_speed_index=float(np.max(prof.speed_index)), profile=prof,
+                        mechanism=ChokingMechanism(why, LIMITS.get(why, why), math.nan,
+                                                   float(np.max(prof.speed_index)), math.nan))
