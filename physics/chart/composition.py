@@ -27,7 +27,10 @@ warns when that happens inside the chart range. The region polygons follow the s
 
 Default models: for a closed section, the void-fraction bubble–slug and slug–annular lines
 (Dukler et al. 1988) define the regions; the Suratman bubble–slug line and the two Weber-number
-zone lines are comparison lines (:data:`DEFAULT_MODELS`). For an open section (groove, wedge
+zone lines are comparison lines (:data:`DEFAULT_MODELS`). When the case states vertical upward or
+(near-)horizontal flow, the buoyancy-inclusive lines of that orientation are added and the
+hand-over rule of :mod:`lowgmap.physics.models.tube_gravity` decides which family defines the
+regions (Eötvös number below or above 1; :func:`default_models`). For an open section (groove, wedge
 channel, polygon with an open side) the corner capillary-separation family of
 :mod:`lowgmap.physics.models.corner` is the default.
 
@@ -74,6 +77,7 @@ from lowgmap.physics.case import ModelChoice
 from lowgmap.physics.chart.lines import piece_function
 from lowgmap.physics.chart.sampling import mask_runs, sample_line
 from lowgmap.physics.models import tube as tube_models
+from lowgmap.physics.models import tube_gravity
 from lowgmap.physics.models.boundary import BoundaryModel, resolve_model
 from lowgmap.physics.models.regimes import (CHAIN, ChainScheme, LinePiece, PartitionScheme, RegimeInfo,
                                             RegimeScheme)
@@ -83,13 +87,17 @@ __all__ = ["BoundaryCurve", "Intersection", "Region", "Axes", "Chart", "AXIS_KIN
            "default_models", "RegimeInfo", "RegimeScheme", "ChainScheme", "PartitionScheme", "CHAIN",
            "LinePiece"]
 
-#: Default model names by section family ("closed" tubes and ducts, "open" channels). For closed
-#: sections the first models that chain by regime names define the regions and the rest are
-#: comparison lines; the open-section models form a partition scheme (:mod:`lowgmap.physics.models.corner`).
+#: Default model names by section family ("closed" tubes and ducts, "open" channels) and, for closed
+#: sections with a stated orientation, the buoyancy-inclusive family of that orientation ("vertical
+#: upward", "horizontal"; :mod:`lowgmap.physics.models.tube_gravity`). For closed sections the first
+#: models that chain by regime names define the regions and the rest are comparison lines; the
+#: open-section models form a partition scheme (:mod:`lowgmap.physics.models.corner`).
 DEFAULT_MODELS: dict[str, tuple[str, ...]] = {
     "closed": tube_models.TUBE_MODEL_NAMES,
     "open": ("corner_confinement", "corner_separation", "corner_merging", "corner_blow_through",
              "open_channel_ingestion"),
+    "vertical upward": tube_gravity.VERTICAL_UPWARD_MODEL_NAMES,
+    "horizontal": tube_gravity.HORIZONTAL_MODEL_NAMES,
 }
 
 #: Axis kinds accepted by :meth:`Chart.axes`.
@@ -178,9 +186,22 @@ class Axes:
 
 
 def default_models(case) -> tuple[str, ...]:
-    """Default model names for the case's section family (open or closed)."""
-    family = "open" if getattr(case.section, "is_open", False) else "closed"
-    return DEFAULT_MODELS[family]
+    """Default model names for the case's section family (open or closed) and orientation.
+
+    Open sections: the corner family. Closed sections without orientation (or with one that has no
+    buoyancy-inclusive family: vertical downward flow, inclinations other than vertical upward and
+    within 10 deg of horizontal): the low-gravity lines, exactly as before orientation existed.
+    Otherwise both families, ordered by the hand-over rule
+    (:func:`lowgmap.physics.models.tube_gravity.handover`): below Eötvös number 1 the low-gravity lines
+    come first and define the regions, at or above it the buoyancy-inclusive lines do; the other
+    family follows as comparison lines, flagged outside their validity.
+    """
+    if getattr(case.section, "is_open", False):
+        return DEFAULT_MODELS["open"]
+    if not tube_gravity.gravity_family(case):
+        return DEFAULT_MODELS["closed"]
+    h = tube_gravity.handover(case)
+    return h.region_models + h.comparison_models
 
 
 # --------------------------------------------------------------------------------------------

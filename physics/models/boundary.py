@@ -17,6 +17,18 @@ Engineers add measured boundaries of their own as :class:`PowerLawBoundary` (Q_G
 :class:`TableBoundary` (points joined in log-log), built from case-file entries with
 :func:`boundary_from_spec` and carried by the case (:func:`case_boundaries`).
 
+Uncertainty bands of the constants
+----------------------------------
+Besides its *allowed* range (``low`` .. ``high``: the values the model accepts), a constant may carry
+an *uncertainty band* (``band`` with its ``band_reason``): the values it may really take, from the
+published scatter, the stated spread of the data, or, for a value recalled from memory or set by
+order of magnitude, a deliberately wide range. A constant whose ``source`` says it is recalled from
+memory or set by order of magnitude (:data:`DEFAULT_BAND_WORDS`) and has no band of its own gets
+the default band ×/÷ :data:`DEFAULT_BAND_FACTOR` about the value in use, cut to the allowed range
+(:meth:`Constant.band_for`). A case may replace a band (e.g. by the 95 % interval of a calibration):
+:func:`case_bands`, :func:`with_case_bands`. :meth:`BoundaryModel.constant_bands` resolves them all
+into :class:`ConstantBand` objects, which :mod:`lowgmap.physics.chart.bands` sweeps.
+
 All flows are volumetric flow rates at local conditions [m^3/s]. In vectorised evaluation a point
 whose flow rates are not finite and > 0 gives NaN.
 """
@@ -38,9 +50,20 @@ __all__ = [
     "Constant", "Validity", "BoundaryModel", "ExplicitBoundary", "PowerLawBoundary", "TableBoundary",
     "BOUNDARY_MODELS", "register", "get_model", "model_names", "usable_models",
     "boundary_from_spec", "case_boundaries", "resolve_model", "CASE_BOUNDARIES_KEY",
+    "ConstantBand", "DEFAULT_BAND_FACTOR", "DEFAULT_BAND_REASON", "DEFAULT_BAND_WORDS", "CASE_BANDS_KEY",
+    "case_bands", "with_case_bands",
 ]
 
 _NAME_RE = re.compile(r"^[a-z][a-z0-9_]*$")
+
+
+#: Factor of the default band: a constant recalled from memory or set by order of magnitude may lie
+#: anywhere from value / 2 to value x 2 (cut to its allowed range). A choice, no source.
+DEFAULT_BAND_FACTOR = 2.0
+#: Reason given for the default band.
+DEFAULT_BAND_REASON = "order of magnitude, from memory (default band)"
+#: Words in a constant's ``source`` that give it the default band when it has none of its own.
+DEFAULT_BAND_WORDS = ("from memory", "order of magnitude", "of order", "uncertain")
 
 
 @dataclass(frozen=True)
@@ -54,8 +77,22 @@ class Constant:
     unit : str       unit of the value ("-" for dimensionless)
     source : str     where the default comes from; "from memory" or "common practice" when the
                      published value was not in hand
-    low, high : float  allowed range (inclusive)
+    low, high : float  allowed range (inclusive): the values the model accepts
     doc : str        one-line meaning
+    band : (float, float) or None   uncertainty band: the values the constant may really take
+                     (inside the allowed range, containing the default); None when it has none of
+                     its own (see :meth:`band_for` for the default band)
+    band_reason : str   why the band is what it is ("published scatter ...", "stated spread of the
+                     data ...", "order of magnitude, from memory ..."); required with a band
+
+    Examples
+    --------
+    >>> c = Constant("we_sg", 1.0, "-", "from memory", 0.01, 1000.0, band=(0.5, 2.0),
+    ...              band_reason="order of magnitude, from memory")
+    >>> c.band_for()
+    (0.5, 2.0, 'order of magnitude, from memory')
+    >>> Constant("k", 3.0, "-", "order of magnitude", 0.1, 5.0).band_for()     # default band, cut at 5
+    (1.5, 5.0, 'order of magnitude, from memory (default band)')
     """
 
     name: str
@@ -65,6 +102,8 @@ class Constant:
     low: float
     high: float
     doc: str = ""
+    band: tuple[float, float] | None = None
+    band_reason: str = ""
 
     def __post_init__(self):
         if not _NAME_RE.match(self.name):
@@ -72,11 +111,95 @@ class Constant:
         if not self.low <= self.high:
             raise ValueError(f"constant {self.name}: low must be <= high, got [{self.low:g}, {self.high:g}]")
         self.check(self.default, "default")
+        if self.band is not None:
+            try:
+                lo, hi = (float(v) for v in self.band)
+            except (TypeError, ValueError):
+                raise ValueError(f"constant {self.name}: band must be a pair (low, high), got {self.band!r}") from None
+            what = f"constant {self.name}: band"
+            if not (math.isfinite(lo) and math.isfinite(hi) and lo <= hi):
+                raise ValueError(f"{what} must be two finite numbers, low <= high, got [{lo:g}, {hi:g}]")
+            if lo < self.low or hi > self.high:
+                raise ValueError(f"{what} [{lo:g}, {hi:g}] must lie within the allowed range "
+                                 f"[{self.low:g}, {self.high:g}]")
+            if not lo <= self.default <= hi:
+                raise ValueError(f"{what} [{lo:g}, {hi:g}] must contain the default {self.default:g}")
+            if not (isinstance(self.band_reason, str) and self.band_reason.strip()):
+                raise ValueError(f"{what} needs its reason (band_reason)")
+            object.__setattr__(self, "band", (lo, hi))
 
     def check(self, value, model_name: str) -> float:
         """Return ``value`` as a float; raise ValueError naming model and constant if out of range."""
         return in_range(f"{model_name}: constant {self.name}", value, self.low, self.high,
                         "" if self.unit == "-" else self.unit)
+
+    @property
+    def default_band_applies(self) -> bool:
+        """True when the constant has no band of its own and its source says it is recalled from memory
+        or set by order of magnitude (:data:`DEFAULT_BAND_WORDS`)."""
+        src = self.source.lower()
+        return self.band is None and any(w in src for w in DEFAULT_BAND_WORDS)
+
+    def band_for(self, value: float | None = None) -> tuple[float, float, str] | None:
+        """Uncertainty band (low, high, reason) of the constant when it takes ``value`` (default: its default).
+
+        Its own :attr:`band`, widened to contain ``value`` when the value lies outside it; else, when
+        :attr:`default_band_applies`, the default band [value / f, value f] (f =
+        :data:`DEFAULT_BAND_FACTOR`; [f value, value / f] for a negative value) cut to the allowed
+        range; else None (a design input, a choice, or a value given with its source). A value of 0
+        has no default band.
+        """
+        v = float(self.default if value is None else value)
+        if self.band is not None:
+            lo, hi = self.band
+            if lo <= v <= hi:
+                return lo, hi, self.band_reason
+            return min(lo, v), max(hi, v), self.band_reason + "; widened to contain the value in use"
+        if not self.default_band_applies or v == 0.0:
+            return None
+        f = DEFAULT_BAND_FACTOR
+        lo, hi = (v / f, v * f) if v > 0 else (v * f, v / f)
+        return max(lo, self.low), min(hi, self.high), DEFAULT_BAND_REASON
+
+
+@dataclass(frozen=True)
+class ConstantBand:
+    """The uncertainty band of one constant of one line, as used for a chart.
+
+    Attributes
+    ----------
+    model : str    registry name of the model (the line)
+    name : str     constant name
+    unit : str
+    value : float  value in use on the chart (the nominal line)
+    low, high : float   band (SI); ``low <= value <= high``
+    reason : str   why (published scatter, spread of the data, order of magnitude, calibration)
+    origin : str   "model" (the constant's own band), "default rule" (:data:`DEFAULT_BAND_REASON`),
+                   or "case" (given by the case, e.g. a calibrated 95 % interval)
+    """
+
+    model: str
+    name: str
+    unit: str
+    value: float
+    low: float
+    high: float
+    reason: str
+    origin: str
+
+    @property
+    def key(self) -> str:
+        """``"model.constant"``."""
+        return f"{self.model}.{self.name}"
+
+    @property
+    def width(self) -> float:
+        """high - low (SI)."""
+        return self.high - self.low
+
+    def to_dict(self) -> dict:
+        return {"model": self.model, "constant": self.name, "unit": self.unit, "value": self.value,
+                "band": [self.low, self.high], "reason": self.reason, "origin": self.origin}
 
 
 @dataclass(frozen=True)
@@ -181,6 +304,44 @@ class BoundaryModel(abc.ABC):
     def check_constants(self, values: dict[str, float]) -> None:
         """Hook for checks that involve several constants (raise ValueError)."""
 
+    def constant_bands(self, values: Mapping[str, float] | None = None,
+                       overrides: Mapping[str, tuple] | None = None) -> tuple["ConstantBand", ...]:
+        """Uncertainty bands of the constants with the values ``values`` (default: the defaults).
+
+        Parameters
+        ----------
+        values : mapping, optional   constant values in use (missing ones take their defaults)
+        overrides : mapping, optional   constant name -> (low, high, reason): bands given by the case
+            (:func:`case_bands`), which replace the constant's own or default band
+
+        Returns
+        -------
+        tuple of ConstantBand   one per constant with a band (own, default rule or override), in the
+        model's order; constants without one are left out. A band is widened to contain the value in
+        use (and its reason says so).
+        """
+        vals = self.defaults
+        vals.update({k: float(v) for k, v in (values or {}).items()})
+        overrides = dict(overrides or {})
+        unknown = sorted(set(overrides) - {c.name for c in self.constants})
+        if unknown:
+            self.constant(unknown[0])                       # ValueError listing the known constants
+        out = []
+        for c in self.constants:
+            v = vals[c.name]
+            if c.name in overrides:
+                lo, hi, why = overrides[c.name]
+                if not lo <= v <= hi:
+                    lo, hi, why = min(lo, v), max(hi, v), why + "; widened to contain the value in use"
+                out.append(ConstantBand(self.name, c.name, c.unit, v, float(lo), float(hi), why, "case"))
+                continue
+            got = c.band_for(v)
+            if got is None:
+                continue
+            origin = "model" if c.band is not None else "default rule"
+            out.append(ConstantBand(self.name, c.name, c.unit, v, got[0], got[1], got[2], origin))
+        return tuple(out)
+
     # -- use ------------------------------------------------------------------------------
     def applies_to(self, case) -> str | None:
         """None if the model can be used for ``case``, else the reason it cannot."""
@@ -262,7 +423,8 @@ class ExplicitBoundary(BoundaryModel):
 BOUNDARY_MODELS: dict[str, BoundaryModel] = {}
 
 #: Modules whose import registers the built-in models (loaded on first look-up).
-_BUILTIN_MODULES = ("lowgmap.physics.models.tube", "lowgmap.physics.models.corner")
+_BUILTIN_MODULES = ("lowgmap.physics.models.tube", "lowgmap.physics.models.tube_gravity",
+                    "lowgmap.physics.models.corner")
 _builtins_loaded = False
 
 
@@ -550,3 +712,64 @@ def resolve_model(name: str, case=None) -> BoundaryModel:
             return local[name]
     return get_model(name)
 
+
+
+# ------------------------------------------------------------------------------------------
+# Bands given by the case (e.g. calibrated 95 % intervals)
+
+#: Key in ``Case.extra`` under which a case carries bands of its own for model constants: a tuple of
+#: entries (model, constant, low, high, reason), or mappings with those keys ("model", "constant",
+#: "low", "high", "reason"), possibly frozen as tuples of (key, value) pairs. They replace the
+#: constants' own or default bands (:meth:`BoundaryModel.constant_bands`).
+CASE_BANDS_KEY = "constant_bands"
+
+
+def case_bands(case) -> dict[str, dict[str, tuple[float, float, str]]]:
+    """Bands the case gives for model constants: {model: {constant: (low, high, reason)}}.
+
+    Entries come from ``case.extra[CASE_BANDS_KEY]``. Raises ValueError for an entry that is not a
+    (model, constant, low, high[, reason]) entry or whose low > high.
+
+    Examples
+    --------
+    >>> from lowgmap.physics.examples import example_case
+    >>> case = with_case_bands(example_case(), [("bubble_slug_dukler_1988", "alpha_c", 0.43, 0.47,
+    ...                                          "calibrated: 95 % interval")])
+    >>> case_bands(case)
+    {'bubble_slug_dukler_1988': {'alpha_c': (0.43, 0.47, 'calibrated: 95 % interval')}}
+    """
+    extra = dict(getattr(case, "extra", ()) or ())
+    out: dict[str, dict[str, tuple[float, float, str]]] = {}
+    for item in extra.get(CASE_BANDS_KEY, ()) or ():
+        item = _thaw(item)
+        if isinstance(item, Mapping):
+            parts = [item.get(k) for k in ("model", "constant", "low", "high")] + [item.get("reason", "")]
+        elif isinstance(item, (list, tuple)) and len(item) in (4, 5):
+            parts = list(item) + ([""] if len(item) == 4 else [])
+        else:
+            raise ValueError(f"a constant band of the case must be (model, constant, low, high, reason), got {item!r}")
+        model, const, lo, hi, why = parts
+        if not isinstance(model, str) or not isinstance(const, str):
+            raise ValueError(f"a constant band of the case must name its model and constant, got {item!r}")
+        lo = finite(f"band of {model}.{const}: low", lo)
+        hi = finite(f"band of {model}.{const}: high", hi)
+        if lo > hi:
+            raise ValueError(f"band of {model}.{const}: low must be <= high, got [{lo:g}, {hi:g}]")
+        out.setdefault(model, {})[const] = (lo, hi, str(why or "given by the case"))
+    return out
+
+
+def with_case_bands(case, entries):
+    """A copy of ``case`` whose bands (``extra[CASE_BANDS_KEY]``) are updated by ``entries``.
+
+    ``entries``: (model, constant, low, high, reason) tuples; an entry for a constant that already has
+    a case band replaces it. The result is checked with :func:`case_bands`.
+    """
+    current = case_bands(case)
+    for model, const, lo, hi, why in entries:
+        current.setdefault(str(model), {})[str(const)] = (float(lo), float(hi), str(why))
+    frozen = tuple((m, c, lo, hi, why) for m, cs in current.items() for c, (lo, hi, why) in cs.items())
+    extra = tuple((k, v) for k, v in (getattr(case, "extra", ()) or ()) if k != CASE_BANDS_KEY)
+    new = case.with_(extra=extra + ((CASE_BANDS_KEY, frozen),))
+    case_bands(new)
+    return new

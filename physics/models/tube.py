@@ -440,8 +440,17 @@ BUBBLE_SLUG_DUKLER_1988 = register(DriftFluxTransition(
     "bubble_slug_dukler_1988", "bubble–slug, void fraction (Dukler et al. 1988)", BUBBLES, SLUGS,
     Constant("alpha_c", 0.45, "-",
              "from memory: Dukler et al. (1988) place bubble coalescence into slugs near alpha = 0.45",
-             0.05, 0.95, "critical void fraction at which bubbles coalesce into slugs"),
-    Constant("c0", 1.2, "-", _C0_SOURCE, 0.8, 2.0, "drift-flux distribution parameter"),
+             0.05, 0.95, "critical void fraction at which bubbles coalesce into slugs",
+             band=(0.35, 0.55),
+             band_reason="order of magnitude, from memory, deliberately wide: the transition void fraction "
+                         "varies with tube diameter and liquid in the data of Colin et al. (1991) and Bousman "
+                         "et al. (1996), by about ±0.05 as recalled; the band doubles that"),
+    Constant("c0", 1.2, "-", _C0_SOURCE, 0.8, 2.0, "drift-flux distribution parameter",
+             band=(1.0, 1.35),
+             band_reason="published scatter: most low-gravity studies use C0 = 1.2; a pooled fit of 221 "
+                         "low-gravity slug-flow points from 8 authors gives C0 = 1.336 ± 0.013 with a drift "
+                         "velocity of -0.126 m/s (Larsen, Kurwitz & Best, NETS 2009, abstract); 1.0 is no slip, "
+                         "approached by small bubbles (from memory)"),
     DUKLER_1988 + "; constants: " + COLIN_1991 + "; " + BOUSMAN_1996,
     "Bubbles coalesce into slugs once the void fraction reaches alpha_c; gas moves at C0 times the "
     "mixture velocity (no buoyant drift). Fully developed flow assumed; coalescence also depends on "
@@ -453,8 +462,16 @@ SLUG_ANNULAR_DUKLER_1988 = register(DriftFluxTransition(
     Constant("alpha_c", 0.8, "-",
              "from memory, uncertain: a void fraction near 0.8 for the change to annular flow; "
              "calibrate against test points", 0.05, 0.95,
-             "critical void fraction at which slugs give way to a continuous gas core"),
-    Constant("c0", 1.2, "-", _C0_SOURCE, 0.8, 2.0, "drift-flux distribution parameter"),
+             "critical void fraction at which slugs give way to a continuous gas core",
+             band=(0.7, 0.85),
+             band_reason="order of magnitude, from memory, deliberately wide: no published spread in hand; "
+                         "with C0 in its band, C0 alpha_c can reach 1, where the line leaves the chart (the "
+                         "void fraction never reaches alpha_c)"),
+    Constant("c0", 1.2, "-", _C0_SOURCE, 0.8, 2.0, "drift-flux distribution parameter",
+             band=(1.1, 1.35),
+             band_reason="published scatter of slug-flow data: 1.2 used by most low-gravity studies, 1.336 "
+                         "± 0.013 from a pooled fit of 221 points from 8 authors (Larsen, Kurwitz & Best, "
+                         "NETS 2009, abstract); lower end 1.1 from memory"),
     DUKLER_1988 + "; constants: " + COLIN_1991 + "; " + BOUSMAN_1996,
     "Liquid slugs can no longer bridge the tube once the void fraction reaches alpha_c. Because "
     "C0 * alpha_c is close to 1, small changes of either constant move the line a lot."))
@@ -464,7 +481,10 @@ SLUG_TRANSITIONAL_ZHAO_REZKALLAH_1993 = register(WeberZoneBoundary(
     "slug_transitional_zhao_rezkallah_1993", "We_SG = 1 (Zhao & Rezkallah 1993)",
     CAPILLARY_ZONE, TRANSITIONAL_ZONE,
     Constant("we_sg", 1.0, "-", "from memory: We_SG of about 1 (Zhao & Rezkallah 1993)", 0.01, 1000.0,
-             "superficial gas Weber number at the end of the surface-tension dominated zone"),
+             "superficial gas Weber number at the end of the surface-tension dominated zone",
+             band=(0.5, 2.0),
+             band_reason="order of magnitude, from memory: the zone limit is 'about 1' in Zhao & Rezkallah "
+                         "(1993), observed over a spread of flows; deliberately wide, ×/÷ 2"),
     ZHAO_REZKALLAH_1993,
     "Zones by the ratio of gas inertia to surface tension only; the liquid flow does not enter."))
 
@@ -473,7 +493,10 @@ TRANSITIONAL_ANNULAR_ZHAO_REZKALLAH_1993 = register(WeberZoneBoundary(
     "transitional_annular_zhao_rezkallah_1993", "We_SG = 20 (Zhao & Rezkallah 1993)",
     TRANSITIONAL_ZONE, INERTIA_ZONE,
     Constant("we_sg", 20.0, "-", "from memory: We_SG of about 20 (Zhao & Rezkallah 1993)", 0.01, 1000.0,
-             "superficial gas Weber number at the start of the inertia dominated zone"),
+             "superficial gas Weber number at the start of the inertia dominated zone",
+             band=(10.0, 40.0),
+             band_reason="order of magnitude, from memory: the zone limit is 'about 20' in Zhao & Rezkallah "
+                         "(1993), observed over a spread of flows; deliberately wide, ×/÷ 2"),
     ZHAO_REZKALLAH_1993,
     "Zones by the ratio of gas inertia to surface tension only; the liquid flow does not enter."))
 
@@ -481,9 +504,15 @@ TRANSITIONAL_ANNULAR_ZHAO_REZKALLAH_1993 = register(WeberZoneBoundary(
 BUBBLE_SLUG_JAYAWARDENA_1997 = register(SuratmanBubbleSlug(
     "bubble_slug_jayawardena_1997", "bubble–slug, Suratman (Jayawardena et al. 1997)", BUBBLES, SLUGS,
     Constant("coefficient", 464.16, "-", "from memory, medium confidence (equals 10^(8/3) to 5 figures)",
-             1.0, 1e5, "K in Re_SG/Re_SL = K Su^n"),
+             1.0, 1e5, "K in Re_SG/Re_SL = K Su^n",
+             band=(232.08, 928.32),
+             band_reason="order of magnitude, from memory: no spread of the fitted data in hand; "
+                         "deliberately wide, ×/÷ 2"),
     Constant("exponent", -2.0 / 3.0, "-", "from memory, medium confidence", -2.0, 0.0,
-             "n in Re_SG/Re_SL = K Su^n"),
+             "n in Re_SG/Re_SL = K Su^n",
+             band=(-0.7, -0.6333333333333333),
+             band_reason="from memory, medium confidence: ±5 % on the fitted exponent, a choice (no spread "
+                         "in hand); over Su = 1e4 to 1e7 it moves the line by up to ×/÷ 1.7 besides K"),
     JAYAWARDENA_1997,
     "Empirical fit of low-gravity tube data; the slug–annular branches of the same map are not "
     "included (constants not in hand)."))

@@ -46,6 +46,15 @@ between the nearest opposite points. Constants of one line whose effect on it is
 α_c and C0 of a drift-flux line, which enter only as their product: their sensitivities
 ∂g/∂θ over the points are collinear) are flagged; their profile intervals then span their ranges.
 
+Calibrated bands: the 95 % interval of a fitted constant is its new uncertainty band
+(:attr:`FittedConstant.band`, replacing the prior band of the model or the default band). The fitted
+chart (:attr:`Calibration.chart_after`) carries these bands in its case
+(:func:`lowgmap.physics.models.boundary.with_case_bands`), so its band drawing, worst-case margins and
+model-uncertainty Monte Carlo use them; :meth:`Calibration.band_entries` gives what a revised case
+file stores. An end of the interval the profile did not find (NaN) falls back to the constant's prior
+band end, else to its allowed limit; an end that stays infinite leaves the constant without a
+calibrated band (its prior band is kept, with a warning).
+
 Over-fitting: the agreement of the fitted chart is reported on the points used, and by k-fold
 cross-validation (each fold classified with constants fitted to the other folds; leave-one-out
 when there are fewer points than folds).
@@ -66,7 +75,7 @@ from typing import Mapping
 import numpy as np
 
 from lowgmap.physics.studies.agreement import ValidityCriteria, agreement, map_regimes, point_arrays, point_validity
-from lowgmap.physics.models.boundary import PowerLawBoundary
+from lowgmap.physics.models.boundary import PowerLawBoundary, with_case_bands
 from lowgmap.physics.chart.composition import CHAIN
 
 __all__ = ["MAX_FIT", "FittedConstant", "Calibration", "calibrate", "parse_fit_spec", "EmpiricalFit",
@@ -518,7 +527,11 @@ def _profile(lik, x_opt, f_opt, j):
 
 @dataclass(frozen=True)
 class FittedConstant:
-    """One fitted constant: start and fitted value, 95 % interval, allowed range (SI)."""
+    """One fitted constant: start and fitted value, 95 % interval, allowed range (SI).
+
+    ``prior_band``: the constant's uncertainty band before the fit ((low, high) or None), used where
+    the interval has no end; ``n_points``: test points of the fit (for the band's reason).
+    """
 
     model: str
     name: str
@@ -529,10 +542,40 @@ class FittedConstant:
     low: float
     high: float
     at_limit: bool
+    prior_band: tuple | None = None
+    n_points: int = 0
 
     @property
     def key(self) -> str:
         return f"{self.model}.{self.name}"
+
+    @property
+    def band(self) -> tuple[float, float] | None:
+        """The calibrated uncertainty band: the 95 % interval, containing the fitted value.
+
+        An end the profile did not find (NaN) falls back to the prior band's end, else to the allowed
+        limit; None when an end stays infinite (no band can be drawn from).
+
+        >>> FittedConstant("m", "k", "-", 1.0, 2.0, (1.8, float("nan")), 0.0, 10.0, False, (0.5, 4.0)).band
+        (1.8, 4.0)
+        """
+        ends = []
+        for i, (v, prior, limit) in enumerate(zip(self.interval, self.prior_band or (None, None),
+                                                  (self.low, self.high))):
+            v = float(v) if v is not None else math.nan
+            if not math.isfinite(v):
+                v = prior if prior is not None else limit
+            ends.append(float(v))
+        lo, hi = min(ends[0], self.value), max(ends[1], self.value)
+        if not (math.isfinite(lo) and math.isfinite(hi)):
+            return None
+        return lo, hi
+
+    @property
+    def band_reason(self) -> str:
+        """Why the calibrated band is what it is (stored with the band)."""
+        return (f"calibrated: 95 % profile-likelihood interval from {self.n_points} test points "
+                f"(fitted value {self.value:.4g})")
 
     def contains(self, v: float) -> bool:
         lo, hi = self.interval
@@ -541,9 +584,13 @@ class FittedConstant:
     def to_dict(self) -> dict:
         def num(x):
             return None if x is None or not math.isfinite(x) else float(x)
+        band = self.band
         return {"model": self.model, "constant": self.name, "unit": self.unit, "start": self.start,
                 "value": self.value, "interval_95": [num(self.interval[0]), num(self.interval[1])],
-                "allowed_range": [num(self.low), num(self.high)], "at_limit": self.at_limit}
+                "allowed_range": [num(self.low), num(self.high)], "at_limit": self.at_limit,
+                "band": [num(band[0]), num(band[1])] if band else None,
+                "band_reason": self.band_reason if band else None,
+                "prior_band": [num(v) for v in self.prior_band] if self.prior_band else None}
 
 
 @dataclass(frozen=True, eq=False)
@@ -564,7 +611,8 @@ class Calibration:
     cv_method : str            "5-fold", "leave-one-out", ...
     warnings : tuple of str
     models : tuple of (name, dict)   every line of the chart with its constants after the fit
-    chart_before, chart_after : Chart
+    chart_before, chart_after : Chart   ``chart_after`` carries the calibrated bands in its case (each
+                         fitted constant's band is its 95 % interval, :attr:`FittedConstant.band`)
     check_before, check_after : Agreement   :func:`lowgmap.physics.studies.agreement.agreement` of both charts
     """
 
@@ -601,6 +649,12 @@ class Calibration:
             out.setdefault(c.model, {})[c.name] = c.value
         return out
 
+    def band_entries(self) -> tuple:
+        """(model, constant, low, high, reason) of every calibrated band: what a revised case stores
+        (:data:`lowgmap.physics.models.boundary.CASE_BANDS_KEY`); constants without a band are left out."""
+        return tuple((c.model, c.name, c.band[0], c.band[1], c.band_reason) for c in self.constants
+                     if c.band is not None)
+
     def to_dict(self) -> dict:
         return {
             "constants": [c.to_dict() for c in self.constants], "sharpness": self.sharpness,
@@ -615,6 +669,11 @@ class Calibration:
             "agreement_valid_after": self.check_after.fraction_valid if self.check_after else None,
             "models": [{"name": n, "constants": dict(c)} for n, c in self.models],
         }
+
+
+def _case_band_overrides(case, model_name):
+    from lowgmap.physics.models.boundary import case_bands
+    return case_bands(case).get(model_name)
 
 
 # =============================================================================================
@@ -709,7 +768,7 @@ def calibrate(chart, points, fit, *, regime_map: Mapping[str, str] | None = None
     --------
     >>> from lowgmap.physics.chart.composition import Chart
     >>> from lowgmap.physics.examples import example_case
-    >>> from lowgmap.physics.models.boundary import PowerLawBoundary
+    >>> from lowgmap.physics.models.boundary import PowerLawBoundary, with_case_bands
     >>> case = example_case(length=0.05)                        # water/air, 10 mm tube, 5 cm
     >>> chart = Chart.build(case, [PowerLawBoundary("rig_line", 1.0, 1.0, "bubbles", "slugs")])
     >>> qg = np.geomspace(1e-6, 1e-4, 21)                       # Q_L = 1e-5; truth: a = 2 (Q_G = 2 Q_L)
@@ -792,7 +851,15 @@ def calibrate(chart, points, fit, *, regime_map: Mapping[str, str] | None = None
         if at:
             warnings.append(f"{p.model}.{p.name} = {v:.4g} is at the limit of its allowed range "
                             f"[{p.low:g}, {p.high:g}]")
-        fitted.append(FittedConstant(p.model, p.name, p.unit, p.start, float(v), (lo_v, hi_v), p.low, p.high, at))
+        model = lines[p.line][0]
+        prior = next((b for b in model.constant_bands(lines[p.line][1], _case_band_overrides(chart.case, model.name))
+                      if b.name == p.name), None)
+        fc = FittedConstant(p.model, p.name, p.unit, p.start, float(v), (lo_v, hi_v), p.low, p.high, at,
+                            (prior.low, prior.high) if prior is not None else None, int(used.size))
+        if fc.band is None:
+            warnings.append(f"{p.model}.{p.name}: the 95 % interval has an open end, so it gives no band; the "
+                            f"band before the fit is kept")
+        fitted.append(fc)
     consts_before = [dict(c) for _, c in lines]
     pred_before = lik.classify(consts_before)
     pred_after = lik.classify(consts_after)
@@ -811,7 +878,9 @@ def calibrate(chart, points, fit, *, regime_map: Mapping[str, str] | None = None
         models.append((m.name, cc))
         build.append((m, cc))
     from lowgmap.physics.chart.composition import Chart
-    chart_after = Chart.build(chart.case, build)
+    bands = tuple((c.model, c.name, c.band[0], c.band[1], c.band_reason) for c in fitted if c.band is not None)
+    case_after = with_case_bands(chart.case, bands) if bands else chart.case
+    chart_after = Chart.build(case_after, build)
     crit = criteria
     check_before = agreement(chart, points, regime_map=regime_map, criteria=crit)
     check_after = agreement(chart_after, points, regime_map=regime_map, criteria=crit)

@@ -53,10 +53,24 @@ import pandas as pd
 from lowgmap.physics.studies.design_space import FLUID_KEYS, check_flow_range, check_key, model_choices
 from lowgmap.physics.studies.envelope import envelope_margin
 from lowgmap.physics.studies.sweep import DesignEvaluator, SweepSpec
-from lowgmap.physics.validate import finite, positive
+from lowgmap.physics.validate import InputError, finite, positive
 
 __all__ = ["DesignVariable", "DesignConstraint", "DesignGoal", "Sensitivity", "DesignResult", "QUANTITIES",
-           "quantity_value", "nominal_design_value", "optimize_design"]
+           "quantity_value", "nominal_design_value", "optimize_design", "MAX_STARTS", "MAX_SCREEN",
+           "MAX_EVALUATIONS", "MAX_VARIABLES", "MAX_FLUIDS", "MAX_PLANNED"]
+
+#: Most local searches of one design search (``starts``).
+MAX_STARTS = 100
+#: Most screening points (``screen``).
+MAX_SCREEN = 100_000
+#: Most model evaluations of one local search (``max_evaluations``).
+MAX_EVALUATIONS = 10_000
+#: Most design variables of one goal.
+MAX_VARIABLES = 20
+#: Most fluid options of one goal.
+MAX_FLUIDS = 50
+#: Most model evaluations one search may plan: fluids x (screen + starts x max_evaluations).
+MAX_PLANNED = 1_000_000
 
 _INVALID = -1.5          # margin standing for a design the models cannot evaluate
 _BOUND_TOL = 1e-6        # a variable within this fraction of its range from a bound is "at the bound"
@@ -261,9 +275,13 @@ class DesignGoal:
     fluids : tuple of mapping  fluid options, each a change dict such as ``{"liquid": "water"}``
                                (keys of :data:`lowgmap.physics.studies.design_space.FLUID_KEYS`);
                                empty: the case's fluid
-    starts : int               local searches (>= 1)
-    screen : int               screening points (0: 16 per variable, at least 16)
-    max_evaluations : int      model evaluations per local search
+    starts : int               local searches (1 to :data:`MAX_STARTS`)
+    screen : int               screening points (0: 16 per variable, at least 16; at most :data:`MAX_SCREEN`)
+    max_evaluations : int      model evaluations per local search (1 to :data:`MAX_EVALUATIONS`)
+
+    At most :data:`MAX_VARIABLES` variables and :data:`MAX_FLUIDS` fluid options, and at most
+    :data:`MAX_PLANNED` model evaluations planned in all (fluids x (screen + starts x max_evaluations));
+    :class:`~lowgmap.physics.validate.InputError` otherwise.
     """
 
     ql_range: tuple
@@ -302,6 +320,18 @@ class DesignGoal:
                 raise ValueError(f"{name} must be an integer >= 1, got {v!r}")
         if isinstance(self.screen, bool) or not isinstance(self.screen, (int, np.integer)) or self.screen < 0:
             raise ValueError(f"screen must be an integer >= 0, got {self.screen!r}")
+        for name, most in (("starts", MAX_STARTS), ("screen", MAX_SCREEN), ("max_evaluations", MAX_EVALUATIONS)):
+            if getattr(self, name) > most:
+                raise InputError(f"{name} must be at most {most:,}, got {getattr(self, name):,}")
+        if len(self.variables) > MAX_VARIABLES:
+            raise InputError(f"a design goal has at most {MAX_VARIABLES} variables, got {len(self.variables)}")
+        if len(self.fluids) > MAX_FLUIDS:
+            raise InputError(f"a design goal has at most {MAX_FLUIDS} fluid options, got {len(self.fluids)}")
+        planned = max(1, len(self.fluids)) * ((self.screen or max(16, 16 * len(self.variables)))
+                                              + self.starts * self.max_evaluations)
+        if planned > MAX_PLANNED:
+            raise InputError(f"the search would plan {planned:,} model evaluations (fluids x (screen + starts x "
+                             f"max_evaluations)); at most {MAX_PLANNED:,}: lower screen, starts or max_evaluations")
 
 
 # ---------------------------------------------------------------------------------------------

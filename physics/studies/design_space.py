@@ -19,10 +19,15 @@ from dataclasses import fields, replace
 from typing import Mapping, Sequence
 
 from lowgmap.physics.case import ModelChoice, OperatingPoint
-from lowgmap.physics.validate import angle_deg_in_range, finite, positive
+from lowgmap.physics.validate import InputError, angle_deg_in_range, finite, positive
 
-__all__ = ["VARIABLES", "FLUID_KEYS", "grid", "zipped", "check_key", "variable_unit", "check_flow_range",
-           "fluid_from_spec", "default_fluid_spec", "model_choices", "apply_changes"]
+__all__ = ["VARIABLES", "FLUID_KEYS", "MAX_DESIGNS", "MAX_VALUES", "grid", "zipped", "check_key", "variable_unit",
+           "check_flow_range", "fluid_from_spec", "default_fluid_spec", "model_choices", "apply_changes"]
+
+#: Most designs of one sweep: the product of the value counts of a grid, the common length of paired values.
+MAX_DESIGNS = 100_000
+#: Most values of one sweep variable.
+MAX_VALUES = 10_000
 
 #: Inputs a design can change, with their meaning and SI unit. ``section.<field>`` (a field of the
 #: section, e.g. ``section.wall_length`` [m]), ``model.<name>.<constant>`` (a constant of one chosen
@@ -60,6 +65,9 @@ _PROPERTY_KEYS = {"surface_tension": "sigma", "liquid_density": "rho_l", "liquid
 def grid(variables: Mapping[str, Sequence]) -> list[dict]:
     """Every combination of the values (first variable varies slowest).
 
+    At most :data:`MAX_VALUES` values per variable and :data:`MAX_DESIGNS` designs in all
+    (:class:`~lowgmap.physics.validate.InputError` otherwise, raised before any design is built).
+
     Examples
     --------
     >>> for d in grid({"length": [0.1, 0.2], "contact_angle": [0.0, 0.5]}):
@@ -74,11 +82,25 @@ def grid(variables: Mapping[str, Sequence]) -> list[dict]:
     for n, v in zip(names, values):
         if not v:
             raise ValueError(f"sweep variable {n} has no values")
+        _check_count(n, len(v))
+    total = 1
+    for n, v in zip(names, values):
+        total *= len(v)
+        if total > MAX_DESIGNS:                           # checked before anything is built
+            counts = " x ".join(f"{len(x):,}" for x in values)
+            raise InputError(f"a grid of {counts} values has more than {MAX_DESIGNS:,} designs (the most one "
+                             f"sweep evaluates); use fewer values or split the sweep")
     return [dict(zip(names, combo)) for combo in itertools.product(*values)]
 
 
+def _check_count(name: str, n: int) -> None:
+    if n > MAX_VALUES:
+        raise InputError(f"sweep variable {name} has {n:,} values; at most {MAX_VALUES:,}")
+
+
 def zipped(variables: Mapping[str, Sequence]) -> list[dict]:
-    """Designs that pair the i-th values of every variable (all lists of the same length).
+    """Designs that pair the i-th values of every variable (all lists of the same length, at most
+    :data:`MAX_DESIGNS`).
 
     Examples
     --------
@@ -89,6 +111,10 @@ def zipped(variables: Mapping[str, Sequence]) -> list[dict]:
     lengths = {n: len(list(variables[n])) for n in names}
     if len(set(lengths.values())) > 1:
         raise ValueError(f"paired sweep variables must have the same number of values, got {lengths}")
+    for n, k in lengths.items():
+        if k > MAX_DESIGNS:
+            raise InputError(f"paired sweep variable {n} has {k:,} values: more than {MAX_DESIGNS:,} designs (the "
+                             f"most one sweep evaluates)")
     return [dict(zip(names, combo)) for combo in zip(*(list(variables[n]) for n in names))]
 
 

@@ -70,7 +70,7 @@ class Study:
         """
         if self.margins is None:
             return None
-        intended = intended_regime if intended_regime is not None else (self.case.intended_regime or None)
+        intended = intended_regime if intended_regime is not None else (getattr(self.case, "intended_regime", "") or None)
         return margin_verdict(self.margins, required_margin, intended)
 
     def with_point(self, ql: float, qg: float) -> "Study":

@@ -55,17 +55,21 @@ import pandas as pd
 from lowgmap.physics.chart import lines as _lines
 from lowgmap.physics.chart import margins as _mg
 from lowgmap.physics.case import ModelChoice
-from lowgmap.physics.studies.design_space import (FLUID_KEYS, VARIABLES, apply_changes, check_flow_range, check_key,
-                                                  grid, variable_unit, zipped)
+from lowgmap.physics.studies.design_space import (FLUID_KEYS, MAX_DESIGNS, VARIABLES, apply_changes, check_flow_range,
+                                                  check_key, grid, variable_unit, zipped)
 from lowgmap.physics.studies.envelope import (MarginBatch, envelope_margin, queue_envelope_margin,
                                               queue_point_margin)
-from lowgmap.physics.validate import finite, positive
+from lowgmap.physics.validate import InputError, finite, positive
 
-__all__ = ["VARIABLES", "FLUID_KEYS", "METHODS", "grid", "zipped", "apply_changes", "DesignEvaluator",
+__all__ = ["VARIABLES", "FLUID_KEYS", "METHODS", "MAX_DESIGNS", "MAX_MC_SAMPLES", "MAX_ENVELOPE_GRID", "grid", "zipped", "apply_changes", "DesignEvaluator",
            "SweepSpec", "sweep", "envelope_margin", "RESULT_COLUMNS", "tidy_results"]
 
 #: Accepted values of ``method``.
 METHODS = ("auto", "full")
+#: Most Monte Carlo samples per design (``mc_samples``).
+MAX_MC_SAMPLES = 100_000
+#: Most grid points a side of the envelope (``envelope_grid``).
+MAX_ENVELOPE_GRID = 101
 
 #: Result columns (after the design number and the changed inputs), in order; the envelope and
 #: Monte Carlo columns appear only when asked for.
@@ -139,6 +143,12 @@ class SweepSpec:
             raise ValueError(f"mc_samples must be 0 (none) or an integer >= 2, got {self.mc_samples!r}")
         if self.mc_samples and not self.uncertainties:
             raise ValueError("mc_samples > 0 needs uncertainties")
+        if self.mc_samples > MAX_MC_SAMPLES:
+            raise InputError(f"mc_samples must be at most {MAX_MC_SAMPLES:,} per design, got {self.mc_samples:,}")
+        if isinstance(self.envelope_grid, bool) or not isinstance(self.envelope_grid, (int, np.integer)) \
+                or not 1 <= self.envelope_grid <= MAX_ENVELOPE_GRID:
+            raise InputError(f"envelope_grid must be an integer within [1, {MAX_ENVELOPE_GRID}], "
+                             f"got {self.envelope_grid!r}")
 
 
 class DesignEvaluator:
@@ -495,7 +505,8 @@ def sweep(base, designs: Sequence[Mapping], *, point=None, envelope=None, regime
     chunk_size : int, optional  designs per chunk (default: 64 in-process; on a cluster about four
                                 chunks per worker, at least 16 designs each)
     progress : callable(done, total), optional
-    envelope_grid : int         grid points a side when a boundary crosses the envelope
+    envelope_grid : int         grid points a side when a boundary crosses the envelope (1 to
+                                :data:`MAX_ENVELOPE_GRID`)
 
     Returns
     -------
@@ -511,6 +522,9 @@ def sweep(base, designs: Sequence[Mapping], *, point=None, envelope=None, regime
     ValueError
         an unknown variable, bad options. Invalid values of single designs do not raise: their
         row has the message in ``status``.
+    InputError
+        more than :data:`MAX_DESIGNS` designs, more than :data:`MAX_MC_SAMPLES` Monte Carlo samples
+        per design, a chunk size outside [1, :data:`MAX_DESIGNS`].
 
     Examples
     --------
@@ -528,7 +542,14 @@ def sweep(base, designs: Sequence[Mapping], *, point=None, envelope=None, regime
     >>> round((k - 1) / (k + 1), 6)
     0.843003
     """
+    if hasattr(designs, "__len__") and len(designs) > MAX_DESIGNS:
+        raise InputError(f"a sweep evaluates at most {MAX_DESIGNS:,} designs, got {len(designs):,}")
     designs = [dict(d) for d in designs]
+    if len(designs) > MAX_DESIGNS:
+        raise InputError(f"a sweep evaluates at most {MAX_DESIGNS:,} designs, got {len(designs):,}")
+    if chunk_size is not None and (isinstance(chunk_size, bool) or not isinstance(chunk_size, (int, np.integer))
+                                   or not 1 <= chunk_size <= MAX_DESIGNS):
+        raise InputError(f"chunk_size must be an integer within [1, {MAX_DESIGNS:,}], got {chunk_size!r}")
     for d in designs:
         for key in d:
             check_key(key, base)

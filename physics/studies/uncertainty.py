@@ -28,6 +28,19 @@ under a millisecond, so 10 000 samples take about 0.3 s; models that build table
 (e.g. the open-channel critical flow, several seconds per case) make each draw that expensive:
 choose a small ``chart_draws`` for them (the standard error says what that costs in precision).
 
+Model uncertainty
+-----------------
+The constants behind the lines are uncertain too (their bands:
+:func:`lowgmap.physics.chart.bands.band_variables`). With ``model_uncertainty`` the region lines'
+constants (all of them, or those listed) are drawn uniformly over their bands, a constant shared by
+several lines once for all of them, and the study reports, apart from the input-only result
+above: the probability and margins with the model constants alone drawn (inputs at their nominal
+values, one margin per constant draw), and with inputs and constants drawn together (each
+property/geometry draw, or each block of N/K flow draws, shares one constant draw). The input-only
+result keeps its own random stream, so it is the same with or without the option; the constants use
+a second stream of the same seed. A constant draw the model rejects (e.g. C0 α_c >= 1) makes its
+samples invalid (counted).
+
 Distributions: "normal" (``size`` = one standard deviation) or "uniform" (``size`` = half-width);
 ``relative`` sizes are fractions of the nominal value, absolute ones are in SI units (radians
 for angles). A drawn value outside the physical domain is handled as follows: angles are clipped
@@ -48,7 +61,8 @@ from lowgmap.physics.chart import margins as _mg
 from lowgmap.physics.validate import finite, non_negative
 
 __all__ = ["Uncertainty", "TARGETS", "POINT_TARGETS", "DISTRIBUTIONS", "MonteCarloResult", "monte_carlo",
-           "nominal_value", "perturbed_case", "FLOWS_PER_CHART_DRAW", "QUANTILES"]
+           "nominal_value", "perturbed_case", "FLOWS_PER_CHART_DRAW", "QUANTILES", "ModelUncertaintyResult",
+           "model_variables"]
 
 #: Inputs that can carry an uncertainty, with what they mean (SI unit of an absolute size).
 TARGETS: dict[str, str] = {
@@ -277,6 +291,9 @@ class MonteCarloResult:
     required_margin : float or None
     probability_required : float or None   fraction of valid samples with margin >= required
     seed : int
+    model : ModelUncertaintyResult or None   the same with the model constants drawn (constants alone,
+                               and with the inputs), when ``model_uncertainty`` was asked for; the
+                               fields above are always the input-only result
     """
 
     probability: float
@@ -294,10 +311,11 @@ class MonteCarloResult:
     required_margin: float | None
     probability_required: float | None
     seed: int
+    model: "ModelUncertaintyResult | None" = None
 
     def to_dict(self) -> dict:
         """JSON-ready summary (without the per-sample margins)."""
-        return {
+        out = {
             "probability": self.probability, "std_error": self.std_error, "ci95": list(self.ci95),
             "intended_regime": self.intended_regime, "n": self.n, "n_invalid": self.n_invalid,
             "seed": self.seed, "chart_draws": self.chart_draws, "nominal_margin": self.nominal_margin,
@@ -305,6 +323,76 @@ class MonteCarloResult:
             "sensitivity": [{"input": k, "effect": v} for k, v in self.sensitivity],
             "regime_counts": dict(self.regime_counts),
             "required_margin": self.required_margin, "probability_required": self.probability_required,
+        }
+        if self.model is not None:
+            out["model_uncertainty"] = self.model.to_dict()
+        return out
+
+
+@dataclass(frozen=True, eq=False)
+class ModelUncertaintyResult:
+    """Model uncertainty in :func:`monte_carlo`: the region lines' constants drawn over their bands.
+
+    Attributes
+    ----------
+    variables : tuple of BandVariable   the constants drawn (uniformly over their bands)
+    draws : int                constant draws of the constants-only study
+    probability_model : float  fraction of valid constant draws that keep the nominal point in the
+                               intended regime (inputs at their nominal values)
+    std_error_model : float    its standard error (binomial)
+    ci95_model : (float, float)   Wilson 95 % interval
+    margins_model : ndarray    signed symmetric margin of the nominal point for every constant draw
+                               (NaN for rejected draws)
+    margin_quantiles_model : tuple of (q, value)
+    probability_both : float   fraction of valid samples in the intended regime with inputs and
+                               constants drawn together
+    std_error_both : float     its standard error (from the groups of samples that share a draw)
+    ci95_both : (float, float)
+    margins_both : ndarray     signed margin of every sample (NaN for invalid samples)
+    margin_quantiles_both : tuple of (q, value)
+    groups_both : int          distinct constant (and property/geometry) draws of the joint study
+    n_rejected_model : int     constant draws the model rejected (left out)
+    n_invalid_both : int       joint samples left out (invalid inputs or rejected constants)
+    sensitivity : tuple of (constant, effect)   change of the margin per standard uncertainty of each
+                               constant (constants-only study), largest |effect| first
+    probability_required_model, probability_required_both : float or None   fraction with margin >=
+                               the required margin
+    """
+
+    variables: tuple
+    draws: int
+    probability_model: float
+    std_error_model: float
+    ci95_model: tuple
+    margins_model: np.ndarray
+    margin_quantiles_model: tuple
+    probability_both: float
+    std_error_both: float
+    ci95_both: tuple
+    margins_both: np.ndarray
+    margin_quantiles_both: tuple
+    groups_both: int
+    n_rejected_model: int
+    n_invalid_both: int
+    sensitivity: tuple
+    probability_required_model: float | None = None
+    probability_required_both: float | None = None
+
+    def to_dict(self) -> dict:
+        """JSON-ready summary (without the per-sample margins)."""
+        return {
+            "constants": [v.to_dict() for v in self.variables], "draws": self.draws,
+            "model_only": {"probability": self.probability_model, "std_error": self.std_error_model,
+                           "ci95": list(self.ci95_model),
+                           "margin_quantiles": {f"{q:g}": v for q, v in self.margin_quantiles_model},
+                           "n_rejected": self.n_rejected_model,
+                           "probability_required": self.probability_required_model},
+            "inputs_and_model": {"probability": self.probability_both, "std_error": self.std_error_both,
+                                 "ci95": list(self.ci95_both), "groups": self.groups_both,
+                                 "margin_quantiles": {f"{q:g}": v for q, v in self.margin_quantiles_both},
+                                 "n_invalid": self.n_invalid_both,
+                                 "probability_required": self.probability_required_both},
+            "sensitivity": [{"constant": k, "effect": v} for k, v in self.sensitivity],
         }
 
 
@@ -324,7 +412,8 @@ def _light_chart(chart, case):
 
 def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, intended_regime: str | None = None,
                 progress: Callable[[int, int], None] | None = None, *, chart=None, point=None,
-                chart_draws: int | None = None, required_margin: float | None = None) -> MonteCarloResult:
+                chart_draws: int | None = None, required_margin: float | None = None,
+                model_uncertainty: bool | Sequence[str] = False, model_draws: int | None = None) -> MonteCarloResult:
     r"""Probability of staying in the intended regime, margin distribution and sensitivities.
 
     .. math:: P = \frac{1}{N} \sum_{j=1}^{N} [\,\mathrm{regime}(x_j) = R\,], \qquad
@@ -342,6 +431,13 @@ def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, i
     point : (float, float), optional   nominal (Q_L, Q_G) [m^3/s]; default: the case's operating point
     chart_draws : int, optional   number K of property/geometry draws (default ceil(N/16))
     required_margin : float, optional   also report the probability of a margin >= this value
+    model_uncertainty : bool or sequence of str, optional
+        Also draw the region lines' constants uniformly over their bands (True: every banded
+        constant; or keys as :func:`model_variables` takes them, e.g. ``"bubble_slug_dukler_1988.c0"``)
+        and report the result separately (:attr:`MonteCarloResult.model`). Default False.
+    model_draws : int, optional   constant draws K_m of the constants-only study (default: K when an
+        input moves the lines, else ceil(N/16)); the joint study shares one constant draw per
+        property/geometry draw (or per block of N/K_m flow draws)
 
     Returns
     -------
@@ -364,6 +460,14 @@ def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, i
     >>> res = monte_carlo(case, [Uncertainty("gas_flow", "normal", 0.0, True)], n=100, chart=chart)
     >>> res.probability, res.std_error, round(res.nominal_margin, 6)
     (1.0, 0.0, 0.333333)
+
+    With the drift-flux bubble–slug line, the constants alone can move the line across the point:
+
+    >>> chart = Chart.build(case, ["bubble_slug_dukler_1988"])      # the line at Q_G = 1.17 Q_L
+    >>> res = monte_carlo(case, [Uncertainty("gas_flow", "normal", 0.0, True)], n=200, chart=chart,
+    ...                   model_uncertainty=True)
+    >>> res.probability, res.model.probability_model == 1.0, len(res.model.variables)
+    (1.0, True, 2)
     """
     from lowgmap.physics.chart.composition import Chart
 
@@ -465,6 +569,30 @@ def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, i
     if n_ok == 0:
         raise ValueError("every sample was invalid (non-positive flow, property or size): the uncertainties "
                          "are too large for their distributions")
+    p, se, ci = _probability(inside, ok, block, k)
+    vals = signed[ok]
+    quant = tuple((q, float(v)) for q, v in zip(QUANTILES, np.quantile(vals, QUANTILES)))
+    sens = _sensitivity(uncs, unit, block, ok, signed)
+    counts = {}
+    for name in chart.regime_names:
+        c = int(np.sum((regimes == name) & ok))
+        if c:
+            counts[name] = c
+    p_req = float(np.mean(vals >= required_margin)) if required_margin is not None else None
+    model = None
+    if model_uncertainty is not False and model_uncertainty is not None:
+        model = _model_study(case, chart, point=(ql0, qg0), intended_regime=intended_regime, which=model_uncertainty,
+                             n=n, k=k, case_uncs=case_uncs, nominal=nominal, unit=unit, ql=ql, qg=qg,
+                             valid_flows=np.isfinite(ql) & np.isfinite(qg) & (ql > 0) & (qg > 0),
+                             seed=int(seed), model_draws=model_draws, required_margin=required_margin)
+    return MonteCarloResult(p, se, ci, signed, quant, sens, n, int(n - n_ok), intended_regime, counts, k,
+                            float(nominal_m), required_margin, p_req, int(seed), model)
+
+
+def _probability(inside, ok, block, k):
+    """(P, standard error, Wilson 95 % interval) of samples in the intended regime, samples grouped in
+    k blocks that share a draw (binomial for k = 1, else the ratio-estimator formula over the blocks)."""
+    n_ok = int(ok.sum())
     hits = (inside & ok).astype(float)
     p = float(hits.sum() / n_ok)
     if k == 1:
@@ -480,18 +608,7 @@ def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, i
     else:                     # all samples agree: the draws of the shared inputs are what was tried
         n_eff = float(n_ok if k == 1 else int(np.count_nonzero(np.bincount(block, weights=ok.astype(float),
                                                                            minlength=k))))
-    ci = _wilson(p, n_eff)
-    vals = signed[ok]
-    quant = tuple((q, float(v)) for q, v in zip(QUANTILES, np.quantile(vals, QUANTILES)))
-    sens = _sensitivity(uncs, unit, block, ok, signed)
-    counts = {}
-    for name in chart.regime_names:
-        c = int(np.sum((regimes == name) & ok))
-        if c:
-            counts[name] = c
-    p_req = float(np.mean(vals >= required_margin)) if required_margin is not None else None
-    return MonteCarloResult(p, se, ci, signed, quant, sens, n, int(n - n_ok), intended_regime, counts, k,
-                            float(nominal_m), required_margin, p_req, int(seed))
+    return p, se, _wilson(p, n_eff)
 
 
 def _value(uncs, target, nominal, unit):
@@ -521,3 +638,177 @@ def _sensitivity(uncs, unit, block, ok, signed):
         effect[live] = coef[1:]
     order = sorted(range(len(names)), key=lambda i: -abs(effect[i]))
     return tuple((names[i], float(effect[i])) for i in order)
+
+
+# ---------------------------------------------------------------------------------------------
+# Model uncertainty: the constants of the lines drawn over their bands
+
+def model_variables(chart, which=True) -> tuple:
+    """The uncertain constants of the chart's region lines to draw (:func:`~lowgmap.physics.chart.bands.band_variables`).
+
+    Parameters
+    ----------
+    chart : Chart
+    which : True or sequence of str
+        True: every region-line constant with a band of width > 0. Otherwise keys ``"model.constant"``
+        (that constant of that line, and of the lines sharing it) or a bare constant name (that
+        constant in every region line).
+
+    Returns
+    -------
+    tuple of BandVariable
+
+    Raises
+    ------
+    ValueError   a key that names no banded constant of a region line (the message lists them)
+
+    Examples
+    --------
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.chart.composition import Chart
+    >>> chart = Chart.build(example_case())
+    >>> [v.key for v in model_variables(chart, ["bubble_slug_dukler_1988.c0"])]
+    ['bubble_slug_dukler_1988.c0']
+    """
+    from lowgmap.physics.chart.bands import band_variables
+
+    every = band_variables(chart)
+    if which is True:
+        return every
+    if isinstance(which, str):
+        which = [which]
+    out = []
+    for key in which:
+        line, _, const = str(key).partition(".")
+        if not const:
+            hit = [v for v in every if v.name == line]
+        else:
+            hit = [v for v in every if v.name == const and line in v.lines]
+        if not hit:
+            known = ", ".join(f"{ln}.{v.name}" for v in every for ln in v.lines) or "none"
+            raise ValueError(f"model uncertainty: {key!r} is not a constant with an uncertainty band on a "
+                             f"region-defining line of this chart; such constants: {known}")
+        for v in hit:
+            if v not in out:
+                out.append(v)
+    return tuple(out)
+
+
+def _constant_sets(chart, variables, U):
+    """Region-line constants (one list of dicts per row of unit draws U)."""
+    from lowgmap.physics.chart.bands import variable_changes
+
+    lo = np.array([v.low for v in variables])
+    hi = np.array([v.high for v in variables])
+    base = [dict(c) for _, c in chart.region_models]
+    out = []
+    for u in U:
+        consts = [dict(c) for c in base]
+        for k, ch in variable_changes(chart, variables, lo + u * (hi - lo)).items():
+            consts[k].update(ch)
+        out.append(consts)
+    return out
+
+
+def _grouped(chart, case, case_uncs, nominal, unit, ql, qg, valid, block, k, const_sets):
+    """Regimes and margins of samples in k blocks; block b: the b-th property/geometry draw (if any) and
+    the region constants ``const_sets[b]``. Returns (regimes, m, valid, rejected blocks)."""
+    from lowgmap.physics.chart.bands import light_chart
+
+    n = ql.size
+    valid = valid.copy()
+    regimes = np.full(n, "", dtype=object)
+    m = np.full(n, np.nan)
+    names = list(chart.regime_names)
+    starts = np.searchsorted(block, np.arange(k + 1))
+    pending: list = []
+    rejected = 0
+    for b in range(k):
+        sl = np.arange(starts[b], starts[b + 1])
+        if not sl.size:
+            continue
+        try:
+            values = {u.target: float(u.values(nominal[u.target], unit[u.target][b:b + 1])[0]) for u in case_uncs}
+            case_b = perturbed_case(case, values) if values else case
+        except (ValueError, TypeError):
+            valid[sl] = False
+            continue
+        consts = const_sets[b]
+        try:
+            for (mdl, _), c in zip(chart.region_models, consts):
+                mdl.resolve_constants(c)
+        except (ValueError, TypeError):
+            valid[sl] = False
+            rejected += 1
+            continue
+        sl = sl[valid[sl]]
+        if not sl.size:
+            continue
+        light = replace(light_chart(chart, consts), case=case_b)
+        reg = np.asarray(light.classify(ql[sl], qg[sl]))
+        regimes[sl] = reg
+        m[sl], _ = _mg.uncached_regime_margins(light, case_b, np.log10(ql[sl]), np.log10(qg[sl]),
+                                               _lines.regime_indices(names, reg), pending, sl, tol=_MC_TOL,
+                                               wall_dx=_MC_WALL_DX, n_start=_MC_N_START)
+    _mg.resolve_deferred(pending, m)
+    return regimes, m, valid, rejected
+
+
+def _model_study(case, chart, *, point, intended_regime, which, n, k, case_uncs, nominal, unit, ql, qg, valid_flows,
+                 seed, model_draws, required_margin) -> ModelUncertaintyResult:
+    variables = model_variables(chart, which)
+    if not variables:
+        raise ValueError("model uncertainty: no region-defining line of this chart has a constant with an "
+                         "uncertainty band (design inputs and values given with their source have none)")
+    d = len(variables)
+    km = int(model_draws) if model_draws is not None else (k if case_uncs else math.ceil(n / FLOWS_PER_CHART_DRAW))
+    if km < 1:
+        raise ValueError(f"model_draws must be >= 1, got {model_draws!r}")
+    km = min(km, n)
+    rng = np.random.default_rng([int(seed), 1])          # a stream of its own: the input draws are unchanged
+    U_model = rng.uniform(size=(km, d))
+    # constants alone: the nominal point and case, one margin per draw
+    ql0, qg0 = point
+    ones = np.arange(km)
+    reg_m, m_m, ok_m, rej_m = _grouped(chart, case, [], nominal, unit, np.full(km, ql0), np.full(km, qg0),
+                                       np.ones(km, dtype=bool), ones, km, _constant_sets(chart, variables, U_model))
+    ok_m &= np.isfinite(m_m)
+    if not ok_m.any():
+        raise ValueError("model uncertainty: every constant draw was rejected by the models")
+    in_m = reg_m == intended_regime
+    signed_m = np.where(in_m, m_m, -m_m)
+    signed_m[~ok_m] = np.nan
+    p_m, se_m, ci_m = _probability(in_m, ok_m, ones, 1)
+    q_m = tuple((q, float(v)) for q, v in zip(QUANTILES, np.quantile(signed_m[ok_m], QUANTILES)))
+    # inputs and constants together: one constant draw per property/geometry draw (or per block of flows)
+    kb = k if case_uncs else km
+    U_both = U_model if kb == km else rng.uniform(size=(kb, d))
+    block = (np.arange(n) * kb) // n
+    reg_b, m_b, ok_b, _ = _grouped(chart, case, case_uncs, nominal, unit, np.asarray(ql, dtype=float),
+                                   np.asarray(qg, dtype=float), valid_flows, block, kb,
+                                   _constant_sets(chart, variables, U_both))
+    ok_b &= np.isfinite(m_b)
+    if not ok_b.any():
+        raise ValueError("model uncertainty: every joint sample was invalid")
+    in_b = reg_b == intended_regime
+    signed_b = np.where(in_b, m_b, -m_b)
+    signed_b[~ok_b] = np.nan
+    p_b, se_b, ci_b = _probability(in_b, ok_b, block, kb)
+    q_b = tuple((q, float(v)) for q, v in zip(QUANTILES, np.quantile(signed_b[ok_b], QUANTILES)))
+    # sensitivity to the constants (constants-only study): standardised uniform draws
+    sens: tuple = ()
+    Z = (2.0 * U_model - 1.0) * math.sqrt(3.0)
+    y = signed_m
+    if ok_m.sum() > d + 1 and np.ptp(y[ok_m]) > 0:
+        A = np.column_stack([np.ones(int(ok_m.sum())), Z[ok_m]])
+        coef, *_ = np.linalg.lstsq(A, y[ok_m], rcond=None)
+        order = sorted(range(d), key=lambda j: -abs(coef[1 + j]))
+        sens = tuple((variables[j].key, float(coef[1 + j])) for j in order)
+    else:
+        sens = tuple((v.key, 0.0) for v in variables)
+    p_req_m = p_req_b = None
+    if required_margin is not None:
+        p_req_m = float(np.mean(signed_m[ok_m] >= required_margin))
+        p_req_b = float(np.mean(signed_b[ok_b] >= required_margin))
+    return ModelUncertaintyResult(tuple(variables), km, p_m, se_m, ci_m, signed_m, q_m, p_b, se_b, ci_b, signed_b, q_b,
+                                  kb, int(km - ok_m.sum()), int(n - ok_b.sum()), sens, p_req_m, p_req_b)
