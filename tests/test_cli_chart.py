@@ -7,6 +7,7 @@ import pytest
 from lowgmap.app.files.casefile import load_case, loads_case, sample_case_path
 from lowgmap.app.cli import main
 from lowgmap.app.outputs.exports import chart_bytes
+from lowgmap.app.outputs.render import typeset
 from lowgmap.physics.chart.composition import Chart
 
 
@@ -25,7 +26,9 @@ def test_svg_contains_every_boundary_and_regime_label(tmp_path, capsys):
     for name in chart.regime_names:
         assert name in svg, name
     for b in chart.boundaries:
-        assert b.label.replace("&", "&amp;") in svg or b.label.split(" (")[0] in svg, b.label
+        # symbols are typeset (We_SG -> mathtext); the SVG keeps each text's source, so look for either form
+        forms = (b.label, b.label.split(" (")[0], typeset(b.label), typeset(b.label.split(" (")[0]))
+        assert any(f.replace("&", "&amp;") in svg for f in forms), b.label
     assert "CAUTION" in svg and "qualification testing" in svg
     assert {b["name"] for b in info["boundaries"]} == {b.name for b in chart.boundaries}
 

@@ -4,6 +4,10 @@
 display units, with each boundary split into the parts inside and outside its source's validity
 range, a label position inside every regime region, and a fixed colour and hatch per regime.
 Both views draw from this one object, so the screen and the exported files show the same data.
+
+Colours, dash patterns and hatches come from :mod:`lowgmap.app.outputs.styles`, looked up by the
+boundary model's and the regime's *name*: a line keeps its look from one case or revision to the
+next, whatever its position in the chart's list of lines.
 """
 from __future__ import annotations
 
@@ -12,22 +16,32 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from lowgmap.app.files.units import convert
+from lowgmap.app.outputs import styles as _styles
 
 __all__ = ["REGIME_COLOURS", "REGIME_HATCHES", "LINE_COLOURS", "CurveView", "RegionView", "ChartView",
            "chart_view", "regime_style", "line_label_positions"]
 
 #: Colour-blind-safe qualitative palette (Okabe & Ito, "Color Universal Design", 2008), light to dark.
-REGIME_COLOURS = ("#56B4E9", "#E69F00", "#009E73", "#F0E442", "#CC79A7", "#0072B2", "#D55E00", "#999999")
+REGIME_COLOURS = _styles.FILL_COLOURS
 #: Second cue for each regime (print in grey still tells them apart).
-REGIME_HATCHES = ("", "//", "..", "\\\\", "xx", "++", "--", "oo")
-#: Boundary line colours: region-defining lines are near-black; comparison lines take these.
-LINE_COLOURS = ("#0072B2", "#D55E00", "#CC79A7", "#009E73", "#E69F00", "#56B4E9")
-REGION_LINE_COLOUR = "#222222"
+REGIME_HATCHES = _styles.HATCHES
+#: Boundary line colours (see :mod:`lowgmap.app.outputs.styles` for the style of each line by name).
+LINE_COLOURS = _styles.LINE_COLOURS
 
 
-def regime_style(index: int) -> tuple[str, str]:
-    """(fill colour, hatch) of the regime at ``index`` in the chart's regime order."""
-    return REGIME_COLOURS[index % len(REGIME_COLOURS)], REGIME_HATCHES[index % len(REGIME_HATCHES)]
+def regime_style(regime) -> tuple[str, str]:
+    """(fill colour, hatch) of a regime, by its name (:func:`lowgmap.app.outputs.styles.regime_style`).
+
+    An integer is still accepted for older callers (the position in a chart's regime order), but
+    only a name gives the same colour on every chart: pass the name.
+
+    >>> regime_style("dispersed bubbles")
+    ('#56B4E9', '')
+    """
+    if isinstance(regime, str):
+        return tuple(_styles.regime_style(regime))
+    i = int(regime)
+    return REGIME_COLOURS[i % len(REGIME_COLOURS)], REGIME_HATCHES[i % len(REGIME_HATCHES)]
 
 
 @dataclass(frozen=True)
@@ -39,8 +53,8 @@ class CurveView:
     x: np.ndarray                 # display coordinates; NaN separates pieces
     y: np.ndarray
     valid: np.ndarray             # bool per vertex: inside the source's validity range
-    colour: str
-    dash: str                     # "solid" or "dashed"
+    colour: str                   # fixed per boundary name (lowgmap.app.outputs.styles.boundary_style)
+    dash: str                     # "solid" or on/off lengths in points, "9 4" (bokeh line_dash notation)
     regime_below: str
     regime_above: str
 
@@ -96,6 +110,8 @@ class ChartView:
     point: tuple[float, float] | None = None
     axes_kind: str = "flow"
     to_display: object = field(default=None, repr=False, compare=False)
+    #: regime name -> (fill colour, hatch) of every regime of the chart (test-point fills use these)
+    regime_styles: dict = field(default_factory=dict, repr=False, compare=False)
 
 
 def _axis_converters(chart, kind: str, ql_unit: str, qg_unit: str):
@@ -122,7 +138,7 @@ def chart_view(chart, *, axes: str = "flow", log_axes: bool = True, ql_unit: str
     corners_ql = np.array([fr.ql_min, fr.ql_max, fr.ql_min, fr.ql_max])
     corners_qg = np.array([fr.qg_min, fr.qg_min, fr.qg_max, fr.qg_max])
     cx, cy = to_disp(corners_ql, corners_qg)
-    regime_index = {name: i for i, name in enumerate(chart.regime_names)}
+    r_styles = _styles.regime_styles(list(chart.regime_names) + [r.name for r in chart.regions])
 
     regions = []
     seen = set()
@@ -135,7 +151,7 @@ def chart_view(chart, *, axes: str = "flow", log_axes: bool = True, ql_unit: str
             areas[r.name] = (a, k)
     for k, r in enumerate(chart.regions):
         x, y = to_disp(r.polygon_ql, r.polygon_qg)
-        colour, hatch = regime_style(regime_index.get(r.name, k))
+        colour, hatch = r_styles[r.name]
         lq_l, lq_g = _label_point(r.polygon_ql, r.polygon_qg)
         lx, ly = to_disp(lq_l, lq_g)
         show = areas.get(r.name, (0, -1))[1] == k and r.name not in seen
@@ -143,14 +159,10 @@ def chart_view(chart, *, axes: str = "flow", log_axes: bool = True, ql_unit: str
         regions.append(RegionView(r.name, np.asarray(x), np.asarray(y), float(lx), float(ly), colour, hatch, show))
 
     curves = []
-    ci = 0
+    b_styles = _styles.boundary_styles(b.name for b in chart.boundaries)
     for b in chart.boundaries:
         x, y = to_disp(b.ql, b.qg)
-        if b.role == "regions":
-            colour, dash = REGION_LINE_COLOUR, "solid"
-        else:
-            colour, dash = LINE_COLOURS[ci % len(LINE_COLOURS)], "dashed"
-            ci += 1
+        colour, dash = b_styles[b.name].colour, _styles.bokeh_dash(b_styles[b.name].dash)
         curves.append(CurveView(b.name, b.label, b.citation, b.role, np.asarray(x, float), np.asarray(y, float),
                                 np.asarray(b.valid_mask, bool), colour, dash, b.regime_below, b.regime_above))
     pt = None
@@ -159,7 +171,8 @@ def chart_view(chart, *, axes: str = "flow", log_axes: bool = True, ql_unit: str
         pt = (float(px), float(py))
     return ChartView(xl, yl, xu, yu, log_axes, (float(np.min(cx)), float(np.max(cx))),
                      (float(np.min(cy)), float(np.max(cy))), tuple(regions), tuple(curves),
-                     tuple(chart.warnings), tuple(chart.regime_names), pt, axes, to_disp)
+                     tuple(chart.warnings), tuple(chart.regime_names), pt, axes, to_disp,
+                     {k: tuple(v) for k, v in r_styles.items()})
 
 
 def _label_point(ql, qg) -> tuple[float, float]:

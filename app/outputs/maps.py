@@ -5,11 +5,12 @@ sweep over one or two design variables; :func:`margin_map_png` gives it as PNG b
 design tab, ``lowgmap sweep --plot``). :func:`design_chart_bytes` draws the regime chart of the
 best design of an inverse design with the operating envelope marked (``lowgmap design --plot``).
 Values arrive in SI and are shown in the units of the study file
-(:func:`lowgmap.app.files.studyfiles.to_display`).
+(:func:`lowgmap.app.files.studyfiles.to_display`). Variables are named in words
+(:func:`variable_label`), symbols are typeset, and every figure carries the version and the caution
+line; PNG files are written at 300 dpi (:func:`figure_file_bytes`).
 """
 from __future__ import annotations
 
-import io
 import math
 from dataclasses import replace
 
@@ -17,7 +18,66 @@ import numpy as np
 
 from lowgmap.app.files.studyfiles import to_display
 
-__all__ = ["margin_map_figure", "margin_map_png", "design_chart_bytes"]
+__all__ = ["margin_map_figure", "margin_map_png", "design_chart_bytes", "variable_label", "figure_file_bytes"]
+
+
+#: Design variables in words (keys of :data:`lowgmap.physics.studies.design_space.VARIABLES`).
+_VARIABLE_WORDS = {
+    "half_angle": "corner half-angle", "contact_angle": "contact angle", "length": "conduit length",
+    "size": "hydraulic diameter (section scaled)", "residual_acceleration": "residual acceleration",
+    "temperature": "temperature", "pressure": "pressure", "liquid": "liquid", "gas": "gas",
+    "surface_tension": "surface tension", "liquid_density": "liquid density", "liquid_viscosity": "liquid viscosity",
+    "gas_density": "gas density", "gas_viscosity": "gas viscosity", "liquid_flow": "liquid flow rate Q_L",
+    "gas_flow": "gas flow rate Q_G",
+}
+
+
+def _constant_words(model_name: str | None, const: str) -> str:
+    from lowgmap.physics.models.boundary import BOUNDARY_MODELS
+
+    models = [BOUNDARY_MODELS[model_name]] if model_name in BOUNDARY_MODELS else list(BOUNDARY_MODELS.values())
+    for m in models:
+        for c in m.constants:
+            if c.name == const:
+                words = c.doc.split(";")[0].strip() if c.doc else const.replace("_", " ")
+                if len(words) > 48:
+                    words = const.replace("_", " ")
+                where = f" of {m.label.split(' (')[0]}" if model_name in BOUNDARY_MODELS else ""
+                return f"{words}{where}"
+    return const.replace("_", " ")
+
+
+def variable_label(name: str, unit: str = "") -> str:
+    """A design variable in words with its unit, for axis labels: ``"contact_angle"`` -> "contact angle [deg]".
+
+    ``section.<field>`` keys use the section field's words, ``model.<name>.<constant>`` and
+    ``constant.<constant>`` the constant's meaning (its name when the meaning is long).
+
+    >>> variable_label("contact_angle", "deg"), variable_label("half_angle", "deg")
+    ('contact angle [deg]', 'corner half-angle [deg]')
+    >>> variable_label("section.wall_length", "mm")
+    'wall length [mm]'
+    """
+    if name in _VARIABLE_WORDS:
+        words = _VARIABLE_WORDS[name]
+    elif name.startswith("section."):
+        field_name = name.split(".", 1)[1]
+        words = field_name.replace("_", " ")
+        try:
+            from lowgmap.physics.geometry.sections import SECTION_KINDS, section_fields
+
+            labels = {f.name: f.label for k in SECTION_KINDS for f in section_fields(k)}
+            words = labels.get(field_name, words)
+        except (ImportError, ValueError):  # pragma: no cover - the table is part of the physics
+            pass
+    elif name.startswith("model.") and name.count(".") >= 2:
+        _, model, const = name.split(".", 2)
+        words = _constant_words(model, const)
+    elif name.startswith("constant."):
+        words = _constant_words(None, name.split(".", 1)[1])
+    else:
+        words = name.replace("_", " ")
+    return words + (f" [{unit}]" if unit and unit != "-" else "")
 
 
 def margin_map_figure(df, xvar: str, yvar: str | None, *, column: str = "margin", required: float | None = None,
@@ -37,11 +97,13 @@ def margin_map_figure(df, xvar: str, yvar: str | None, *, column: str = "margin"
         u = units.get(name, "")
         return np.asarray(to_display(np.asarray(v, dtype=float), k, u), dtype=float) if k != "name" else v
 
-    def label(name):
-        u = units.get(name, "")
-        return f"{name.replace('_', ' ')}" + (f" [{u}]" if u and u != "-" else "")
+    from lowgmap.app.outputs.render import add_footer, typeset
 
-    fig = Figure(figsize=(7.5, 5.6), layout="constrained")
+    def label(name):
+        return typeset(variable_label(name, units.get(name, "")))
+
+    fig = Figure(figsize=(7.5, 6.0), layout="constrained")
+    fig.get_layout_engine().set(rect=(0.0, 0.075, 1.0, 0.925))  # room for the caution line
     ax = fig.add_subplot()
     what = "worst-case margin over the envelope" if column == "envelope_margin" else "symmetric margin"
     if yvar is None:
@@ -97,15 +159,20 @@ def margin_map_figure(df, xvar: str, yvar: str | None, *, column: str = "margin"
         if log[1]:
             ax.set_yscale("log")
     ax.set_title(title or f"{what} by design", fontsize=11, loc="left")
+    add_footer(fig, fontsize=6.5)
     return fig
 
 
+def figure_file_bytes(fig, fmt: str = "png") -> bytes:
+    """A map figure as PNG (300 dpi), SVG or PDF bytes with the export settings of the charts."""
+    from lowgmap.app.outputs.render import figure_bytes
+
+    return figure_bytes(fig, fmt)
+
+
 def margin_map_png(df, xvar, yvar, **kwargs) -> bytes:
-    """:func:`margin_map_figure` as PNG bytes."""
-    fig = margin_map_figure(df, xvar, yvar, **kwargs)
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=110, metadata={"Software": "lowgmap"})
-    return buf.getvalue()
+    """:func:`margin_map_figure` as PNG bytes (300 dpi)."""
+    return figure_file_bytes(margin_map_figure(df, xvar, yvar, **kwargs), "png")
 
 
 def design_chart_bytes(doc, result, goal, fmt: str = "png") -> bytes:
@@ -113,6 +180,7 @@ def design_chart_bytes(doc, result, goal, fmt: str = "png") -> bytes:
     from lowgmap.physics.chart.composition import Chart
 
     from lowgmap.app.outputs.chartview import chart_view
+    from lowgmap.app.outputs.exports import human_rows
     from lowgmap.app.outputs.render import render_chart
     from lowgmap.app.outputs.report import case_rows, format_flow
 
@@ -122,14 +190,17 @@ def design_chart_bytes(doc, result, goal, fmt: str = "png") -> bytes:
     view = chart_view(chart, axes="flow", log_axes=st.log_axes, ql_unit=st.liquid_flow_unit, qg_unit=st.gas_flow_unit)
     (a, b), (c, d) = goal.ql_range, goal.qg_range
     xs, ys = view.to_display(np.array([a, b, b, a]), np.array([c, c, d, d]))
-    marks = [{"x": float(x), "y": float(y), "marker": "s", "colour": "#F0E442", "edge": "#000000", "size": 46}
+    marks = [{"x": float(x), "y": float(y), "marker": "s", "colour": "#F0E442", "edge": "#000000", "size": 46,
+              "kind": "envelope corner", "kind_plural": "envelope corners", "key": "corner of the operating envelope"}
              for x, y in zip(np.asarray(xs), np.asarray(ys))]
-    rows = case_rows(best_doc, chart)
+    labels = {b.name: b.label for b in chart.boundaries}
+    limiting = [labels.get(n, n) for n in result.limiting]
+    rows = human_rows(case_rows(best_doc, chart), result.case, document=doc)
     rows.append(("envelope", f"Q_L {format_flow(a, st.liquid_flow_unit)} to {format_flow(b, st.liquid_flow_unit)}, "
                              f"Q_G {format_flow(c, st.gas_flow_unit)} to {format_flow(d, st.gas_flow_unit)} "
                              f"(yellow squares)"))
     rows.append(("worst-case margin", f"±{100 * result.margin:.1f} % in {result.regime}"
-                                      + (f", limited by {', '.join(result.limiting)}" if result.limiting else "")
+                                      + (f", limited by {'; '.join(limiting)}" if limiting else "")
                                       + f"; required ±{100 * result.required_margin:.0f} %"))
     return render_chart(view, None, fmt=fmt, title=f"{doc.case.title}: best design", title_block=rows,
                         extra_points=marks)
