@@ -299,3 +299,28 @@ def test_write_atomic_leaves_target_and_no_temporary_on_error(tmp_path, monkeypa
     with pytest.raises(OSError, match="disk full"):
         write_atomic(target, "new")
     assert target.read_text() == "old" and [p.name for p in tmp_path.iterdir()] == ["out.csv"]
+
+
+def test_case_values_outside_the_physical_bounds_name_the_range():
+    # issue 14: a diameter of 1e300 mm passed `check` and overflowed in `margin`; bounds per quantity
+    # (README "Limits and errors") are checked by the loader with the key path and line
+    with pytest.raises(CaseFileError) as info:
+        loads_case(GOOD.replace('diameter = "12.7 mm"', 'diameter = "1e300 mm"')
+                   .replace('residual_acceleration = "1e-5 g0"', 'residual_acceleration = "200 g0"'))
+    got = {p.path: (p.line, p.message) for p in info.value.problems}
+    assert got["section.diameter"] == (13, "must be within [1 µm, 1 km], got 1e+297 m")
+    assert got["conduit.residual_acceleration"][1].startswith("must be within [0, 100 g0]")
+    assert isinstance(info.value, ValueError)                                 # still a ValueError for callers
+
+
+def test_problems_are_listed_up_to_a_limit_with_short_values():
+    from lowgmap.app.files.problems import MAX_PROBLEMS
+
+    vertices = ", ".join(f'["{"x" * 500}", "y"]' for _ in range(150))
+    text = GOOD.replace('kind = "circle"\ndiameter = "12.7 mm"', f"kind = \"polygon\"\nvertices = [{vertices}]")
+    with pytest.raises(CaseFileError) as info:
+        loads_case(text)
+    problems = info.value.problems
+    assert len(problems) == MAX_PROBLEMS + 1
+    assert problems[-1].message.startswith("200 more problem(s) not listed")
+    assert max(len(str(p)) for p in problems) < 600                           # a 500-character value is cut

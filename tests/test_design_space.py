@@ -10,6 +10,7 @@ import math
 import pytest
 
 from lowgmap.physics.case import ModelChoice
+from lowgmap.physics.models.boundary import resolve_model
 from lowgmap.physics.examples import example_case, example_fluid
 from lowgmap.physics.geometry.sections import Circle, WedgeChannel
 from lowgmap.physics.studies.design_space import (FLUID_KEYS, VARIABLES, check_flow_range, check_key,
@@ -135,6 +136,25 @@ def test_model_choices_defaults_follow_the_concus_finn_condition():
     # (a ``constant.`` change would then reach a model that is not on the chart).
     inside = [c.name for c in model_choices(wedge_case(contact_angle_deg=83.5))]     # 83.5 + 6 < 90
     assert "corner_confinement" in inside and "corner_separation" in inside
-    assert model_choices(wedge_case(contact_angle_deg=84.5)) == ()                   # 84.5 + 6 > 90
+    outside = model_choices(wedge_case(contact_angle_deg=84.5))                       # 84.5 + 6 > 90
+    # no corner-flow model; what is left applies to the case (the open-channel ingestion model does apply
+    # to a corner that cannot hold liquid: gas is drawn in at any flow)
+    assert not any(c.name.startswith("corner_") for c in outside)
+    assert all(resolve_model(c.name).applies_to(wedge_case(contact_angle_deg=84.5)) is None for c in outside)
     tube = [c.name for c in model_choices(example_case(Circle(0.01)))]
     assert tube and not any(n.startswith("corner_") for n in tube)
+
+
+def test_grid_and_pairs_are_bounded_before_anything_is_built():
+    # issue 14: 10**12 steps or a 10**7-design grid must fail at once with the limit named, not fill memory
+    from lowgmap.physics.studies.design_space import MAX_DESIGNS, MAX_VALUES, grid, zipped
+    from lowgmap.physics.validate import InputError
+
+    big = range(MAX_VALUES)                                   # a range holds no list: nothing is allocated
+    with pytest.raises(InputError, match="more than 100,000 designs"):
+        grid({"length": big, "size": big})
+    with pytest.raises(InputError, match="at most 10,000"):
+        grid({"length": range(10 ** 12)})
+    with pytest.raises(InputError, match="100,000"):
+        zipped({"length": range(MAX_DESIGNS + 1)})
+    assert len(grid({"length": range(400), "size": range(250)})) == MAX_DESIGNS     # the limit itself is allowed

@@ -105,3 +105,20 @@ def test_format_and_convert():
 def test_length_round_trip(value, unit):
     si = to_si(f"{value!r} {unit}", "length")
     assert convert(si, "length", unit) == pytest.approx(value, rel=1e-12)
+
+
+def test_a_long_text_is_refused_before_it_is_parsed():
+    # issue 14: a value of 100,000 spaces made the number pattern backtrack for minutes; now the length
+    # is checked first and the pattern has no trailing-space search (no timing asserted: it must not hang)
+    from lowgmap.app.files.units import MAX_QUANTITY_CHARS
+
+    with pytest.raises(UnitError, match=f"at most {MAX_QUANTITY_CHARS} characters"):
+        to_si("1 " + " " * 100_000 + "x y", "length", "section.diameter")
+    assert to_si("  12.7 mm  ", "length") == pytest.approx(0.0127)           # surrounding spaces still fine
+
+
+def test_unit_errors_are_input_errors():
+    from lowgmap.physics.validate import InputError
+
+    with pytest.raises(InputError, match="section.diameter"):
+        to_si("12.7 s", "length", "section.diameter")

@@ -1,8 +1,11 @@
 """The ``lowgmap`` command line.
 
-Every command that prints data accepts ``--json`` for scripting. Exit codes: 0 success, 2 invalid
-input (every problem is printed), 1 unexpected failure; output cut short by a closed pipe (``lowgmap
-... | head``) ends quietly with 141 (128 + SIGPIPE, as a shell reports it).
+Every command that prints data accepts ``--json`` for scripting. Exit codes: 0 success; 2 the
+user's input is wrong (every problem is printed in one line each, naming the field, option or path:
+an :class:`lowgmap.physics.validate.InputError`, a file that cannot be read or written); 1 a defect of
+lowgmap (any other exception: a short message asks for a report, ``--debug`` shows the traceback);
+130 interrupted (Ctrl+C); output cut short by a closed pipe (``lowgmap ... | head``) ends quietly
+with 141 (128 + SIGPIPE, as a shell reports it). No traceback is printed without ``--debug``.
 
 Commands are listed in :data:`COMMANDS` (name, help line, module). Each command lives in a module of
 its own under ``lowgmap.app.cli`` with two functions, ``add_arguments(parser)`` and ``run(args) -> int``,
@@ -18,13 +21,23 @@ import sys
 from dataclasses import dataclass
 
 from lowgmap.app import CAUTION, __version__
-from lowgmap.app.cli.common import EXIT_FAIL, EXIT_INVALID, EXIT_OK, CliError
+from lowgmap.app.cli.common import EXIT_FAIL, EXIT_INVALID, EXIT_OK
 
 __all__ = ["main", "build_parser", "Command", "COMMANDS", "CliError", "EXIT_OK", "EXIT_FAIL", "EXIT_INVALID",
-           "EXIT_BROKEN_PIPE"]
+           "EXIT_BROKEN_PIPE", "EXIT_INTERRUPTED"]
 
 #: Exit code when stdout was closed by the reader (128 + SIGPIPE).
 EXIT_BROKEN_PIPE = 141
+#: Exit code after Ctrl+C (128 + SIGINT).
+EXIT_INTERRUPTED = 130
+
+
+def __getattr__(name):                     # PEP 562: CliError is made on first use (it needs the physics)
+    if name == "CliError":
+        from lowgmap.app.cli import common
+
+        return common.CliError
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 DESCRIPTION = "Regime charts and margins for bubbly liquid flow in low-gravity conduits."
 
@@ -51,10 +64,14 @@ class Command:
 COMMANDS: tuple[Command, ...] = (
     Command("check", "validate a case file; exit 0 when valid, 2 with every problem when not", "check"),
     Command("fluids", "list the fluid names and property sources", "fluids", case=False),
+    Command("models", "every boundary model: family, regimes, constants (default, range, source), validity, "
+                      "citation", "models", case=False),
     Command("section", "geometry of the case's cross-section, Concus–Finn per corner, Bond number", "section"),
     Command("serve", "start the browser dashboard (default: a bundled sample case)", "serve", case=False,
             json=False),
     Command("chart", "draw the regime chart of a case (PNG, SVG or PDF, with title block)", "chart"),
+    Command("report", "review pack (PDF or HTML): verdicts, chart, margins, inputs, models and sources, test "
+                      "points, revision history", "report"),
     Command("margin", "margins of the operating point to every boundary: axis factors, log distance, symmetric ±m "
                       "margin and the limiting boundary", "margin"),
     Command("robust", "the point of a regime with the largest symmetric margin", "robust"),
@@ -83,6 +100,8 @@ def build_parser(command: str | None = None, *, every: bool = False) -> argparse
     """
     p = argparse.ArgumentParser(prog="lowgmap", description=DESCRIPTION, epilog=CAUTION)
     p.add_argument("--version", action="version", version=f"lowgmap {__version__}")
+    p.add_argument("--debug", action="store_true",
+                   help="on an internal error, print the traceback (may also follow the command)")
     sub = p.add_subparsers(dest="command", metavar="COMMAND")
     for c in COMMANDS:
         sp = sub.add_parser(c.name, help=c.help, description=c.help, epilog=CAUTION)
@@ -112,12 +131,14 @@ def _command_in(argv: list[str]) -> str | None:
 def main(argv=None) -> int:
     """Run the command line with ``argv`` (default ``sys.argv[1:]``); return the exit code.
 
-    ``--version`` and ``--help`` raise :class:`SystemExit` (argparse), as usual.
+    ``--version`` and ``--help`` raise :class:`SystemExit` (argparse), as usual. ``--debug`` may
+    stand anywhere before a ``--``.
     """
     argv = sys.argv[1:] if argv is None else list(argv)
+    debug, argv = _debug_flag(argv)
     try:
         try:
-            return _run(argv)
+            return _run(argv, debug)
         finally:
             sys.stdout.flush()
     except BrokenPipeError:
@@ -125,25 +146,84 @@ def main(argv=None) -> int:
         return EXIT_BROKEN_PIPE
 
 
-def _run(argv: list[str]) -> int:
-    from lowgmap.app.files.problems import CaseFileError
+def _debug_flag(argv: list[str]) -> tuple[bool, list[str]]:
+    """(``--debug`` given, the other words): the flag is taken from anywhere before ``--``."""
+    end = argv.index("--") if "--" in argv else len(argv)
+    debug = "--debug" in argv[:end]
+    return debug, [w for i, w in enumerate(argv) if i >= end or w != "--debug"]
 
-    parser = build_parser(_command_in(argv))
-    args = parser.parse_args(argv)
-    if args.command is None:
-        parser.print_help()
-        return EXIT_INVALID
-    module = importlib.import_module(_BY_NAME[args.command].module_name)
+
+def _run(argv: list[str], debug: bool = False) -> int:
+    name = _command_in(argv) or ""
     try:
+        parser = build_parser(name or None)
+        args = parser.parse_args(argv)
+        if args.command is None:
+            parser.print_help()
+            return EXIT_INVALID
+        name = args.command
+        module = importlib.import_module(_BY_NAME[args.command].module_name)
         return int(module.run(args) or 0)
-    except CaseFileError as exc:
+    except BrokenPipeError:
+        raise
+    except KeyboardInterrupt:
+        print(f"\n{'lowgmap ' + name if name else 'lowgmap'}: interrupted", file=sys.stderr)
+        return EXIT_INTERRUPTED
+    except Exception as exc:
+        return _report_error(name, exc, debug)
+
+
+def _report_error(command: str, exc: BaseException, debug: bool) -> int:
+    """Print the error of a command; return its exit code (2 the user's input, 1 a defect)."""
+    import traceback
+
+    where = f"lowgmap {command}" if command else "lowgmap"
+    if debug:
+        traceback.print_exception(exc, file=sys.stderr)
+    kind = _error_kind(exc)
+    if kind == "problems":
         print(f"{exc.source}: {len(exc.problems)} problem(s):", file=sys.stderr)
         for pr in exc.problems:
             print(f"  - {pr}", file=sys.stderr)
         return EXIT_INVALID
-    except (CliError, ValueError, FileNotFoundError) as exc:   # unit errors are ValueErrors
-        print(f"lowgmap {args.command}: {exc}", file=sys.stderr)
+    if kind == "input":
+        print(f"{where}: {exc}", file=sys.stderr)
         return EXIT_INVALID
+    if kind == "os":
+        print(f"{where}: {_os_message(exc)}", file=sys.stderr)
+        return EXIT_INVALID
+    text = " ".join(str(exc).split())
+    if len(text) > 300:
+        text = text[:299] + "…"
+    detail = f"{type(exc).__name__}: {text}" if text else type(exc).__name__
+    print(f"{where}: internal error ({detail}); please report it with the command line and the case file"
+          + ("" if debug else "; run with --debug for the details"), file=sys.stderr)
+    return EXIT_FAIL
+
+
+def _error_kind(exc: BaseException) -> str:
+    """"problems" (an input file's problems), "input" (the user's input), "os" (a file or the system), "defect"."""
+    try:
+        from lowgmap.app.files.problems import CaseFileError
+        from lowgmap.physics.validate import InputError
+    except Exception:                                     # pragma: no cover - a broken installation
+        return "os" if isinstance(exc, OSError) else "defect"
+    if isinstance(exc, CaseFileError):
+        return "problems"
+    if isinstance(exc, InputError):
+        return "input"
+    if isinstance(exc, OSError):
+        return "os"
+    return "defect"
+
+
+def _os_message(exc: OSError) -> str:
+    """One line for an operating-system error: the path (when known) and what the system said."""
+    what = exc.strerror or str(exc) or type(exc).__name__
+    if exc.filename is not None:
+        path = f"{exc.filename}" + (f" -> {exc.filename2}" if exc.filename2 is not None else "")
+        return f"{path}: {what}"
+    return what
 
 
 def _stdout_to_devnull() -> None:

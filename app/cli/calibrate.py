@@ -4,20 +4,26 @@
 fits a power-law line between two observed regimes
 (:func:`lowgmap.physics.studies.calibration.fit_empirical_boundary`). With ``-o`` the result is written
 as the case's next revision (:mod:`lowgmap.app.files.revisions`): the constants in force before, and
-the date, go to a ``[[history]]`` entry, and the revision letter moves on (A -> B).
+the date, go to a ``[[history]]`` entry, and the revision letter moves on (A -> B). The ``-o`` path is
+checked before the fit runs (a ``.toml`` file, not one of the inputs; an existing file only with
+``--force``) and written atomically.
 """
 from __future__ import annotations
 
 from pathlib import Path
 
 from lowgmap.app import CAUTION
-from lowgmap.app.cli.common import CliError, clean, emit, load_case_file
+from lowgmap.app.cli.common import clean, emit, load_case_file
 from lowgmap.app.cli.points import (add_point_arguments, criteria_from_args, folds_value, load_points,
                                     parse_regime_map)
 from lowgmap.app.files.revisions import calibrated_document, document_with_boundary, relocate_test_points
 from lowgmap.app.outputs.formatting import format_share
+from lowgmap.app.cli import common
 
-__all__ = ["add_arguments", "run"]
+__all__ = ["add_arguments", "run", "MAX_STARTS"]
+
+#: Most random starts of a fit (``--starts``).
+MAX_STARTS = 100
 
 
 def add_arguments(parser) -> None:
@@ -34,7 +40,8 @@ def add_arguments(parser) -> None:
                         help="fit every point with a chart regime, not only the valid ones")
     parser.add_argument("--label-error", type=float, metavar="EPS",
                         help="fix the share of mislabelled points (default: fitted within [1e-4, 0.3])")
-    parser.add_argument("--starts", type=int, default=4, metavar="N", help="random starts of the fit (default 4)")
+    parser.add_argument("--starts", type=int, default=4, metavar="N",
+                        help=f"random starts of the fit, 1 to {MAX_STARTS} (default 4)")
     parser.add_argument("--folds", type=folds_value, default=5, metavar="K",
                         help="cross-validation folds, or 'loo' (default 5)")
     parser.add_argument("--seed", type=int, default=0, metavar="S", help="seed of the random starts and folds")
@@ -45,7 +52,12 @@ def run(args) -> int:
     from lowgmap.physics.studies.calibration import calibrate, fit_empirical_boundary
 
     if bool(args.fit) == bool(args.empirical):
-        raise CliError("give either --fit MODEL[.CONSTANT] ... or --empirical \"BELOW|ABOVE\"")
+        raise common.CliError("give either --fit MODEL[.CONSTANT] ... or --empirical \"BELOW|ABOVE\"")
+    common.check_count("--starts", args.starts, 1, MAX_STARTS)
+    common.check_count("--seed", args.seed, 0, 2 ** 63 - 1)
+    if args.output is not None:
+        common.check_output(args.output, option="-o", formats=(".toml",), force=args.force,
+                            inputs=(args.case, args.points))
     doc = load_case_file(args.case)
     tps = load_points(args.points, doc)
     chart = Chart.build(doc.case)
@@ -54,9 +66,10 @@ def run(args) -> int:
               folds=args.folds, seed=args.seed)
     name = Path(args.points).name
     if args.fit:
-        cal = calibrate(chart, tps, args.fit, **kw)
+        with common.input_errors():
+            cal = calibrate(chart, tps, args.fit, **kw)
         written = None
-        if args.output:
+        if args.output is not None:
             data, rev = calibrated_document(doc, cal, points_name=name)
             written = (_write(data, args, doc), rev)
         out = cal.to_dict()
@@ -65,9 +78,10 @@ def run(args) -> int:
                     "revision_after": written[1] if written else None})
         emit(args, clean(out), _format_calibration(doc, cal, args.points, written))
         return 0
-    fit = fit_empirical_boundary(chart, tps, args.empirical, name=args.name, source=name, **kw)
+    with common.input_errors():
+        fit = fit_empirical_boundary(chart, tps, args.empirical, name=args.name, source=name, **kw)
     written = None
-    if args.output:
+    if args.output is not None:
         data, rev, bname = document_with_boundary(doc, fit, chart, points_name=name)
         written = (_write(data, args, doc), rev, bname)
     out = fit.to_dict()
@@ -80,14 +94,14 @@ def run(args) -> int:
 
 def _write(data, args, doc) -> Path:
     """Check the new revision loads, then write it (atomically) to -o."""
-    from lowgmap.app.files.casefile import dumps_case, loads_case, save_case
+    from lowgmap.app.files.casefile import dumps_case, loads_case
 
-    out = Path(args.output)
-    if out.exists() and not args.force:
-        raise CliError(f"{out} exists; choose another -o path or add --force to replace it")
+    out = common.check_output(args.output, option="-o", formats=(".toml",), force=args.force,
+                              inputs=(args.case, args.points))
     relocate_test_points(data, doc.path, out)
-    loads_case(dumps_case(data), source=str(out), base_dir=out.resolve().parent)   # must load before writing
-    save_case(data, out)
+    text = dumps_case(data)
+    loads_case(text, source=str(out), base_dir=out.resolve().parent)   # must load before writing
+    common.write_output(out, text, force=args.force, option="-o")
     return out
 
 

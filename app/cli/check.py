@@ -20,8 +20,7 @@ def run(args) -> int:
     except CaseFileError as exc:
         if args.json:
             print(json_text(clean({"valid": False, "file": args.case, "problems": [
-                {"path": p.path, "line": p.line, "message": p.message,
-                 "value": p.value if isinstance(p.value, (str, int, float, bool, type(None))) else str(p.value)}
+                {"path": p.path, "line": p.line, "message": p.message, "value": _value(p.value)}
                 for p in exc.problems]})))
         else:
             print(f"{args.case}: INVALID, {len(exc.problems)} problem(s):", file=sys.stderr)
@@ -37,3 +36,12 @@ def run(args) -> int:
         text = f"{args.case}: INVALID - test-point file(s) not found: {', '.join(missing)}"
     emit(args, data, text)
     return EXIT_INVALID if missing else EXIT_OK
+
+
+def _value(value):
+    """A problem's value for JSON: numbers and short texts as they are, anything else as short text."""
+    from lowgmap.app.files.problems import MAX_VALUE_CHARS, short_value
+
+    if isinstance(value, (int, float, bool, type(None))) or (isinstance(value, str) and len(value) <= MAX_VALUE_CHARS):
+        return value
+    return short_value(value)

@@ -9,6 +9,7 @@ from __future__ import annotations
 from pathlib import Path
 
 from lowgmap.app import CAUTION
+from lowgmap.app.cli import common
 from lowgmap.app.cli.common import clean, emit, load_case_file
 from lowgmap.app.cli.points import add_point_arguments, criteria_from_args, load_points, parse_regime_map
 from lowgmap.app.outputs.formatting import format_share
@@ -27,7 +28,9 @@ def run(args) -> int:
     doc = load_case_file(args.case)
     tps = load_points(args.points, doc)
     chart = Chart.build(doc.case)
-    res = agreement(chart, tps, regime_map=parse_regime_map(args.map), criteria=criteria_from_args(args))
+    regime_map, criteria = parse_regime_map(args.map), criteria_from_args(args)
+    with common.input_errors("compare"):
+        res = agreement(chart, tps, regime_map=regime_map, criteria=criteria)
     emit(args, compare_report(doc, tps, res, args.points), format_compare(doc, tps, res, args.points))
     return 0
 

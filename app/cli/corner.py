@@ -6,7 +6,8 @@ from __future__ import annotations
 
 import math
 
-from lowgmap.app.cli.common import CliError, clean, emit
+from lowgmap.app.cli.common import clean, emit
+from lowgmap.app.cli import common
 
 __all__ = ["add_arguments", "run", "corner_summary"]
 
@@ -51,7 +52,11 @@ def run(args) -> int:
     t = to_si(args.contact_angle, "angle", "--contact-angle")
     r = to_si(args.radius, "length", "--radius") if args.radius else None
     if r is not None and not r > 0:
-        raise CliError(f"--radius must be > 0, got {args.radius!r}")
+        raise common.CliError(f"--radius must be > 0, got {args.radius!r}")
+    if r is not None:
+        from lowgmap.app.files.casefile import check_bounds
+
+        check_bounds("length", r, "--radius")
     rep = corner_summary(a, t, r)
     lines = [f"Corner half-angle {rep['half_angle_deg']:.4g} deg, contact angle {rep['contact_angle_deg']:.4g} deg",
              f"  Concus–Finn: {'wicks' if rep['concus_finn_wets'] else 'does NOT wick'} "

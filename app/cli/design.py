@@ -3,7 +3,9 @@
 The GOAL file is read by :func:`lowgmap.app.files.studyfiles.read_goal` (its format is described
 there); the search is :func:`lowgmap.physics.studies.design.optimize_design`. ``--plot`` draws the best
 design's chart with the envelope (:func:`lowgmap.app.outputs.maps.design_chart_bytes`), written
-atomically.
+atomically; its path is checked before the search runs and an existing file is replaced only with
+``--force``. Before the search, one evaluation of the base design is timed and an estimate of the
+whole search printed on stderr (``--quiet`` leaves it out).
 """
 from __future__ import annotations
 
@@ -11,8 +13,9 @@ import time
 from pathlib import Path
 
 from lowgmap.app import CAUTION
-from lowgmap.app.cli.common import CliError, clean, emit, load_case_file
-from lowgmap.app.cli.studies import Progress, format_value
+from lowgmap.app.cli.common import clean, emit, load_case_file
+from lowgmap.app.cli.studies import Progress, format_value, pilot_seconds, print_estimate
+from lowgmap.app.cli import common
 
 __all__ = ["add_arguments", "run"]
 
@@ -20,7 +23,8 @@ __all__ = ["add_arguments", "run"]
 def add_arguments(parser) -> None:
     parser.add_argument("goal", metavar="GOAL", help="goal file (.toml): envelope, regime, variables, constraints")
     parser.add_argument("--plot", metavar="FILE", help="the best design's chart with the envelope (.png, .svg, .pdf)")
-    parser.add_argument("--quiet", action="store_true", help="no progress on stderr")
+    parser.add_argument("--force", action="store_true", help="replace the --plot file if it exists")
+    parser.add_argument("--quiet", action="store_true", help="no progress and no run-time estimate on stderr")
 
 
 def run(args) -> int:
@@ -28,22 +32,25 @@ def run(args) -> int:
 
     from lowgmap.app.files.studyfiles import fluid_spec, read_goal
 
+    if args.plot is not None:
+        common.check_output(args.plot, option="--plot", formats=(".png", ".svg", ".pdf"), force=args.force,
+                            inputs=(args.case, args.goal))
     doc = load_case_file(args.case)
     goal, info = read_goal(args.goal, doc)
     progress = None if args.quiet else Progress(f"design {Path(args.goal).name}")
+    if not args.quiet:
+        _estimate(doc, goal)
     t0 = time.perf_counter()
-    res = optimize_design(doc.case, goal, fluid_spec=fluid_spec(doc), seed=info["seed"], method=info["method"],
-                          progress=progress)
+    with common.input_errors("design"):
+        res = optimize_design(doc.case, goal, fluid_spec=fluid_spec(doc), seed=info["seed"], method=info["method"],
+                              progress=progress)
     elapsed = time.perf_counter() - t0
-    if args.plot:
-        p = Path(args.plot)
-        fmt = p.suffix.lstrip(".").lower()
-        if fmt not in ("png", "svg", "pdf"):
-            raise CliError(f"--plot must end in .png, .svg or .pdf, got {args.plot!r}")
-        from lowgmap.app.files.atomic import write_atomic
+    if args.plot is not None:
         from lowgmap.app.outputs.maps import design_chart_bytes
 
-        write_atomic(p, design_chart_bytes(doc, res, goal, fmt))
+        p = Path(args.plot)
+        common.write_output(p, design_chart_bytes(doc, res, goal, p.suffix.lstrip(".").lower()), force=args.force,
+                            option="--plot")
     units, kinds = info["units"], info["kinds"]
     data = res.to_dict()
     data.update({"case": args.case, "goal": args.goal, "seconds": elapsed, "units": units,
@@ -69,8 +76,22 @@ def run(args) -> int:
     for s in res.sensitivity:
         lines.append(f"    {s.variable:<34} {100 * s.change_up:+.3f} % / {100 * s.change_down:+.3f} %"
                      + (f"  (at its {s.at_bound} bound)" if s.at_bound else ""))
-    if args.plot:
+    if args.plot is not None:
         lines.append(f"wrote {args.plot}")
     lines += ["", CAUTION]
     emit(args, clean(data), "\n".join(lines))
     return 0
+
+
+def _estimate(doc, goal) -> None:
+    """Time the designs at the low and at the high end of every variable over the envelope; print the
+    estimate of the search."""
+    from lowgmap.app.files.studyfiles import fluid_spec
+
+    d = len(goal.variables)
+    planned = max(1, len(goal.fluids)) * ((goal.screen or max(16, 16 * d)) + goal.starts * goal.max_evaluations)
+    spec = dict(envelope=(goal.ql_range, goal.qg_range), regime=goal.regime, fluid_spec=fluid_spec(doc))
+    corners = [{v.name: v.low for v in goal.variables}, {v.name: v.high for v in goal.variables}]
+    with common.input_errors("design"):                  # two different designs, as every step of the search
+        first, each = pilot_seconds(doc.case, corners, spec)
+    print_estimate(planned, "model evaluations (at most)", first, each)

@@ -31,14 +31,32 @@ def run(args) -> int:
     return 0
 
 
+def verdict_of(doc, chart, pm):
+    """The verdict in words on the point's margins (None on a chart without regimes): the one function
+    every output uses (:func:`lowgmap.physics.chart.margins.margin_verdict`)."""
+    from lowgmap.physics.chart.margins import margin_verdict
+
+    if not chart.regime_names:
+        return None
+    intended = doc.case.intended_regime or doc.settings.intended_regime or None
+    if intended is not None and intended not in chart.regime_names:
+        from lowgmap.app.cli.common import CliError
+
+        raise CliError(f"chart.intended_regime: {intended!r} is not a regime of this chart; "
+                       f"its regimes: {', '.join(chart.regime_names)}")
+    return margin_verdict(pm, doc.settings.required_margin, intended)
+
+
 def margin_report(doc, chart, pm) -> dict:
     """JSON-ready margins of a point (the CLI's --json output)."""
     data = pm.to_dict()
     if not chart.regime_names:
         data["symmetric_margin"] = None
     st = doc.settings
+    verdict = verdict_of(doc, chart, pm)
     data["required_margin"] = st.required_margin
-    data["meets_required_margin"] = (pm.symmetric_margin >= st.required_margin) if chart.regime_names else None
+    data["verdict"] = verdict.to_dict() if verdict is not None else None
+    data["meets_required_margin"] = verdict.met if verdict is not None else None
     data["regimes"] = list(chart.regime_names)
     data["warnings"] = list(chart.warnings)
     data["case"] = {"title": doc.case.title, "revision": doc.case.revision}
@@ -57,15 +75,19 @@ def format_margin(doc, chart, pm) -> str:
     if not chart.regime_names:
         lines.append("Regime: none - no boundary model on this chart defines regimes.")
     else:
-        lines.append(f"Regime: {pm.regime}")
+        verdict = verdict_of(doc, chart, pm)
+        lines.append(f"Regime: {pm.regime}" + (f" ({verdict.regime_status}: {verdict.intended_regime})"
+                                               if verdict.intended_regime else f" ({verdict.regime_status})"))
         lim = pm.limiting
         if lim is None:
             lines.append(f"Symmetric margin: at least ±{format_percent(pm.symmetric_margin)} "
                          f"(no boundary comes closer)")
         else:
             lines.append(f"Symmetric margin: ±{format_percent(pm.symmetric_margin)}, limited by {lim.label}")
-        verdict = "met" if pm.symmetric_margin >= st.required_margin else "NOT met"
-        lines.append(f"Required margin ±{format_percent(st.required_margin)}: {verdict}")
+        lines.append(f"Required margin ±{format_percent(st.required_margin)}: {verdict.margin_status}")
+        lines.append(f"  basis: {verdict.basis}")
+        for limit in verdict.limits:
+            lines.append(f"  limit: {limit}")
         words = {"ql_up": "Q_L up", "ql_down": "Q_L down", "qg_up": "Q_G up", "qg_down": "Q_G down"}
         for d, w in words.items():
             name = pm.limits[d]

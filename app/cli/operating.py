@@ -6,7 +6,7 @@ exported reports.
 """
 from __future__ import annotations
 
-from lowgmap.app.cli.common import CliError
+from lowgmap.app.cli import common
 
 __all__ = ["case_chart", "operating_point", "flow_range", "regime_name", "flow_text"]
 
@@ -40,16 +40,17 @@ def operating_point(args, doc) -> tuple[float, float]:
         try:
             v = parse_flow(text, f"--{opt}", gas=gas, pressure=f.pressure, temperature=f.temperature)
         except UnitError as exc:
-            raise CliError(str(exc)) from None
+            raise common.CliError(str(exc)) from None
         if not v > 0:
-            raise CliError(f"--{opt} must be a flow rate > 0, got {text!r}")
+            raise common.CliError(f"--{opt} must be a flow rate > 0, got {text!r}")
+        _in_bounds(v, f"--{opt}", text)
         if opt == "ql":
             ql = v
         else:
             qg = v
     if ql is None or qg is None:
         missing = " and ".join(o for o, v in (("--ql", ql), ("--qg", qg)) if v is None)
-        raise CliError(f"the case has no operating point: give {missing} (a flow rate with units, e.g. '3 L/min')")
+        raise common.CliError(f"the case has no operating point: give {missing} (a flow rate with units, e.g. '3 L/min')")
     return ql, qg
 
 
@@ -64,10 +65,22 @@ def flow_range(args, opt: str, gas: bool, doc):
     try:
         lo, hi = (parse_flow(t, f"--{opt}", gas=gas, pressure=f.pressure, temperature=f.temperature) for t in pair)
     except UnitError as exc:
-        raise CliError(str(exc)) from None
+        raise common.CliError(str(exc)) from None
     if not (lo > 0 and hi > lo):
-        raise CliError(f"--{opt} must be LOW HIGH with 0 < LOW < HIGH, got {pair[0]!r} {pair[1]!r}")
+        raise common.CliError(f"--{opt} must be LOW HIGH with 0 < LOW < HIGH, got {pair[0]!r} {pair[1]!r}")
+    _in_bounds(lo, f"--{opt}", pair[0])
+    _in_bounds(hi, f"--{opt}", pair[1])
     return lo, hi
+
+
+def _in_bounds(q: float, option: str, text: str) -> None:
+    """A flow rate [m^3/s] within the bounds of case files (:data:`lowgmap.app.files.casefile.BOUNDS`)."""
+    from lowgmap.app.files.casefile import check_bounds
+
+    try:
+        check_bounds("flow", q, option)
+    except ValueError as exc:
+        raise common.CliError(f"{exc} (written: {text!r})") from None
 
 
 def regime_name(chart, text: str) -> str:
@@ -79,4 +92,4 @@ def regime_name(chart, text: str) -> str:
     if len(folded) == 1:
         return folded[0]
     known = "; ".join(f'"{n}"' for n in names) if names else "none (no boundary model applies to this case)"
-    raise CliError(f"unknown regime {text!r}; regimes on this chart: {known}")
+    raise common.CliError(f"unknown regime {text!r}; regimes on this chart: {known}")

@@ -6,7 +6,7 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
-from lowgmap.app.cli.common import CliError
+from lowgmap.app.cli import common
 
 __all__ = ["parse_regime_map", "load_points", "criteria_from_args", "add_point_arguments", "folds_value"]
 
@@ -20,10 +20,10 @@ def parse_regime_map(items) -> dict:
     out = {}
     for item in items or ():
         if "=" not in item:
-            raise CliError(f"--map takes LABEL=REGIME (file label = chart regime name), got {item!r}")
+            raise common.CliError(f"--map takes LABEL=REGIME (file label = chart regime name), got {item!r}")
         k, v = item.split("=", 1)
         if not k.strip() or not v.strip():
-            raise CliError(f"--map takes LABEL=REGIME with both parts, got {item!r}")
+            raise common.CliError(f"--map takes LABEL=REGIME with both parts, got {item!r}")
         out[k.strip()] = v.strip()
     return out
 
@@ -33,8 +33,13 @@ def load_points(path, doc):
     from lowgmap.app.files.testpoints import read_test_points
 
     p = Path(path)
+    if not p.exists():
+        raise common.CliError(f"test-point file not found: {str(p)!r}")
+    if p.is_dir():
+        raise common.CliError(f"test-point file {str(p)!r} is a folder; give the path of a .csv or .xlsx file")
     if not p.is_file():
-        raise CliError(f"test-point file not found: {str(p)!r}")
+        raise common.CliError(f"test-point file {str(p)!r} is not a regular file (a pipe or a device); give the path "
+                              f"of a .csv or .xlsx file")
     f = doc.case.fluid
     return read_test_points(p, pressure=f.pressure, temperature=f.temperature)
 
@@ -43,11 +48,12 @@ def criteria_from_args(args):
     """:class:`lowgmap.physics.studies.agreement.ValidityCriteria` from the command-line options."""
     from lowgmap.physics.studies.agreement import ValidityCriteria
 
+    from lowgmap.app.files.casefile import check_bounds
     from lowgmap.app.files.units import to_si
 
     length = None
     if getattr(args, "length", None):
-        length = to_si(args.length, "length", "--length")
+        length = check_bounds("length", to_si(args.length, "length", "--length"), "--length")
     kw = {"observation_length": length}
     for opt in ("bond_max", "safety_factor", "capillary_multiple"):
         v = getattr(args, opt, None)
@@ -56,7 +62,7 @@ def criteria_from_args(args):
     try:
         return ValidityCriteria(**kw)
     except ValueError as exc:
-        raise CliError(str(exc)) from None
+        raise common.CliError(str(exc)) from None
 
 
 def add_point_arguments(sp) -> None:
@@ -84,4 +90,6 @@ def folds_value(text: str):
         raise argparse.ArgumentTypeError(f"must be a whole number >= 2 or 'loo', got {text!r}") from None
     if k < 2:
         raise argparse.ArgumentTypeError(f"must be >= 2 (or 'loo'), got {k}")
+    if k > 1000:
+        raise argparse.ArgumentTypeError(f"must be at most 1000 (or 'loo'), got {k}")
     return k

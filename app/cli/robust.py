@@ -5,7 +5,7 @@ The point comes from :func:`lowgmap.physics.chart.margins.robust_point` on the c
 from __future__ import annotations
 
 from lowgmap.app import CAUTION
-from lowgmap.app.cli import operating
+from lowgmap.app.cli import common, operating
 from lowgmap.app.cli.common import clean, emit, load_case_file
 from lowgmap.app.outputs.formatting import format_percent
 
@@ -25,8 +25,10 @@ def run(args) -> int:
     doc = load_case_file(args.case)
     chart = operating.case_chart(doc)
     regime = operating.regime_name(chart, args.regime)
-    rp = robust_point(chart, regime, operating.flow_range(args, "ql-range", False, doc),
-                      operating.flow_range(args, "qg-range", True, doc))
+    ql_range = operating.flow_range(args, "ql-range", False, doc)
+    qg_range = operating.flow_range(args, "qg-range", True, doc)
+    with common.input_errors("robust"):
+        rp = robust_point(chart, regime, ql_range, qg_range)
     st = doc.settings
     flow = operating.flow_text
     data = rp.to_dict()

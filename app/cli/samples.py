@@ -1,7 +1,8 @@
 """`lowgmap samples`: list the bundled sample files, or copy them into a working folder."""
 from __future__ import annotations
 
-from lowgmap.app.cli.common import EXIT_OK, CliError, emit
+from lowgmap.app.cli.common import EXIT_OK, emit
+from lowgmap.app.cli import common
 
 __all__ = ["add_arguments", "run"]
 
@@ -19,7 +20,7 @@ def run(args) -> int:
 
     if args.copy is None:
         if args.names:
-            raise CliError("give --copy FOLDER to copy the named samples (without it the command lists them)")
+            raise common.CliError("give --copy FOLDER to copy the named samples (without it the command lists them)")
         files = sample_files()
         data = {"folder": str(sample_dir()), "cases": sample_cases(), "files": files}
         lines = ["Bundled samples (invented scenarios, for demonstration):"]
@@ -32,8 +33,8 @@ def run(args) -> int:
         for name in args.names:
             sample_path(name)                       # an unknown name fails before anything is copied
         copied = copy_samples(args.copy, args.names or None, overwrite=args.force)
-    except (FileExistsError, NotADirectoryError) as exc:
-        raise CliError(str(exc)) from None
+    except (FileExistsError, FileNotFoundError, NotADirectoryError) as exc:
+        raise common.CliError(str(exc)) from None
     emit(args, {"copied": [str(p) for p in copied]},
          "\n".join([f"copied {len(copied)} file(s) into {args.copy}:"] + [f"  {p}" for p in copied]))
     return EXIT_OK

@@ -3,7 +3,11 @@
 The SWEEP file is read by :func:`lowgmap.app.files.studyfiles.read_sweep` (its format is described
 there); the designs are evaluated by :func:`lowgmap.physics.studies.sweep.sweep`, in this process or on
 a dask cluster (``--workers``, ``--scheduler``). ``-o`` writes every design to CSV or Parquet, ``--plot``
-draws a margin map (:func:`lowgmap.app.outputs.maps.margin_map_figure`); both are written atomically.
+draws a margin map (:func:`lowgmap.app.outputs.maps.margin_map_figure`); both paths are checked before
+the sweep runs (:func:`lowgmap.app.cli.common.check_output`), an existing file is replaced only with
+``--force``, and both are written atomically. Before the designs run, the time of the first two is
+measured and an estimate printed on stderr (``--quiet`` leaves it out). A scheduler that does not
+answer within :data:`lowgmap.app.cli.common.SCHEDULER_TIMEOUT` seconds ends the command with a message.
 """
 from __future__ import annotations
 
@@ -13,20 +17,27 @@ import time
 from pathlib import Path
 
 from lowgmap.app import CAUTION
-from lowgmap.app.cli.common import CliError, clean, emit, load_case_file
-from lowgmap.app.cli.studies import Progress, format_value, plain
+from lowgmap.app.cli.common import clean, emit, load_case_file
+from lowgmap.app.cli.studies import Progress, format_value, pilot_seconds, plain, print_estimate
+from lowgmap.app.cli import common
 
-__all__ = ["add_arguments", "run", "cluster", "display_table"]
+__all__ = ["add_arguments", "run", "cluster", "display_table", "TABLE_FORMATS", "PLOT_FORMATS"]
+
+#: Suffixes of ``-o`` and ``--plot``.
+TABLE_FORMATS = (".csv", ".parquet", ".pq")
+PLOT_FORMATS = (".png", ".svg", ".pdf")
 
 
 def add_arguments(parser) -> None:
     parser.add_argument("sweep", metavar="SWEEP", help="sweep file (.toml): variables, envelope, options")
     parser.add_argument("-o", "--output", metavar="FILE", help="write every design to .csv or .parquet")
     parser.add_argument("--plot", metavar="FILE", help="margin map over the first two variables (.png, .svg, .pdf)")
+    parser.add_argument("--force", action="store_true", help="replace the -o and --plot files if they exist")
     grp = parser.add_mutually_exclusive_group()
-    grp.add_argument("--workers", type=int, metavar="N", help="run on a local dask cluster of N worker processes")
+    grp.add_argument("--workers", type=int, metavar="N",
+                     help=f"run on a local dask cluster of N worker processes (1 to {common.MAX_WORKERS})")
     grp.add_argument("--scheduler", metavar="ADDR", help="run on the dask scheduler at ADDR (tcp://host:8786)")
-    parser.add_argument("--quiet", action="store_true", help="no progress on stderr")
+    parser.add_argument("--quiet", action="store_true", help="no progress and no run-time estimate on stderr")
 
 
 def run(args) -> int:
@@ -35,26 +46,46 @@ def run(args) -> int:
 
     from lowgmap.app.files.studyfiles import fluid_spec, read_sweep
 
+    if args.workers is not None and args.scheduler:
+        raise common.CliError("give --workers or --scheduler, not both")
+    if args.workers is not None:
+        common.check_count("--workers", args.workers, 1, common.MAX_WORKERS)
+    inputs = (args.case, args.sweep)
+    if args.output is not None:
+        common.check_output(args.output, option="-o", formats=TABLE_FORMATS, force=args.force, inputs=inputs,
+                            formats_text=".csv or .parquet")
+        if Path(args.output).suffix.lower() != ".csv":
+            import importlib.util
+
+            if importlib.util.find_spec("pyarrow") is None:
+                raise common.CliError("writing Parquet needs pyarrow (pip install pyarrow); or write .csv")
+    if args.plot is not None:
+        common.check_output(args.plot, option="--plot", formats=PLOT_FORMATS, force=args.force, inputs=inputs,
+                            outputs=(args.output,))
     doc = load_case_file(args.case)
     plan = read_sweep(args.sweep, doc)
-    if args.workers and args.scheduler:
-        raise CliError("give --workers or --scheduler, not both")
+    if args.plot is not None and not [n for n in plan.variables if plan.kinds[n] != "name"]:
+        raise common.CliError("--plot needs a numeric sweep variable")
     progress = None if args.quiet else Progress(f"sweep {Path(args.sweep).name}")
     uncs = [Uncertainty.of(u) for u in doc.uncertainties] if plan.mc_samples else ()
+    spec = dict(envelope=plan.envelope, regime=plan.regime, required_margin=plan.required_margin,
+                fluid_spec=fluid_spec(doc), uncertainties=tuple(uncs), mc_samples=plan.mc_samples, seed=plan.seed,
+                method=plan.method)
+    if not args.quiet and plan.designs:
+        with common.input_errors("sweep"):
+            first, each = pilot_seconds(doc.case, plan.designs, spec)
+        print_estimate(len(plan.designs), "designs", first, each, parallel=args.workers or 1)
     t0 = time.perf_counter()
-    with cluster(args.workers, args.scheduler) as client:
-        df = sweep(doc.case, plan.designs, envelope=plan.envelope, regime=plan.regime,
-                   required_margin=plan.required_margin, fluid_spec=fluid_spec(doc), uncertainties=uncs,
-                   mc_samples=plan.mc_samples, seed=plan.seed, method=plan.method, client=client,
-                   chunk_size=plan.chunk_size, progress=progress)
+    with cluster(args.workers, args.scheduler) as client, common.input_errors("sweep"):
+        df = sweep(doc.case, plan.designs, client=client, chunk_size=plan.chunk_size, progress=progress, **spec)
     elapsed = time.perf_counter() - t0
     backend = (f"dask scheduler {args.scheduler}" if args.scheduler else
                f"local dask cluster, {args.workers} workers" if args.workers else "in-process")
     table = display_table(df, plan)
-    if args.output:
-        _write_table(table, Path(args.output))
-    if args.plot:
-        _write_plot(df, plan, args.plot, doc)
+    if args.output is not None:
+        _write_table(table, Path(args.output), force=args.force)
+    if args.plot is not None:
+        _write_plot(df, plan, args.plot, doc, force=args.force)
     col = "envelope_margin" if plan.envelope is not None else "margin"
     ok = df[df["status"] == "ok"]
     best = ok.loc[ok[col].idxmax()] if len(ok) and ok[col].notna().any() else None
@@ -83,9 +114,9 @@ def run(args) -> int:
                      f"{bad.iloc[0]['status']}")
     lines.append("")
     lines.append(_text_table(table, 12))
-    if args.output:
+    if args.output is not None:
         lines.append(f"\nwrote {args.output}")
-    if args.plot:
+    if args.plot is not None:
         lines.append(f"wrote {args.plot}")
     lines += ["", CAUTION]
     emit(args, clean(summary), "\n".join(lines))
@@ -97,23 +128,56 @@ def cluster(workers: int | None = None, scheduler: str | None = None):
     """A dask client: a local cluster of ``workers`` processes, or the scheduler at ``scheduler``.
 
     Yields None when neither is given (in-process). The cluster and client are closed on exit.
+    ``workers`` must be within [1, :data:`lowgmap.app.cli.common.MAX_WORKERS`]; a scheduler that does
+    not answer within :data:`lowgmap.app.cli.common.SCHEDULER_TIMEOUT` seconds is a :class:`CliError`.
     """
-    if not workers and not scheduler:
+    if workers is None and not scheduler:
         yield None
         return
+    if workers is not None:
+        common.check_count("--workers", workers, 1, common.MAX_WORKERS)
     try:
         from distributed import Client, LocalCluster
     except ImportError:
-        raise CliError("--workers/--scheduler need dask.distributed: pip install 'lowgmap[cluster]'") from None
+        raise common.CliError("--workers/--scheduler need dask.distributed: pip install 'lowgmap[cluster]'") from None
     if scheduler:
-        with Client(scheduler, timeout="20s") as client:
+        _probe_scheduler(scheduler)
+        try:
+            client = Client(scheduler, timeout=f"{common.SCHEDULER_TIMEOUT:g}s")
+        except (OSError, ValueError, TypeError) as exc:
+            raise common.CliError(f"--scheduler {scheduler}: no dask scheduler answered within "
+                                  f"{common.SCHEDULER_TIMEOUT:g} s ({' '.join(str(exc).split()) or type(exc).__name__})"
+                                  ) from None
+        with client:
             yield client
         return
-    if isinstance(workers, bool) or int(workers) < 1:
-        raise CliError(f"--workers must be >= 1, got {workers!r}")
     with LocalCluster(n_workers=int(workers), threads_per_worker=1, processes=True, dashboard_address=":0") as lc, \
             Client(lc) as client:
         yield client
+
+
+def _probe_scheduler(address: str) -> None:
+    """A quick TCP connection to a ``tcp://host:port`` scheduler, so that a closed port fails at once."""
+    import socket
+    from urllib.parse import urlsplit
+
+    if "://" not in address:
+        address = "tcp://" + address
+    parts = urlsplit(address)
+    if parts.scheme not in ("tcp", "tls"):
+        return                                          # inproc://, ucx://...: left to dask
+    try:
+        host, port = parts.hostname, parts.port
+    except ValueError:
+        host = port = None
+    if not host or not port:
+        raise common.CliError(f"--scheduler must be an address such as tcp://host:8786, got {address!r}")
+    try:
+        with socket.create_connection((host, port), timeout=common.SCHEDULER_TIMEOUT):
+            pass
+    except OSError as exc:
+        why = "timed out" if isinstance(exc, TimeoutError) else (exc.strerror or str(exc))
+        raise common.CliError(f"--scheduler {address}: no dask scheduler answers there ({why})") from None
 
 
 def display_table(df, plan):
@@ -149,10 +213,8 @@ def _text_table(table, n: int) -> str:
     return text + (f"\n... {more} more rows (write them with -o FILE)" if more > 0 else "")
 
 
-def _write_table(table, path: Path) -> None:
-    """The result table as CSV or Parquet, written atomically."""
-    from lowgmap.app.files.atomic import write_atomic
-
+def _write_table(table, path: Path, *, force: bool = False) -> None:
+    """The result table as CSV or Parquet, written atomically (an existing file only with ``force``)."""
     suffix = path.suffix.lower()
     if suffix == ".csv":
         data = table.to_csv(index=False)
@@ -161,26 +223,25 @@ def _write_table(table, path: Path) -> None:
         try:
             table.to_parquet(buf, index=False)
         except ImportError:
-            raise CliError("writing Parquet needs pyarrow (pip install pyarrow); or write .csv") from None
+            raise common.CliError("writing Parquet needs pyarrow (pip install pyarrow); or write .csv") from None
         data = buf.getvalue()
     else:
-        raise CliError(f"-o must end in .csv or .parquet, got {path.name!r}")
-    write_atomic(path, data)
+        raise common.CliError(f"-o must end in .csv or .parquet, got {path.name!r}")
+    common.write_output(path, data, force=force, option="-o")
 
 
-def _write_plot(df, plan, target: str, doc) -> None:
+def _write_plot(df, plan, target: str, doc, *, force: bool = False) -> None:
     """The margin map over the first one or two numeric variables, written atomically."""
     from lowgmap.physics.studies.design import nominal_design_value
 
-    from lowgmap.app.files.atomic import write_atomic
     from lowgmap.app.outputs.maps import margin_map_figure
 
     p = Path(target)
     if p.suffix.lower() not in (".png", ".svg", ".pdf"):
-        raise CliError(f"--plot must end in .png, .svg or .pdf, got {target!r}")
+        raise common.CliError(f"--plot must end in .png, .svg or .pdf, got {target!r}")
     num = [n for n in plan.variables if plan.kinds[n] != "name"]
     if not num:
-        raise CliError("--plot needs a numeric sweep variable")
+        raise common.CliError("--plot needs a numeric sweep variable")
     xvar = num[0]
     yvar = num[1] if len(num) > 1 else None
     col = "envelope_margin" if plan.envelope is not None else "margin"
@@ -191,4 +252,4 @@ def _write_plot(df, plan, target: str, doc) -> None:
                             title=f"{doc.case.title}", base=base if yvar else None)
     buf = io.BytesIO()
     fig.savefig(buf, format=p.suffix.lstrip(".").lower(), dpi=110)
-    write_atomic(p, buf.getvalue())
+    common.write_output(p, buf.getvalue(), force=force, option="--plot")

@@ -1,31 +1,38 @@
 """`lowgmap uncertainty`: Monte Carlo over the case's uncertainties.
 
 The probability of staying in the intended regime, the margin distribution and the sensitivities
-come from :func:`lowgmap.physics.studies.uncertainty.monte_carlo` on the chart of the case.
+come from :func:`lowgmap.physics.studies.uncertainty.monte_carlo` on the chart of the case. The
+number of samples is at most :data:`lowgmap.app.cli.common.MAX_SAMPLES` and of property/geometry draws
+at most :data:`lowgmap.app.cli.common.MAX_CHART_DRAWS`; before the run, one draw is timed and an
+estimate printed on stderr (``--quiet`` leaves it out).
 """
 from __future__ import annotations
 
 import math
 import sys
+import time
 
 from lowgmap.app import CAUTION
 from lowgmap.app.cli import operating
-from lowgmap.app.cli.common import CliError, clean, emit, load_case_file
+from lowgmap.app.cli.common import clean, emit, estimate_text, load_case_file
 from lowgmap.app.outputs.formatting import format_percent, format_point_change
+from lowgmap.app.cli import common
 
 __all__ = ["add_arguments", "run", "describe_uncertainty"]
 
 
 def add_arguments(parser) -> None:
-    parser.add_argument("--samples", type=int, default=10_000, metavar="N", help="number of samples (default 10000)")
-    parser.add_argument("--seed", type=int, default=0, metavar="S", help="random seed (default 0)")
+    parser.add_argument("--samples", type=int, default=10_000, metavar="N",
+                        help=f"number of samples, 2 to {common.MAX_SAMPLES:,} (default 10000)")
+    parser.add_argument("--seed", type=int, default=0, metavar="S", help="random seed, >= 0 (default 0)")
     parser.add_argument("--regime", metavar="NAME", help="intended regime (default: [chart] intended_regime, else the "
                                                          "regime of the operating point)")
     parser.add_argument("--chart-draws", type=int, metavar="K",
-                        help="distinct draws of the property/geometry inputs (default: samples/16); lower it for "
-                             "models that rebuild tables for every case")
+                        help=f"distinct draws of the property/geometry inputs, 1 to {common.MAX_CHART_DRAWS:,} "
+                             "(default: samples/16); lower it for models that rebuild tables for every case")
     parser.add_argument("--ql", metavar="VALUE", help="nominal liquid flow rate with units (default: the case's)")
     parser.add_argument("--qg", metavar="VALUE", help="nominal gas flow rate with units (default: the case's)")
+    parser.add_argument("--quiet", action="store_true", help="no progress and no run-time estimate on stderr")
 
 
 def describe_uncertainty(u) -> str:
@@ -43,26 +50,44 @@ def describe_uncertainty(u) -> str:
 def run(args) -> int:
     from lowgmap.physics.studies.uncertainty import monte_carlo
 
-    doc = load_case_file(args.case)
+    from lowgmap.physics.studies.uncertainty import FLOWS_PER_CHART_DRAW, POINT_TARGETS
+
     if args.samples < 2:
-        raise CliError(f"--samples must be >= 2, got {args.samples}")
+        raise common.CliError(f"--samples must be >= 2, got {args.samples}")
+    common.check_count("--samples", args.samples, 2, common.MAX_SAMPLES)
+    common.check_count("--seed", args.seed, 0, 2 ** 63 - 1)
+    if args.chart_draws is not None and args.chart_draws < 1:
+        raise common.CliError(f"--chart-draws must be >= 1, got {args.chart_draws}")
+    draws = args.chart_draws if args.chart_draws is not None else math.ceil(args.samples / FLOWS_PER_CHART_DRAW)
+    common.check_count("--chart-draws", draws, 1, common.MAX_CHART_DRAWS,
+                       hint="" if args.chart_draws is not None else
+                       f"the default is --samples / {FLOWS_PER_CHART_DRAW}: give fewer --samples or a --chart-draws")
+    doc = load_case_file(args.case)
     ql, qg = operating.operating_point(args, doc)
     chart = operating.case_chart(doc)
     if not chart.regime_names:
-        raise CliError("no boundary model on this chart defines regimes: there is no regime to stay in")
+        raise common.CliError("no boundary model on this chart defines regimes: there is no regime to stay in")
     regime = args.regime or doc.settings.intended_regime
     regime = operating.regime_name(chart, regime) if regime else None
-    show = not args.json and sys.stderr.isatty()
+    show = not args.json and not args.quiet and sys.stderr.isatty()
 
     def progress(done, total):
         if show:
             print(f"\r  {done}/{total} samples", end="", file=sys.stderr, flush=True)
 
-    if args.chart_draws is not None and args.chart_draws < 1:
-        raise CliError(f"--chart-draws must be >= 1, got {args.chart_draws}")
-    res = monte_carlo(doc.case, doc.uncertainties, n=args.samples, seed=args.seed, intended_regime=regime,
-                      progress=progress, chart=chart, point=(ql, qg), chart_draws=args.chart_draws,
-                      required_margin=doc.settings.required_margin)
+    kw = dict(seed=args.seed, intended_regime=regime, chart=chart, point=(ql, qg),
+              required_margin=doc.settings.required_margin)
+    if not args.quiet:
+        per_draw = any(u.target not in POINT_TARGETS for u in doc.uncertainties)
+        blocks = min(draws, args.samples) if per_draw else math.ceil(args.samples / 2500)
+        t0 = time.perf_counter()
+        with common.input_errors("uncertainty"):
+            monte_carlo(doc.case, doc.uncertainties, n=2, chart_draws=1, **kw)
+        print(estimate_text(args.samples, "samples" + (f" ({blocks:,} property/geometry draws)" if per_draw else ""),
+                            (time.perf_counter() - t0) * blocks), file=sys.stderr, flush=True)
+    with common.input_errors("uncertainty"):
+        res = monte_carlo(doc.case, doc.uncertainties, n=args.samples, progress=progress,
+                          chart_draws=args.chart_draws, **kw)
     if show:
         print(file=sys.stderr)
     data = res.to_dict()

@@ -3,7 +3,8 @@
 Every writer of lowgmap (case files, test-point templates, sweep tables, charts, reports) goes
 through :func:`write_atomic`: the bytes go to a temporary file in the target's folder, are flushed
 to disk (``fsync``), and the temporary file is renamed over the target with :func:`os.replace`
-(atomic on POSIX and Windows when both are on one file system). If anything fails, or the write is
+(atomic on POSIX and Windows when both are on one file system); the folder is flushed too, so the
+rename itself survives a power cut. If anything fails, or the write is
 interrupted, the temporary file is removed and the target is left as it was.
 
 Standard library only.
@@ -67,6 +68,7 @@ def write_atomic(path: str | os.PathLike, data: bytes | str, *, encoding: str = 
             os.replace(tmp, target)
         else:
             _link_new(tmp, target)
+        _sync_folder(target.parent)
     except BaseException:
         try:
             os.unlink(tmp)
@@ -74,6 +76,20 @@ def write_atomic(path: str | os.PathLike, data: bytes | str, *, encoding: str = 
             pass
         raise
     return target
+
+
+def _sync_folder(folder: Path) -> None:
+    """Flush the folder entry of the renamed file to disk (POSIX; a no-op where folders cannot be opened)."""
+    try:
+        fd = os.open(folder, os.O_RDONLY | getattr(os, "O_DIRECTORY", 0))
+    except OSError:
+        return
+    try:
+        os.fsync(fd)
+    except OSError:
+        pass
+    finally:
+        os.close(fd)
 
 
 def _open_temporary(target: Path) -> tuple[int, str]:

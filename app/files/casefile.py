@@ -6,7 +6,21 @@ units as text (``"12.7 mm"``); :mod:`lowgmap.app.files.units` converts them to S
 
 Loading collects *every* problem before failing (:class:`lowgmap.app.files.problems.ProblemCollector`):
 :class:`CaseFileError` holds a list of :class:`Problem` (key path, value, message, line number where
-known). Saving writes the document back exactly as held (comments and layout kept, via tomlkit) and
+known). The file is read as a regular file of at most 1 MB (:func:`lowgmap.app.files.reading.read_text_file`).
+
+What loads is what the computing commands can use: every value has the kind its key needs (text
+with units, a table, a list, a whole number), and every quantity lies within the physical bounds of
+:data:`BOUNDS` (lengths 1 µm to 1 km, flows 1e-15 to 1000 m^3/s, residual acceleration 0 to 100 g0,
+pressure 1 Pa to 100 MPa, ...), and within the narrower range of the physics where it has one (the
+fluid source's temperatures, contact angle [0, 180] deg, corner half-angle (0, 90) deg). Counts are
+bounded too (:data:`COUNT_LIMITS`: polygon vertices and sides, models, boundaries, files), and so are
+texts (:data:`TEXT_LIMITS`). The boundary models a file lists are looked up, their constants checked
+against their ranges and their use for the section checked, as the chart will; an uncertain input must
+be one the case has. So ``lowgmap check`` says "valid" only for a file that ``margin``, ``chart`` and
+the other commands can compute (the intended regime's name is checked against the chart by the
+commands that use it).
+
+Saving writes the document back exactly as held (comments and layout kept, via tomlkit) and
 atomically (:func:`lowgmap.app.files.atomic.write_atomic`): the text goes to a temporary file in the
 same folder, is flushed to disk, then renamed over the target.
 """
@@ -23,15 +37,17 @@ from tomlkit.exceptions import ParseError
 
 from lowgmap.physics.case import Case, FlowRange, ModelChoice, OperatingPoint
 from lowgmap.physics.studies.uncertainty import TARGETS as _UNCERTAIN_TARGETS, Uncertainty
+from lowgmap.physics.validate import InputError, InputTypeError, format_number
 
 from lowgmap.app.files.atomic import write_atomic
 from lowgmap.app.files.samples import sample_dir, sample_path
-from lowgmap.app.files.problems import CaseFileError, Problem, ProblemCollector, line_index
+from lowgmap.app.files.problems import CaseFileError, Problem, ProblemCollector, line_index, short_value
+from lowgmap.app.files.reading import MAX_CASE_BYTES, FileReadError, read_text_file
 from lowgmap.app.files.units import UnitError, check_unit, parse_flow, to_si
 
 __all__ = ["SCHEMA_VERSION", "Problem", "CaseFileError", "CaseDocument", "ChartSettings", "Uncertainty",
            "load_case", "loads_case", "build_case", "save_case", "dumps_case", "SAMPLE_DIR", "sample_case_path",
-           "AXES_KINDS"]
+           "AXES_KINDS", "BOUNDS", "check_bounds", "COUNT_LIMITS", "TEXT_LIMITS", "MAX_CASE_BYTES"]
 
 #: Version of the case-file layout written by this release.
 SCHEMA_VERSION = 1
@@ -40,6 +56,57 @@ SCHEMA_VERSION = 1
 SAMPLE_DIR = sample_dir()
 
 AXES_KINDS = ("flow", "superficial_velocity", "reynolds", "weber", "flow_ratio")
+
+_G0 = 9.80665
+#: Physical bounds of the quantities of a case file: kind -> (low, high) [SI] and the range as shown
+#: in messages. Wide enough for any conduit lowgmap's models are meant for (capillaries to long
+#: lines, microfluidic to process flows, orbit to 100 g0), narrow enough that no model overflows.
+BOUNDS: dict[str, tuple[float, float, str]] = {
+    "length": (1e-6, 1e3, "[1 µm, 1 km]"),
+    "coordinate": (-1e3, 1e3, "[-1 km, 1 km]"),
+    "flow": (1e-15, 1e3, "[1e-15, 1000] m^3/s"),
+    "acceleration": (0.0, 100 * _G0, "[0, 100 g0]"),
+    "pressure": (1.0, 1e8, "[1 Pa, 100 MPa]"),
+    "temperature": (1.0, 5000.0, "[1 K, 5000 K]"),
+    "density": (1e-6, 1e5, "[1e-06, 1e+05] kg/m^3"),
+    "viscosity": (1e-7, 1e4, "[1e-07, 1e+04] Pa*s"),
+    "surface_tension": (1e-5, 10.0, "[1e-05, 10] N/m"),
+}
+_SI_UNITS = {"length": "m", "coordinate": "m", "flow": "m^3/s", "acceleration": "m/s^2", "pressure": "Pa",
+             "temperature": "K", "density": "kg/m^3", "viscosity": "Pa*s", "surface_tension": "N/m"}
+#: Most entries of the lists of a case file.
+COUNT_LIMITS: dict[str, int] = {"section.vertices": 1000, "section.n_sides": 1000, "section.open_edges": 1000,
+                                "models": 50, "custom_boundaries": 50, "custom_boundaries.points": 1000,
+                                "test_points.files": 100}
+#: Largest exponent b of an empirical power-law boundary Q_G = a Q_L^b in magnitude (the range the physics
+#: accepts, checked here before ``a`` is converted to SI, where a larger one would overflow).
+MAX_POWER_LAW_EXPONENT = 10.0
+#: Longest texts of a case file [characters].
+TEXT_LIMITS: dict[str, int] = {"title": 200, "revision": 20, "author": 200, "description": 5000,
+                               "chart.intended_regime": 200, "name": 200}
+
+
+def check_bounds(kind: str, x: float | None, path: str) -> float | None:
+    """``x`` (SI) if within :data:`BOUNDS` of ``kind`` (any ``x`` for a kind without bounds); an
+    :class:`~lowgmap.physics.validate.InputError` naming ``path`` and the range otherwise.
+
+    >>> check_bounds("length", 0.0127, "section.diameter")
+    0.0127
+    >>> check_bounds("length", 1e297, "section.diameter")
+    Traceback (most recent call last):
+    lowgmap.physics.validate.InputError: section.diameter: must be within [1 µm, 1 km], got 1e+297 m
+    """
+    if x is None or kind not in BOUNDS:
+        return x
+    lo, hi, shown = BOUNDS[kind]
+    if not lo <= x <= hi:
+        raise InputError(f"{path}: must be within {shown}, got {format_number(x)} {_SI_UNITS[kind]}")
+    return x
+
+
+def _si(value, kind: str, path: str, *, default_unit: str | None = None, bound: str | None = None):
+    """``to_si`` of a case-file value, then checked against :data:`BOUNDS` (of ``bound``, default ``kind``)."""
+    return check_bounds(bound or kind, to_si(value, kind, path, default_unit=default_unit), path)
 
 @dataclass(frozen=True)
 class ChartSettings:
@@ -102,7 +169,7 @@ def _quantity(col: ProblemCollector, table: dict, path: str, key: str, kind: str
             col.add(full, f"missing (expected a {kind.replace('_', ' ')} with units)")
         return default
     value = table[key]
-    return col.run(full, lambda: to_si(value, kind, full), value)
+    return col.run(full, lambda: _si(value, kind, full), value)
 
 
 def _build_fluid(col: ProblemCollector, data: dict):
@@ -115,13 +182,16 @@ def _build_fluid(col: ProblemCollector, data: dict):
                                    "overrides"})
     liquid = t.get("liquid")
     if not isinstance(liquid, str) or not liquid.strip():
-        col.add("fluid.liquid", "missing or empty (a fluid name; `lowgmap fluids` lists them)", liquid)
+        col.add("fluid.liquid", "missing or empty (a fluid name as text; `lowgmap fluids` lists them)", liquid)
+        return None
+    if len(liquid) > TEXT_LIMITS["name"]:
+        col.add("fluid.liquid", f"a fluid name is at most {TEXT_LIMITS['name']} characters", liquid)
         return None
     temperature = _quantity(col, t, "fluid", "temperature", "temperature")
     pressure = _quantity(col, t, "fluid", "pressure", "pressure", required=False)
     gas = t.get("gas")
-    if gas is not None and not isinstance(gas, str):
-        col.add("fluid.gas", "must be a fluid name", gas)
+    if gas is not None and (not isinstance(gas, str) or len(gas) > TEXT_LIMITS["name"]):
+        col.add("fluid.gas", "must be a fluid name (text)", gas)
         gas = None
     overrides_raw = t.get("overrides", {}) or {}
     overrides = {}
@@ -134,7 +204,7 @@ def _build_fluid(col: ProblemCollector, data: dict):
         if key not in kinds:
             col.add(f"fluid.overrides.{key}", f"unknown property; allowed: {', '.join(kinds)}", value)
             continue
-        v = col.run(f"fluid.overrides.{key}", lambda k=key, v=value: to_si(v, kinds[k], f"fluid.overrides.{k}"),
+        v = col.run(f"fluid.overrides.{key}", lambda k=key, v=value: _si(v, kinds[k], f"fluid.overrides.{k}"),
                     value)
         if v is not None:
             overrides[key] = v
@@ -143,6 +213,9 @@ def _build_fluid(col: ProblemCollector, data: dict):
     kwargs = dict(gas=gas, overrides=overrides or None)
     for opt in ("liquid_source", "gas_model"):
         if opt in t:
+            if not isinstance(t[opt], str) or len(t[opt]) > TEXT_LIMITS["name"]:
+                col.add(f"fluid.{opt}", "must be a name (text)", t[opt])
+                return None
             kwargs[opt] = t[opt]
     return col.run("fluid", lambda: fluids.make_fluid_pair(liquid, temperature, pressure, **kwargs), t)
 
@@ -156,11 +229,20 @@ def _build_section(col: ProblemCollector, data: dict):
     if not t:
         return None
     kind = t.get("kind")
-    if kind not in sections.SECTION_KINDS:
-        col.add("section.kind", f"must be one of {', '.join(sections.SECTION_KINDS)}, got {kind!r}", kind)
+    if not isinstance(kind, str) or kind not in sections.SECTION_KINDS:
+        col.add("section.kind", f"must be one of {', '.join(sections.SECTION_KINDS)}, got {_short(kind)}", kind)
         return None
     spec = sections.section_fields(kind)
     col.unknown_keys(t, "section", {"kind", "vertices_unit", *(f.name for f in spec)})
+    vertices_unit = t.get("vertices_unit")
+    if vertices_unit is not None:
+        if not isinstance(vertices_unit, str):
+            col.add("section.vertices_unit", f"must be a length unit as text such as \"mm\", got {_short(vertices_unit)}",
+                    vertices_unit)
+            return None
+        if col.run("section.vertices_unit",
+                   lambda: check_unit(vertices_unit, "length", "section.vertices_unit"), vertices_unit) is None:
+            return None
     params: dict[str, Any] = {}
     ok = True
     for fld in spec:
@@ -172,9 +254,13 @@ def _build_section(col: ProblemCollector, data: dict):
                 ok = False
             continue
         value = t[key]
+        most = COUNT_LIMITS.get(f"section.{key}")
         if quantity == "count":
             if isinstance(value, bool) or not isinstance(value, int):
-                col.add(path, f"must be a whole number, got {value!r}", value)
+                col.add(path, f"must be a whole number, got {_short(value)}", value)
+                ok = False
+            elif most is not None and value > most:
+                col.add(path, f"must be at most {most:,}, got {value:,}", value)
                 ok = False
             else:
                 params[key] = value
@@ -183,13 +269,19 @@ def _build_section(col: ProblemCollector, data: dict):
                                                       for v in value):
                 col.add(path, "must be a list of edge numbers (0 = edge from vertex 0 to vertex 1)", value)
                 ok = False
+            elif most is not None and len(value) > most:
+                col.add(path, f"lists {len(value):,} edges; at most {most:,}", value)
+                ok = False
             else:
                 params[key] = tuple(value)
         elif quantity == "vertices":
-            unit = t.get("vertices_unit")
             pts = []
             if not isinstance(value, list):
                 col.add(path, "must be a list of [x, y] pairs", value)
+                ok = False
+                continue
+            if most is not None and len(value) > most:
+                col.add(path, f"lists {len(value):,} vertices; a polygon has at most {most:,}", value)
                 ok = False
                 continue
             for i, pair in enumerate(value):
@@ -197,21 +289,26 @@ def _build_section(col: ProblemCollector, data: dict):
                     col.add(f"{path}[{i}]", "must be an [x, y] pair", pair)
                     ok = False
                     continue
-                xy = [col.run(f"{path}[{i}]", lambda c=c: to_si(c, "length", f"{path}[{i}]",
-                                                                 default_unit=unit), c) for c in pair]
+                xy = [col.run(f"{path}[{i}]", lambda c=c: _si(c, "length", f"{path}[{i}]", default_unit=vertices_unit,
+                                                               bound="coordinate"), c) for c in pair]
                 if None in xy:
                     ok = False
                 else:
                     pts.append(tuple(xy))
             params[key] = tuple(pts)
         else:                                    # "length" or "angle": text with units
-            v = col.run(path, lambda value=value, quantity=quantity, path=path: to_si(value, quantity, path), value)
+            v = col.run(path, lambda value=value, quantity=quantity, path=path: _si(value, quantity, path), value)
             if v is None:
                 ok = False
             params[key] = v
     if not ok:
         return None
-    return col.run("section", lambda: sections.Section.from_dict({"kind": kind, **params}), t)
+    section = col.run("section", lambda: sections.Section.from_dict({"kind": kind, **params}), t)
+    if section is not None:
+        dh = col.run("section", lambda: float(section.hydraulic_diameter), t)
+        if dh is None or col.run("section", lambda: check_bounds("length", dh, "hydraulic diameter"), t) is None:
+            return None
+    return section
 
 
 def _build_wetting(col: ProblemCollector, data: dict):
@@ -232,7 +329,8 @@ def _build_wetting(col: ProblemCollector, data: dict):
 def _flow(col, value, path, fluid, gas):
     p = fluid.pressure if fluid is not None else None
     temp = fluid.temperature if fluid is not None else None
-    return col.run(path, lambda: parse_flow(value, path, pressure=p, temperature=temp, gas=gas), value)
+    return col.run(path, lambda: check_bounds("flow", parse_flow(value, path, pressure=p, temperature=temp, gas=gas), path),
+                   value)
 
 
 def _build_chart(col: ProblemCollector, data: dict, fluid):
@@ -260,8 +358,8 @@ def _build_chart(col: ProblemCollector, data: dict, fluid):
                                                         rng["gas_flow"][0], rng["gas_flow"][1]), t)
     settings_kwargs: dict[str, Any] = {}
     axes = t.get("axes", "flow")
-    if axes not in AXES_KINDS:
-        col.add("chart.axes", f"must be one of {', '.join(AXES_KINDS)}, got {axes!r}", axes)
+    if not isinstance(axes, str) or axes not in AXES_KINDS:
+        col.add("chart.axes", f"must be one of {', '.join(AXES_KINDS)}, got {_short(axes)}", axes)
     else:
         settings_kwargs["axes"] = axes
     log_axes = t.get("log_axes", True)
@@ -271,7 +369,10 @@ def _build_chart(col: ProblemCollector, data: dict, fluid):
         settings_kwargs["log_axes"] = log_axes
     for key in ("liquid_flow_unit", "gas_flow_unit"):
         if key in t:
-            u = col.run(f"chart.{key}", lambda key=key: check_unit(str(t[key]), "flow", f"chart.{key}"), t[key])
+            if not isinstance(t[key], str):
+                col.add(f"chart.{key}", f"must be a flow unit as text such as \"L/min\", got {_short(t[key])}", t[key])
+                continue
+            u = col.run(f"chart.{key}", lambda key=key: check_unit(t[key], "flow", f"chart.{key}"), t[key])
             if u is not None:
                 settings_kwargs[key] = u
     if "required_margin" in t:
@@ -283,8 +384,8 @@ def _build_chart(col: ProblemCollector, data: dict, fluid):
             else:
                 settings_kwargs["required_margin"] = m
     if "intended_regime" in t:
-        if not isinstance(t["intended_regime"], str):
-            col.add("chart.intended_regime", "must be a regime name", t["intended_regime"])
+        if not isinstance(t["intended_regime"], str) or len(t["intended_regime"]) > TEXT_LIMITS["chart.intended_regime"]:
+            col.add("chart.intended_regime", "must be a regime name (text)", t["intended_regime"])
         else:
             settings_kwargs["intended_regime"] = t["intended_regime"]
     return flow_range, ChartSettings(**settings_kwargs)
@@ -331,23 +432,30 @@ def _parse_uncertainty(key: str, spec, path: str) -> Uncertainty:
     if isinstance(spec, dict):
         unknown = set(spec) - {"size", "distribution"}
         if unknown:
-            raise ValueError(f"unknown key(s) {sorted(unknown)}; allowed: size, distribution")
+            raise InputError(f"unknown key(s) {sorted(unknown)}; allowed: size, distribution")
         distribution = spec.get("distribution", "normal")
-        if distribution not in ("normal", "uniform"):
-            raise ValueError(f"distribution must be 'normal' or 'uniform', got {distribution!r}")
+        if not isinstance(distribution, str) or distribution not in ("normal", "uniform"):
+            raise InputError(f"distribution must be 'normal' or 'uniform', got {_short(distribution)}")
         spec = spec.get("size")
         if spec is None:
-            raise ValueError("missing size (e.g. \"5 %\" or \"2 deg\")")
+            raise InputError("missing size (e.g. \"5 %\" or \"2 deg\")")
     if not isinstance(spec, str):
-        raise ValueError(f"must be text such as \"5 %\" or \"2 deg\", got {spec!r}")
+        raise InputTypeError(f"must be text such as \"5 %\" or \"2 deg\", got {_short(spec)}")
     if spec.strip().endswith("%"):
         size = to_si(spec, "dimensionless", path)
         relative = True
+        if not 0 <= size <= 1:
+            raise InputError(f"a relative size must be within [0, 100] %, got {spec!r}")
     else:
-        size = to_si(spec, _UNC_KINDS[key], path)
+        kind = _UNC_KINDS[key]
+        size = to_si(spec, kind, path)
         relative = False
-    if not size >= 0:
-        raise ValueError(f"size must be >= 0, got {spec!r}")
+        if not size >= 0:
+            raise InputError(f"size must be >= 0, got {spec!r}")
+        if kind == "angle" and size > math.pi:
+            raise InputError(f"an angle's size must be within [0, 180] deg, got {spec!r}")
+        if kind in BOUNDS and size > BOUNDS[kind][1]:
+            raise InputError(f"size must be within [0, {BOUNDS[kind][2].split(', ')[1]}, got {spec!r}")
     return Uncertainty(key, distribution, size, relative)
 
 
@@ -356,15 +464,22 @@ def _build_models(col: ProblemCollector, data: dict) -> tuple[ModelChoice, ...]:
     if not isinstance(models, list):
         col.add("models", "must be an array of tables ([[models]])", models)
         return ()
+    if len(models) > COUNT_LIMITS["models"]:
+        col.add("models", f"lists {len(models)} models; at most {COUNT_LIMITS['models']}")
+        return ()
     out = []
     for i, m in enumerate(models):
         path = f"models[{i}]"
-        if not isinstance(m, dict) or not isinstance(m.get("name"), str):
+        if not isinstance(m, dict) or not isinstance(m.get("name"), str) or len(m["name"]) > TEXT_LIMITS["name"]:
             col.add(f"{path}.name", "each [[models]] entry needs a name (a registered boundary model)", m)
             continue
         col.unknown_keys(m, path, {"name", "constants"})
+        constants = m.get("constants") or {}
+        if not isinstance(constants, dict):
+            col.add(f"{path}.constants", "must be a table of constant = value", constants)
+            continue
         consts = {}
-        for key, value in (m.get("constants") or {}).items():
+        for key, value in constants.items():
             v = col.run(f"{path}.constants.{key}",
                         lambda value=value, key=key: to_si(value, "dimensionless", f"{path}.constants.{key}"),
                         value)
@@ -386,6 +501,9 @@ def _build_custom_boundaries(col: ProblemCollector, data: dict) -> tuple:
     if not isinstance(entries, list):
         col.add("custom_boundaries", "must be an array of tables ([[custom_boundaries]])", entries)
         return ()
+    if len(entries) > COUNT_LIMITS["custom_boundaries"]:
+        col.add("custom_boundaries", f"lists {len(entries)} boundaries; at most {COUNT_LIMITS['custom_boundaries']}")
+        return ()
     out = []
     for i, e in enumerate(entries):
         path = f"custom_boundaries[{i}]"
@@ -394,6 +512,9 @@ def _build_custom_boundaries(col: ProblemCollector, data: dict) -> tuple:
             continue
         spec = {k: v for k, v in e.items() if k != "flow_unit"}
         unit = e.get("flow_unit", "m^3/s")
+        if not isinstance(unit, str):
+            col.add(f"{path}.flow_unit", f"must be a flow unit as text such as \"L/min\", got {_short(unit)}", unit)
+            continue
         try:
             c = to_si(f"1 {unit}", "flow", f"{path}.flow_unit")
         except UnitError as exc:
@@ -401,26 +522,38 @@ def _build_custom_boundaries(col: ProblemCollector, data: dict) -> tuple:
             continue
         ok = True
         if e.get("kind") == "power_law" and _is_number(e.get("a")) and _is_number(e.get("b")):
-            spec["a"] = float(e["a"]) * c ** (1.0 - float(e["b"]))
+            if abs(float(e["b"])) > MAX_POWER_LAW_EXPONENT:
+                col.add(f"{path}.b", f"must be within [-{MAX_POWER_LAW_EXPONENT:g}, {MAX_POWER_LAW_EXPONENT:g}], "
+                                     f"got {format_number(e['b'])}", e["b"])
+                continue
+            a_si = col.run(f"{path}.a", lambda e=e, c=c: _finite_product(float(e["a"]), c ** (1.0 - float(e["b"])),
+                                                                        f"{path}.a"), e["a"])
+            if a_si is None:
+                continue
+            spec["a"] = a_si
             if "ql_range" in e:
                 rng = e["ql_range"]
                 if not (isinstance(rng, list) and len(rng) == 2):
                     col.add(f"{path}.ql_range", "must be [low, high] with units", rng)
                     ok = False
                 else:
-                    vals = [col.run(f"{path}.ql_range", lambda v=v: to_si(v, "flow", f"{path}.ql_range",
-                                                                          default_unit=unit), v) for v in rng]
+                    vals = [col.run(f"{path}.ql_range", lambda v=v: _si(v, "flow", f"{path}.ql_range",
+                                                                        default_unit=unit), v) for v in rng]
                     ok = ok and None not in vals
                     spec["ql_range"] = vals
         elif e.get("kind") == "table" and isinstance(e.get("points"), list):
+            if len(e["points"]) > COUNT_LIMITS["custom_boundaries.points"]:
+                col.add(f"{path}.points", f"lists {len(e['points']):,} points; at most "
+                                          f"{COUNT_LIMITS['custom_boundaries.points']:,}")
+                continue
             pts = []
             for j, pair in enumerate(e["points"]):
                 if not (isinstance(pair, list) and len(pair) == 2):
                     col.add(f"{path}.points[{j}]", "must be a [liquid flow, gas flow] pair", pair)
                     ok = False
                     continue
-                xy = [col.run(f"{path}.points[{j}]", lambda v=v: to_si(v, "flow", f"{path}.points[{j}]",
-                                                                       default_unit=unit), v) for v in pair]
+                xy = [col.run(f"{path}.points[{j}]", lambda v=v: _si(v, "flow", f"{path}.points[{j}]",
+                                                                     default_unit=unit), v) for v in pair]
                 if None in xy:
                     ok = False
                 pts.append(xy)
@@ -448,11 +581,16 @@ def build_case(data: dict, *, text: str = "", base_dir: Path | None = None, sour
     version = plain.get("schema_version")
     if version is None:
         col.add("schema_version", f"missing (this release writes schema_version = {SCHEMA_VERSION})")
-    elif version != SCHEMA_VERSION:
-        col.add("schema_version", f"unsupported version {version!r}; this release reads {SCHEMA_VERSION}", version)
+    elif isinstance(version, bool) or version != SCHEMA_VERSION:
+        col.add("schema_version", f"unsupported version {_short(version)}; this release reads {SCHEMA_VERSION}",
+                version)
     for key in ("title", "revision", "author", "description"):
         if key in plain and not isinstance(plain[key], str):
             col.add(key, "must be text", plain[key])
+        elif key in plain and len(plain[key]) > TEXT_LIMITS[key]:
+            col.add(key, f"is {len(plain[key]):,} characters long; at most {TEXT_LIMITS[key]:,}", plain[key])
+    if "invented" in plain and not isinstance(plain["invented"], bool):
+        col.add("invented", f"must be true or false, got {_short(plain['invented'])}", plain["invented"])
     fluid = _build_fluid(col, plain)
     section = _build_section(col, plain)
     wetting = _build_wetting(col, plain)
@@ -460,8 +598,6 @@ def build_case(data: dict, *, text: str = "", base_dir: Path | None = None, sour
     col.unknown_keys(conduit, "conduit", {"length", "residual_acceleration"})
     length = _quantity(col, conduit, "conduit", "length", "length") if conduit else None
     g = _quantity(col, conduit, "conduit", "residual_acceleration", "acceleration") if conduit else None
-    if g is not None and g < 0:
-        col.add("conduit.residual_acceleration", f"must be >= 0, got {g:g} m/s^2", g)
     flow_range, settings = _build_chart(col, plain, fluid)
     if "chart" not in plain:
         pass  # already reported as a missing table
@@ -473,10 +609,13 @@ def build_case(data: dict, *, text: str = "", base_dir: Path | None = None, sour
     if tp:
         if not isinstance(tp, dict) or not isinstance(tp.get("files", []), list):
             col.add("test_points.files", "must be a list of file paths", tp)
+        elif len(tp.get("files", [])) > COUNT_LIMITS["test_points.files"]:
+            col.add("test_points.files", f"lists {len(tp['files'])} files; at most {COUNT_LIMITS['test_points.files']}")
         else:
+            col.unknown_keys(tp, "test_points", {"files"})
             for i, f in enumerate(tp.get("files", [])):
-                if not isinstance(f, str):
-                    col.add(f"test_points.files[{i}]", "must be a file path", f)
+                if not isinstance(f, str) or not f.strip() or len(f) > 4096 or "\x00" in f:
+                    col.add(f"test_points.files[{i}]", "must be a file path (text)", f)
                 else:
                     p = Path(f)
                     files.append(p if p.is_absolute() or base_dir is None else base_dir / p)
@@ -486,13 +625,53 @@ def build_case(data: dict, *, text: str = "", base_dir: Path | None = None, sour
             fluid=fluid, section=section, wetting=wetting, length=length, g=g, flow_range=flow_range,
             operating_point=op, models=models, title=plain.get("title", "untitled case"),
             revision=plain.get("revision", "A"), author=plain.get("author", ""),
-            extra=(("custom_boundaries", _freeze(list(custom))),)))
+            extra=(("custom_boundaries", _freeze(list(custom))),),
+            intended_regime=settings.intended_regime or "" if settings is not None else ""))
+    if case is not None and models:
+        _check_models(col, case, models)
+    if case is not None:
+        from lowgmap.physics.studies.uncertainty import POINT_TARGETS, nominal_value
+
+        for u in uncertainties:                        # an uncertain input the case has (e.g. a half-angle)
+            if u.target not in POINT_TARGETS:
+                col.run(f"operating_point.uncertainty.{u.target}", lambda u=u: nominal_value(case, u.target))
     if col.problems or case is None:
         if not col.problems:
             col.add("(case)", "incomplete case")
-        raise CaseFileError(col.problems, source)
+        raise CaseFileError(col.listed(), source)
     return CaseDocument(data=data, case=case, settings=settings, uncertainties=uncertainties,
                         test_point_files=tuple(files), text=text, invented=bool(plain.get("invented", False)))
+
+
+def _check_models(col: ProblemCollector, case, models) -> None:
+    """The [[models]] as the chart will use them: known names (the registry or the file's own
+    boundaries), each listed once, constants known and within their ranges, and a model that
+    applies to the section (or whose mechanism is only absent for this case, which the chart notes)."""
+    from lowgmap.physics.models.boundary import resolve_model
+
+    seen: dict[str, int] = {}
+    for i, choice in enumerate(models):
+        path = f"models[{i}]"
+        model = col.run(f"{path}.name", lambda choice=choice: resolve_model(choice.name, case), choice.name)
+        if model is None:
+            continue
+        if choice.name in seen:
+            col.add(f"{path}.name", f"model {choice.name!r} is listed twice (also models[{seen[choice.name]}])",
+                    choice.name)
+            continue
+        seen[choice.name] = i
+        col.run(f"{path}.constants", lambda model=model, choice=choice: model.resolve_constants(choice.param_dict))
+        reason = col.run(path, lambda model=model: model.applies_to(case))
+        if reason is not None:
+            inactive = getattr(model, "inactive_reason", None)
+            absent = col.run(path, lambda: inactive(case)) if callable(inactive) else None
+            if not absent:
+                col.add(f"{path}.name", f"boundary model {choice.name} does not apply to this case: {reason}",
+                        choice.name)
+
+
+def _short(value) -> str:
+    return short_value(value)
 
 
 def _freeze(obj):
@@ -505,23 +684,40 @@ def _freeze(obj):
 
 def loads_case(text: str, *, source: str = "case", base_dir: Path | None = None) -> CaseDocument:
     """Parse and validate case-file text."""
+    if not isinstance(text, str):
+        raise CaseFileError([Problem("(file)", f"the case must be text, got {type(text).__name__}")], source)
+    if len(text) > MAX_CASE_BYTES:
+        raise CaseFileError([Problem("(file)", f"the case text is {len(text):,} characters; a case file may be at "
+                                               f"most {MAX_CASE_BYTES:,} bytes")], source)
     try:
         data = tomlkit.parse(text)
     except ParseError as exc:
-        raise CaseFileError([Problem("(syntax)", f"not valid TOML: {exc}", line=getattr(exc, "line", None))],
+        raise CaseFileError([Problem("(syntax)", f"not valid TOML: {_short_text(str(exc))}",
+                                     line=getattr(exc, "line", None))], source) from None
+    except RecursionError:
+        raise CaseFileError([Problem("(syntax)", "not valid TOML here: arrays or tables nested too deeply")],
                             source) from None
-    return build_case(data, text=text, base_dir=base_dir, source=source)
+    except Exception as exc:       # the parser's own failure on text it cannot read: still the text's fault
+        raise CaseFileError([Problem("(syntax)", f"not valid TOML: {_short_text(str(exc)) or type(exc).__name__}")],
+                            source) from None
+    try:
+        return build_case(data, text=text, base_dir=base_dir, source=source)
+    except RecursionError:
+        raise CaseFileError([Problem("(file)", "values nested too deeply")], source) from None
+
+
+def _short_text(text: str, limit: int = 300) -> str:
+    text = " ".join(text.split())
+    return text if len(text) <= limit else text[:limit - 1] + "…"
 
 
 def load_case(path: str | os.PathLike) -> CaseDocument:
     """Load and validate a case file; raises :class:`CaseFileError` listing every problem."""
     p = Path(path)
     try:
-        text = p.read_text(encoding="utf-8-sig")
-    except FileNotFoundError:
-        raise CaseFileError([Problem("(file)", f"no such file: {p}")], str(p)) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise CaseFileError([Problem("(file)", f"cannot read {p}: {exc}")], str(p)) from None
+        text = read_text_file(p, what="case file", max_bytes=MAX_CASE_BYTES)
+    except FileReadError as exc:
+        raise CaseFileError([Problem("(file)", str(exc))], str(p)) from None
     doc = loads_case(text, source=str(p), base_dir=p.parent)
     doc.path = p
     return doc
@@ -541,6 +737,13 @@ def sample_case_path(name: str | None = None) -> Path:
     """Path of a bundled sample file: a case by name (default: the condensate-line tube case), or any
     sample file by its relative name (``"drop_tower_points.csv"``); see :func:`lowgmap.app.files.samples.sample_path`."""
     return sample_path(name)
+
+
+def _finite_product(a: float, b: float, path: str) -> float:
+    x = a * b
+    if not math.isfinite(x):
+        raise InputError(f"{path}: too large once converted to m^3/s units ({format_number(a)} x {format_number(b)})")
+    return x
 
 
 def _is_number(x) -> bool:

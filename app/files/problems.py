@@ -10,7 +10,10 @@ Key paths are dotted TOML paths with array indices (``section.diameter``, ``vari
 :func:`line_index` maps them to the line of the file where they are written, so a problem can name
 its line as a text editor shows it.
 
-This module imports nothing beyond the standard library (the command line loads it at start).
+:class:`CaseFileError` is an :class:`~lowgmap.physics.validate.InputError`: the command line and the
+dashboard show its problems and carry on. A value written is quoted up to :data:`MAX_VALUE_CHARS`
+characters and at most :data:`MAX_PROBLEMS` problems are listed (then a count of the rest), so a
+hostile file cannot make a message larger than the file.
 """
 from __future__ import annotations
 
@@ -18,7 +21,29 @@ import re
 from dataclasses import dataclass
 from typing import Any, Callable, Iterable, Mapping
 
-__all__ = ["Problem", "CaseFileError", "ProblemCollector", "line_index"]
+from lowgmap.physics.validate import InputError
+
+__all__ = ["Problem", "CaseFileError", "ProblemCollector", "line_index", "short_value", "MAX_PROBLEMS",
+           "MAX_VALUE_CHARS"]
+
+#: Problems listed for one file; the rest are counted in a last line.
+MAX_PROBLEMS = 100
+#: Characters of a written value quoted in a problem.
+MAX_VALUE_CHARS = 80
+_MAX_MESSAGE_CHARS = 2000
+
+
+def short_value(value: Any, limit: int = MAX_VALUE_CHARS) -> str:
+    """``repr`` of a value as a problem quotes it: at most ``limit`` characters.
+
+    >>> short_value("2 mm"), short_value("x" * 200)[-11:]
+    ("'2 mm'", '(200 chars)')
+    """
+    text = repr(value)
+    if len(text) <= limit:
+        return text
+    size = f" ({len(value)} chars)" if isinstance(value, (str, list, dict)) else ""
+    return text[:limit - 1] + "…" + size
 
 
 @dataclass(frozen=True)
@@ -47,14 +72,15 @@ class Problem:
         where = f"line {self.line}: " if self.line else ""
         written = ""
         if isinstance(self.value, str) and self.value not in self.message:
-            written = f" (written: {self.value!r})"
+            written = f" (written: {short_value(self.value)})"
         return f"{where}{self.path}: {self.message}{written}"
 
 
-class CaseFileError(ValueError):
+class CaseFileError(InputError):
     """An input file (a case file, or a sweep or goal file read against a case) has problems.
 
-    ``problems`` lists all of them (:class:`Problem`); ``source`` names the file.
+    ``problems`` lists all of them (:class:`Problem`); ``source`` names the file. An
+    :class:`~lowgmap.physics.validate.InputError` (so also a :class:`ValueError`).
     """
 
     def __init__(self, problems: list[Problem], source: str = "case"):
@@ -135,13 +161,15 @@ class ProblemCollector:
     [('conduit.length', 2), ('conduit.colour', 1)]
     """
 
-    #: Errors a check may raise that become problems (unit errors are ValueErrors).
-    CAUGHT: tuple[type[BaseException], ...] = (ValueError, TypeError)
+    #: Errors a check may raise that become problems (unit errors are ValueErrors; an overflow while a
+    #: written value is converted is that value's problem too).
+    CAUGHT: tuple[type[BaseException], ...] = (ValueError, TypeError, ArithmeticError)
 
     def __init__(self, lines: Mapping[str, int] | None = None, source: str = "case"):
         self.problems: list[Problem] = []
         self.lines = dict(lines or {})
         self.source = source
+        self.more = 0
 
     def __bool__(self) -> bool:
         return bool(self.problems)
@@ -156,11 +184,16 @@ class ProblemCollector:
         return line
 
     def add(self, path: str, message: str, value: Any = None) -> None:
-        """File a problem at ``path`` (its line looked up)."""
+        """File a problem at ``path`` (its line looked up); past :data:`MAX_PROBLEMS` only counted."""
+        if len(self.problems) >= MAX_PROBLEMS:
+            self.more += 1
+            return
+        if len(message) > _MAX_MESSAGE_CHARS:                    # a message quoting a huge value
+            message = message[:_MAX_MESSAGE_CHARS - 1] + "…"
         self.problems.append(Problem(path, message, value, self.line_of(path)))
 
     def run(self, path: str, fn: Callable[[], Any], value: Any = None):
-        """Call ``fn``; a ValueError/TypeError becomes a problem at ``path`` and None is returned.
+        """Call ``fn``; a ValueError/TypeError/ArithmeticError becomes a problem at ``path`` and None is returned.
 
         A leading ``"<path>: "`` in the message is dropped. A message that names a field of the table
         at ``path`` ("contact_angle must be ...") is filed under that key when the file has it.
@@ -191,4 +224,10 @@ class ProblemCollector:
     def raise_if_any(self) -> None:
         """Raise :class:`CaseFileError` with every problem filed, if there is one."""
         if self.problems:
-            raise CaseFileError(self.problems, self.source)
+            raise CaseFileError(self.listed(), self.source)
+
+    def listed(self) -> list[Problem]:
+        """The problems filed, and a last line counting those past :data:`MAX_PROBLEMS`."""
+        if not self.more:
+            return list(self.problems)
+        return self.problems + [Problem("(file)", f"{self.more} more problem(s) not listed; fix these first")]

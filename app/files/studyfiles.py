@@ -44,6 +44,14 @@ GOAL file::
     [[constraints]]
     quantity = "volume"                        # lowgmap.physics.studies.design.QUANTITIES or section.<field>
     max = "60 mL"                              # and/or min
+
+Limits: a file is at most 1 MB (:data:`lowgmap.app.files.reading.MAX_STUDY_BYTES`); a sweep has at most
+:data:`~lowgmap.physics.studies.design_space.MAX_VALUES` values per variable (``steps``) and
+:data:`~lowgmap.physics.studies.design_space.MAX_DESIGNS` designs (grid product or paired length), and at
+most :data:`~lowgmap.physics.studies.sweep.MAX_MC_SAMPLES` Monte Carlo samples per design; a goal's
+search settings are bounded by :class:`lowgmap.physics.studies.design.DesignGoal`. Values are checked
+against the physical bounds of case files (:data:`lowgmap.app.files.casefile.BOUNDS`). Every limit is
+checked before anything is built.
 """
 from __future__ import annotations
 
@@ -54,8 +62,9 @@ from pathlib import Path
 
 import numpy as np
 
-from lowgmap.app.files.problems import CaseFileError, Problem, ProblemCollector, line_index
-from lowgmap.app.files.units import UnitError, convert, parse_flow, to_si, ureg
+from lowgmap.app.files.problems import CaseFileError, Problem, ProblemCollector, line_index, short_value
+from lowgmap.app.files.reading import MAX_STUDY_BYTES, FileReadError, read_text_file
+from lowgmap.app.files.units import MAX_QUANTITY_CHARS, UnitError, convert, parse_flow, to_si, ureg
 
 __all__ = ["SweepPlan", "read_sweep", "loads_sweep", "read_goal", "loads_goal", "fluid_spec", "variable_kind",
            "to_display", "unit_of_text", "DEFAULT_UNITS"]
@@ -74,7 +83,12 @@ DEFAULT_UNITS = {"angle": "deg", "length": "mm", "acceleration": "m/s^2", "tempe
 _QUANTITY_KINDS = {"length": "length", "hydraulic_diameter": "length", "flow_area": "area", "volume": "volume",
                    "wetted_perimeter": "length", "half_angle": "angle", "contact_angle": "angle",
                    "residual_acceleration": "acceleration"}
-_MAX_DESIGNS = 1_000_000
+#: Bounds (lowgmap.app.files.casefile.BOUNDS) of the values of each quantity kind of a study file.
+_BOUND_OF = {"length": "length", "acceleration": "acceleration", "temperature": "temperature",
+             "pressure": "pressure", "surface_tension": "surface_tension", "density": "density",
+             "viscosity": "viscosity", "flow": "flow"}
+#: Most [[variables]] and [[constraints]] of a study file.
+_MAX_ENTRIES = 20
 
 
 def variable_kind(name: str) -> str:
@@ -92,23 +106,32 @@ def variable_kind(name: str) -> str:
 
 def _si(value, kind: str, path: str, *, fluid=None):
     """A value from a SWEEP/GOAL file in SI (names stay text)."""
+    from lowgmap.app.files.casefile import check_bounds
+
     if kind == "name":
-        if not isinstance(value, str) or not value.strip():
-            raise UnitError(f"{path}: must be a fluid name, got {value!r}")
+        if not isinstance(value, str) or not value.strip() or len(value) > 200:
+            raise UnitError(f"{path}: must be a fluid name, got {short_value(value)}")
         return value.strip()
     if kind == "volume":
         try:
-            q = ureg.Quantity(value) if isinstance(value, str) else None
-            if q is None or q.dimensionality != ureg.Quantity(1, "m^3").dimensionality:
+            if not isinstance(value, str) or len(value) > MAX_QUANTITY_CHARS:
                 raise ValueError
-            return float(q.to("m^3").magnitude)
+            q = ureg.Quantity(value)
+            if q.dimensionality != ureg.Quantity(1, "m^3").dimensionality:
+                raise ValueError
+            v = float(q.to("m^3").magnitude)
+            if not 0 <= v < float("inf"):
+                raise ValueError
+            return v
         except Exception:
-            raise UnitError(f"{path}: expected a volume such as '50 mL', got {value!r}") from None
+            raise UnitError(f"{path}: expected a volume such as '50 mL', got {short_value(value)}") from None
     if kind == "flow":
         f = fluid
-        return parse_flow(value, path, gas=True, pressure=getattr(f, "pressure", None),
-                          temperature=getattr(f, "temperature", None))
-    return to_si(value, kind, path)
+        v = parse_flow(value, path, gas=True, pressure=getattr(f, "pressure", None),
+                       temperature=getattr(f, "temperature", None))
+    else:
+        v = to_si(value, kind, path)
+    return check_bounds(_BOUND_OF.get(kind, ""), v, path)
 
 
 def unit_of_text(value, kind: str) -> str:
@@ -155,17 +178,41 @@ def _load_toml(path, what: str) -> tuple[dict, str, str]:
 
     p = Path(path)
     try:
-        text = p.read_text(encoding="utf-8-sig")
-    except FileNotFoundError:
-        raise CaseFileError([Problem("(file)", f"no such {what} file: {p}")], str(p)) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise CaseFileError([Problem("(file)", f"cannot read {p}: {exc}")], str(p)) from None
+        text = read_text_file(p, what=f"{what} file", max_bytes=MAX_STUDY_BYTES)
+    except FileReadError as exc:
+        raise CaseFileError([Problem("(file)", str(exc).replace("no such file", f"no such {what} file", 1))],
+                            str(p)) from None
     try:
         return tomllib.loads(text), str(p), text
     except tomllib.TOMLDecodeError as exc:
         m = re.search(r"at line (\d+)", str(exc))
         raise CaseFileError([Problem("(syntax)", f"not valid TOML: {exc}", line=int(m.group(1)) if m else None)],
                             str(p)) from None
+    except RecursionError:
+        raise CaseFileError([Problem("(syntax)", "not valid TOML here: arrays or tables nested too deeply")],
+                            str(p)) from None
+
+
+def _table_of(pr: ProblemCollector, data: dict, key: str, what: str) -> dict:
+    """``data[key]`` when it is a table (empty when missing); a problem and an empty table otherwise."""
+    t = data.get(key)
+    if t is None:
+        return {}
+    if not isinstance(t, dict):
+        pr.add(key, f"must be a table ([{key}]: {what}), got {short_value(t)}", t)
+        return {}
+    return t
+
+
+def _whole(pr: ProblemCollector, path: str, v, low: int, high: int):
+    """``v`` if a whole number within [low, high]; a problem and None otherwise."""
+    if isinstance(v, bool) or not isinstance(v, int):
+        pr.add(path, f"must be a whole number, got {short_value(v)}", v)
+        return None
+    if not low <= v <= high:
+        pr.add(path, f"must be within [{low:,}, {high:,}], got {v:,}", v)
+        return None
+    return v
 
 
 def _check_variable(name: str, case) -> None:
@@ -230,16 +277,20 @@ def loads_sweep(data: dict, doc, source: str = "sweep", *, text: str = "") -> Sw
 
     ``text`` (the file's text, optional) gives the problems their line numbers.
     """
-    from lowgmap.physics.studies.design_space import grid, zipped
+    from lowgmap.physics.studies.design_space import MAX_DESIGNS, MAX_VALUES, grid, zipped
+    from lowgmap.physics.studies.sweep import MAX_MC_SAMPLES
 
     pr = ProblemCollector(line_index(text) if text else {}, source=source)
+    if not isinstance(data, dict):
+        raise CaseFileError([Problem("(file)", "a sweep file must be a TOML document")], source)
     pr.unknown_keys(data, "", {"sweep", "envelope", "monte_carlo", "variables", "schema_version", "invented",
                           "description", "title"})
-    opts = data.get("sweep", {}) or {}
+    opts = _table_of(pr, data, "sweep", "combine, regime, required_margin, method, chunk_size")
     pr.unknown_keys(opts, "sweep", {"combine", "regime", "required_margin", "method", "chunk_size"})
     combine = opts.get("combine", "grid")
-    if combine not in ("grid", "paired"):
-        pr.add("sweep.combine", f"must be 'grid' or 'paired', got {combine!r}", combine)
+    if not isinstance(combine, str) or combine not in ("grid", "paired"):
+        pr.add("sweep.combine", f"must be 'grid' or 'paired', got {short_value(combine)}", combine)
+        combine = "grid"
     fluid = doc.case.fluid
     values: dict = {}
     kinds, units, spacing = {}, {}, {}
@@ -247,9 +298,12 @@ def loads_sweep(data: dict, doc, source: str = "sweep", *, text: str = "") -> Sw
     if not isinstance(variables, list) or not variables:
         pr.add("variables", "missing: at least one [[variables]] table (name and values, or from/to/steps)")
         variables = []
+    elif len(variables) > _MAX_ENTRIES:
+        pr.add("variables", f"lists {len(variables)} variables; a sweep varies at most {_MAX_ENTRIES}")
+        variables = []
     for i, v in enumerate(variables):
         path = f"variables[{i}]"
-        if not isinstance(v, dict) or not isinstance(v.get("name"), str):
+        if not isinstance(v, dict) or not isinstance(v.get("name"), str) or len(v["name"]) > 200:
             pr.add(f"{path}.name", "each [[variables]] entry needs a name", v)
             continue
         pr.unknown_keys(v, path, {"name", "values", "from", "to", "steps", "spacing", "unit"})
@@ -268,6 +322,9 @@ def loads_sweep(data: dict, doc, source: str = "sweep", *, text: str = "") -> Sw
             raw = v["values"]
             if not isinstance(raw, list) or not raw:
                 pr.add(f"{path}.values", "must be a non-empty list of values with units", raw)
+                continue
+            if len(raw) > MAX_VALUES:
+                pr.add(f"{path}.values", f"lists {len(raw):,} values; at most {MAX_VALUES:,} per variable")
                 continue
             got = [pr.run(f"{path}.values[{j}]", lambda x=x, j=j: _si(x, kind, f"{path}.values[{j}]", fluid=fluid), x)
                    for j, x in enumerate(raw)]
@@ -288,11 +345,14 @@ def loads_sweep(data: dict, doc, source: str = "sweep", *, text: str = "") -> Sw
             b = pr.run(f"{path}.to", lambda: _si(v["to"], kind, f"{path}.to", fluid=fluid), v["to"])
             n = v["steps"]
             if isinstance(n, bool) or not isinstance(n, int) or n < 1:
-                pr.add(f"{path}.steps", f"must be a whole number >= 1, got {n!r}", n)
+                pr.add(f"{path}.steps", f"must be a whole number >= 1, got {short_value(n)}", n)
+                continue
+            if n > MAX_VALUES:                         # before any value is made
+                pr.add(f"{path}.steps", f"must be at most {MAX_VALUES:,} per variable, got {n:,}", n)
                 continue
             sp = v.get("spacing", "linear")
-            if sp not in ("linear", "log"):
-                pr.add(f"{path}.spacing", f"must be 'linear' or 'log', got {sp!r}", sp)
+            if not isinstance(sp, str) or sp not in ("linear", "log"):
+                pr.add(f"{path}.spacing", f"must be 'linear' or 'log', got {short_value(sp)}", sp)
                 continue
             if a is None or b is None:
                 continue
@@ -304,6 +364,9 @@ def loads_sweep(data: dict, doc, source: str = "sweep", *, text: str = "") -> Sw
             spacing[name] = sp
             first = v["from"]
         unit = v.get("unit")
+        if unit is not None and (not isinstance(unit, str) or len(unit) > MAX_QUANTITY_CHARS):
+            pr.add(f"{path}.unit", f"must be a unit as text, got {short_value(unit)}", unit)
+            unit = None
         if unit is not None:
             ok = pr.run(f"{path}.unit", lambda: to_display(1.0, kind, unit), unit)
             if ok is None:
@@ -317,37 +380,43 @@ def loads_sweep(data: dict, doc, source: str = "sweep", *, text: str = "") -> Sw
         if required is not None and not 0 <= required < 1:
             pr.add("sweep.required_margin", f"must be within [0, 1) (e.g. \"25 %\"), got {required:g}")
     regime = opts.get("regime", doc.settings.intended_regime)
-    if regime is not None and not isinstance(regime, str):
+    if regime is not None and (not isinstance(regime, str) or len(regime) > 200):
         pr.add("sweep.regime", "must be a regime name", regime)
+        regime = None
     method = opts.get("method", "auto")
-    if method not in ("auto", "full"):
-        pr.add("sweep.method", f"must be 'auto' or 'full', got {method!r}", method)
+    if not isinstance(method, str) or method not in ("auto", "full"):
+        pr.add("sweep.method", f"must be 'auto' or 'full', got {short_value(method)}", method)
+        method = "auto"
     chunk = opts.get("chunk_size")
-    if chunk is not None and (isinstance(chunk, bool) or not isinstance(chunk, int) or chunk < 1):
-        pr.add("sweep.chunk_size", f"must be a whole number >= 1, got {chunk!r}", chunk)
+    if chunk is not None:
+        chunk = _whole(pr, "sweep.chunk_size", chunk, 1, MAX_DESIGNS)
     envelope, env_units = _read_envelope(pr, data.get("envelope"), "envelope", fluid, doc)
-    mc = data.get("monte_carlo") or {}
+    mc = _table_of(pr, data, "monte_carlo", "samples, seed")
     pr.unknown_keys(mc, "monte_carlo", {"samples", "seed"})
     samples = mc.get("samples", 0)
     if isinstance(samples, bool) or not isinstance(samples, int) or samples < 0 or samples == 1:
-        pr.add("monte_carlo.samples", f"must be 0 or a whole number >= 2, got {samples!r}", samples)
+        pr.add("monte_carlo.samples", f"must be 0 or a whole number >= 2, got {short_value(samples)}", samples)
+        samples = 0
+    elif samples > MAX_MC_SAMPLES:
+        pr.add("monte_carlo.samples", f"must be at most {MAX_MC_SAMPLES:,} per design, got {samples:,}", samples)
         samples = 0
     seed = mc.get("seed", 0)
-    if isinstance(seed, bool) or not isinstance(seed, int):
-        pr.add("monte_carlo.seed", f"must be a whole number, got {seed!r}", seed)
+    if isinstance(seed, bool) or not isinstance(seed, int) or not 0 <= seed < 2 ** 63:
+        pr.add("monte_carlo.seed", f"must be a whole number within [0, 2^63), got {short_value(seed)}", seed)
         seed = 0
     if samples and not doc.uncertainties:
         pr.add("monte_carlo.samples", "the case lists no uncertainties ([operating_point.uncertainty])")
     designs = []
     if values and not pr.problems:
-        if combine == "paired":
+        n = len(next(iter(values.values()))) if combine == "paired" else math.prod(len(x) for x in values.values())
+        if n > MAX_DESIGNS:                              # before the designs are made
+            how = "paired values" if combine == "paired" else " x ".join(f"{len(x):,}" for x in values.values())
+            pr.add("variables", f"{n:,} designs ({how}) is more than {MAX_DESIGNS:,}, the most one sweep "
+                                f"evaluates; use fewer steps or split the sweep")
+        elif combine == "paired":
             designs = pr.run("variables", lambda: zipped(values)) or []
         else:
-            n = math.prod(len(x) for x in values.values())
-            if n > _MAX_DESIGNS:
-                pr.add("variables", f"{n} designs is more than {_MAX_DESIGNS}; use fewer steps")
-            else:
-                designs = grid(values)
+            designs = pr.run("variables", lambda: grid(values)) or []
     pr.raise_if_any()
     return SweepPlan(designs, list(values), kinds, units, spacing, regime, required, envelope, env_units,
                      int(samples), int(seed), method, chunk, source)
@@ -358,7 +427,7 @@ def _read_envelope(pr: ProblemCollector, t, path: str, fluid, doc):
         return None, (doc.settings.liquid_flow_unit, doc.settings.gas_flow_unit)
     if not isinstance(t, dict):
         pr.add(path, "must be a table with liquid_flow and gas_flow ranges", t)
-        return None, ("", "")
+        return None, (doc.settings.liquid_flow_unit, doc.settings.gas_flow_unit)
     pr.unknown_keys(t, path, {"liquid_flow", "gas_flow"})
     rng, units = [], []
     for key, gas in (("liquid_flow", False), ("gas_flow", True)):
@@ -368,10 +437,8 @@ def _read_envelope(pr: ProblemCollector, t, path: str, fluid, doc):
             rng.append(None)
             units.append("")
             continue
-        lo = pr.run(f"{path}.{key}[0]", lambda: parse_flow(v[0], f"{path}.{key}[0]", gas=gas, pressure=fluid.pressure,
-                                                            temperature=fluid.temperature), v[0])
-        hi = pr.run(f"{path}.{key}[1]", lambda: parse_flow(v[1], f"{path}.{key}[1]", gas=gas, pressure=fluid.pressure,
-                                                            temperature=fluid.temperature), v[1])
+        lo = pr.run(f"{path}.{key}[0]", lambda: _envelope_flow(v[0], f"{path}.{key}[0]", gas, fluid), v[0])
+        hi = pr.run(f"{path}.{key}[1]", lambda: _envelope_flow(v[1], f"{path}.{key}[1]", gas, fluid), v[1])
         if lo is not None and hi is not None and not 0 < lo <= hi:
             pr.add(f"{path}.{key}", f"must be increasing positive flows, got {v!r}", v)
             lo = None
@@ -382,6 +449,13 @@ def _read_envelope(pr: ProblemCollector, t, path: str, fluid, doc):
         units.append(u)
     env = tuple(rng) if all(r is not None for r in rng) else None
     return env, tuple(units)
+
+
+def _envelope_flow(value, path: str, gas: bool, fluid) -> float:
+    from lowgmap.app.files.casefile import check_bounds
+
+    return check_bounds("flow", parse_flow(value, path, gas=gas, pressure=fluid.pressure,
+                                           temperature=fluid.temperature), path)
 
 
 # ----------------------------------------------------------------------------------------------- goal file
@@ -398,12 +472,17 @@ def loads_goal(data: dict, doc, source: str = "goal", *, text: str = ""):
     """
     from lowgmap.physics.studies.design import QUANTITIES, DesignConstraint, DesignGoal, DesignVariable
 
+    from lowgmap.physics.studies.design import (MAX_EVALUATIONS, MAX_FLUIDS, MAX_SCREEN, MAX_STARTS,
+                                                MAX_VARIABLES)
+
     pr = ProblemCollector(line_index(text) if text else {}, source=source)
+    if not isinstance(data, dict):
+        raise CaseFileError([Problem("(file)", "a goal file must be a TOML document")], source)
     pr.unknown_keys(data, "", {"goal", "variables", "constraints", "schema_version", "invented", "description",
                                "title"})
     g = data.get("goal")
     if not isinstance(g, dict):
-        pr.add("goal", "missing table [goal] (the envelope, regime and required margin)")
+        pr.add("goal", "missing table [goal] (the envelope, regime and required margin)", g)
         g = {}
     pr.unknown_keys(g, "goal", {"liquid_flow", "gas_flow", "regime", "required_margin", "fluids", "starts", "screen",
                            "max_evaluations", "seed", "method"})
@@ -413,23 +492,39 @@ def loads_goal(data: dict, doc, source: str = "goal", *, text: str = ""):
     if "required_margin" in g:
         required = pr.run("goal.required_margin", lambda: to_si(g["required_margin"], "dimensionless",
                                                                 "goal.required_margin"), g["required_margin"])
+        if required is not None and not 0 <= required < 1:
+            pr.add("goal.required_margin", f"must be within [0, 1) (e.g. \"25 %\"), got {required:g}")
+            required = None
     regime = g.get("regime", doc.settings.intended_regime)
-    if regime is not None and not isinstance(regime, str):
+    if regime is not None and (not isinstance(regime, str) or len(regime) > 200):
         pr.add("goal.regime", "must be a regime name", regime)
+        regime = None
     fluids = []
-    for i, f in enumerate(g.get("fluids", []) or []):
+    raw_fluids = g.get("fluids", []) or []
+    if not isinstance(raw_fluids, list):
+        pr.add("goal.fluids", "must be a list of liquid names or tables {liquid, gas, temperature, pressure}",
+               raw_fluids)
+        raw_fluids = []
+    elif len(raw_fluids) > MAX_FLUIDS:
+        pr.add("goal.fluids", f"lists {len(raw_fluids)} fluids; at most {MAX_FLUIDS}")
+        raw_fluids = []
+    for i, f in enumerate(raw_fluids):
         p = f"goal.fluids[{i}]"
         if isinstance(f, str):
-            fluids.append({"liquid": f})
+            name = pr.run(p, lambda f=f: _si(f, "name", p), f)
+            if name is not None:
+                fluids.append({"liquid": name})
         elif isinstance(f, dict):
             pr.unknown_keys(f, p, {"liquid", "gas", "temperature", "pressure"})
             opt = {}
             for k in ("liquid", "gas"):
                 if k in f:
-                    opt[k] = f[k]
+                    name = pr.run(f"{p}.{k}", lambda k=k: _si(f[k], "name", f"{p}.{k}"), f[k])
+                    if name is not None:
+                        opt[k] = name
             for k, kind in (("temperature", "temperature"), ("pressure", "pressure")):
                 if k in f:
-                    val = pr.run(f"{p}.{k}", lambda k=k, kind=kind: to_si(f[k], kind, f"{p}.{k}"), f[k])
+                    val = pr.run(f"{p}.{k}", lambda k=k, kind=kind: _si(f[k], kind, f"{p}.{k}"), f[k])
                     if val is not None:
                         opt[k] = val
             if opt:
@@ -437,24 +532,27 @@ def loads_goal(data: dict, doc, source: str = "goal", *, text: str = ""):
         else:
             pr.add(p, "must be a liquid name or a table {liquid, gas, temperature, pressure}", f)
     settings = {}
-    for key in ("starts", "screen", "max_evaluations", "seed"):
+    for key, low, high in (("starts", 1, MAX_STARTS), ("screen", 0, MAX_SCREEN),
+                           ("max_evaluations", 1, MAX_EVALUATIONS), ("seed", 0, 2 ** 63 - 1)):
         if key in g:
-            v = g[key]
-            if isinstance(v, bool) or not isinstance(v, int) or v < 0:
-                pr.add(f"goal.{key}", f"must be a whole number, got {v!r}", v)
-            else:
+            v = _whole(pr, f"goal.{key}", g[key], low, high)
+            if v is not None:
                 settings[key] = v
     method = g.get("method", "auto")
-    if method not in ("auto", "full"):
-        pr.add("goal.method", f"must be 'auto' or 'full', got {method!r}", method)
+    if not isinstance(method, str) or method not in ("auto", "full"):
+        pr.add("goal.method", f"must be 'auto' or 'full', got {short_value(method)}", method)
+        method = "auto"
     variables, units, kinds = [], {}, {}
     raw_vars = data.get("variables", [])
     if not isinstance(raw_vars, list) or not raw_vars:
         pr.add("variables", "missing: at least one [[variables]] table (name, low, high)")
         raw_vars = []
+    elif len(raw_vars) > MAX_VARIABLES:
+        pr.add("variables", f"lists {len(raw_vars)} variables; a design goal has at most {MAX_VARIABLES}")
+        raw_vars = []
     for i, v in enumerate(raw_vars):
         path = f"variables[{i}]"
-        if not isinstance(v, dict) or not isinstance(v.get("name"), str):
+        if not isinstance(v, dict) or not isinstance(v.get("name"), str) or len(v["name"]) > 200:
             pr.add(f"{path}.name", "each [[variables]] entry needs a name", v)
             continue
         pr.unknown_keys(v, path, {"name", "low", "high", "scale", "unit"})
@@ -474,15 +572,33 @@ def loads_goal(data: dict, doc, source: str = "goal", *, text: str = ""):
             if "high" in v else pr.add(f"{path}.high", "missing")
         if lo is None or hi is None:
             continue
-        dv = pr.run(path, lambda: DesignVariable(name, lo, hi, v.get("scale", "linear")), v)
+        scale = v.get("scale", "linear")
+        if not isinstance(scale, str) or scale not in ("linear", "log"):
+            pr.add(f"{path}.scale", f"must be 'linear' or 'log', got {short_value(scale)}", scale)
+            continue
+        unit = v.get("unit")
+        if unit is not None:
+            if not isinstance(unit, str) or len(unit) > MAX_QUANTITY_CHARS:
+                pr.add(f"{path}.unit", f"must be a unit as text, got {short_value(unit)}", unit)
+                continue
+            if pr.run(f"{path}.unit", lambda unit=unit: to_display(1.0, kind, unit), unit) is None:
+                continue
+        dv = pr.run(path, lambda: DesignVariable(name, lo, hi, scale), v)
         if dv is not None:
             variables.append(dv)
             kinds[name] = kind
-            units[name] = v.get("unit") or unit_of_text(v["low"], kind)
+            units[name] = unit or unit_of_text(v["low"], kind)
     constraints = []
-    for i, c in enumerate(data.get("constraints", []) or []):
+    raw_constraints = data.get("constraints", []) or []
+    if not isinstance(raw_constraints, list):
+        pr.add("constraints", "must be an array of tables ([[constraints]])", raw_constraints)
+        raw_constraints = []
+    elif len(raw_constraints) > _MAX_ENTRIES:
+        pr.add("constraints", f"lists {len(raw_constraints)} constraints; at most {_MAX_ENTRIES}")
+        raw_constraints = []
+    for i, c in enumerate(raw_constraints):
         path = f"constraints[{i}]"
-        if not isinstance(c, dict) or not isinstance(c.get("quantity"), str):
+        if not isinstance(c, dict) or not isinstance(c.get("quantity"), str) or len(c["quantity"]) > 200:
             pr.add(f"{path}.quantity", "each [[constraints]] entry needs a quantity", c)
             continue
         pr.unknown_keys(c, path, {"quantity", "max", "min"})

@@ -26,8 +26,10 @@ from functools import lru_cache
 
 import pint
 
+from lowgmap.physics.validate import InputError
+
 __all__ = [
-    "UnitError", "ureg", "to_si", "parse_flow", "standard_to_actual_flow", "format_quantity",
+    "UnitError", "MAX_QUANTITY_CHARS", "ureg", "to_si", "parse_flow", "standard_to_actual_flow", "format_quantity",
     "STANDARD_TEMPERATURE", "STANDARD_PRESSURE", "KINDS", "STANDARD_FLOW_UNITS",
 ]
 
@@ -45,8 +47,15 @@ STANDARD_FLOW_UNITS = {
 }
 
 
-class UnitError(ValueError):
-    """A quantity could not be read or has the wrong dimension. The message names the field."""
+class UnitError(InputError):
+    """A quantity could not be read or has the wrong dimension. The message names the field.
+
+    An :class:`~lowgmap.physics.validate.InputError` (so also a :class:`ValueError`).
+    """
+
+
+#: Longest text read as a quantity ("12.7 mm"); a longer text is refused before it is parsed.
+MAX_QUANTITY_CHARS = 200
 
 
 ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
@@ -71,7 +80,7 @@ KINDS: dict[str, tuple[str, str, str]] = {
     "dimensionless": ("", "", "0.45"),
 }
 
-_NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+_NUMBER = re.compile(r"([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*)", re.DOTALL)
 
 
 @lru_cache(maxsize=512)
@@ -80,7 +89,11 @@ def _unit(text: str):
 
 
 def _split(text: str, field: str) -> tuple[float, str]:
-    m = _NUMBER.match(text)
+    text = text.strip()
+    if len(text) > MAX_QUANTITY_CHARS:
+        raise UnitError(f"{field}: a number with a unit is at most {MAX_QUANTITY_CHARS} characters, got "
+                        f"{len(text)} ({text[:20]!r}...)")
+    m = _NUMBER.fullmatch(text)
     if not m:
         raise UnitError(f"{field}: cannot read {text!r} as a number with a unit (e.g. '2 mm')")
     return float(m.group(1)), m.group(2)

@@ -13,6 +13,7 @@ Used by the sweep engine (:mod:`lowgmap.physics.studies.sweep`), the inverse des
 from __future__ import annotations
 
 import itertools
+import math
 import threading
 from collections import OrderedDict
 from dataclasses import fields, replace
@@ -78,24 +79,24 @@ def grid(variables: Mapping[str, Sequence]) -> list[dict]:
     {'length': 0.2, 'contact_angle': 0.5}
     """
     names = list(variables)
+    counts = [_count(n, variables[n]) for n in names]         # checked before anything is built
+    if math.prod(counts) > MAX_DESIGNS:
+        shown = " x ".join(f"{k:,}" for k in counts)
+        raise InputError(f"a grid of {shown} values has more than {MAX_DESIGNS:,} designs (the most one sweep "
+                         f"evaluates); use fewer values or split the sweep")
     values = [list(variables[n]) for n in names]
     for n, v in zip(names, values):
         if not v:
             raise ValueError(f"sweep variable {n} has no values")
-        _check_count(n, len(v))
-    total = 1
-    for n, v in zip(names, values):
-        total *= len(v)
-        if total > MAX_DESIGNS:                           # checked before anything is built
-            counts = " x ".join(f"{len(x):,}" for x in values)
-            raise InputError(f"a grid of {counts} values has more than {MAX_DESIGNS:,} designs (the most one "
-                             f"sweep evaluates); use fewer values or split the sweep")
     return [dict(zip(names, combo)) for combo in itertools.product(*values)]
 
 
-def _check_count(name: str, n: int) -> None:
-    if n > MAX_VALUES:
-        raise InputError(f"sweep variable {name} has {n:,} values; at most {MAX_VALUES:,}")
+def _count(name: str, values, most: int = MAX_VALUES) -> int:
+    """Number of values of a variable (a sequence is not copied to count it), at most ``most``."""
+    n = len(values) if hasattr(values, "__len__") else len(list(values))
+    if n > most:
+        raise InputError(f"sweep variable {name} has {n:,} values; at most {most:,}")
+    return n
 
 
 def zipped(variables: Mapping[str, Sequence]) -> list[dict]:
@@ -108,13 +109,9 @@ def zipped(variables: Mapping[str, Sequence]) -> list[dict]:
     [{'length': 0.1, 'size': 0.01}, {'length': 0.2, 'size': 0.02}]
     """
     names = list(variables)
-    lengths = {n: len(list(variables[n])) for n in names}
+    lengths = {n: _count(n, variables[n], MAX_DESIGNS) for n in names}     # before anything is built
     if len(set(lengths.values())) > 1:
         raise ValueError(f"paired sweep variables must have the same number of values, got {lengths}")
-    for n, k in lengths.items():
-        if k > MAX_DESIGNS:
-            raise InputError(f"paired sweep variable {n} has {k:,} values: more than {MAX_DESIGNS:,} designs (the "
-                             f"most one sweep evaluates)")
     return [dict(zip(names, combo)) for combo in zip(*(list(variables[n]) for n in names))]
 
 
