@@ -70,9 +70,9 @@ def test_sample_drop_tower_points_read_cleanly():
     dt05 = tps.points.set_index("test_id").loc["DT-05"]
     assert math.isnan(dt05["g_m_s2"]) and math.isnan(dt05["duration_s"])
     full = with_platform_conditions(tps).set_index("test_id")
-    # 24 m drop tower: 2.2 s, upper end 1e-3 g (PHYSICS-REFERENCES section 5, from memory)
+    # short drop tower: 2.0 s (short end of 2-2.5 s), upper end 1e-3 g (typical figures, from memory)
     assert full.loc["DT-05", "g_used_m_s2"] == pytest.approx(1e-3 * G0)
-    assert full.loc["DT-05", "duration_used_s"] == 2.2
+    assert full.loc["DT-05", "duration_used_s"] == 2.0
     assert full.loc["DT-03", "g_used_m_s2"] == pytest.approx(5e-4 * G0)  # the point's own value wins
 
 
@@ -250,8 +250,8 @@ def test_missing_ids_are_generated_from_row_numbers():
 
 
 def test_unknown_platform_is_a_warning_and_aliases_are_normalised():
-    tps = read(f"{HEAD},platform\n1,2,Parabolic\n1,2,24M drop-tower\n1,2,balloon\n1,2,\n")
-    assert tps.points["platform"].tolist() == ["parabolic flight", "24 m drop tower", "balloon", ""]
+    tps = read(f"{HEAD},platform\n1,2,Parabolic\n1,2,Short Drop-Tower\n1,2,balloon\n1,2,\n")
+    assert tps.points["platform"].tolist() == ["parabolic flight", "short drop tower", "balloon", ""]
     assert [(p.row, p.severity) for p in tps.problems] == [(4, "warning")]
     assert tps.errors == [] and len(tps.warnings) == 1
 
@@ -416,13 +416,13 @@ def test_standard_gas_units_need_and_use_pressure_and_temperature():
 
 
 def test_mapping_of_non_standard_headers():
-    text = "Run,Qliq (ml/min),Qgas,Seen in video,Rig\nR1,1,2,bubbly,24 m drop tower\n"
+    text = "Run,Qliq (ml/min),Qgas,Seen in video,Rig\nR1,1,2,bubbly,short drop tower\n"
     tps = read(text, mapping={"Qliq": "liquid_flow", "Qgas": "gas_flow [L/min]", "Seen in video": "observed_regime",
                               "rig": "platform"})
     p = tps.points.iloc[0]
     assert p["ql_m3_s"] == pytest.approx(ML_MIN, rel=1e-12)       # unit from the header
     assert p["qg_m3_s"] == pytest.approx(2e-3 / 60, rel=1e-12)     # unit from the mapping
-    assert p["observed_regime"] == "bubbly" and p["platform"] == "24 m drop tower" and p["test_id"] == "R1"
+    assert p["observed_regime"] == "bubbly" and p["platform"] == "short drop tower" and p["test_id"] == "R1"
     assert tps.columns == {"Run": "test_id", "Qliq (ml/min)": "liquid_flow", "Qgas": "gas_flow",
                            "Seen in video": "observed_regime", "Rig": "platform"}
     assert tps.units == {"liquid_flow": "ml/min", "gas_flow": "L/min"}

@@ -6,8 +6,8 @@ are written in the column header, e.g. ``liquid_flow [mL/min]`` or ``gas_flow (s
 :func:`read_test_points` reads such a file, checks every row, converts the numbers to SI and returns a
 :class:`TestPointSet`: the good rows as a pandas DataFrame plus a list of :class:`RowProblem` (row number,
 column, value, reason) for the rows set aside or worth a look. Problems that concern the whole file
-(empty, no header, a required column missing, an unknown unit in a header, too large) raise
-:class:`TestPointError` listing all of them.
+(empty, no header, a required column missing, an unknown unit in a header, too large, not a regular
+file) raise :class:`TestPointError` (an :class:`lowgmap.physics.validate.InputError`) listing all of them.
 
 Row numbers
 -----------
@@ -25,6 +25,9 @@ Validation of a data row
 - residual acceleration or low-g duration present but not a number, not finite, or negative
   (duration: <= 0);
 - more values than the header has columns (often a decimal comma in a comma-separated file);
+- a quote that is not closed: a quoted field may span lines, but when the lines it would take in look
+  like rows of their own (as many delimiters as the header) or the file ends inside it, the row where it
+  opens is set aside and the next line is read as a row;
 - a test id used on more than one row: every row carrying it is set aside, and each problem names the
   other rows, since lowgmap cannot tell which one is right.
 
@@ -32,20 +35,41 @@ Validation of a data row
 
 - a platform name that is not in the built-in table (:mod:`lowgmap.physics.studies.platforms`); the point keeps the
   name as written and needs its own residual acceleration and duration for Bond numbers and times;
-- an empty observed regime in a file that has a regime column.
+- an empty observed regime in a file that has a regime column;
+- fewer values than the header has columns (CSV), when the missing ones are optional: they are read as
+  empty. When a required value is missing the row is an error and the message says how many values it has.
 
 Empty cells and the markers ``-``, ``n/a``, ``na``, ``none`` mean "no value". ``nan`` and ``inf``
 are read as numbers and rejected as not finite.
+
+Limits
+------
+A file is read only when it is a regular file (never a directory, named pipe or device) of at most
+``max_bytes`` (:data:`MAX_BYTES`, 20 MB) with at most ``max_rows`` data rows (:data:`MAX_ROWS`, one
+million) and :data:`MAX_COLUMNS` columns; both limits are checked before the rows are split into fields,
+and an uploaded file (bytes) is held to the same limits. A message quotes at most :data:`QUOTE_CHARS`
+characters of a cell or line (longer text is cut with "…"), and the text of a :class:`TestPointError`
+lists at most :data:`MAX_PROBLEMS_SHOWN` problems (all of them stay in its ``problems``).
+
+Clean CSV lines are split by pandas' C parser in one pass; the checks run on whole columns (numpy and
+pandas), once per distinct value where a column repeats values, so a million rows read in seconds.
+Lines with a quoted field left open (an unclosed quote, a field spanning lines) are split one by one
+with the standard library's :mod:`csv` rules. Row problems are kept column by column
+(:class:`RowProblems`) and made into :class:`RowProblem` objects only when looked at, so a file of a
+million bad rows stays within memory (``tests/perf/bench_testpoints.py`` measures speed and memory).
 """
 from __future__ import annotations
 
+import codecs
 import csv
 import io
-import itertools
 import math
+import operator
 import os
 import re
+import stat
 import zipfile
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -53,16 +77,27 @@ import numpy as np
 import pandas as pd
 
 from lowgmap.physics.studies.platforms import find_platform, points_conditions
-from lowgmap.physics.validate import positive
+from lowgmap.physics.validate import InputError, InputTypeError, positive
 
 from lowgmap.app.files.atomic import write_atomic
 from lowgmap.app.files.units import STANDARD_FLOW_UNITS, UnitError, check_unit, parse_flow, to_si, ureg
 
 __all__ = [
-    "FIELDS", "REQUIRED_FIELDS", "POINT_COLUMNS", "TEMPLATE_HEADER", "RowProblem", "TestPointError",
+    "FIELDS", "REQUIRED_FIELDS", "POINT_COLUMNS", "TEMPLATE_HEADER", "RowProblem", "RowProblems", "TestPointError",
     "TestPointSet", "read_test_points", "unknown_regimes", "with_platform_conditions", "write_template",
-    "template_text", "field_aliases",
+    "template_text", "field_aliases", "MAX_BYTES", "MAX_ROWS", "MAX_COLUMNS", "QUOTE_CHARS", "MAX_PROBLEMS_SHOWN",
 ]
+
+#: Largest file read, in bytes (default of ``max_bytes``); an .xlsx may unpack to 10 times this.
+MAX_BYTES = 20_000_000
+#: Most data rows read from one file (default of ``max_rows``).
+MAX_ROWS = 1_000_000
+#: Most columns a header may have.
+MAX_COLUMNS = 1_000
+#: Most characters of a cell or line quoted in a message; longer text is cut with "…".
+QUOTE_CHARS = 200
+#: Most problems written out in the text of a :class:`TestPointError` (``problems`` keeps all).
+MAX_PROBLEMS_SHOWN = 20
 
 
 @dataclass(frozen=True)
@@ -112,8 +147,8 @@ _KIND_WORDS = {"flow": "volumetric flow", "acceleration": "acceleration", "time"
 _ENDS = {"liquid_flow": ("> 0", lambda x: x > 0), "gas_flow": ("> 0", lambda x: x > 0),
          "residual_acceleration": (">= 0", lambda x: x >= 0), "low_g_duration": ("> 0", lambda x: x > 0)}
 _HEADER_UNIT = re.compile(r"^(?P<name>.*?)\s*(?:\[(?P<u1>[^\[\]]*)\]|\((?P<u2>[^()]*)\))\s*$", re.S)
-_COMMENT_LINE = re.compile(r"(?m)^[ \t]*#[^\n]*")
 _COMMA_DECIMAL = r"[-+]?\d*,\d+(?:[eE][-+]?\d+)?"
+_COMMA_DECIMAL_RE = re.compile(_COMMA_DECIMAL)
 _NUM_WITH_TEXT = re.compile(r"^[-+]?(?:\d+[.,]?\d*|[.,]\d+)(?:[eE][-+]?\d+)?\s*\S")
 _PATH_SUFFIXES = {".csv", ".tsv", ".txt", ".dat", ".xlsx", ".xlsm", ".xls"}
 _EXCEL_SUFFIXES = {".xlsx", ".xlsm"}
@@ -121,7 +156,10 @@ _MAX_LISTED = 5
 
 
 def _norm(name: str) -> str:
-    return re.sub(r"[^a-z0-9]", "", str(name).lower())
+    name = str(name)
+    if len(name) > 1000:  # no field name is that long ("#" never appears in a normalised name)
+        return "#long"
+    return re.sub(r"[^a-z0-9]", "", name.lower())
 
 
 _ALIASES: dict[str, str] = {}
@@ -137,12 +175,35 @@ def field_aliases() -> dict[str, list[str]]:
 
 # --------------------------------------------------------------------------------------------- results
 
-@dataclass(frozen=True)
+def _clip(text, limit: int = QUOTE_CHARS) -> str:
+    """``text`` cut to ``limit`` characters with "…" and its full length, for quoting in a message.
+
+    >>> _clip("x" * 500, 10)
+    'xxxxxxxxxx… (500 characters)'
+    """
+    if type(text) is not str:
+        text = str(text)
+    if len(text) <= limit:
+        return text
+    return f"{text[:limit]}… ({len(text):,} characters)"
+
+
+def _listing(names, limit: int = 12, width: int = 60) -> str:
+    """Some names quoted and comma-separated: at most ``limit`` of them, each cut to ``width`` characters."""
+    names = [n for n in names if n]
+    shown = ", ".join(repr(_clip(n, width)) for n in names[:limit]) or "(none)"
+    if len(names) > limit:
+        shown += f" and {len(names) - limit:,} more"
+    return shown
+
+
+@dataclass(frozen=True, slots=True)
 class RowProblem:
     """Something wrong (``severity="error"``: row set aside) or doubtful (``"warning"``: row kept) in one row.
 
     ``row`` is the file line number (see the module notes), ``column`` the column header as written in the
-    file, ``value`` the cell text.
+    file (``"(row)"`` for the row as a whole), ``value`` the cell text (cut to about :data:`QUOTE_CHARS`
+    characters, as the message).
     """
 
     row: int
@@ -156,16 +217,138 @@ class RowProblem:
         return f"row {self.row}, {self.column}: {self.message}{tag}"
 
 
-class TestPointError(ValueError):
-    """The file cannot be read as test points; ``problems`` lists every reason."""
+class RowProblems(Sequence):
+    """The row problems of a file: a read-only sequence of :class:`RowProblem`, stored column by column.
+
+    A file of a million bad rows has millions of problems; they are kept as arrays (row, column, value,
+    kind of message, severity) and each :class:`RowProblem`, with its message, is made when it is looked
+    at. The sequence compares equal to a list of the same problems.
+
+    >>> p = RowProblem(3, "gas_flow [mL/min]", "-1", "gas_flow must be > 0, got -1")
+    >>> probs = RowProblems.from_list([p])
+    >>> len(probs), probs[0].row, probs == [p]
+    (1, 3, True)
+    """
+
+    __slots__ = ("_rows", "_cols", "_values", "_kinds", "_texts", "_errors", "_names", "_specs")
+
+    def __init__(self, rows, cols, values, kinds, texts, errors, names, specs):
+        self._rows = np.asarray(rows, dtype=np.int64)
+        self._cols = np.asarray(cols, dtype=np.int32)
+        self._values = values                                # object array: the value shown
+        self._kinds = np.asarray(kinds, dtype=np.int32)      # index into specs: how the message is made
+        self._texts = texts                                  # object array: the message where it is given
+        self._errors = np.asarray(errors, dtype=bool)
+        self._names = list(names)
+        self._specs = list(specs)
+
+    @classmethod
+    def from_list(cls, problems) -> RowProblems:
+        """The sequence holding ``problems`` (RowProblem objects), in their order."""
+        problems = list(problems)
+        names: dict[str, int] = {}
+        cols = [names.setdefault(p.column, len(names)) for p in problems]
+        return cls([p.row for p in problems], cols, _objects([p.value for p in problems]), [0] * len(problems),
+                   _objects([p.message for p in problems]), [p.severity == "error" for p in problems], names,
+                   [("given",)])
+
+    def __len__(self) -> int:
+        return int(self._rows.size)
+
+    def _make(self, r, c, v, kind, text, e) -> RowProblem:
+        return RowProblem(r, self._names[c], v, _render(self._specs[kind], v, text), "error" if e else "warning")
+
+    def __getitem__(self, k):
+        if isinstance(k, slice):
+            return self._take(np.arange(len(self))[k])
+        n = len(self)
+        k = operator.index(k)
+        if not -n <= k < n:
+            raise IndexError("row problem index out of range")
+        return self._make(int(self._rows[k]), int(self._cols[k]), self._values[k], int(self._kinds[k]),
+                          self._texts[k], bool(self._errors[k]))
+
+    def __iter__(self):
+        for item in zip(self._rows.tolist(), self._cols.tolist(), self._values, self._kinds.tolist(), self._texts,
+                        self._errors.tolist()):
+            yield self._make(*item)
+
+    def __eq__(self, other):
+        if isinstance(other, (list, tuple, RowProblems)):
+            return len(self) == len(other) and all(a == b for a, b in zip(self, other))
+        return NotImplemented
+
+    __hash__ = None  # type: ignore[assignment]
+
+    def __repr__(self) -> str:
+        if len(self) <= 20:
+            return repr(list(self))
+        return f"<{len(self):,} row problems, from row {self._rows.min()} to row {self._rows.max()}>"
+
+    def __reduce__(self):
+        return type(self), (self._rows, self._cols, self._values, self._kinds, self._texts, self._errors,
+                            self._names, self._specs)
+
+    def _take(self, idx) -> RowProblems:
+        return RowProblems(self._rows[idx], self._cols[idx], self._values[idx], self._kinds[idx], self._texts[idx],
+                           self._errors[idx], self._names, self._specs)
+
+    def where(self, severity: str) -> RowProblems:
+        """The problems of one severity ("error" or "warning"), in order."""
+        return self._take(np.flatnonzero(self._errors == (severity == "error")))
+
+    def rows(self, severity: str | None = None) -> np.ndarray:
+        """Row numbers of the problems (of one severity when given), in order."""
+        if severity is None:
+            return self._rows.copy()
+        return self._rows[self._errors == (severity == "error")]
+
+    def table(self) -> pd.DataFrame:
+        """The problems as a table: row, column, value, message, severity."""
+        messages = [_render(self._specs[k], v, t) for k, v, t in zip(self._kinds.tolist(), self._values, self._texts)]
+        return pd.DataFrame({"row": self._rows, "column": _objects(self._names)[self._cols] if len(self) else [],
+                             "value": self._values, "message": _objects(messages),
+                             "severity": np.where(self._errors, "error", "warning").astype(object)},
+                            columns=["row", "column", "value", "message", "severity"])
+
+
+def _render(spec: tuple, value: str, text) -> str:
+    """The message of one problem from its kind: ("given",) the text stored with it; ("same", message);
+    ("format", template with {v} for the value); ("not_number", field, decimal mark)."""
+    tag = spec[0]
+    if tag == "given":
+        return text
+    if tag == "same":
+        return spec[1]
+    if tag == "format":
+        return spec[1].format(v=value)
+    return _not_number_message(spec[1], value, spec[2])
+
+
+class TestPointError(InputError):
+    """The file cannot be read as test points; ``problems`` lists every reason.
+
+    An :class:`lowgmap.physics.validate.InputError` (so a :class:`ValueError`): the user's file is wrong. The
+    message lists at most :data:`MAX_PROBLEMS_SHOWN` problems, then how many more there are.
+
+    >>> err = TestPointError([f"problem {i}" for i in range(25)], "big.csv")
+    >>> len(err.problems), str(err).splitlines()[-1]
+    (25, '  (and 5 more)')
+    """
 
     __test__ = False  # not a pytest test class
 
     def __init__(self, problems: list[str] | str, source: str = "test points"):
         self.problems = [problems] if isinstance(problems, str) else list(problems)
         self.source = source
-        lines = "\n".join(f"  - {p}" for p in self.problems)
-        super().__init__(f"{source}: cannot read test points:\n{lines}")
+        shown = self.problems[:MAX_PROBLEMS_SHOWN]
+        lines = "\n".join(f"  - {_clip(p, 1000)}" for p in shown)
+        if len(self.problems) > len(shown):
+            lines += f"\n  (and {len(self.problems) - len(shown):,} more)"
+        super().__init__(f"{_clip(source)}: cannot read test points:\n{lines}")
+
+    def __reduce__(self):  # keep problems and source through pickling (worker processes)
+        return type(self), (self.problems, self.source)
 
 
 @dataclass
@@ -179,7 +362,8 @@ class TestPointSet:
                               ``ql_m3_s``, ``qg_m3_s`` actual volumetric flows [m^3/s]; ``observed_regime``
                               (after ``regime_map``); ``platform`` (built-in name when recognised, else as
                               written); ``g_m_s2`` [m/s^2] and ``duration_s`` [s] (NaN when absent); ``notes``
-    problems : list of RowProblem   errors (rows set aside) and warnings (rows kept), sorted by row
+    problems : RowProblems    errors (rows set aside) and warnings (rows kept), sorted by row: a read-only
+                              sequence of :class:`RowProblem` (equal to a list of the same problems)
     columns : dict            file column header -> canonical field it was read as
     source_name : str         file name, or "text" / "uploaded file"
     units : dict              canonical field -> unit it was read in
@@ -191,7 +375,7 @@ class TestPointSet:
     __test__ = False  # not a pytest test class
 
     points: pd.DataFrame
-    problems: list[RowProblem]
+    problems: Sequence[RowProblem]
     columns: dict[str, str]
     source_name: str
     units: dict[str, str] = field(default_factory=dict)
@@ -199,41 +383,49 @@ class TestPointSet:
     delimiter: str | None = None
     decimal: str = "."
 
-    @property
-    def errors(self) -> list[RowProblem]:
-        return [p for p in self.problems if p.severity == "error"]
+    def _problems(self) -> RowProblems:
+        if not isinstance(self.problems, RowProblems):
+            self.problems = RowProblems.from_list(self.problems)
+        return self.problems
 
     @property
-    def warnings(self) -> list[RowProblem]:
-        return [p for p in self.problems if p.severity != "error"]
+    def errors(self) -> RowProblems:
+        """The problems that set a row aside."""
+        return self._problems().where("error")
+
+    @property
+    def warnings(self) -> RowProblems:
+        """The problems of rows that are kept."""
+        return self._problems().where("warning")
 
     @property
     def rejected_rows(self) -> list[int]:
         """File line numbers of the rows set aside."""
-        return sorted({p.row for p in self.problems if p.severity == "error"})
+        return np.unique(self._problems().rows("error")).tolist()
 
     def problems_table(self) -> pd.DataFrame:
         """The problems as a table (row, column, value, message, severity), for display."""
-        return pd.DataFrame([p.__dict__ for p in self.problems],
-                            columns=["row", "column", "value", "message", "severity"])
+        return self._problems().table()
 
     def summary(self) -> str:
         """One line: points read, rows set aside, warnings."""
-        rej = self.rejected_rows
-        text = f"{len(self.points)} test point(s) read from {self.source_name}"
-        if rej:
-            shown = ", ".join(map(str, rej[:10])) + (", ..." if len(rej) > 10 else "")
-            text += f"; {len(rej)} row(s) set aside (rows {shown})"
-        if self.warnings:
-            text += f"; {len(self.warnings)} warning(s)"
+        rej = np.unique(self._problems().rows("error"))
+        text = f"{len(self.points)} test point(s) read from {_clip(self.source_name)}"
+        if rej.size:
+            shown = ", ".join(map(str, rej[:10].tolist())) + (", ..." if rej.size > 10 else "")
+            text += f"; {rej.size} row(s) set aside (rows {shown})"
+        n_warn = int(self._problems().rows("warning").size)
+        if n_warn:
+            text += f"; {n_warn} warning(s)"
         return text
 
 
 # --------------------------------------------------------------------------------------------- reading
 
 def read_test_points(source, *, mapping: dict | None = None, regime_map: dict | None = None,
-                     pressure=None, temperature=None, max_bytes: int = 20_000_000, name: str | None = None,
-                     delimiter: str | None = None, decimal: str | None = None, sheet=0) -> TestPointSet:
+                     pressure=None, temperature=None, max_bytes: int = MAX_BYTES, max_rows: int = MAX_ROWS,
+                     name: str | None = None, delimiter: str | None = None, decimal: str | None = None,
+                     sheet=0) -> TestPointSet:
     """Read test points from a CSV or Excel (.xlsx) file, text or uploaded bytes.
 
     Parameters
@@ -242,6 +434,7 @@ def read_test_points(source, *, mapping: dict | None = None, regime_map: dict | 
         A path (``Path``, or a one-line ``str`` naming an existing file or ending in .csv/.tsv/.txt/.dat/
         .xlsx/.xlsm), the file's text (``str``; anything with a line break is text), or its bytes (e.g. a
         browser upload). Excel is recognised by the .xlsx/.xlsm suffix or by the zip signature of the bytes.
+        A path must name a regular file (not a directory, named pipe or device).
     mapping : dict, optional
         ``{"file column": "canonical field"}`` for headers lowgmap does not recognise; the value may carry
         a unit that overrides the header's, e.g. ``{"Qliq": "liquid_flow [mL/min]"}``; ``None`` (or
@@ -252,7 +445,11 @@ def read_test_points(source, *, mapping: dict | None = None, regime_map: dict | 
         Local gas conditions; needed only when a gas flow column is in standard units (sccm, slpm, slm,
         sccs), which are converted to actual flow with :func:`lowgmap.app.files.units.parse_flow`.
     max_bytes : int
-        Larger sources raise :class:`TestPointError` (for .xlsx, the unpacked size may be 10 times this).
+        Larger sources raise :class:`TestPointError` before they are read (for .xlsx, the unpacked size may
+        be 10 times this). Default :data:`MAX_BYTES` (20 MB).
+    max_rows : int
+        Files with more data rows raise :class:`TestPointError`, found by counting the non-blank lines
+        before any row is split into fields. Default :data:`MAX_ROWS` (one million).
     name : str, optional
         Name shown in messages (and, for bytes, a file name whose suffix tells the format).
     delimiter : str, optional
@@ -270,9 +467,13 @@ def read_test_points(source, *, mapping: dict | None = None, regime_map: dict | 
     Raises
     ------
     TestPointError
-        File-level problems, all listed: too large, empty, no header, no data rows, required column
-        missing, a column named twice, a unit unknown or of the wrong kind, a standard gas unit without
-        pressure and temperature, a mapping naming an absent column or an unknown field.
+        File-level problems, all listed: not a regular file, too large, too many rows or columns, empty, no
+        header, no data rows, required column missing, a column named twice, a unit unknown or of the wrong
+        kind, a standard gas unit without pressure and temperature, a mapping naming an absent column or an
+        unknown field.
+    lowgmap.physics.validate.InputError
+        A keyword argument out of range (``max_bytes``, ``max_rows``, ``decimal``, ``delimiter``, ``pressure``,
+        ``temperature``); :class:`lowgmap.physics.validate.InputTypeError` for one of the wrong type.
 
     Examples
     --------
@@ -285,27 +486,34 @@ def read_test_points(source, *, mapping: dict | None = None, regime_map: dict | 
     >>> print(tps.problems[0])
     row 3, liquid_flow [mL/min]: liquid_flow must be > 0, got -3
     """
-    if max_bytes is None or max_bytes <= 0:
-        raise ValueError(f"max_bytes must be > 0, got {max_bytes!r}")
+    for what, limit in (("max_bytes", max_bytes), ("max_rows", max_rows)):
+        if isinstance(limit, bool) or not isinstance(limit, (int, np.integer)):
+            raise InputTypeError(f"{what} must be a whole number > 0, got {limit!r}")
+        if limit <= 0:
+            raise InputError(f"{what} must be a whole number > 0, got {limit!r}")
     if decimal not in (None, ".", ","):
-        raise ValueError(f"decimal must be '.' or ',', got {decimal!r}")
+        raise InputError(f"decimal must be '.' or ',', got {decimal!r}")
     if delimiter is not None and (not isinstance(delimiter, str) or len(delimiter) != 1 or delimiter in '"\n\r'):
-        raise ValueError(f"delimiter must be one character (not a quote or line break), got {delimiter!r}")
+        raise InputError(f"delimiter must be one character (not a quote or line break), got {delimiter!r}")
     p, t = _gas_conditions(pressure, temperature)
     mapping = _check_str_dict(mapping, "mapping", allow_none_values=True)
     regime_map = _check_str_dict(regime_map, "regime_map")
 
     source_name, kind, payload = _load(source, name, max_bytes)
     if kind == "excel":
-        records, rows = _excel_records(payload, sheet, source_name, max_bytes)
+        header, header_row, body = _excel_table(payload, sheet, source_name, max_bytes, max_rows)
         delim = None
+        width = len(header)
     else:
-        records, rows, delim = _csv_records(payload, delimiter, source_name)
-    if not records:
-        raise TestPointError("the file is empty (only blank or comment lines, no header and no data)", source_name)
-
-    header = [h.strip() for h in records[0]]
-    header_row = rows[0]
+        table = _CsvTable(payload, delimiter, source_name, max_rows)
+        del payload
+        delim = table.delimiter
+        header, header_row = table.header, table.header_row
+        width = len(header)
+    if width > MAX_COLUMNS:
+        raise TestPointError(f"the header (line {header_row}) has {width:,} columns, more than the limit of "
+                             f"{MAX_COLUMNS:,}; is this a test-point file?", source_name)
+    header = [h.strip() for h in header]
     cols, ignored, file_problems = _resolve_columns(header, mapping or {}, header_row)
     factors, units = {}, {}
     for fld, (j, unit) in cols.items():
@@ -317,164 +525,399 @@ def read_test_points(source, *, mapping: dict | None = None, regime_map: dict | 
                 file_problems.append(str(exc))
     if file_problems:
         raise TestPointError(file_problems, source_name)
-    if len(records) == 1:
+    if kind != "excel":
+        body = table.body(sorted({j for j, _ in cols.values()}))
+        del table
+    if len(body.rows) == 0 and not body.problems:
         raise TestPointError(f"the header (line {header_row}) is followed by no data rows", source_name)
+    return _check_rows(body, header, header_row, cols, factors, units, ignored, source_name, delim, decimal,
+                       regime_map)
 
-    data_rows = np.asarray(rows[1:], dtype=np.int64)
-    body = records[1:]
-    lengths = set(map(len, body))
-    if len(lengths) > 1:  # pad short rows (missing trailing fields) with empty cells
-        longest = max(lengths)
-        body = [r if len(r) == longest else r + [""] * (longest - len(r)) for r in body]
-    frame = pd.DataFrame(body)
+
+def _check_rows(body, header, header_row, cols, factors, units, ignored, source_name, delim, decimal,
+                regime_map) -> TestPointSet:
+    """The row checks, column by column over all rows at once; returns the :class:`TestPointSet`.
+
+    Cells of a column that repeats a few values (regime, platform, g level...) are checked once per
+    distinct value. Only the rows with a problem are visited one by one, to write their messages.
+    """
+    data_rows = body.rows
+    n = len(data_rows)
     width = len(header)
-    problems: list[RowProblem] = []
-    bad = np.zeros(len(data_rows), dtype=bool)
+    bad = np.zeros(n, dtype=bool)
+    order = {h: k for k, h in enumerate(header)}
+    names: dict[str, int] = {}                 # column shown -> code
+    specs: dict[tuple, int] = {("given",): 0}  # message kind (see _render) -> code
+    batches: list[tuple] = []  # problems, a batch per check: rows, column, values, kind, given texts, is error
 
-    # rows longer than the header
-    if frame.shape[1] > width:
-        extra = frame.iloc[:, width:].fillna("").astype(str)
-        has_extra = (extra.apply(lambda c: c.str.strip() != "")).any(axis=1).to_numpy()
-        n_fields = np.fromiter(map(len, records[1:]), dtype=np.int64, count=len(data_rows))
-        for i in np.flatnonzero(has_extra):
-            hint = " (a decimal comma in a comma-separated file? quote the number or use ';' as delimiter)" \
-                if delim == "," else ""
-            problems.append(RowProblem(int(data_rows[i]), "(row)", str(delim or "").join(records[1 + i]),
-                f"has {int(n_fields[i])} values but the header has {width} columns{hint}"))
-        bad |= has_extra
+    def add_rows(rows, col, values, messages, severity="error"):
+        """One batch of problems of one column. ``messages``: one text for all, a message kind (see
+        :func:`_render`), or one text per row."""
+        k = len(rows)
+        if isinstance(messages, str):
+            messages = ("same", messages)
+        if isinstance(messages, tuple):
+            kind, texts = specs.setdefault(messages, len(specs)), _fill(None, k)
+        else:
+            kind, texts = 0, _fill(messages, k)
+        batches.append((np.asarray(rows, dtype=np.int64), np.full(k, names.setdefault(col, len(names)), np.int32),
+                        _fill(values, k), np.full(k, kind, np.int32), texts, np.full(k, severity == "error")))
 
-    def raw(fld):
+    def add(idx, col, values, messages, severity="error"):
+        add_rows(data_rows[idx], col, values, messages, severity)
+
+    if body.problems:  # lines that could not be split: (row, line as shown, reason)
+        rows, shown, reasons = zip(*body.problems)
+        add_rows(rows, "(row)", list(shown), list(reasons))
+
+    # rows longer than the header (extra values that are not empty)
+    if body.wide:
+        hint = (" (a decimal comma in a comma-separated file? quote the number or use ';' as delimiter)"
+                if delim == "," else "")
+        idx = np.array(sorted(body.wide), dtype=np.int64)
+        add(idx, "(row)", [body.wide[i] for i in idx.tolist()],
+            _shared(body.nfields[idx].tolist(), lambda nf: f"has {nf:,} values but the header has {width:,} "
+                                                          f"columns{hint}"))
+        bad[idx] = True
+
+    # rows shorter than the header (CSV): optional values missing -> warning; required ones -> in the error
+    eff_width = max((j + 1 for j, h in enumerate(header) if h), default=0)
+    short = (body.nfields < eff_width) if delim is not None else np.zeros(n, dtype=bool)
+    required_cut = np.zeros(n, dtype=bool)
+    for fld in REQUIRED_FIELDS:
+        required_cut |= short & (body.nfields <= cols[fld][0])
+    idx = np.flatnonzero(short & ~required_cut)
+    if idx.size:
+        nfs = body.nfields[idx].tolist()
+        add(idx, "(row)", _shared(nfs, lambda nf: f"{nf} value(s)"),
+            _shared(nfs, lambda nf: f"has {nf} value(s) but the header has {eff_width} columns; the missing values "
+                                    "are read as empty"), "warning")
+
+    uses: dict[int, int] = {}
+    for j, _ in cols.values():
+        uses[j] = uses.get(j, 0) + 1
+
+    def take(fld):
+        """The cells of a field's column; the column is dropped from ``body`` after its last use."""
         j = cols[fld][0]
-        if j >= frame.shape[1]:
-            return pd.Series([""] * len(frame), dtype=object)
-        return frame[j].fillna("").astype(str).str.strip()
+        uses[j] -= 1
+        return body.cells[j] if uses[j] else body.cells.pop(j)
 
-    raws = {fld: raw(fld) for fld in cols}
+    # numbers: parsed once (per distinct value where values repeat); texts kept only for the rows with problems
+    numbers: dict[str, tuple[np.ndarray, np.ndarray, object]] = {}
+    for fld in [f for f in cols if FIELDS[f].kind in _NUMBER_KINDS]:
+        numbers[fld] = _number_column(take(fld))
     if decimal is None:
         decimal = "."
         if delim not in (None, ","):
-            for fld in cols:
-                if FIELDS[fld].kind in _NUMBER_KINDS and raws[fld].str.fullmatch(_COMMA_DECIMAL).any():
+            for num, nan_idx, text_of in numbers.values():
+                if nan_idx.size and pd.Series(text_of.at(nan_idx), dtype=object).str.fullmatch(_COMMA_DECIMAL).any():
                     decimal = ","
                     break
-
     values: dict[str, np.ndarray] = {}
-    for fld in cols:
-        if FIELDS[fld].kind not in _NUMBER_KINDS:
-            continue
+    for fld in list(numbers):
+        num, nan_idx, text_of = numbers.pop(fld)
         col = header[cols[fld][0]]
-        s = raws[fld]
-        low = s.str.lower()
-        missing = low.isin(_MISSING).to_numpy()
-        t_num = s.str.replace(",", ".", regex=False) if decimal == "," else s
-        num = pd.to_numeric(t_num, errors="coerce").astype(float).to_numpy()
-        is_nan_text = low.str.fullmatch(r"[-+]?nan").to_numpy()
-        not_number = np.isnan(num) & ~missing & ~is_nan_text
+        if decimal == "," and nan_idx.size:
+            fixed = pd.Series(text_of.at(nan_idx), dtype=object).str.replace(",", ".", regex=False).to_numpy(object)
+            num[nan_idx] = _to_float(fixed)
+            nan_idx = nan_idx[np.isnan(num[nan_idx])]
+        missing = np.zeros(n, dtype=bool)
+        not_number = np.zeros(n, dtype=bool)
+        if nan_idx.size:
+            low = pd.Series(text_of.at(nan_idx), dtype=object).str.lower()
+            miss_sub = low.isin(list(_MISSING)).to_numpy(dtype=bool)
+            nan_text = low.str.fullmatch(r"[-+]?nan").to_numpy(dtype=bool)
+            missing[nan_idx[miss_sub]] = True
+            not_number[nan_idx[~miss_sub & ~nan_text]] = True
         not_finite = ~missing & ~not_number & ~np.isfinite(num)
         rel, ok_fn = _ENDS[fld]
         with np.errstate(invalid="ignore"):
             out_of_range = np.isfinite(num) & ~ok_fn(num)
-        checks = [(not_number, lambda v: _not_number_message(fld, v, decimal, delim)),
-                  (not_finite, lambda v: f"{fld} must be a finite number, got {v}"),
-                  (out_of_range, lambda v: f"{fld} must be {rel}, got {v}")]
         if FIELDS[fld].required:
-            checks.insert(0, (missing, lambda v: f"missing value: {fld} is required"))
-        for mask, msg in checks:
+            idx = np.flatnonzero(missing)
+            if idx.size:
+                base = f"missing value: {fld} is required"
+                cuts = (body.nfields[idx] * required_cut[idx]).tolist()   # 0: the row is not short
+                add(idx, col, text_of.at(idx),
+                    _shared(cuts, lambda nf: base + (f" (the row has {nf} value(s), the header has {eff_width} "
+                                                     "columns)" if nf else "")))
+                bad |= missing
+        for mask, kind in ((not_number, ("not_number", fld, decimal)),
+                           (not_finite, ("format", f"{fld} must be a finite number, got {{v}}")),
+                           (out_of_range, ("format", f"{fld} must be {rel}, got {{v}}"))):
             idx = np.flatnonzero(mask)
-            if len(idx):
-                sv = s.to_numpy()
-                problems.extend(RowProblem(int(data_rows[i]), col, sv[i], msg(sv[i])) for i in idx)
+            if idx.size:
+                (shown,) = text_of.each(idx, _clip)
+                add(idx, col, shown, kind)
                 bad |= mask
         values[fld] = np.where(missing | not_number | not_finite | out_of_range, np.nan, num * factors[fld])
+        del num, nan_idx, text_of  # the column's texts go with them
 
-    n = len(data_rows)
-    empty_text = pd.Series([""] * n, dtype=object)
+    empty_text = np.full(n, "", dtype=object)
 
     # test ids: given ones must be unique; rows without one get "#<row>"
     if "test_id" in cols:
-        ids = raws["test_id"]
+        ids = _text_column(take("test_id"))
         given = ids != ""
-        dup = (ids.duplicated(keep=False) & given).to_numpy()
+        dup = pd.Series(ids, dtype=object).duplicated(keep=False).to_numpy(dtype=bool) & given
         if dup.any():
             col = header[cols["test_id"][0]]
-            groups = pd.Series(data_rows[dup]).groupby(ids.to_numpy()[dup]).agg(list)
-            for i in np.flatnonzero(dup):
-                others = [r for r in groups[ids.iat[i]] if r != data_rows[i]]
-                listed = ", ".join(map(str, others[:_MAX_LISTED])) + (
-                    f" and {len(others) - _MAX_LISTED} more" if len(others) > _MAX_LISTED else "")
-                problems.append(RowProblem(int(data_rows[i]), col, ids.iat[i],
-                                           f"test id {ids.iat[i]!r} is also used on row(s) {listed}; ids must be "
-                                           "unique (all rows with this id are set aside)"))
+            idx = np.flatnonzero(dup)
+            id_texts, id_messages = _duplicate_id_problems(ids, idx, data_rows)
+            add(idx, col, id_texts, id_messages)
             bad |= dup
-        test_id = ids.where(given, "#" + pd.Series(data_rows).astype(str))
+        test_id = ids
+        none = np.flatnonzero(~given)
+        if none.size:
+            test_id[none] = ["#" + str(r) for r in data_rows[none].tolist()]
     else:
-        test_id = "#" + pd.Series(data_rows).astype(str)
+        test_id = np.array(["#" + str(r) for r in data_rows.tolist()] or [], dtype=object)
 
     # platforms: canonical name when recognised; unknown names are a warning
     if "platform" in cols:
-        plat_raw = _collapse_spaces(raws["platform"])
-        names = {v: find_platform(v) for v in pd.unique(plat_raw) if v}
-        canon = {v: (pl.name if pl else v) for v, pl in names.items()}
-        platform = plat_raw.map(canon).fillna("")
-        unknown = [v for v, pl in names.items() if pl is None]
-        if unknown:
-            col = header[cols["platform"][0]]
-            mask = plat_raw.isin(unknown).to_numpy()
-            pv = plat_raw.to_numpy()
-            problems.extend(RowProblem(int(data_rows[i]), col, pv[i],
-                                       f"platform {pv[i]!r} is not in the built-in table; the point is kept, give "
-                                       "its residual_acceleration and low_g_duration", "warning")
-                            for i in np.flatnonzero(mask))
+        codes, plat_names = pd.factorize(_text_column(take("platform"), collapse=True))
+        found = [find_platform(v) if v else None for v in plat_names]
+        platform = _objects([pl.name if pl else v for v, pl in zip(plat_names, found)])[codes]
+        unknown = np.array([bool(v) and pl is None for v, pl in zip(plat_names, found)] or [], dtype=bool)
+        if unknown.any():
+            shown = _objects([_clip(v) for v in plat_names])
+            texts = _objects([f"platform {v!r} is not in the built-in table; the point is kept, give its "
+                              "residual_acceleration and low_g_duration" for v in shown])
+            idx = np.flatnonzero(unknown[codes])
+            g = codes[idx]
+            add(idx, header[cols["platform"][0]], shown[g], texts[g], "warning")
     else:
         platform = empty_text
 
     # observed regime, through regime_map
     if "observed_regime" in cols:
-        regime = _collapse_spaces(raws["observed_regime"])
+        regime = _text_column(take("observed_regime"), collapse=True)
         if regime_map:
             norm_map = {" ".join(k.split()).lower(): v for k, v in regime_map.items()}
-            mapped = regime.str.lower().map(norm_map)
-            regime = mapped.where(mapped.notna(), regime)
-        empty = (regime == "").to_numpy()
-        if empty.any():
-            col = header[cols["observed_regime"][0]]
-            problems.extend(RowProblem(int(data_rows[i]), col, "", "no observed regime given; the point is kept "
-                                       "without one", "warning") for i in np.flatnonzero(empty))
+            codes, labels = pd.factorize(regime)
+            regime = _objects([norm_map.get(v.lower(), v) for v in labels])[codes]
+        idx = np.flatnonzero(regime == "")
+        if idx.size:
+            add(idx, header[cols["observed_regime"][0]], "", "no observed regime given; the point is kept without one",
+                "warning")
     else:
         regime = empty_text
 
-    notes = raws["notes"] if "notes" in cols else empty_text
+    notes = _text_column(take("notes")) if "notes" in cols else empty_text
     nan = np.full(n, np.nan)
     keep = ~bad
     points = pd.DataFrame({
         "row": data_rows[keep],
-        "test_id": test_id.to_numpy()[keep],
+        "test_id": pd.Series(test_id[keep], dtype=object),
         "ql_m3_s": values["liquid_flow"][keep],
         "qg_m3_s": values["gas_flow"][keep],
-        "observed_regime": regime.to_numpy()[keep],
-        "platform": platform.to_numpy()[keep],
+        "observed_regime": pd.Series(regime[keep], dtype=object),
+        "platform": pd.Series(platform[keep], dtype=object),
         "g_m_s2": values.get("residual_acceleration", nan)[keep],
         "duration_s": values.get("low_g_duration", nan)[keep],
-        "notes": notes.to_numpy()[keep],
+        "notes": pd.Series(notes[keep], dtype=object),
     }, columns=POINT_COLUMNS)
-    for c in ("test_id", "observed_regime", "platform", "notes"):
-        points[c] = points[c].astype(object)
-    order = {h: k for k, h in enumerate(header)}
-    problems.sort(key=lambda pr: (pr.row, order.get(pr.column, -1)))
+    problems = _sorted_problems(batches, names, [order.get(c, -1) for c in names], specs)
     return TestPointSet(points=points, problems=problems,
                         columns={header[j]: fld for fld, (j, _) in sorted(cols.items(), key=lambda kv: kv[1][0])},
                         source_name=source_name, units=units, ignored_columns=ignored, delimiter=delim,
                         decimal=decimal)
 
 
-def _collapse_spaces(s: pd.Series) -> pd.Series:
-    """Runs of white space -> one space (computed once per distinct value)."""
-    return s.map({u: " ".join(u.split()) for u in pd.unique(s)})
+def _sorted_problems(batches: list, names, column_order, specs) -> RowProblems:
+    """The problems of all batches (emptied on the way) by row, then in the order of the file's columns
+    ("(row)" first); one field at a time, so that little is held twice."""
+    specs = sorted(specs, key=specs.get)
+    if not batches:
+        return RowProblems([], [], _objects([]), [], _objects([]), [], [], specs)
+    fields = [list(f) for f in zip(*batches)]
+    batches.clear()
+    rows = np.concatenate(fields[0])
+    cols = np.concatenate(fields[1])
+    fields[0] = fields[1] = None
+    rank = np.lexsort((np.asarray(column_order, dtype=np.int64)[cols], rows))
+    rows, cols = rows[rank], cols[rank]
+    out = []
+    for k in (2, 3, 4, 5):
+        part = np.concatenate(fields[k])
+        fields[k] = None
+        out.append(part[rank])
+        del part
+    return RowProblems(rows, cols, out[0], out[1], out[2], out[3], names, specs)
 
 
-def _not_number_message(fld: str, value: str, decimal: str, delim) -> str:
+def _fill(items, k: int) -> np.ndarray:
+    """``k`` texts as an object array: ``items`` is one text (or None) for all, or k of them."""
+    if items is None or isinstance(items, str):
+        out = np.empty(k, dtype=object)
+        out[:] = items  # the same text object in every place
+        return out
+    if isinstance(items, np.ndarray) and items.dtype == object:
+        return items
+    return _objects(list(items))
+
+
+def _shared(keys: list, make) -> list[str]:
+    """``make(key)`` for each key, one text per distinct key (rows with the same problem share one message)."""
+    made: dict = {}
+    return [made[k] if k in made else made.setdefault(k, make(k)) for k in keys]
+
+
+def _objects(items: list) -> np.ndarray:
+    """A 1-d object array of the given texts."""
+    out = np.empty(len(items), dtype=object)
+    out[:] = items
+    return out
+
+
+def _strip(cells: np.ndarray) -> np.ndarray:
+    """Cell texts without surrounding white space (object array)."""
+    return _objects([c.strip() for c in cells.tolist()])
+
+
+def _distinct(cells: np.ndarray):
+    """``(codes, distinct values)`` when the column repeats a few values (judged on a sample), else None."""
+    n = len(cells)
+    if n > 4000:
+        sample = cells[:: n // 2000]
+        if len(pd.unique(sample)) * 4 > len(sample):
+            return None
+    return pd.factorize(cells)
+
+
+def _text_column(cells: np.ndarray, collapse: bool = False) -> np.ndarray:
+    """Cell texts stripped (and with runs of white space made one space), once per distinct value."""
+    enc = _distinct(cells)
+    if enc is None:
+        out = _strip(cells)
+        if not collapse:
+            return out
+        enc = pd.factorize(out)
+    codes, uniques = enc
+    if collapse:
+        return _objects([" ".join(u.split()) for u in uniques.tolist()])[codes]
+    return _strip(uniques)[codes]
+
+
+class _Texts:
+    """The stripped texts of a column's cells, looked up for the rows with a problem.
+
+    ``texts[codes]`` are the cells when the column repeats a few values (then ``each`` works once per
+    distinct value), else ``cells`` (stripped on demand).
+    """
+
+    def __init__(self, cells=None, texts=None, codes=None, known_idx=None, known=None):
+        self.cells, self.texts, self.codes = cells, texts, codes
+        self.known_idx, self.known = known_idx, known  # cells already stripped (those that are not numbers)
+
+    def at(self, idx) -> np.ndarray:
+        if self.codes is not None:
+            return self.texts[self.codes[idx]]
+        if self.known_idx is None or not self.known_idx.size:
+            return _strip(self.cells[idx])
+        pos = np.minimum(np.searchsorted(self.known_idx, idx), self.known_idx.size - 1)
+        hit = self.known_idx[pos] == idx
+        if hit.all():
+            return self.known[pos]
+        out = np.empty(len(idx), dtype=object)
+        out[hit] = self.known[pos[hit]]
+        out[~hit] = _strip(self.cells[idx[~hit]])
+        return out
+
+    def each(self, idx, *fns) -> list[np.ndarray]:
+        """``[fn(text) for the cells idx]`` for each of the functions ``fns``."""
+        if self.codes is not None:
+            distinct, where = np.unique(self.codes[idx], return_inverse=True)
+            texts = self.texts[distinct].tolist()
+            return [_objects([fn(v) for v in texts])[where.reshape(-1)] for fn in fns]
+        texts = self.at(idx).tolist()
+        return [_objects([fn(v) for v in texts]) for fn in fns]
+
+
+def _number_column(cells: np.ndarray):
+    """Floats of a column (NaN where not a number), the NaN positions, and the column's :class:`_Texts`."""
+    enc = _distinct(cells)
+    if enc is not None:
+        codes, uniques = enc
+        texts = _strip(uniques)
+        num = _to_float(texts)[codes]
+        return num, np.flatnonzero(np.isnan(num)), _Texts(texts=texts, codes=codes)
+    num = _to_float(cells)  # pandas reads numbers with surrounding blanks; others are retried stripped
+    nan_idx = np.flatnonzero(np.isnan(num))
+    known = _strip(cells[nan_idx])
+    changed = np.fromiter((a is not b for a, b in zip(known.tolist(), cells[nan_idx].tolist())), dtype=bool,
+                          count=nan_idx.size)
+    if changed.any():
+        num[nan_idx[changed]] = _to_float(known[changed])
+        keep = np.isnan(num[nan_idx])
+        nan_idx, known = nan_idx[keep], known[keep]
+    return num, nan_idx, _Texts(cells=cells, known_idx=nan_idx, known=known)
+
+
+def _to_float(cells: np.ndarray) -> np.ndarray:
+    """Cell texts as floats (a new array); NaN where a cell is not a number.
+
+    Numbers are read as :func:`pandas.to_numeric` reads them. When every cell is a plain number (ASCII, no
+    ``_`` digit separator, which Python's ``float`` would take but pandas not) numpy converts the column in
+    one step; otherwise pandas does, with NaN for the cells that are not numbers.
+    """
+    if len(cells) == 0:
+        return np.zeros(0)
+    joined = "".join(cells.tolist())
+    if joined.isascii() and "_" not in joined:
+        try:
+            return cells.astype(float)
+        except (ValueError, TypeError, OverflowError):
+            pass
+    del joined
+    num = pd.to_numeric(pd.Series(cells, dtype=object), errors="coerce")
+    try:
+        return np.array(num, dtype=float)
+    except (OverflowError, TypeError, ValueError):  # pragma: no cover - to_numeric gives floats or ints
+        return np.array([_float_or_nan(v) for v in num], dtype=float)
+
+
+def _float_or_nan(v) -> float:  # pragma: no cover - fallback of _to_float
+    try:
+        return float(v)
+    except (OverflowError, TypeError, ValueError):
+        return math.nan
+
+
+def _duplicate_id_problems(ids, idx, data_rows) -> tuple[np.ndarray, np.ndarray]:
+    """Values and messages for the rows ``idx`` (ascending) whose test id is used on other rows, each naming up
+    to five of the others. Beyond a group's first six rows every row names the same five, so those share one
+    message (linear time, one text per group and a few more)."""
+    codes, uniques = pd.factorize(ids[idx])
+    order = np.argsort(codes, kind="stable")          # rows of each group together, ascending
+    rows = data_rows[idx][order]
+    starts = np.flatnonzero(np.r_[True, np.diff(codes[order]) != 0])
+    sizes = np.diff(np.r_[starts, order.size])
+    labels = _objects([_clip(u) for u in uniques])
+    messages = np.empty(order.size, dtype=object)
+
+    def text(label, others, more):
+        listed = ", ".join(map(str, others)) + (f" and {more:,} more" if more > 0 else "")
+        return f"test id {label!r} is also used on row(s) {listed}; ids must be unique (all rows with this id are set aside)"
+
+    for g, (start, size) in enumerate(zip(starts.tolist(), sizes.tolist())):
+        head = rows[start:start + min(size, _MAX_LISTED + 1)].tolist()
+        label = labels[codes[order[start]]]
+        if size > _MAX_LISTED + 1:
+            messages[start + len(head):start + size] = text(label, head[:_MAX_LISTED], size - 1 - _MAX_LISTED)
+        for k, r in enumerate(head):
+            others = (head[:k] + head[k + 1:])[:_MAX_LISTED]
+            messages[start + k] = text(label, others, size - 1 - len(others))
+    back = np.empty_like(order)
+    back[order] = np.arange(order.size)
+    return labels[codes], messages[back]
+
+
+def _not_number_message(fld: str, value: str, decimal: str) -> str:
+    """Message for a cell that is not a number (``value`` as quoted: already cut to length)."""
     msg = f"{fld} is not a number: {value!r}"
-    if decimal == "." and re.fullmatch(_COMMA_DECIMAL, value):
+    if decimal == "." and _COMMA_DECIMAL_RE.fullmatch(value):
         msg += " (decimal comma? pass decimal=',' or use ';' as delimiter)"
     elif _NUM_WITH_TEXT.match(value):
         msg += " (write the unit in the column header, not in the cell)"
@@ -491,26 +934,33 @@ def _check_str_dict(d, what: str, allow_none_values: bool = False):
     if d is None:
         return None
     if not isinstance(d, dict):
-        raise TypeError(f"{what} must be a dict of text to text, got {type(d).__name__}")
+        raise InputTypeError(f"{what} must be a dict of text to text, got {type(d).__name__}")
     for k, v in d.items():
         if not isinstance(k, str) or not (isinstance(v, str) or (allow_none_values and v is None)):
-            raise TypeError(f"{what} must map text to text, got {k!r}: {v!r}")
+            raise InputTypeError(f"{what} must map text to text, got {_clip(repr(k))}: {_clip(repr(v))}")
     return d
 
 
 def _gas_conditions(pressure, temperature):
     p = t = None
-    if pressure is not None:
-        p = to_si(pressure, "pressure", "pressure", default_unit="Pa") if isinstance(pressure, str) else pressure
-        p = positive("pressure", p, "Pa")
-    if temperature is not None:
-        t = to_si(temperature, "temperature", "temperature", default_unit="K") \
-            if isinstance(temperature, str) else temperature
-        t = positive("temperature", t, "K")
+    try:
+        if pressure is not None:
+            p = to_si(pressure, "pressure", "pressure", default_unit="Pa") if isinstance(pressure, str) else pressure
+            p = positive("pressure", p, "Pa")
+        if temperature is not None:
+            t = to_si(temperature, "temperature", "temperature", default_unit="K") \
+                if isinstance(temperature, str) else temperature
+            t = positive("temperature", t, "K")
+    except UnitError as exc:  # a unit error is the user's input error too
+        if isinstance(exc, InputError):
+            raise
+        raise InputError(str(exc)) from None
     return p, t
 
 
 def _split_header(text: str) -> tuple[str, str | None]:
+    if len(text) > 1000:  # not a column name; keep the pattern below off very long text
+        return text.strip(), None
     m = _HEADER_UNIT.match(text)
     if m and m.group("name").strip():
         unit = m.group("u1") if m.group("u1") is not None else m.group("u2")
@@ -524,14 +974,15 @@ def _resolve_columns(header: list[str], mapping: dict, header_row: int):
     parsed = [_split_header(h) for h in header]
     cols: dict[str, tuple[int, str | None]] = {}
     by_mapping: set[int] = set()
-    listing = ", ".join(repr(h) for h in header if h) or "(none)"
+    listing = _listing(header)
     for key, target in mapping.items():
         j = _find_column(key, header, parsed)
         if j is None:
-            problems.append(f"mapping names column {key!r}, which is not in the file; the file's columns are {listing}")
+            problems.append(f"mapping names column {_clip(key)!r}, which is not in the file; the file's columns "
+                            f"are {listing}")
             continue
         if j < 0:
-            problems.append(f"mapping key {key!r} matches more than one column; use the full header text")
+            problems.append(f"mapping key {_clip(key)!r} matches more than one column; use the full header text")
             continue
         by_mapping.add(j)
         if target is None or _norm(target) in ("ignore", ""):
@@ -539,11 +990,12 @@ def _resolve_columns(header: list[str], mapping: dict, header_row: int):
         t_name, t_unit = _split_header(target)
         fld = _ALIASES.get(_norm(t_name))
         if fld is None:
-            problems.append(f"mapping sends column {key!r} to {target!r}, which is not a field; fields are "
-                            f"{', '.join(FIELDS)}")
+            problems.append(f"mapping sends column {_clip(key)!r} to {_clip(target)!r}, which is not a field; "
+                            f"fields are {', '.join(FIELDS)}")
             continue
         if fld in cols:
-            problems.append(f"mapping sends two columns to {fld}: {header[cols[fld][0]]!r} and {header[j]!r}")
+            problems.append(f"mapping sends two columns to {fld}: {_clip(header[cols[fld][0]])!r} and "
+                            f"{_clip(header[j])!r}")
             continue
         cols[fld] = (j, t_unit if t_unit else parsed[j][1])
     mapped_fields = set(cols)
@@ -556,8 +1008,8 @@ def _resolve_columns(header: list[str], mapping: dict, header_row: int):
             ignored.append(header[j])
             continue
         if fld in cols:
-            problems.append(f"columns {header[cols[fld][0]]!r} and {header[j]!r} are both read as {fld}; rename "
-                            f"one, or choose with mapping={{{header[j]!r}: None}}")
+            problems.append(f"columns {_clip(header[cols[fld][0]])!r} and {_clip(header[j])!r} are both read as "
+                            f"{fld}; rename one, or choose with mapping={{{_clip(header[j])!r}: None}}")
             continue
         cols[fld] = (j, unit)
     missing = [f for f in REQUIRED_FIELDS if f not in cols]
@@ -590,6 +1042,8 @@ def _find_column(key: str, header: list[str], parsed) -> int | None:
 
 
 def _is_number(text: str) -> bool:
+    if len(text) > 400:
+        return False
     try:
         float(text.replace(",", "."))
         return True
@@ -601,12 +1055,14 @@ def _unit_factor(fld: str, column: str, unit: str | None, p, t) -> float:
     """SI value of one header unit of a number field; raise _BadUnit with a message naming the column."""
     spec = FIELDS[fld]
     example = f"'{fld} [{spec.example_unit}]'"
+    column = _clip(column)
     if unit is None or not unit.strip():
         raise _BadUnit(f"column {column!r} ({fld}) has no unit; write it in the header, e.g. {example}, or "
                        f"give it with mapping={{{column!r}: {fld + ' [' + spec.example_unit + ']'!r}}}")
     u = unit.strip().replace("\u00b2", "^2").replace("\u00b3", "^3")
     if fld == "residual_acceleration" and u in ("g", "G", "g_0"):
         u = "g0"  # 'g' in an acceleration column means standard gravity, not gram
+    shown = _clip(u)
     key = u.lower()
     if key in STANDARD_FLOW_UNITS:
         if fld != "gas_flow":
@@ -618,72 +1074,142 @@ def _unit_factor(fld: str, column: str, unit: str | None, p, t) -> float:
         try:
             return parse_flow(f"1 {u}", f"column {column!r}", gas=True, pressure=p, temperature=t)
         except (UnitError, ValueError) as exc:  # pragma: no cover - p, t validated above
-            raise _BadUnit(str(exc)) from None
+            raise _BadUnit(_clip(str(exc), 400)) from None
     kind = spec.kind
     word = _KIND_WORDS[kind]
     try:
         ureg.parse_units(u)
     except Exception:
-        raise _BadUnit(f"column {column!r}: unknown unit {u!r} (expected a {word} unit such as "
+        raise _BadUnit(f"column {column!r}: unknown unit {shown!r} (expected a {word} unit such as "
                        f"{spec.example_unit!r})") from None
     try:
         check_unit(u, kind, f"column {column!r}")
         factor = to_si(f"1 {u}", kind, f"column {column!r}")
     except Exception:
-        raise _BadUnit(f"column {column!r}: {u!r} is not a {word} unit (expected e.g. {spec.example_unit!r})") \
+        raise _BadUnit(f"column {column!r}: {shown!r} is not a {word} unit (expected e.g. {spec.example_unit!r})") \
             from None
     if not (math.isfinite(factor) and factor > 0):
-        raise _BadUnit(f"column {column!r}: unit {u!r} cannot be used (factor {factor!r})")
+        raise _BadUnit(f"column {column!r}: unit {shown!r} cannot be used (factor {factor!r})")
     return factor
 
+
+# --------------------------------------------------------------------------------------------- loading
 
 def _looks_like_path(s: str) -> bool:
     if "\n" in s or "\r" in s or len(s) > 4096:
         return False
     try:
-        return Path(s).suffix.lower() in _PATH_SUFFIXES or os.path.isfile(s)
+        return Path(s).suffix.lower() in _PATH_SUFFIXES or os.path.lexists(s)
     except (ValueError, OSError):
         return False
 
 
 def _load(source, name, max_bytes):
-    """Return (source name, "text" | "excel", text or bytes)."""
+    """Return (source name, "csv" | "excel", bytes), within ``max_bytes``; CSV as UTF-8 without a BOM."""
     if hasattr(source, "read") and not isinstance(source, (str, bytes, os.PathLike)):
-        source = source.read()
-        name = name or "uploaded file"
+        label = name or "uploaded file"
+        parts, size = [], 0
+        while size <= max_bytes:  # never more than the limit (a stream may be endless)
+            part = source.read(max_bytes + 1 - size)
+            if not part:
+                break
+            parts.append(part)
+            size += len(part)
+        data = parts[0] if len(parts) == 1 else ("" if parts and isinstance(parts[0], str) else b"").join(parts)
+        if isinstance(data, str):
+            if len(data) > max_bytes:
+                raise TestPointError(_too_large(None, max_bytes), label)
+            return _from_text(data, label, max_bytes)
+        if not isinstance(data, (bytes, bytearray, memoryview)):
+            raise InputTypeError(f"the file object gave {type(data).__name__}, not bytes or text")
+        return _from_bytes(bytes(data), label, max_bytes, exact=len(data) <= max_bytes)
     if isinstance(source, (bytes, bytearray, memoryview)):
         return _from_bytes(bytes(source), name or "uploaded file", max_bytes)
     if isinstance(source, os.PathLike) or (isinstance(source, str) and _looks_like_path(source)):
         path = Path(source)
         label = name or path.name
-        if not path.is_file():
-            raise TestPointError(f"file not found: {str(path)!r}" if not path.exists()
-                                 else f"{str(path)!r} is not a file", label)
-        size = path.stat().st_size
-        if size > max_bytes:
-            raise TestPointError(_too_large(size, max_bytes), label)
-        with open(path, "rb") as fh:  # read only: the file is never modified
-            data = fh.read(max_bytes + 1)
+        data = _read_regular_file(path, label, max_bytes)
         return _from_bytes(data, label, max_bytes, suffix=path.suffix.lower())
     if isinstance(source, str):
-        label = name or "text"
-        size = len(source) if len(source) * 4 <= max_bytes else len(source.encode("utf-8", "replace"))
-        if size > max_bytes:
-            raise TestPointError(_too_large(size, max_bytes), label)
-        text = source[1:] if source.startswith("\ufeff") else source
-        _check_text(text, label)
-        return label, "text", text
-    raise TypeError(f"source must be a path, text, bytes or a file object, got {type(source).__name__}")
+        return _from_text(source, name or "text", max_bytes)
+    raise InputTypeError(f"source must be a path, text, bytes or a file object, got {type(source).__name__}")
+
+
+def _from_text(source: str, label: str, max_bytes: int):
+    size = len(source) if len(source) * 4 <= max_bytes else len(source.encode("utf-8", "replace"))
+    if size > max_bytes:
+        raise TestPointError(_too_large(size, max_bytes), label)
+    text = source[1:] if source.startswith("\ufeff") else source
+    _check_text(text, label)
+    return label, "csv", text.encode("utf-8", "replace")  # lone surrogates -> '?'
+
+
+def _file_kind(mode: int) -> str:
+    for test, what in ((stat.S_ISDIR, "a directory"), (stat.S_ISFIFO, "a named pipe (FIFO)"),
+                       (stat.S_ISCHR, "a character device"), (stat.S_ISBLK, "a block device"),
+                       (stat.S_ISSOCK, "a socket")):
+        if test(mode):
+            return what
+    return "not a regular file"
+
+
+def _read_regular_file(path: Path, label: str, max_bytes: int) -> bytes:
+    """The bytes of ``path``: a regular file of at most ``max_bytes``, checked before it is opened for reading.
+
+    The file is opened without blocking (a named pipe put in its place meanwhile cannot hang the read) and
+    checked again on the open handle; it is only read, never modified.
+    """
+    shown = _clip(str(path))
+    try:
+        st = os.stat(path)
+    except FileNotFoundError:
+        raise TestPointError(f"file not found: {shown!r}", label) from None
+    except (OSError, ValueError) as exc:
+        raise TestPointError(f"cannot read {shown!r}: {getattr(exc, 'strerror', None) or exc}", label) from None
+
+    def refuse(mode):
+        return TestPointError(f"{shown!r} is {_file_kind(mode)}, not a regular file; test points are read only "
+                              "from regular files (.csv, .tsv, .txt, .xlsx)", label)
+
+    if not stat.S_ISREG(st.st_mode):
+        raise refuse(st.st_mode)
+    if st.st_size > max_bytes:
+        raise TestPointError(_too_large(st.st_size, max_bytes), label)
+    flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_BINARY", 0) | getattr(os, "O_NOCTTY", 0)
+    try:
+        fd = os.open(path, flags)
+    except OSError as exc:
+        raise TestPointError(f"cannot read {shown!r}: {exc.strerror or exc}", label) from None
+    try:
+        st = os.fstat(fd)
+        if not stat.S_ISREG(st.st_mode):
+            raise refuse(st.st_mode)
+        chunks, size = [], 0
+        while size <= max_bytes:  # one read in the usual case (the size is known)
+            want = st.st_size - size + 1 if size < st.st_size else 1 << 20
+            chunk = os.read(fd, min(want, max_bytes + 1 - size, 1 << 30))
+            if not chunk:
+                break
+            chunks.append(chunk)
+            size += len(chunk)
+    except OSError as exc:
+        raise TestPointError(f"cannot read {shown!r}: {exc.strerror or exc}", label) from None
+    finally:
+        os.close(fd)
+    if size > max_bytes:  # the file grew after it was measured
+        raise TestPointError(_too_large(None, max_bytes), label)
+    return chunks[0] if len(chunks) == 1 else b"".join(chunks)
 
 
 def _too_large(size, max_bytes):
-    return (f"the file is {size:,} bytes, more than the limit of {max_bytes:,} bytes; split it, or raise "
-            "max_bytes")
+    if size is None:
+        return f"the file is larger than the limit of {max_bytes:,} bytes; split it, or raise max_bytes"
+    return f"the file is {size:,} bytes, more than the limit of {max_bytes:,} bytes; split it, or raise max_bytes"
 
 
-def _from_bytes(data: bytes, label: str, max_bytes: int, suffix: str | None = None):
+def _from_bytes(data: bytes, label: str, max_bytes: int, suffix: str | None = None, exact: bool = True):
     if len(data) > max_bytes:
-        raise TestPointError(_too_large(len(data), max_bytes), label)
+        raise TestPointError(_too_large(len(data) if exact else None, max_bytes), label)
     if suffix is None:
         suffix = Path(label).suffix.lower()
     if data[:4] == b"PK\x03\x04" or suffix in _EXCEL_SUFFIXES:
@@ -693,7 +1219,13 @@ def _from_bytes(data: bytes, label: str, max_bytes: int, suffix: str | None = No
     if data[:2] in (b"\xff\xfe", b"\xfe\xff"):
         text = data.decode("utf-16", errors="replace")
     else:
-        for enc in ("utf-8-sig", "cp1252", "latin-1"):
+        if data.startswith(codecs.BOM_UTF8):
+            data = data[3:]
+        if _is_utf8(data):  # the usual case: the bytes are used as they are
+            if b"\x00" in data:
+                _check_text("\x00", label)
+            return label, "csv", data
+        for enc in ("cp1252", "latin-1"):
             try:
                 text = data.decode(enc)
                 break
@@ -701,7 +1233,20 @@ def _from_bytes(data: bytes, label: str, max_bytes: int, suffix: str | None = No
                 continue
     text = text[1:] if text.startswith("\ufeff") else text
     _check_text(text, label)
-    return label, "text", text
+    return label, "csv", text.encode("utf-8", "replace")
+
+
+def _is_utf8(data: bytes) -> bool:
+    """Whether ``data`` is valid UTF-8 (checked in pieces, without a copy of the whole text)."""
+    dec = codecs.getincrementaldecoder("utf-8")()
+    view = memoryview(data)
+    try:
+        for a in range(0, len(data), 1 << 20):
+            dec.decode(view[a:a + (1 << 20)])
+        dec.decode(b"", final=True)
+    except UnicodeDecodeError:
+        return False
+    return True
 
 
 def _check_text(text: str, label: str):
@@ -709,6 +1254,8 @@ def _check_text(text: str, label: str):
         raise TestPointError("the file holds NUL characters: it is not a text (CSV) file; save it as CSV "
                              "(UTF-8) or .xlsx", label)
 
+
+# --------------------------------------------------------------------------------------------- CSV
 
 def _outside_quotes(line: str) -> str:
     return re.sub(r'"[^"]*"?', "", line)
@@ -729,28 +1276,402 @@ def _sniff(lines: list[str]) -> str:
     return best
 
 
-def _csv_records(text: str, delimiter, label):
-    text = text.replace("\r\n", "\n").replace("\r", "\n")
-    text = _COMMENT_LINE.sub("", text)  # comment lines become blank lines, so line numbers stay right
-    first = list(itertools.islice((ln for ln in text.split("\n") if ln.strip()), 21))
-    if not first:
-        return [], [], delimiter or ","
-    delim = delimiter or _sniff(first)
-    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delim, quotechar='"', doublequote=True,
-                        strict=False)
-    records, starts = [], []
-    prev = 0
-    try:
-        for rec in reader:
-            start = prev + 1
-            prev = reader.line_num
-            if "".join(rec).strip():
-                records.append(rec)
-                starts.append(start)
-    except csv.Error as exc:
-        raise TestPointError(f"line {prev + 1}: cannot split the line into fields ({exc})", label) from None
-    return records, starts, delim
+def _first_lines(data: bytes, count: int = 21) -> list[str]:
+    """The first ``count`` non-blank lines of ``data`` (no list of all of them; blank runs are skipped whole)."""
+    out: list[str] = []
+    pos, n = 0, len(data)
+    while pos < n and len(out) < count:
+        m = _NOT_BLANK.search(data, pos)
+        if m is None:
+            break
+        start = data.rfind(b"\n", 0, m.start()) + 1
+        end = data.find(b"\n", m.start())
+        if end < 0:
+            end = n
+        line = data[start:end].decode("utf-8", "replace")
+        if line.strip():
+            out.append(line)
+        pos = end + 1
+    return out
 
+
+@dataclass
+class _Body:
+    """The data records of a table, column by column.
+
+    rows : line (CSV) or worksheet row (Excel) number of each non-blank record
+    nfields : number of values of each record
+    cells : column index -> cell text of each record ("" where the record is shorter)
+    wide : record index -> record text, for records with non-empty values beyond the header's columns
+    problems : lines that could not be split into fields (set aside before the row checks): (line number,
+               the line as shown, reason)
+    """
+
+    rows: np.ndarray
+    nfields: np.ndarray
+    cells: dict[int, np.ndarray]
+    wide: dict[int, str]
+    problems: list[tuple[int, str, str]]
+
+
+def _blank(fields) -> bool:
+    return not "".join(fields).strip()
+
+
+def _body_from_records(records: list[list[str]], rows: list[int], width: int, used, sep: str) -> _Body:
+    """A :class:`_Body` from records split in Python (list of lists)."""
+    cells = {j: np.array([r[j] if j < len(r) else "" for r in records] or [], dtype=object) for j in used}
+    wide = {k: sep.join(r) for k, r in enumerate(records) if len(r) > width and not _blank(r[width:])}
+    return _Body(rows=np.asarray(rows, dtype=np.int64), nfields=np.fromiter(map(len, records), np.int64,
+                                                                            len(records)),
+                 cells=cells, wide={k: _clip(v) for k, v in wide.items()}, problems=[])
+
+
+_UNCLOSED = ('unclosed quote: the field opened with " on this line {how}; the row is set aside and the next line '
+             'is read as a row of its own. Close the quote (a quote inside a quoted field is written "")')
+_NEVER_CLOSED = _UNCLOSED.format(how="is never closed")
+_NOT_CLOSED = _UNCLOSED.format(how="is not closed on it")
+_NEXT_IS_ROW = _UNCLOSED.format(how="is not closed on it (the next line looks like a row of its own)")
+
+
+def _parse_record(line, n_lines: int, i: int, delim: str, thr: int | None):
+    """Split the record that starts on line ``i`` (0-based) with the :mod:`csv` rules.
+
+    ``line(k)`` gives line k without its line break. Returns ``(fields, lines used, None)`` or
+    ``(None, 1, reason)`` when the line cannot be split: a quote never closed, or closed only after taking in
+    a line with ``thr`` or more delimiters (a row of its own, so the quote was not meant to span lines).
+    """
+    first = line(i)
+    if '"' not in first:
+        return first.split(delim), 1, None
+
+    def feed():
+        for k in range(i, n_lines):
+            yield line(k) + "\n"
+
+    reader = csv.reader(feed(), delimiter=delim, quotechar='"', doublequote=True, strict=True)
+    try:
+        fields = next(reader)
+    except StopIteration:  # pragma: no cover - the line is not empty
+        return [], 1, None
+    except csv.Error as exc:
+        msg = str(exc)
+        if "field larger than field limit" in msg:
+            return None, 1, f"a field is longer than {csv.field_size_limit():,} characters"
+        if "end of data" in msg:
+            return None, 1, _NEVER_CLOSED
+        if reader.line_num <= 1 and first.count('"') % 2 == 0:
+            # a quote inside the line that strict rules refuse (e.g. "a"b): read the line as it stands
+            try:
+                return next(csv.reader([first], delimiter=delim, quotechar='"', strict=False)), 1, None
+            except csv.Error as exc2:
+                return None, 1, f"cannot split the line into fields ({_clip(exc2)})"
+        return None, 1, _NOT_CLOSED
+    used = reader.line_num
+    if used > 1 and thr is not None:
+        for k in range(i + 1, i + used):
+            if line(k).count(delim) >= thr:
+                if k == i + 1:
+                    return None, 1, _NEXT_IS_ROW
+                return None, 1, _UNCLOSED.format(how=f"is not closed on it (line {k + 1} looks like a row of "
+                                                     "its own)")
+    return fields, used, None
+
+
+def _single_line(text: str, delim: str):
+    """Fields of one line without a record-spanning quote: (fields, None) or (None, reason)."""
+    if '"' not in text:
+        return text.split(delim), None
+    try:
+        return next(csv.reader([text], delimiter=delim, quotechar='"', doublequote=True, strict=False)), None
+    except csv.Error as exc:
+        if "field larger than field limit" in str(exc):
+            return None, f"a field is longer than {csv.field_size_limit():,} characters"
+        return None, f"cannot split the line into fields ({_clip(exc)})"  # pragma: no cover
+
+
+# bytes that are certainly part of a value: ASCII, not white space, not a quote (delimiter removed per file)
+_CONTENT = np.ones(256, dtype=bool)
+_CONTENT[128:] = False
+_CONTENT[[ord(c) for c in ' \t\n\r\x0b\x0c\x1c\x1d\x1e\x1f"']] = False
+# bytes that may be part of a value: quotes and non-ASCII (white space such as U+00A0 or text)
+_MAYBE = np.zeros(256, dtype=bool)
+_MAYBE[128:] = True
+_MAYBE[ord('"')] = True
+# for counting non-blank lines: 1 line break, 2 anything but white space
+_EVENT = np.full(256, 2, dtype=np.uint8)
+_EVENT[[ord(c) for c in ' \t\r\x0b\x0c\x1c\x1d\x1e\x1f']] = 0
+_EVENT[10] = 1
+_CHUNK = 1 << 21
+_BLANK_BYTES = b" \t\x0b\x0c\x1c\x1d\x1e\x1f"
+_MAYBE_BYTES = bytes(range(128, 256)) + b'"'
+_NOT_BLANK = re.compile(rb"[^ \t\n\x0b\x0c\x1c-\x1f]")
+_COMMENT_FIRST = re.compile(rb"\A[ \t]*#[^\n]*")
+_COMMENT_NEXT = re.compile(rb"\n[ \t]*#[^\n]*")
+
+
+def _count_nonblank_lines(b: np.ndarray) -> int:
+    """Number of lines holding anything but white space, in chunks (bounded memory)."""
+    count, prev_nl = 0, True
+    for a in range(0, b.size, _CHUNK):
+        ev = _EVENT[b[a:a + _CHUNK]]
+        ev = ev[ev != 0]
+        if ev.size == 0:
+            continue
+        count += int(np.count_nonzero((ev[1:] == 2) & (ev[:-1] == 1))) + int(ev[0] == 2 and prev_nl)
+        prev_nl = bool(ev[-1] == 1)
+    return count
+
+
+def _count_per_line(mask: np.ndarray, starts: np.ndarray) -> np.ndarray:
+    """Number of True values of ``mask`` in each line (lines begin at ``starts``), in chunks."""
+    out = np.zeros(starts.size, dtype=np.int64)
+    for a in range(0, mask.size, _CHUNK):
+        pos = np.flatnonzero(mask[a:a + _CHUNK])
+        if pos.size:
+            line = np.searchsorted(starts, pos + a, side="right") - 1
+            lo = int(line[0])
+            out[lo:int(line[-1]) + 1] += np.bincount(line - lo)
+    return out
+
+
+class _CsvTable:
+    """A CSV file (UTF-8 bytes) split into its header and, on request, its data records.
+
+    The bytes are measured first with numpy (line breaks, quotes, delimiters) and the row limit checked,
+    before any line is split. Lines whose quotes are balanced and placed as the :mod:`csv` rules expect
+    (opening at the start of a field, closing at its end, ``""`` inside), and lines whose quotes all sit
+    inside unquoted fields (kept as written by both parsers), are "clean": each is one record, and they are
+    split together by pandas' C parser. The other lines (a quoted field left open at the end of the line,
+    or closed and followed by more text) are split one record at a time with :func:`_parse_record`, which
+    also decides whether a quoted field may span lines.
+    """
+
+    def __init__(self, data: bytes, delimiter, label: str, max_rows: int):
+        self.label = label
+        if b"\r" in data:
+            data = data.replace(b"\r\n", b"\n").replace(b"\r", b"\n")
+        if b"#" in data:  # comment lines become blank lines, so line numbers stay right
+            data = _COMMENT_FIRST.sub(b"", _COMMENT_NEXT.sub(b"\n", data), count=1)
+        self.data = data
+        b = np.frombuffer(data, dtype=np.uint8)
+        self.b = b
+        n = b.size
+        # the row limit, before anything else is done per line
+        if data.count(b"\n") >= max_rows + 1:
+            lines = _count_nonblank_lines(b)
+            if lines - 1 > max_rows:
+                raise TestPointError(f"the file has {lines - 1:,} data lines after the header, more than the limit "
+                                     f"of {max_rows:,} rows; split it, or raise max_rows", label)
+        first = _first_lines(data)
+        if not first:
+            raise TestPointError("the file is empty (only blank or comment lines, no header and no data)", label)
+        self.delimiter = delim = delimiter or _sniff(first)
+        # lines: [starts[k], ends[k]) without the line break
+        idx_type = np.int32 if n < 2**31 - 1 else np.int64
+        nl = np.flatnonzero(b == 10).astype(idx_type)
+        starts = np.empty(nl.size + 1, dtype=idx_type)
+        starts[0] = 0
+        starts[1:] = nl + 1
+        ends = np.empty_like(starts)
+        ends[:-1] = nl
+        ends[-1] = n
+        if b[-1] == 10:
+            starts, ends = starts[:-1], ends[:-1]
+        del nl
+        self.starts, self.ends = starts, ends
+        self.n_lines = L = starts.size
+        d = ord(delim) if ord(delim) < 128 else None
+        self.kind = self._line_kinds(d)
+        # quotes: which lines are clean, and the delimiters outside quoted fields on clean lines
+        clean = np.ones(L, dtype=bool)
+        opener = np.zeros(L, dtype=bool)
+        inside = None
+        q = np.flatnonzero(b == 34)
+        if d is None:  # a delimiter outside ASCII: every line is split in Python
+            clean[:] = False
+        elif q.size:
+            qline = np.searchsorted(starts, q, side="right") - 1
+            qcount = np.bincount(qline, minlength=L)
+            first_q = np.concatenate(([0], np.cumsum(qcount)[:-1]))
+            is_open = (np.arange(q.size) - first_q[qline]) % 2 == 0
+            prev = b[np.maximum(q - 1, 0)]
+            ok_open = (q == starts[qline]) | (prev == d) | (prev == 34)
+            nxt = b[np.minimum(q + 1, n - 1)]
+            ok_close = (q + 1 == ends[qline]) | (nxt == d) | (nxt == 34)
+            ok = np.where(is_open, ok_open, ok_close)
+            clean = qcount % 2 == 0
+            clean[qline[~ok]] = False
+            opener = np.zeros(L, dtype=bool)  # a quote at the start of a field: a quoted field begins there
+            opener[qline[(q == starts[qline]) | (prev == d)]] = True
+            on_clean = clean[qline]
+            delta = np.zeros(n + 1, dtype=np.int8)
+            delta[q[on_clean & is_open]] += 1
+            delta[q[on_clean & ~is_open] + 1] -= 1
+            inside = np.cumsum(delta[:n], dtype=np.int8)
+            clean |= ~opener  # quotes only inside unquoted fields: kept as written, one line one record
+            del qline, qcount, first_q, is_open, prev, ok_open, nxt, ok_close, ok, on_clean, delta
+        del q
+        self.clean = clean
+        self.opener = opener if d is not None else np.ones(L, dtype=bool)
+        if d is not None:
+            dmask = b == d
+            if inside is not None:
+                dmask &= inside == 0
+            self.nfields = (_count_per_line(dmask, starts) + 1).astype(np.int32)
+            del dmask
+        else:
+            self.nfields = np.zeros(L, dtype=np.int32)
+        del inside
+        self._find_header()
+
+    def _line_kinds(self, d) -> np.ndarray:
+        """Per line: 0 blank (white space and delimiters only), 1 holds a value, 2 doubtful (only quotes or
+        characters outside ASCII besides blanks: split in Python to tell)."""
+        b, starts, ends = self.b, self.starts, self.ends
+        content = _CONTENT.copy()
+        if d is not None:
+            content[d] = False
+        kind = content[b[np.minimum(starts, b.size - 1)]].astype(np.uint8)  # a value at the start of the line
+        kind[starts == ends] = 0
+        rest = np.flatnonzero((kind == 0) & (starts != ends))
+        if rest.size > 10_000:  # many lines to look into: all lines at once
+            has = np.logical_or.reduceat(content[b], starts)
+            maybe = np.logical_or.reduceat(_MAYBE[b], starts)
+            kind = np.where(has, 1, np.where(maybe, 2, 0)).astype(np.uint8)
+            kind[starts == ends] = 0
+            return kind
+        blanks = _BLANK_BYTES + (bytes([d]) if d is not None else b"")
+        data = self.data
+        for i in rest.tolist():
+            left = data[int(starts[i]):int(ends[i])].translate(None, blanks)
+            if left:
+                kind[i] = 1 if left.translate(None, _MAYBE_BYTES) else 2
+        return kind
+
+    def line(self, k: int) -> str:
+        return self.data[int(self.starts[k]):int(self.ends[k])].decode("utf-8")
+
+    def _find_header(self):
+        """The first non-blank record is the header."""
+        k = 0
+        for cand in np.flatnonzero(self.kind != 0).tolist():
+            if cand < k:
+                continue
+            k = cand
+            text = self.line(k)
+            thr = max(1, text.count(self.delimiter))
+            fields, used, problem = _parse_record(self.line, self.n_lines, k, self.delimiter, thr)
+            if problem is not None:
+                raise TestPointError(f"line {k + 1} (the header): {problem.split(';')[0]}", self.label)
+            if not _blank(fields):
+                self.header, self.header_row, self.body_first = fields, k + 1, k + used
+                return
+            k += used
+        raise TestPointError("the file is empty (only blank or comment lines, no header and no data)", self.label)
+
+    def body(self, used: list[int]) -> _Body:
+        """The data records, with the cells of the columns ``used``."""
+        width = len(self.header)
+        thr = max(1, width - 1)
+        L, first, delim = self.n_lines, self.body_first, self.delimiter
+        taken = np.zeros(L, dtype=bool)  # lines split in Python (or set aside)
+        py_lines: list[int] = []
+        py_fields: list[list[str]] = []
+        problems: list[tuple[int, str, str]] = []
+        # lines with odd quotes: record by record
+        next_free = first
+        for i in (np.flatnonzero(~self.clean[first:]) + first).tolist():
+            if i < next_free:
+                continue
+            if not self.opener[i]:  # quotes only inside unquoted fields: kept as written (csv rules)
+                fields, n_used, problem = self.line(i).split(delim), 1, None
+            else:
+                fields, n_used, problem = _parse_record(self.line, L, i, delim, thr)
+            taken[i:i + n_used] = True
+            next_free = i + n_used
+            if problem is not None:
+                problems.append((i + 1, _clip(self.line(i)), problem))
+            elif not _blank(fields):
+                py_lines.append(i)
+                py_fields.append(fields)
+        # clean lines: blank ones dropped; long or doubtful ones split in Python; the rest by the C parser
+        rest = np.zeros(L, dtype=bool)
+        rest[first:] = True
+        rest &= ~taken
+        blank = self.kind == 0
+        doubtful = self.kind == 2
+        wide = self.nfields > width
+        for i in np.flatnonzero(rest & (doubtful | wide)).tolist():
+            fields, problem = _single_line(self.line(i), delim)
+            if problem is not None:
+                problems.append((i + 1, _clip(self.line(i)), problem))
+            elif not _blank(fields):
+                py_lines.append(i)
+                py_fields.append(fields)
+        c_lines = np.flatnonzero(rest & ~blank & ~doubtful & ~wide)
+        c_cells = self._c_parse(c_lines, width, used)
+        if c_cells is None:  # the C parser disagreed with the measured lines: split them in Python too
+            for i in c_lines.tolist():
+                fields, problem = _single_line(self.line(i), delim)
+                if problem is not None:  # pragma: no cover - clean lines split
+                    problems.append((i + 1, _clip(self.line(i)), problem))
+                else:
+                    py_lines.append(i)
+                    py_fields.append(fields)
+            c_lines = c_lines[:0]
+            c_cells = {j: np.zeros(0, dtype=object) for j in used}
+        if not py_lines:
+            return _Body(rows=c_lines.astype(np.int64) + 1, nfields=self.nfields[c_lines].astype(np.int64),
+                         cells=c_cells, wide={}, problems=problems)
+        py_body = _body_from_records(py_fields, [i + 1 for i in py_lines], width, used, delim)
+        lines = np.concatenate([c_lines.astype(np.int64), np.asarray(py_lines, dtype=np.int64)])
+        order = np.argsort(lines, kind="stable")
+        nfields = np.concatenate([self.nfields[c_lines].astype(np.int64), py_body.nfields])[order]
+        cells = {j: np.concatenate([c_cells[j], py_body.cells[j]])[order] for j in used}
+        where = np.empty_like(order)
+        where[order] = np.arange(order.size)
+        wide_text = {int(where[c_lines.size + k]): text for k, text in py_body.wide.items()}
+        return _Body(rows=lines[order] + 1, nfields=nfields, cells=cells, wide=wide_text, problems=problems)
+
+    def _c_parse(self, c_lines: np.ndarray, width: int, used: list[int]):
+        """Cells of the clean lines ``c_lines`` (columns ``used``) split by pandas' C parser; None if it disagrees.
+
+        When every line of the file is clean and none is longer than the header, the whole file goes to the
+        parser as it is (one row per line, no copy) and the rows of ``c_lines`` are taken from the result;
+        otherwise the bytes of those lines are gathered first.
+        """
+        if c_lines.size == 0:
+            return {j: np.zeros(0, dtype=object) for j in used}
+        b, n = self.b, self.b.size
+        whole = bool(self.clean.all()) and int(self.nfields.max()) <= width
+        if whole:
+            chunk, expect = self.data, self.n_lines
+        else:
+            seg_end = np.minimum(self.ends[c_lines].astype(np.int64) + 1, n)
+            delta = np.zeros(n + 1, dtype=np.int8)
+            delta[self.starts[c_lines]] += 1
+            delta[seg_end] -= 1
+            keep = np.cumsum(delta[:n], dtype=np.int8).view(bool)
+            chunk, expect = b[keep].tobytes(), c_lines.size
+            del delta, keep
+        try:
+            frame = pd.read_csv(io.BytesIO(chunk), sep=self.delimiter, header=None, names=list(range(width)),
+                                usecols=used, index_col=False, dtype=object, na_filter=False,
+                                keep_default_na=False, skip_blank_lines=False, quotechar='"', doublequote=True,
+                                quoting=csv.QUOTE_MINIMAL, skipinitialspace=False, comment=None, engine="c",
+                                encoding="utf-8")
+        except (pd.errors.ParserError, ValueError):  # pragma: no cover - safety net
+            return None
+        del chunk
+        if len(frame) != expect:  # pragma: no cover - safety net
+            return None
+        if whole:
+            return {j: frame[j].to_numpy(dtype=object)[c_lines] for j in used}
+        return {j: frame[j].to_numpy(dtype=object) for j in used}
+
+
+# --------------------------------------------------------------------------------------------- Excel
 
 def _cell_text(v) -> str:
     if v is None:
@@ -762,11 +1683,12 @@ def _cell_text(v) -> str:
     return str(v)
 
 
-def _excel_records(data: bytes, sheet, label: str, max_bytes: int):
+def _excel_table(data: bytes, sheet, label: str, max_bytes: int, max_rows: int):
+    """Header, header row and :class:`_Body` of a worksheet (rows counted as they are read)."""
     try:
         with zipfile.ZipFile(io.BytesIO(data)) as zf:
             unpacked = sum(i.file_size for i in zf.infolist())
-    except (zipfile.BadZipFile, OSError, ValueError):
+    except (zipfile.BadZipFile, OSError, ValueError, EOFError):
         raise TestPointError("not a readable .xlsx file (the zip container is damaged)", label) from None
     if unpacked > 10 * max_bytes:
         raise TestPointError(_too_large(unpacked, 10 * max_bytes) + " (unpacked .xlsx)", label)
@@ -774,7 +1696,7 @@ def _excel_records(data: bytes, sheet, label: str, max_bytes: int):
         import openpyxl
         wb = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=True)
     except Exception as exc:
-        raise TestPointError(f"not a readable .xlsx file ({type(exc).__name__}: {exc})", label) from None
+        raise TestPointError(f"not a readable .xlsx file ({type(exc).__name__}: {_clip(exc)})", label) from None
     try:
         if isinstance(sheet, int):
             if not 0 <= sheet < len(wb.worksheets):
@@ -783,7 +1705,7 @@ def _excel_records(data: bytes, sheet, label: str, max_bytes: int):
             ws = wb.worksheets[sheet]
         else:
             if sheet not in wb.sheetnames:
-                raise TestPointError(f"no sheet {sheet!r}; sheets are {', '.join(map(repr, wb.sheetnames))}", label)
+                raise TestPointError(f"no sheet {_clip(sheet)!r}; sheets are {_listing(wb.sheetnames)}", label)
             ws = wb[sheet]
         records, rows = [], []
         for r, values in enumerate(ws.iter_rows(min_row=1, values_only=True), start=1):
@@ -792,15 +1714,26 @@ def _excel_records(data: bytes, sheet, label: str, max_bytes: int):
                 cells.pop()
             if not cells or not any(c.strip() for c in cells) or cells[0].lstrip().startswith("#"):
                 continue
+            if len(records) > max_rows:
+                raise TestPointError(f"the sheet has more than {max_rows:,} data rows, the limit; split it, or "
+                                     "raise max_rows", label)
             records.append(cells)
             rows.append(r)
     except TestPointError:
         raise
     except Exception as exc:
-        raise TestPointError(f"cannot read the worksheet ({type(exc).__name__}: {exc})", label) from None
+        raise TestPointError(f"cannot read the worksheet ({type(exc).__name__}: {_clip(exc)})", label) from None
     finally:
         wb.close()
-    return records, rows
+    if not records:
+        raise TestPointError("the file is empty (only blank or comment lines, no header and no data)", label)
+    header = records[0]
+    if len(header) > MAX_COLUMNS:
+        raise TestPointError(f"the header (row {rows[0]}) has {len(header):,} columns, more than the limit of "
+                             f"{MAX_COLUMNS:,}; is this a test-point file?", label)
+    width = len(header)
+    body = _body_from_records(records[1:], rows[1:], width, range(width), ", ")
+    return header, rows[0], body
 
 
 # --------------------------------------------------------------------------------------------- other tools
@@ -840,7 +1773,8 @@ def template_text() -> str:
         "# Units go in the header, in [brackets]: flows e.g. mL/min, L/min, m^3/s; gas flow may be sccm or slpm\n"
         "# (then give the local pressure and temperature when reading). residual_acceleration in g0 or m/s^2,\n"
         "# low_g_duration in s. Only liquid_flow and gas_flow are required; delete unused columns.\n"
-        f"# platform names: see `lowgmap.physics.studies.platforms.platform_names()`.\n"
+        f"# platform: a built-in class (see `lowgmap.physics.studies.platforms.platform_names()`), or the name of\n"
+        "# your own facility with residual_acceleration and low_g_duration given on each of its rows.\n"
         f"{TEMPLATE_HEADER}\n")
 
 
