@@ -197,7 +197,9 @@ def test_custom_boundaries_with_units_are_converted_and_checked():
     from lowgmap.physics.models.boundary import case_boundaries
     from lowgmap.physics.chart.composition import Chart
 
-    text = GOOD + '''
+    # models_replace_defaults: this chart is the rig's own lines only (merged onto the tube defaults, the
+    # tube regimes would join "few bubbles" / "many bubbles")
+    text = "models_replace_defaults = true\n" + GOOD + '''
 [[models]]
 name = "rig_line"
 
@@ -324,3 +326,35 @@ def test_problems_are_listed_up_to_a_limit_with_short_values():
     assert len(problems) == MAX_PROBLEMS + 1
     assert problems[-1].message.startswith("200 more problem(s) not listed")
     assert max(len(str(p)) for p in problems) < 600                           # a 500-character value is cut
+
+
+
+_ONE_CONSTANT = '''
+[[models]]
+name = "slug_annular_dukler_1988"
+constants = { alpha_c = 0.7 }
+'''
+
+
+def test_one_listed_model_merges_onto_the_default_set():
+    # catches the old behaviour: listing one model to change one constant silently dropped every other
+    # default line (the chart lost its bubble-slug boundary)
+    from lowgmap.physics.chart.composition import Chart, default_models
+
+    plain = loads_case(GOOD)
+    doc = loads_case(GOOD + _ONE_CONSTANT)
+    names = [m.name for m in doc.case.models]
+    assert names[0] == "slug_annular_dukler_1988" and doc.case.models[0].param_dict == {"alpha_c": 0.7}
+    assert set(names) == set(default_models(plain.case))            # the rest of the default set is kept
+    assert all(m.param_dict == {} for m in doc.case.models[1:])       # ... with their default constants
+    chart, base = Chart.build(doc.case), Chart.build(plain.case)
+    assert chart.regime_names == base.regime_names
+    used = {m.name: dict(c) for m, c in list(chart.region_models) + list(chart.comparison_models)}
+    assert used["slug_annular_dukler_1988"]["alpha_c"] == 0.7
+    assert used["bubble_slug_dukler_1988"] == {m.name: dict(c) for m, c in base.region_models}["bubble_slug_dukler_1988"]
+
+
+def test_models_replace_defaults_uses_exactly_the_listed_set():
+    doc = loads_case("models_replace_defaults = true\n" + GOOD + _ONE_CONSTANT)
+    assert [m.name for m in doc.case.models] == ["slug_annular_dukler_1988"]
+    assert "models_replace_defaults" in " ".join(map(str, _problems("models_replace_defaults = \"yes\"\n" + GOOD + _ONE_CONSTANT)))

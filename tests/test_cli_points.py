@@ -52,7 +52,9 @@ def test_compare_text_and_criteria_options(capsys):
     assert code == 0
     assert "Confusion matrix, valid points" in out and "Disagreeing points by boundary" in out
     assert "Bond number < 0.5" in out and "low-g time >= 1 x required" in out
-    assert "'annular' (6)" in out                                   # unmapped labels are listed
+    assert "'slug-annular transition' (4)" in out                   # unmapped labels are listed
+    assert "Rows set aside:" in out and "no chart regime matches its words" in out   # and why rows were set aside
+    assert "[1] dispersed bubbles; [2] elongated bubbles / slugs; [3] annular (gas core)" in out  # header key, not cut
     assert "Preliminary design aid" in out
 
 
@@ -126,7 +128,9 @@ def test_calibrate_keeps_test_point_files_reachable(capsys, tmp_path):
 @pytest.mark.parametrize("argv,needle", [
     (["--fit", "no_such_model.alpha_c"], "unknown model 'no_such_model'"),
     (["--fit", f"{BS}.alpha_x"], "has no constant 'alpha_x'"),
-    (["--fit", "slug_annular_dukler_1988.alpha_c"], "no valid test points observed as 'annular (gas core)'"),
+    # the sample labels its annular points "annular (gas core)" now; mapped away, none is left on that side
+    (["--fit", "slug_annular_dukler_1988.alpha_c", "--map", "annular (gas core)=annular"],
+     "no valid test points observed as 'annular (gas core)'"),
     (["--fit", f"{BS}.alpha_c", "--empirical", "a|b"], "either --fit"),
     ([], "either --fit"),
     (["--empirical", "dispersed bubbles"], "two different names"),
@@ -153,3 +157,47 @@ def test_file_errors(capsys, tmp_path):
 def test_helpers():
     assert next_revision("A") == "B" and next_revision("Z") == "AA" and next_revision("B9") == "B10"
     assert parse_regime_map(["a = b=c"]) == {"a": "b=c"}
+
+
+def test_calibration_that_moves_the_operating_point_says_so(capsys, tmp_path):
+    # the sample calibration moves the bubble-slug line past the operating point (3 L/min water, 400 sccm air):
+    # the change must be stated on screen, in the JSON and in the [[history]] entry of revision B
+    import tomllib
+
+    new = tmp_path / "calibrated.toml"
+    code, out, _ = run(capsys, "calibrate", CASE, POINTS, *SHORT, "--fit", f"{BS}.alpha_c", "-o", str(new))
+    assert code == 0
+    assert "The operating point moves from dispersed bubbles in revision A to elongated bubbles / slugs in " \
+           "revision B" in out
+    assert "NOT MET in revision B" in out
+    hist = tomllib.loads(new.read_text(encoding="utf-8"))["history"][-1]
+    assert "The operating point moves from dispersed bubbles" in hist["change"]
+    assert hist["verdict_before"].startswith("dispersed bubbles") and "met" in hist["verdict_before"]
+    assert hist["verdict_after"].startswith("elongated bubbles / slugs") and "NOT MET" in hist["verdict_after"]
+    code, out, _ = run(capsys, "calibrate", CASE, POINTS, *SHORT, "--fit", f"{BS}.alpha_c", "--json")
+    d = json.loads(out)
+    assert d["verdict_before"]["regime"] == "dispersed bubbles" and d["verdict_after"]["margin_status"] == "NOT MET"
+    assert d["verdict_change"].startswith("The operating point moves")
+
+
+
+def test_bundled_points_need_no_label_map(capsys):
+    # the tube samples' labels are chart regimes (only the transitional label is set aside, by name);
+    # the invented corner points use the corner chart's regime names
+    d = json.loads(run(capsys, "compare", CASE, POINTS, "--json")[1])
+    assert d["unknown_labels"] == [{"label": "slug-annular transition", "count": 4}]
+    wedge = str(sample_case_path("wedge_separator").parent)
+    d = json.loads(run(capsys, "compare", wedge + "/wedge_separator.toml", wedge + "/wedge_points.csv", "--json")[1])
+    assert d["unknown_labels"] == [] and d["n_points"] == 15
+    assert d["compared_all"] == 15
+
+
+def test_robust_text_states_the_search_range_and_caveats(capsys):
+    code, out, _ = run(capsys, "robust", CASE, "--regime", "dispersed bubbles")
+    assert code == 0
+    assert "a decade either side of the operating point" in out
+    assert "Caveats:" in out and "edge of the searched range" in out
+    with pytest.raises(SystemExit):
+        main(["robust", "--help"])
+    out = " ".join(capsys.readouterr().out.split())
+    assert "default: chart range" not in out and "default: a decade either side" in out

@@ -79,3 +79,31 @@ def test_public_api_names_resolve():
     assert "point_margins" in dir(lowgmap)
     with pytest.raises(AttributeError, match="no attribute 'nope'"):
         lowgmap.nope
+
+
+def _readme_case_files():
+    """Every ```toml block of the README that is a whole case file (it has a [fluid] table); fragments
+    (history entries, sweep files) are skipped."""
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    blocks = re.findall(r"```toml\n(.*?)\n```", text, flags=re.S)
+    return [b for b in blocks if re.search(r"(?m)^\[fluid\]", b)]
+
+
+def test_readme_case_files_load_and_give_a_margin(tmp_path, capsys):
+    # catches a README example with a constant name the reader refuses (it once used
+    # `critical_void_fraction`; the real name is `alpha_c`), or any other key that does not load
+    import json
+
+    from lowgmap.app.cli import main
+
+    blocks = _readme_case_files()
+    assert blocks                                            # the case-file example is found
+    for i, block in enumerate(blocks):
+        assert "[test_points]" not in block                  # an example with files would need them beside it
+        path = tmp_path / f"block_{i}.toml"
+        path.write_text(block + "\n", encoding="utf-8")
+        code = main(["margin", str(path), "--json"])
+        out, err = capsys.readouterr()
+        assert code == 0, (i, err)
+        d = json.loads(out)
+        assert d["regime"] and d["verdict"]["margin_status"] in ("met", "NOT MET", "not established"), i

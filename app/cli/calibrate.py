@@ -16,7 +16,8 @@ from lowgmap.app import CAUTION
 from lowgmap.app.cli.common import clean, emit, load_case_file
 from lowgmap.app.cli.points import (add_point_arguments, criteria_from_args, folds_value, load_points,
                                     parse_regime_map)
-from lowgmap.app.files.revisions import calibrated_document, document_with_boundary, relocate_test_points
+from lowgmap.app.files.revisions import (calibrated_document, document_with_boundary, operating_verdict,
+                                         relocate_test_points, verdict_change, verdict_words)
 from lowgmap.app.outputs.formatting import format_share
 from lowgmap.app.cli import common
 
@@ -76,20 +77,56 @@ def run(args) -> int:
         out.update({"case": args.case, "points_file": args.points, "revision_before": doc.case.revision,
                     "written": str(written[0]) if written else None,
                     "revision_after": written[1] if written else None})
-        emit(args, clean(out), _format_calibration(doc, cal, args.points, written))
+        change = _verdicts(doc, cal.chart_before, cal.chart_after, written[1] if written else None)
+        out.update(change)
+        emit(args, clean(out), _format_calibration(doc, cal, args.points, written, change))
         return 0
     with common.input_errors():
         fit = fit_empirical_boundary(chart, tps, args.empirical, name=args.name, source=name, **kw)
+    from lowgmap.app.files.revisions import _chart_of
+
     written = None
+    data, rev, bname = document_with_boundary(doc, fit, chart, points_name=name)
     if args.output is not None:
-        data, rev, bname = document_with_boundary(doc, fit, chart, points_name=name)
         written = (_write(data, args, doc), rev, bname)
     out = fit.to_dict()
     out.update({"case": args.case, "points_file": args.points, "revision_before": doc.case.revision,
                 "written": str(written[0]) if written else None, "revision_after": written[1] if written else None,
                 "boundary_name": written[2] if written else fit.name})
-    emit(args, clean(out), _format_empirical(doc, fit, args.points, written))
+    change = _verdicts(doc, chart, _chart_of(data, doc), written[1] if written else None)
+    out.update(change)
+    emit(args, clean(out), _format_empirical(doc, fit, args.points, written, change))
     return 0
+
+
+def _verdicts(doc, chart_before, chart_after, rev_after) -> dict:
+    """The verdict at the operating point before and after, and the sentence when it changes."""
+    from lowgmap.app.files.revisions import next_revision
+
+    rev_after = rev_after or next_revision(str(doc.case.revision))
+    try:
+        vb = operating_verdict(doc, chart_before)
+        va = operating_verdict(doc, chart_after) if chart_after is not None else None
+    except ValueError:
+        vb = va = None
+    return {"verdict_before": vb.to_dict() if vb is not None else None,
+            "verdict_after": va.to_dict() if va is not None else None,
+            "verdict_before_text": verdict_words(vb) if vb is not None else None,
+            "verdict_after_text": verdict_words(va) if va is not None else None,
+            "verdict_change": verdict_change(vb, va, str(doc.case.revision), rev_after) or None}
+
+
+def _verdict_lines(doc, change) -> list[str]:
+    if change.get("verdict_before_text") is None:
+        return []
+    lines = [f"  operating point, revision {doc.case.revision}: {change['verdict_before_text']}"]
+    if change.get("verdict_after_text") is not None:
+        lines.append(f"  operating point, new revision: {change['verdict_after_text']}")
+    if change.get("verdict_change"):
+        lines.append(change["verdict_change"])
+    else:
+        lines.append("  The regime and the margin verdict at the operating point do not change.")
+    return lines
 
 
 def _write(data, args, doc) -> Path:
@@ -105,7 +142,7 @@ def _write(data, args, doc) -> Path:
     return out
 
 
-def _format_calibration(doc, cal, points_path, written) -> str:
+def _format_calibration(doc, cal, points_path, written, change=None) -> str:
     lines = [f"Calibration of {doc.case.title} (revision {doc.case.revision}) against {cal.n_points} test point(s) "
              f"from {Path(points_path).name}"]
     for c in cal.constants:
@@ -122,6 +159,7 @@ def _format_calibration(doc, cal, points_path, written) -> str:
                      f"-> {share(cal.check_after.fraction_valid)}")
     for w in cal.warnings:
         lines.append(f"  note: {w}")
+    lines += _verdict_lines(doc, change or {})
     if written:
         lines.append(f"Wrote {written[0]} (revision {written[1]}; revision {doc.case.revision} kept in [[history]])")
     else:
@@ -130,7 +168,7 @@ def _format_calibration(doc, cal, points_path, written) -> str:
     return "\n".join(lines)
 
 
-def _format_empirical(doc, fit, points_path, written) -> str:
+def _format_empirical(doc, fit, points_path, written, change=None) -> str:
     lines = [f"Empirical boundary for {doc.case.title} (revision {doc.case.revision}) from {Path(points_path).name}: "
              f"{fit.regime_below} (below) | {fit.regime_above} (above)",
              f"  Q_G = a Q_L^b (SI, m^3/s): a = {fit.a:.4g} (95 % [{fit.a_interval[0]:.4g}, {fit.a_interval[1]:.4g}]), "
@@ -140,6 +178,7 @@ def _format_empirical(doc, fit, points_path, written) -> str:
              f"  liquid flow range of the points: {fit.ql_range[0]:.4g} to {fit.ql_range[1]:.4g} m^3/s"]
     for w in fit.warnings:
         lines.append(f"  note: {w}")
+    lines += _verdict_lines(doc, change or {})
     if written:
         lines.append(f"Wrote {written[0]} (revision {written[1]}, boundary {written[2]}; revision "
                      f"{doc.case.revision} kept in [[history]])")

@@ -6,6 +6,7 @@ points by boundary, all from :func:`lowgmap.physics.studies.agreement.agreement`
 """
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 from lowgmap.app import CAUTION
@@ -14,7 +15,7 @@ from lowgmap.app.cli.common import clean, emit, load_case_file
 from lowgmap.app.cli.points import add_point_arguments, criteria_from_args, load_points, parse_regime_map
 from lowgmap.app.outputs.formatting import format_share
 
-__all__ = ["add_arguments", "run", "compare_report", "format_compare"]
+__all__ = ["add_arguments", "run", "compare_report", "format_compare", "format_confusion", "set_aside_lines"]
 
 
 def add_arguments(parser) -> None:
@@ -67,22 +68,17 @@ def format_compare(doc, tps, res, points_path) -> str:
         lines.append(f"  {p.test_id:<10} {convert(p.ql, 'flow', ul):13.4g} {convert(p.qg, 'flow', ug):13.4g} "
                      f"{p.bond:9.3g} {c.safety_factor * p.t_required:10.3g} {p.duration:9.3g}  "
                      f"{'yes' if p.valid else 'no ':<5}  {obs} -> {p.predicted}{mark}")
-    invalid = [p for p in res.points if not p.valid]
-    if invalid:
-        lines.append("Why points are not valid:")
-        for p in invalid:
-            for r in p.reasons:
-                lines.append(f"  {p.test_id}: {r}")
     lines.append(f"Agreement with the chart: {format_share(res.fraction_valid)} of {res.confusion_valid.compared} "
                  f"valid point(s); {format_share(res.fraction_all)} of {res.confusion_all.compared} point(s) in all")
-    lines.append("Confusion matrix, valid points (rows observed, columns chart):")
-    lines += ["  " + ln for ln in res.confusion_valid.format().splitlines()]
+    lines.append("Confusion matrix, valid points (rows observed, columns chart; column key below):")
+    lines += ["  " + ln for ln in format_confusion(res.confusion_valid).splitlines()]
     lines.append("Confusion matrix, all points:")
-    lines += ["  " + ln for ln in res.confusion_all.format().splitlines()]
+    lines += ["  " + ln for ln in format_confusion(res.confusion_all).splitlines()]
     if res.unknown_labels:
         lines.append("Observed labels that are not chart regimes (map them with --map \"LABEL=REGIME\"): "
                      + ", ".join(f"{k!r} ({n})" for k, n in res.unknown_labels)
                      + f". Chart regimes: {'; '.join(res.regimes)}")
+    lines += set_aside_lines(tps, res)
     if res.by_boundary:
         lines.append("Disagreeing points by boundary (log distance to the line in decades):")
         for b in res.by_boundary:
@@ -93,3 +89,60 @@ def format_compare(doc, tps, res, points_path) -> str:
                              f"{q.log_distance:.3g} decade{'' if q.valid else '; point not valid'}{how}")
     lines += ["", CAUTION]
     return "\n".join(lines)
+
+
+
+def format_confusion(cm) -> str:
+    """A confusion matrix as text with numbered chart columns and a key, so no regime name is cut.
+
+    >>> from lowgmap.physics.studies.agreement import confusion_matrix
+    >>> print(format_confusion(confusion_matrix(["a", "b"], ["a", "a"], ["a", "b"])))
+    observed \\ chart  [1]  [2]
+    a                  1    0
+    b                  1    0
+    [1] a; [2] b
+    """
+    head = "observed \\ chart"
+    first = max([len(head)] + [len(o) for o in cm.observed]) + 2
+    width = max([3 + len(str(len(cm.predicted)))] + [len(str(c)) for r in cm.counts for c in r]) + 2
+    cols = [f"[{i}]" for i in range(1, len(cm.predicted) + 1)]
+    lines = [head.ljust(first) + "".join(c.rjust(width) for c in cols).rstrip()]
+    for o, r in zip(cm.observed, cm.counts):
+        lines.append(o.ljust(first) + "".join(str(c).rjust(width) for c in r))
+    lines.append("; ".join(f"{c} {p}" for c, p in zip(cols, cm.predicted)))
+    return "\n".join(lines)
+
+
+def set_aside_lines(tps, res) -> list[str]:
+    """Why rows of the file are left out of the comparison: rows not read (with the reader's reason), points
+    not valid for their platform (with the reasons) and labels that are not chart regimes (with the ``--map``
+    that would fix them, when a regime matches the label's words)."""
+    from lowgmap.app.outputs.report import suggest_regime
+
+    out = []
+    rejected = list(tps.rejected_rows)
+    invalid = [p for p in res.points if not p.valid]
+    unknown = [p for p in res.points if p.observed and p.agrees is None]
+    if not (rejected or invalid or unknown):
+        return ["Rows set aside: none"]
+    out.append(f"Rows set aside: {len(rejected)} not read, {len(invalid)} not valid for their platform, "
+               f"{len(unknown)} with a label that is not a chart regime")
+    if rejected:
+        out.append("  Not read from the file:")
+        problems = [str(q) for q in tps.problems]
+        for row in rejected:
+            why = [q for q in problems if re.search(rf"\b(row|line) {row}\b", q)]
+            out += [f"    {q}" for q in why] or [f"    file row {row}: row not read"]
+    if invalid:
+        out.append("  Not valid for their platform (compared in 'all points' only):")
+        for p in invalid:
+            out.append(f"    {p.test_id}: " + "; ".join(p.reasons))
+    if unknown:
+        out.append("  Label not a chart regime (not compared):")
+        for label, n in res.unknown_labels:
+            ids = [p.test_id for p in unknown if p.observed == label]
+            fix = suggest_regime(label, res.regimes)
+            how = (f'fix: --map "{label}={fix}"' if fix else
+                   f'no chart regime matches its words; map it by hand with --map "{label}=REGIME"')
+            out.append(f"    {label!r} ({n}: {', '.join(ids)}): {how}")
+    return out

@@ -15,8 +15,11 @@ __all__ = ["add_arguments", "run"]
 def add_arguments(parser) -> None:
     parser.add_argument("--regime", required=True, metavar="NAME", help="regime name as shown on the chart")
     parser.add_argument("--ql-range", nargs=2, metavar=("LOW", "HIGH"),
-                        help="allowed liquid flow (default: chart range)")
-    parser.add_argument("--qg-range", nargs=2, metavar=("LOW", "HIGH"), help="allowed gas flow (default: chart range)")
+                        help="liquid flows searched (default: a decade either side of the operating point, "
+                             "Q_L/10 to 10 Q_L; the chart range when the case has no operating point)")
+    parser.add_argument("--qg-range", nargs=2, metavar=("LOW", "HIGH"),
+                        help="gas flows searched (default: a decade either side of the operating point, "
+                             "Q_G/10 to 10 Q_G; the chart range when the case has no operating point)")
 
 
 def run(args) -> int:
@@ -46,6 +49,15 @@ def run(args) -> int:
                      + "; ".join(lims.get(n, n) for n in rp.limiting))
     else:
         lines.append(f"  symmetric margin at least ±{format_percent(rp.margin)} (no boundary comes closer)")
+    lines.append(f"  {rp.search_note}")
+    if not rp.established:
+        lines.append("  Margin NOT ESTABLISHED:")
+        lines += [f"    - {r}" for r in rp.reasons]
+    if rp.outside_chart:
+        lines.append(f"  Outside the chart: {rp.outside_chart_note}")
+    if rp.caveats:
+        lines.append("  Caveats:")
+        lines += [f"    - {c}" for c in rp.caveats]
     lines.append(CAUTION)
     emit(args, clean(data), "\n".join(lines))
     return 0

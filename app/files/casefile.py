@@ -566,8 +566,8 @@ def _build_custom_boundaries(col: ProblemCollector, data: dict) -> tuple:
 
 
 _TOP_KEYS = {"schema_version", "title", "revision", "author", "description", "invented", "fluid", "section",
-             "wetting", "conduit", "chart", "operating_point", "models", "custom_boundaries", "test_points",
-             "history"}
+             "wetting", "conduit", "chart", "operating_point", "models", "models_replace_defaults",
+             "custom_boundaries", "test_points", "history"}
 
 
 def build_case(data: dict, *, text: str = "", base_dir: Path | None = None, source: str = "case"
@@ -629,6 +629,11 @@ def build_case(data: dict, *, text: str = "", base_dir: Path | None = None, sour
             intended_regime=settings.intended_regime or "" if settings is not None else ""))
     if case is not None and models:
         _check_models(col, case, models)
+        replace = plain.get("models_replace_defaults", False)
+        if not isinstance(replace, bool):
+            col.add("models_replace_defaults", "must be true or false", replace)
+        elif not replace and not col.problems:
+            case = col.run("models", lambda: _merged_onto_defaults(case, models))
     if case is not None:
         from lowgmap.physics.studies.uncertainty import POINT_TARGETS, nominal_value
 
@@ -641,6 +646,23 @@ def build_case(data: dict, *, text: str = "", base_dir: Path | None = None, sour
         raise CaseFileError(col.listed(), source)
     return CaseDocument(data=data, case=case, settings=settings, uncertainties=uncertainties,
                         test_point_files=tuple(files), text=text, invented=bool(plain.get("invented", False)))
+
+
+def _merged_onto_defaults(case, models):
+    """The case with its listed [[models]] merged onto the section's default set.
+
+    A listed model keeps its place and its constants (constants it does not give keep their defaults);
+    the default models it does not name follow, in their default order. So listing one model to change
+    one constant keeps the rest of the default set; ``models_replace_defaults = true`` in the file uses
+    exactly the listed models instead.
+    """
+    import dataclasses
+
+    from lowgmap.physics.chart.composition import default_models
+
+    listed = {m.name for m in models}
+    extra = tuple(ModelChoice.of(n) for n in default_models(case) if n not in listed)
+    return dataclasses.replace(case, models=tuple(models) + extra) if extra else case
 
 
 def _check_models(col: ProblemCollector, case, models) -> None:

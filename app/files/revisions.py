@@ -3,6 +3,9 @@
 Changing a case's boundary-model constants (a calibration against test points) or adding an
 empirical boundary keeps the previous revision on record: the constants in force before, the custom
 boundaries and the date go to a ``[[history]]`` entry, and the revision letter moves on (A -> B).
+When the new revision moves the operating point into another regime or changes its margin verdict
+(:func:`lowgmap.physics.chart.margins.margin_verdict`), the entry's ``change`` text says so and the
+entry carries ``verdict_before`` and ``verdict_after``.
 The functions here return a changed *copy* of the case document (tomlkit, comments kept); the caller
 checks it (:func:`lowgmap.app.files.casefile.loads_case`) and writes it
 (:func:`lowgmap.app.files.casefile.save_case`). Used by ``lowgmap calibrate`` and the dashboard.
@@ -14,7 +17,8 @@ import os
 import re
 from pathlib import Path
 
-__all__ = ["next_revision", "calibrated_document", "document_with_boundary", "relocate_test_points"]
+__all__ = ["next_revision", "calibrated_document", "document_with_boundary", "relocate_test_points",
+           "operating_verdict", "verdict_words", "verdict_change"]
 
 
 def next_revision(rev: str) -> str:
@@ -79,7 +83,7 @@ def _ensure_models(data, chart):
     return models
 
 
-def _history_entry(data, chart, change: str, date, custom_names):
+def _history_entry(data, chart, change: str, date, custom_names, verdicts=("", "")):
     """Append the previous revision (its model constants, custom lines, date) to [[history]]."""
     import tomlkit
 
@@ -87,6 +91,9 @@ def _history_entry(data, chart, change: str, date, custom_names):
     entry["revision"] = str(data.get("revision", "A"))
     entry["date"] = date
     entry["change"] = change
+    if verdicts[0] or verdicts[1]:
+        entry["verdict_before"] = verdicts[0]
+        entry["verdict_after"] = verdicts[1]
     arr = tomlkit.array()
     arr.multiline(True)
     for m, consts in _chart_models(chart):
@@ -114,12 +121,91 @@ def _custom_names(data) -> list[str]:
     return [str(b.get("name", "")) for b in (data.get("custom_boundaries") or [])]
 
 
-def _new_revision(data, chart, change: str, date=None, custom_names=()) -> str:
+def _new_revision(data, chart, change: str, date=None, custom_names=(), verdicts=("", "")) -> str:
     old = str(data.get("revision", "A"))
     new = next_revision(old)
-    _history_entry(data, chart, change, date or _dt.date.today(), custom_names)
+    _history_entry(data, chart, change, date or _dt.date.today(), custom_names, verdicts)
     data["revision"] = new
     return new
+
+
+def operating_verdict(doc, chart):
+    """The verdict at the case's operating point on ``chart`` (None without an operating point or regimes).
+
+    Uses the case's required margin and intended regime (an intended regime the chart does not have is
+    left out), through :func:`lowgmap.physics.chart.margins.margin_verdict` as every output does.
+    """
+    from lowgmap.physics.chart.margins import margin_verdict, point_margins
+
+    op = getattr(doc.case, "operating_point", None)
+    if op is None or not chart.regime_names:
+        return None
+    settings = getattr(doc, "settings", None)
+    intended = doc.case.intended_regime or getattr(settings, "intended_regime", None) or None
+    if intended not in chart.regime_names:
+        intended = None
+    required = getattr(settings, "required_margin", 0.0) or 0.0
+    return margin_verdict(point_margins(chart, op.ql, op.qg), required, intended)
+
+
+def verdict_words(v) -> str:
+    """A verdict in one line of words: regime, intended-regime status, margin against the requirement."""
+    from lowgmap.app.outputs.formatting import format_percent
+
+    if v is None:
+        return "no verdict (no operating point or no regimes)"
+    parts = [v.regime or "regime not determined"]
+    if v.intended_regime is not None:
+        parts.append(v.regime_status)
+    parts.append(f"margin ±{format_percent(v.margin)}, required ±{format_percent(v.required)} {v.margin_status}")
+    return "; ".join(parts)
+
+
+def verdict_change(before, after, rev_before: str, rev_after: str) -> str:
+    """One sentence when the regime or the verdict at the operating point changes between revisions, else "".
+
+    >>> from types import SimpleNamespace as V
+    >>> a = V(regime="bubbles", regime_status="in the intended regime", margin_status="met", intended_regime="bubbles",
+    ...       margin=0.4, required=0.3)
+    >>> b = V(regime="slugs", regime_status="NOT IN THE INTENDED REGIME", margin_status="NOT MET",
+    ...       intended_regime="bubbles", margin=-0.1, required=0.3)
+    >>> verdict_change(a, b, "A", "B")  # doctest: +NORMALIZE_WHITESPACE
+    'The operating point moves from bubbles in revision A to slugs in revision B: NOT IN THE INTENDED REGIME,
+     required margin ±30 % NOT MET in revision B (was: in the intended regime, met).'
+    >>> verdict_change(a, a, "A", "B")
+    ''
+    """
+    if before is None or after is None:
+        return ""
+    same_regime = before.regime == after.regime
+    if same_regime and (before.margin_status, before.regime_status) == (after.margin_status, after.regime_status):
+        return ""
+    from lowgmap.app.outputs.formatting import format_percent
+
+    req = format_percent(after.required)
+    now = ([after.regime_status] if after.intended_regime is not None else []) + \
+        [f"required margin ±{req} {after.margin_status}"]
+    was = ([before.regime_status] if before.intended_regime is not None else []) + [before.margin_status]
+    if same_regime:
+        head = (f"The operating point stays in {after.regime or 'an undetermined regime'} but its verdict changes "
+                f"(margin ±{format_percent(before.margin)} -> ±{format_percent(after.margin)})")
+    else:
+        head = (f"The operating point moves from {before.regime or 'an undetermined regime'} in revision "
+                f"{rev_before} to {after.regime or 'an undetermined regime'} in revision {rev_after}")
+    return f"{head}: {', '.join(now)} in revision {rev_after} (was: {', '.join(was)})."
+
+
+def _record_verdicts(doc, chart_before, chart_after, rev_before, rev_after):
+    """(change sentence, verdict_before words, verdict_after words) for the history entry."""
+    if chart_before is None or chart_after is None:
+        return "", "", ""
+    try:
+        vb, va = operating_verdict(doc, chart_before), operating_verdict(doc, chart_after)
+    except ValueError:
+        return "", "", ""
+    if vb is None or va is None:
+        return "", "", ""
+    return verdict_change(vb, va, rev_before, rev_after), verdict_words(vb), verdict_words(va)
 
 
 def relocate_test_points(data, old_path, new_path) -> None:
@@ -183,7 +269,10 @@ def calibrated_document(doc, cal, *, points_name: str = "", date=None):
         ints = "; ".join(f"{c.name} 95 % [{c.interval[0]:.4g}, {c.interval[1]:.4g}]" for c in cal.constants
                          if c.model == name)
         consts.comment(f"fitted in revision {new} to {cal.n_points} test points ({cal.interval_method}: {ints})")
-    _new_revision(data, cal.chart_before, change, date, before)
+    note, vb, va = _record_verdicts(doc, cal.chart_before, cal.chart_after, str(doc.case.revision), new)
+    if note:
+        change += ". " + note
+    _new_revision(data, cal.chart_before, change, date, before, (vb, va))
     return data, new
 
 
@@ -245,5 +334,21 @@ def document_with_boundary(doc, fit, chart, *, points_name: str = "", date=None)
         data["custom_boundaries"] = tomlkit.aot()
         cb = data["custom_boundaries"]
     cb.append(t)
-    _new_revision(data, chart, change, date, before)
+    note, vb, va = _record_verdicts(doc, chart, _chart_of(data, doc), str(doc.case.revision), new)
+    if note:
+        change += ". " + note
+    _new_revision(data, chart, change, date, before, (vb, va))
     return data, new, name
+
+
+def _chart_of(data, doc):
+    """The chart of a changed case document (None when it does not load)."""
+    from lowgmap.physics.chart.composition import Chart
+
+    from lowgmap.app.files.casefile import dumps_case, loads_case
+
+    base = Path(doc.path).resolve().parent if getattr(doc, "path", None) else None
+    try:
+        return Chart.build(loads_case(dumps_case(data), base_dir=base).case)
+    except (ValueError, OSError):
+        return None
