@@ -83,7 +83,7 @@ def run(args) -> int:
         return 0
     with common.input_errors():
         fit = fit_empirical_boundary(chart, tps, args.empirical, name=args.name, source=name, **kw)
-    from lowgmap.app.files.revisions import _chart_of
+    from lowgmap.app.files.revisions import chart_of_document
 
     written = None
     data, rev, bname = document_with_boundary(doc, fit, chart, points_name=name)
@@ -93,7 +93,7 @@ def run(args) -> int:
     out.update({"case": args.case, "points_file": args.points, "revision_before": doc.case.revision,
                 "written": str(written[0]) if written else None, "revision_after": written[1] if written else None,
                 "boundary_name": written[2] if written else fit.name})
-    change = _verdicts(doc, chart, _chart_of(data, doc), written[1] if written else None)
+    change = _verdicts(doc, chart, chart_of_document(data, doc), written[1] if written else None)
     out.update(change)
     emit(args, clean(out), _format_empirical(doc, fit, args.points, written, change))
     return 0

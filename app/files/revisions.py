@@ -334,14 +334,14 @@ def document_with_boundary(doc, fit, chart, *, points_name: str = "", date=None)
         data["custom_boundaries"] = tomlkit.aot()
         cb = data["custom_boundaries"]
     cb.append(t)
-    note, vb, va = _record_verdicts(doc, chart, _chart_of(data, doc), str(doc.case.revision), new)
+    note, vb, va = _record_verdicts(doc, chart, chart_of_document(data, doc), str(doc.case.revision), new)
     if note:
         change += ". " + note
     _new_revision(data, chart, change, date, before, (vb, va))
     return data, new, name
 
 
-def _chart_of(data, doc):
+def chart_of_document(data, doc):
     """The chart of a changed case document (None when it does not load)."""
     from lowgmap.physics.chart.composition import Chart
 
