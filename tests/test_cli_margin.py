@@ -11,7 +11,7 @@ import pytest
 from lowgmap.app import CAUTION
 from lowgmap.app.files.casefile import load_case, sample_case_path
 from lowgmap.app.cli import main
-from lowgmap.app.outputs.formatting import format_factor
+from lowgmap.app.formatting import format_factor
 from lowgmap.physics.chart.composition import Chart
 from lowgmap.physics.chart.margins import point_margins
 

@@ -21,7 +21,7 @@ from lowgmap.app import CAUTION, __version__
 from lowgmap.app.cli import main
 from lowgmap.app.files.casefile import load_case, sample_case_path
 from lowgmap.app.files.testpoints import read_test_points
-from lowgmap.app.outputs.formatting import format_percent
+from lowgmap.app.formatting import format_percent
 from lowgmap.physics.chart.composition import Chart
 from lowgmap.physics.studies.study import run_study
 

@@ -18,7 +18,7 @@ from lowgmap.app.cli.points import (add_point_arguments, criteria_from_args, fol
                                     parse_regime_map)
 from lowgmap.app.files.revisions import (calibrated_document, document_with_boundary, operating_verdict,
                                          relocate_test_points, verdict_change, verdict_words)
-from lowgmap.app.outputs.formatting import format_share
+from lowgmap.app.formatting import format_share
 from lowgmap.app.cli import common
 
 __all__ = ["add_arguments", "run", "MAX_STARTS"]

@@ -13,7 +13,7 @@ from lowgmap.app import CAUTION
 from lowgmap.app.cli import common
 from lowgmap.app.cli.common import clean, emit, load_case_file
 from lowgmap.app.cli.points import add_point_arguments, criteria_from_args, load_points, parse_regime_map
-from lowgmap.app.outputs.formatting import format_share
+from lowgmap.app.formatting import format_share
 
 __all__ = ["add_arguments", "run", "compare_report", "format_compare", "format_confusion", "set_aside_lines"]
 

@@ -7,7 +7,7 @@ from __future__ import annotations
 from lowgmap.app import CAUTION
 from lowgmap.app.cli import common, operating
 from lowgmap.app.cli.common import clean, emit, load_case_file
-from lowgmap.app.outputs.formatting import format_percent
+from lowgmap.app.formatting import format_percent
 
 __all__ = ["add_arguments", "run"]
 

@@ -15,7 +15,7 @@ import time
 from lowgmap.app import CAUTION
 from lowgmap.app.cli import operating
 from lowgmap.app.cli.common import clean, emit, estimate_text, load_case_file
-from lowgmap.app.outputs.formatting import format_percent, format_point_change
+from lowgmap.app.formatting import format_percent, format_point_change
 from lowgmap.app.cli import common
 
 __all__ = ["add_arguments", "run", "describe_uncertainty"]

@@ -54,7 +54,7 @@ class ChartPane(pn.viewable.Viewer):
                                  pn.pane.Bokeh(self.figs[False], sizing_mode="stretch_width"),
                                  sizing_mode="stretch_width")
         self.refresh_chart()
-        session.param.watch(lambda *_: self._held(self.refresh_chart), ["revision_counter"])
+        session.param.watch(lambda *_: self._held(self._follow_case), ["revision_counter"])
         session.param.watch(lambda *_: self._held(self.refresh_point), ["ql", "qg", "show_uncertainty"])
         self.param.watch(lambda *_: self._held(self._toggle_scale), ["log_axes"])
         self.src_point.on_change("data", self._on_point_released)
@@ -110,6 +110,17 @@ class ChartPane(pn.viewable.Viewer):
         fig.legend.visible = True
         return fig
 
+    def _follow_case(self):
+        """A new case revision: redraw, with the axes scale the case says (unless a switch is queued)."""
+        s = self.session
+        if s.closed:
+            return
+        want = bool(s.doc.settings.log_axes)
+        if want != self.log_axes and "chart.log_axes" not in s.pending_keys:
+            self.log_axes = want  # redraws through _toggle_scale
+        else:
+            self.refresh_chart()
+
     def _toggle_scale(self):
         for log, fig in self.figs.items():
             fig.visible = (log == self.log_axes)
@@ -124,6 +135,8 @@ class ChartPane(pn.viewable.Viewer):
 
     def refresh_chart(self):
         s = self.session
+        if s.closed:
+            return
         v = self.view()
         self._view = v
         self.src_regions.data = dict(
@@ -169,10 +182,11 @@ class ChartPane(pn.viewable.Viewer):
 
     def refresh_point(self):
         s = self.session
-        if s.ql is None:
+        if s.ql is None or s.closed:
             return
         x, y = self._to_display(s.ql, s.qg)
-        if self.src_point.data.get("x") != [x] or self.src_point.data.get("y") != [y]:
+        moving = "point" in s.pending_keys  # a dragged point waits for its margins: leave it where it was put
+        if not moving and (self.src_point.data.get("x") != [x] or self.src_point.data.get("y") != [y]):
             self._suppress = True
             try:
                 self.src_point.data = dict(x=[x], y=[y])

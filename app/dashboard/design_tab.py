@@ -218,7 +218,10 @@ class DesignTab(pn.viewable.Viewer):
             import pandas as pd
 
             df = tidy_results(pd.concat(parts, ignore_index=True), designs, spec)
-            self._show(df, kw)
+            png = await asyncio.to_thread(self._map_png, df, kw)   # matplotlib off the event loop too
+            if token != self._task_token:
+                return
+            self._show(df, kw, png)
         except Exception as exc:  # shown in the page, never as a traceback
             self.status.object = f"<p class='design-error' style='color:#8B0000'>{html.escape(str(exc))}</p>"
         finally:
@@ -226,20 +229,26 @@ class DesignTab(pn.viewable.Viewer):
             self.run_button.disabled = False
             self.progress.visible = False
 
-    def _show(self, df, kw):
+    def _map_png(self, df, kw) -> bytes:
+        """The margin map as PNG bytes (matplotlib; may run on a worker thread)."""
         from lowgmap.physics.studies.design import nominal_design_value
 
         from lowgmap.app.outputs.maps import margin_map_png
 
-        self.result = df
         xv, yv = self.x_var.value, self.y_var.value
         kinds = {n: self.inputs[n][1] for n in (xv, yv)}
         units = {n: self.inputs[n][2] for n in (xv, yv)}
         case = self.session.doc.case
         base = (nominal_design_value(case, xv), nominal_design_value(case, yv))
-        self.image.object = margin_map_png(df, xv, yv, column="margin", required=kw["required_margin"], kinds=kinds,
-                                           units=units, title=f"{case.title}: margin at the operating point",
-                                           base=base)
+        return margin_map_png(df, xv, yv, column="margin", required=kw["required_margin"], kinds=kinds,
+                              units=units, title=f"{case.title}: margin at the operating point", base=base)
+
+    def _show(self, df, kw, png: bytes | None = None):
+        self.result = df
+        xv, yv = self.x_var.value, self.y_var.value
+        kinds = {n: self.inputs[n][1] for n in (xv, yv)}
+        units = {n: self.inputs[n][2] for n in (xv, yv)}
+        self.image.object = png if png is not None else self._map_png(df, kw)
         ok = df[df["status"] == "ok"]
         meets = int(df["meets_required"].sum()) if "meets_required" in df else 0
         best = ok.loc[ok["margin"].idxmax()] if len(ok) and ok["margin"].notna().any() else None

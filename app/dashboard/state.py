@@ -4,8 +4,9 @@ No bokeh or panel widgets here: this is a ``param.Parameterized`` model that vie
 browser session gets its own :class:`Session` (built by the server's factory function), so two users
 never share state. Case inputs are kept as the text a person types (numbers with units) in a copy
 of the case-file document; every change re-validates the whole case with :mod:`lowgmap.app.files.casefile`, the
-same path the CLI uses. An invalid entry leaves the last good case and chart in place and files the
-problem under its input group.
+same path the CLI uses. An invalid entry is not applied: the last good case and chart stay, the
+field keeps showing the value in effect, and the problem is filed under the field that was edited
+(:attr:`Session.field_problems`, the field's own words, never a line number of the hidden text).
 
 Everything the views show comes from one :class:`lowgmap.physics.studies.study.Study`
 (:attr:`Session.study`): the chart pane draws its chart, the margin table shows its margins, the
@@ -13,13 +14,30 @@ test-point panel its agreement, and the exports receive the study itself, so the
 rebuilt for an export. Expensive work (building the chart) happens only when the case changes;
 moving the operating point only computes the margins of the new point on the same chart
 (:meth:`Study.with_point`).
+
+Edits are queued, never lost
+----------------------------
+Every change (a case field, the operating point, the required margin, test points, a whole case
+file, the robust point) is an :class:`Edit` put on the session's queue (:meth:`Session.submit`).
+The queue keeps one entry per field: a newer value of a field replaces its older, not yet applied
+one and moves to the end, so edits are applied in the order they were last made and the latest
+value of each field wins. One batch at a time is worked off by the session's *runner* (see
+:mod:`lowgmap.app.dashboard.background`): the work (validating each edit in order, building the
+chart, the margins, the test-point agreement) runs on a worker thread from a snapshot of the state
+and touches nothing shared; its result is applied back on the session's own thread. Edits that
+arrive while a batch is being worked on wait on the queue and form the next batch; the views skip
+fields with a queued edit (:attr:`Session.pending_keys`) when they show the state, so a value typed
+during a rebuild stays on screen until it is applied.
 """
 from __future__ import annotations
 
 import copy
 import dataclasses
+import logging
 import math
-from dataclasses import dataclass
+import weakref
+from dataclasses import dataclass, field
+from typing import Any, Callable
 
 import param
 import tomlkit
@@ -27,10 +45,12 @@ import tomlkit
 from lowgmap.physics.chart.composition import Chart
 from lowgmap.physics.studies.study import Study, run_study
 
-from lowgmap.app.files.casefile import CaseDocument, CaseFileError, build_case, dumps_case, loads_case
+from lowgmap.app.files.casefile import CaseDocument, CaseFileError, dumps_case, loads_case
 from lowgmap.app.files.units import UnitError, convert, parse_flow
 
-__all__ = ["Session", "GROUPS", "group_of"]
+__all__ = ["Session", "Edit", "GROUPS", "group_of", "build_chart", "live_sessions"]
+
+_LOG = logging.getLogger("lowgmap.dashboard")
 
 #: Input groups as an engineer thinks of them: (key, title, case-file tables/keys in the group).
 GROUPS = (
@@ -43,6 +63,14 @@ GROUPS = (
     ("point", "Operating point", ("operating_point",)),
 )
 
+#: Live sessions (weak: a session that is closed and dropped by the server disappears from it).
+_LIVE: "weakref.WeakSet[Session]" = weakref.WeakSet()
+
+
+def live_sessions() -> int:
+    """Number of :class:`Session` objects still alive in this process (for memory checks)."""
+    return len(_LIVE)
+
 
 def group_of(path: str) -> str:
     """Input group key of a case-file key path (for placing a message next to its field)."""
@@ -54,6 +82,11 @@ def group_of(path: str) -> str:
     if path == "conduit":
         return "section"
     return best
+
+
+def build_chart(case) -> Chart:
+    """Build the chart of ``case`` (the one expensive step of a case edit; runs on a worker thread)."""
+    return Chart.build(case)
 
 
 @dataclass(frozen=True)
@@ -69,29 +102,113 @@ class MarginRow:
     log_distance: float | None
 
 
+@dataclass
+class Edit:
+    """One change asked for by a person, waiting on the session's queue.
+
+    Attributes
+    ----------
+    key : str        the field it comes from ("section.diameter", "point", "required_margin", ...):
+                     one queued entry per key, problems are filed under it
+    kind : str       "case" (``changes`` to the case document), "point" (``point``), "points"
+                     (``points``), "load" (a whole case file, ``text`` and ``name``) or "robust"
+                     (move to the most robust point of ``regime``)
+    label : str      the field's label, for messages ("Diameter")
+    path : str       case-file key path whose value is in effect for this field (for messages)
+    on_done : callable(ok: bool, messages: list[str]), optional   called on the session's thread
+                     once the edit was applied or refused (not when a newer edit replaced it)
+    """
+
+    key: str
+    kind: str = "case"
+    changes: dict | None = None
+    label: str = ""
+    path: str = ""
+    point: tuple | None = None
+    points: Any = None
+    text: str | None = None
+    name: str | None = None
+    regime: str | None = None
+    on_done: Callable | None = None
+
+
+@dataclass
+class _Snapshot:
+    data: Any
+    doc: CaseDocument
+    study: Study
+    point: tuple | None
+    test_points: Any
+    source_name: str
+    base_dir: Any
+
+
+@dataclass
+class _Outcome:
+    """What a batch of edits came to (computed on a worker thread from a snapshot)."""
+
+    data: Any
+    doc: CaseDocument
+    study: Study
+    point: tuple | None
+    test_points: Any
+    source_name: str
+    case_changed: bool
+    accepted: list = field(default_factory=list)      # [Edit]
+    refused: list = field(default_factory=list)       # [(Edit, [message])]
+    notes: list = field(default_factory=list)         # [(Edit, message)]
+
+
 class Session(param.Parameterized):
-    """One browser session's case, chart, operating point and margins (all read from :attr:`study`)."""
+    """One browser session's case, chart, operating point and margins (all read from :attr:`study`).
+
+    Parameters
+    ----------
+    doc : CaseDocument   the case to start from
+    runner : optional    where queued work runs (:mod:`lowgmap.app.dashboard.background`); default:
+                         at once in the calling thread (:class:`InlineRunner`)
+    """
 
     doc = param.Parameter(doc="the last valid CaseDocument")
     study = param.ClassSelector(class_=Study, doc="Study of the last valid case at the current operating point")
     chart = param.Parameter(doc="chart of the last valid case (the study's chart)")
-    problems = param.Dict(default={}, doc="group key -> list of problem strings from the last edit")
+    problems = param.Dict(default={}, doc="group key -> list of problem strings (whole-file problems)")
+    field_problems = param.Dict(default={}, doc="field key -> list of messages from its last edit")
+    notices = param.Dict(default={}, doc="field key -> message about its last edit that is not a problem")
     ql = param.Number(default=None, allow_None=True, doc="operating-point liquid flow [m^3/s]")
     qg = param.Number(default=None, allow_None=True, doc="operating-point gas flow [m^3/s]")
     margins = param.Parameter(doc="PointMargins of the operating point (the study's margins)")
     test_points = param.Parameter(doc="the test points compared with the chart (TestPointSet or table), or None")
-    required_margin = param.Number(default=0.2, bounds=(0, 0.99), doc="required symmetric margin (fraction)")
+    required_margin = param.Number(default=0.2, bounds=(0, 0.99), doc="required symmetric margin (fraction), "
+                                   "the case's chart.required_margin")
     show_uncertainty = param.Boolean(default=False)
     revision_counter = param.Integer(default=0, doc="increments on every successful case rebuild")
+    applied_counter = param.Integer(default=0, doc="increments after every batch of edits is applied")
+    busy = param.Boolean(default=False, doc="a batch of edits is being worked on")
+    activity = param.String(default="", doc="what the session is working on, in words ('' when idle)")
 
-    def __init__(self, doc: CaseDocument, **params):
+    def __init__(self, doc: CaseDocument, runner=None, **params):
         super().__init__(**params)
+        from lowgmap.app.dashboard.background import InlineRunner
+
+        self.runner = runner or InlineRunner()
         self.data = copy.deepcopy(doc.data)
         self.base_dir = doc.path.parent if doc.path else None
         self.source_name = doc.path.name if doc.path else "case.toml"
-        self._apply_doc(doc)
+        self._queue: dict[str, Edit] = {}
+        self._in_flight: dict[str, Edit] = {}
+        self._closed = False
+        study = run_study(doc.case)
+        point = study.point
+        if point is None:
+            fr = doc.case.flow_range
+            point = (math.sqrt(fr.ql_min * fr.ql_max), math.sqrt(fr.qg_min * fr.qg_max))
+        if study.point != point:
+            study = study.with_point(*point)
+        self._publish(data=self.data, doc=doc, study=study, point=point, test_points=None, new_case=True)
+        _LIVE.add(self)
 
-    # ------------------------------------------------------------------------------- case edits
+    # ------------------------------------------------------------------------------- reading
     def get(self, path: str, default=""):
         """Text of a case-file value by dotted path ("fluid.temperature")."""
         node = self.data
@@ -101,94 +218,188 @@ class Session(param.Parameterized):
             node = node[part]
         return node.unwrap() if hasattr(node, "unwrap") else node
 
-    def edit(self, changes: dict[str, object]) -> bool:
-        """Apply text edits {dotted path: value or None to remove}; rebuild the case if valid.
-
-        Returns True when the case was valid and the chart was rebuilt. On failure, the edits are
-        rolled back, the problems are filed by group, and the last good chart stays.
-        """
-        trial = copy.deepcopy(self.data)
-        for path, value in changes.items():
-            *parents, key = path.split(".")
-            node = trial
-            for p in parents:
-                if p not in node:
-                    node[p] = tomlkit.table()
-                node = node[p]
-            if value is None:
-                if key in node:
-                    del node[key]
-            else:
-                node[key] = value
-        text = dumps_case(trial)
-        try:
-            doc = loads_case(text, source=self.source_name, base_dir=self.base_dir)
-        except CaseFileError as exc:
-            grouped: dict[str, list[str]] = {}
-            for p in exc.problems:
-                grouped.setdefault(group_of(p.path), []).append(str(p))
-            self.problems = grouped
-            return False
-        try:
-            chart = Chart.build(doc.case)
-        except ValueError as exc:  # e.g. a model constant out of range
-            self.problems = {"models": [str(exc)]}
-            return False
-        self.data = doc.data
-        self._apply_doc(doc, chart)
-        return True
-
-    def load_text(self, text: str, name: str = "uploaded case") -> bool:
-        """Replace the whole case by an uploaded case file (validated first)."""
-        try:
-            doc = loads_case(text, source=name, base_dir=self.base_dir)
-            chart = Chart.build(doc.case)
-        except CaseFileError as exc:
-            self.problems = {"case": [str(p) for p in exc.problems]}
-            return False
-        except ValueError as exc:
-            self.problems = {"case": [str(exc)]}
-            return False
-        self.data = doc.data
-        self.source_name = name
-        self._apply_doc(doc, chart)
-        return True
+    @property
+    def pending_keys(self) -> set[str]:
+        """Keys of the edits queued or being worked on (their fields show what was typed)."""
+        return set(self._queue) | set(self._in_flight)
 
     def case_text(self) -> str:
         """The current (valid) case as case-file text, for download."""
         return dumps_case(self.data)
 
-    def _apply_doc(self, doc: CaseDocument, chart: Chart | None = None):
-        study = run_study(doc.case, chart=chart, points=self.test_points)
-        op = doc.case.operating_point
+    def regime_at(self, ql: float, qg: float) -> str:
+        return self.chart.regime_at(ql, qg) if self.chart is not None else ""
+
+    def export_settings(self):
+        """Chart settings for an export: the case's (its required margin is the one on screen)."""
+        return dataclasses.replace(self.doc.settings, required_margin=self.required_margin)
+
+    def verdict(self):
+        """The verdict on the operating point against the required margin (None without margins)."""
+        if self.study is None or self.margins is None:
+            return None
+        try:
+            return self.study.verdict(self.required_margin)
+        except ValueError:  # an intended regime that is not on this chart: judge the margin alone
+            from lowgmap.physics.chart.margins import margin_verdict
+
+            return margin_verdict(self.margins, self.required_margin)
+
+    # ------------------------------------------------------------------------------- the queue
+    def submit(self, edit: Edit) -> None:
+        """Queue ``edit`` (a newer edit of the same field replaces a queued older one) and start work."""
+        if self._closed:
+            return
+        self._queue.pop(edit.key, None)
+        self._queue[edit.key] = edit
+        if self._in_flight:  # say that it was received and waits its turn
+            n = len(self._queue)
+            self.activity = (_activity_words(list(self._in_flight.values()))
+                             + f" ({n} more change{'s' if n > 1 else ''} waiting)")
+        self._kick()
+
+    def _kick(self) -> None:
+        if self._closed or self._in_flight or not self._queue:
+            return
+        batch = list(self._queue.values())
+        self._in_flight = dict(self._queue)
+        self._queue = {}
+        snap = _Snapshot(self.data, self.doc, self.study, (self.ql, self.qg), self.test_points,
+                         self.source_name, self.base_dir)
+        self.activity = _activity_words(batch)
+        self.busy = True
+        self.runner.submit(lambda: _work_off(snap, batch), self._finished)
+
+    def _finished(self, outcome: _Outcome | None, error: BaseException | None) -> None:
+        batch = list(self._in_flight.values())
+        self._in_flight = {}
+        if self._closed:
+            return
+        fp = {k: v for k, v in self.field_problems.items() if k not in {e.key for e in batch}}
+        notices = {k: v for k, v in self.notices.items() if k not in {e.key for e in batch}}
+        done = []
+        if error is not None:  # a bug, not a user error: the state stays as it was
+            _LOG.error("dashboard edit failed", exc_info=(type(error), error, error.__traceback__))
+            for e in batch:
+                msg = (f"{e.label or e.key}: the change could not be applied ({type(error).__name__}: {error}). "
+                       "The previous values stay in effect; please report this as a bug.")
+                fp[e.key] = [msg]
+                done.append((e, False, [msg]))
+            with param.parameterized.batch_call_watchers(self):
+                self.field_problems = fp
+                self.notices = notices
+                self.applied_counter += 1
+        else:
+            for e in outcome.accepted:
+                done.append((e, True, []))
+            for e, msgs in outcome.refused:
+                fp[e.key] = msgs
+                done.append((e, False, msgs))
+            for e, msg in outcome.notes:
+                notices[e.key] = msg
+            with param.parameterized.batch_call_watchers(self):
+                self.field_problems = fp
+                self.notices = notices
+                self.source_name = outcome.source_name
+                self._publish(data=outcome.data, doc=outcome.doc, study=outcome.study, point=outcome.point,
+                              test_points=outcome.test_points, new_case=outcome.case_changed)
+                if any(e.kind == "load" for e in outcome.accepted):
+                    self.problems = {}
+                for e, msgs in outcome.refused:
+                    if e.kind == "load":
+                        self.problems = {"case": msgs}
+                self.applied_counter += 1
+        for e, ok, msgs in done:
+            if e.on_done is not None:
+                try:
+                    e.on_done(ok, msgs)
+                except Exception:  # a view's follow-up must not stop the queue
+                    _LOG.exception("follow-up of a dashboard edit failed")
+        if self._queue:
+            self._kick()
+        else:
+            self.busy = False
+            self.activity = ""
+
+    def _publish(self, *, data, doc, study, point, test_points, new_case: bool) -> None:
         with param.parameterized.batch_call_watchers(self):
+            self.data = data
             self.doc = doc
             self.study = study
             self.chart = study.chart
-            self.problems = {}
-            self.required_margin = doc.settings.required_margin
-            if op is not None:
-                self.ql, self.qg = op.ql, op.qg
-            elif self.ql is None:
-                fr = doc.case.flow_range
-                self.ql = math.sqrt(fr.ql_min * fr.ql_max)
-                self.qg = math.sqrt(fr.qg_min * fr.qg_max)
-            self.revision_counter += 1
-        self.update_margins()
+            self.test_points = test_points
+            self.required_margin = min(doc.settings.required_margin, 0.99)
+            if point is not None:
+                self.ql, self.qg = float(point[0]), float(point[1])
+            self.margins = study.margins
+            if new_case:
+                self.revision_counter += 1
+
+    def close(self) -> None:
+        """The browser session ended: drop queued work, results to come and every large object."""
+        self._closed = True
+        self._queue.clear()
+        self._in_flight.clear()
+        self.runner.close()
+        self.runner = None
+        self.study = None
+        self.chart = None
+        self.margins = None
+        self.test_points = None
+        _LIVE.discard(self)
+
+    @property
+    def closed(self) -> bool:
+        return self._closed
+
+    # ------------------------------------------------------------------------------- edits
+    def edit(self, changes: dict[str, object], *, key: str | None = None, label: str = "",
+             path: str = "") -> bool | None:
+        """Queue text edits {dotted path: value or None to remove} of the case.
+
+        With the inline runner the edit is applied at once and the result is returned (True: the
+        case was valid and the chart rebuilt; False: refused, problems in :attr:`field_problems`
+        under ``key``). With a threaded runner it returns None; the result arrives later.
+        """
+        key = key or ",".join(changes)
+        result: list[bool] = []
+        self.submit(Edit(key=key, kind="case", changes=dict(changes), label=label or key,
+                         path=path or (next(iter(changes)) if len(changes) == 1 else ""),
+                         on_done=lambda ok, msgs: result.append(ok)))
+        return result[0] if result else None
+
+    def load_text(self, text: str, name: str = "uploaded case", on_done=None) -> bool | None:
+        """Replace the whole case by an uploaded case file (validated first)."""
+        result: list[bool] = []
+
+        def done(ok, msgs):
+            result.append(ok)
+            if on_done is not None:
+                on_done(ok, msgs)
+        self.submit(Edit(key="case", kind="load", text=text, name=name, label="Case file", on_done=done))
+        return result[0] if result else None
+
+    def set_required_margin(self, fraction: float) -> None:
+        """Set the required symmetric margin (fraction), written into the case as chart.required_margin."""
+        self.submit(Edit(key="required_margin", kind="case", label="Required margin",
+                         path="chart.required_margin",
+                         changes={"chart.required_margin": f"{100.0 * float(fraction):.6g} %"}))
+
+    def set_test_points(self, points, on_done=None) -> None:
+        """Compare ``points`` (a TestPointSet, or None to drop them) with the chart; kept across case edits."""
+        self.submit(Edit(key="points", kind="points", points=points, label="Test points", on_done=on_done))
 
     # ------------------------------------------------------------------------------ the point
     def move_point(self, ql: float, qg: float, *, write_back: bool = True) -> None:
-        """Move the operating point (SI) and recompute its margins (no chart rebuild)."""
+        """Move the operating point (SI) and recompute its margins (no chart rebuild).
+
+        Raises ValueError at once for flows that are not positive and finite; the move itself is
+        queued like every edit (applied at once with the inline runner).
+        """
         if not (ql > 0 and qg > 0 and math.isfinite(ql) and math.isfinite(qg)):
             raise ValueError(f"operating point must have positive finite flows, got Q_L={ql!r}, Q_G={qg!r}")
-        with param.parameterized.batch_call_watchers(self):
-            self.ql, self.qg = float(ql), float(qg)
-        if write_back:
-            st = self.doc.settings
-            op = self.data.setdefault("operating_point", tomlkit.table())
-            op["liquid_flow"] = f"{convert(ql, 'flow', st.liquid_flow_unit):.6g} {st.liquid_flow_unit}"
-            op["gas_flow"] = f"{convert(qg, 'flow', st.gas_flow_unit):.6g} {st.gas_flow_unit}"
-        self.update_margins()
+        self.submit(Edit(key="point", kind="point", point=(float(ql), float(qg)), label="Operating point",
+                         changes={"write_back": write_back}))
 
     def parse_point_text(self, ql_text: str, qg_text: str) -> tuple[float, float]:
         """Typed operating-point fields (text with units; sccm/slpm allowed for gas) -> SI."""
@@ -200,38 +411,21 @@ class Session(param.Parameterized):
                 raise UnitError(f"{name} must be > 0, got {v:g} m^3/s")
         return ql, qg
 
-    def regime_at(self, ql: float, qg: float) -> str:
-        return self.chart.regime_at(ql, qg) if self.chart is not None else ""
-
-    def update_margins(self) -> None:
-        """Move the study to the session's point (margins only; the chart is kept) and publish its margins."""
-        study = self.study
-        if study is None or self.ql is None:
-            self.margins = None
-            return
-        if study.point != (self.ql, self.qg):
-            study = study.with_point(self.ql, self.qg)
-        with param.parameterized.batch_call_watchers(self):
-            self.study = study
-            self.margins = study.margins
-
-    def set_test_points(self, points) -> None:
-        """Compare ``points`` (a TestPointSet, or None to drop them) with the chart; kept across case edits."""
-        with param.parameterized.batch_call_watchers(self):
-            self.test_points = points
-            self.study = self.study.with_test_points(points)
-
-    def export_settings(self):
-        """Chart settings for an export: the case's, with the required margin the person has set."""
-        return dataclasses.replace(self.doc.settings, required_margin=self.required_margin)
+    def request_robust_point(self, regime: str, on_done=None) -> None:
+        """Queue a move of the point to the most robust point of ``regime`` (computed on a worker)."""
+        self.submit(Edit(key="robust", kind="robust", regime=regime, label="Robust point", on_done=on_done))
 
     def robust_point(self, regime: str):
-        """Move the point to the most robust point of ``regime``; returns the RobustPoint."""
+        """Move the point to the most robust point of ``regime`` at once; returns the RobustPoint."""
         from lowgmap.physics.chart.margins import robust_point
 
         rp = robust_point(self.chart, regime)
         self.move_point(rp.ql, rp.qg)
         return rp
+
+    def update_margins(self) -> None:
+        """Publish the margins of the study (kept for callers of the former interface)."""
+        self.margins = self.study.margins if self.study is not None else None
 
     # ------------------------------------------------------------------------------ uncertainty
     def flow_uncertainty_box(self) -> tuple[float, float, float, float] | None:
@@ -247,3 +441,197 @@ class Session(param.Parameterized):
             i = 0 if u.target == "liquid_flow" else 2
             box[i], box[i + 1] = max(base - d, base * 1e-3), base + d
         return tuple(box) if (box[0] != box[1] or box[2] != box[3]) else None
+
+
+# ===================================================================================== the work
+def _activity_words(batch: list[Edit]) -> str:
+    kinds = {e.kind for e in batch}
+    if "load" in kinds:
+        return "Opening the case file and building its chart…"
+    if "case" in kinds:
+        names = ", ".join(e.label for e in batch if e.kind == "case")
+        return f"Applying {names} and rebuilding the chart…"
+    if "robust" in kinds:
+        return "Searching for the most robust point…"
+    if "points" in kinds:
+        return "Comparing the test points with the chart…"
+    return "Computing the margins of the operating point…"
+
+
+def _set_path(data, path: str, value) -> None:
+    *parents, key = path.split(".")
+    node = data
+    for p in parents:
+        if p not in node:
+            node[p] = tomlkit.table()
+        node = node[p]
+    if value is None:
+        if key in node:
+            del node[key]
+    else:
+        node[key] = value
+
+
+def _words(path: str) -> str:
+    return path.replace("_", " ").replace(".", " ").strip().capitalize()
+
+
+def _problem_text(p, edit: Edit) -> str:
+    """A case-file problem in the words of the field (no line number: the text is not on screen)."""
+    written = ""
+    if isinstance(p.value, str) and p.value not in p.message:
+        written = f" (written: {p.value!r})"
+    same = edit.path and (p.path == edit.path or p.path.startswith(edit.path + "[")
+                          or edit.path.startswith(p.path + "."))
+    who = edit.label if same else _words(p.path)
+    return f"{who}: {p.message}{written}"
+
+
+def _in_effect(data, path: str) -> str:
+    node = data
+    for part in path.split("."):
+        if not isinstance(node, dict) or part not in node:
+            return "(empty)"
+        node = node[part]
+    node = node.unwrap() if hasattr(node, "unwrap") else node
+    if isinstance(node, list):
+        return " to ".join(str(x) for x in node)
+    return str(node)
+
+
+def _refusal(edit: Edit, messages: list[str], data) -> list[str]:
+    tail = "Not applied"
+    if edit.kind == "case" and edit.path:
+        tail += f"; in effect: {_in_effect(data, edit.path)}"
+    elif edit.kind == "load":
+        tail = "The case file was not opened; the previous case stays in effect"
+    return messages + [tail + "."]
+
+
+def _write_point(data, doc: CaseDocument, point) -> None:
+    st = doc.settings
+    op = data.setdefault("operating_point", tomlkit.table())
+    op["liquid_flow"] = f"{convert(point[0], 'flow', st.liquid_flow_unit):.6g} {st.liquid_flow_unit}"
+    op["gas_flow"] = f"{convert(point[1], 'flow', st.gas_flow_unit):.6g} {st.gas_flow_unit}"
+
+
+def _point_of(doc: CaseDocument, old):
+    op = doc.case.operating_point
+    if op is not None:
+        return (op.ql, op.qg)
+    return old
+
+
+def _robust_words(rp) -> str:
+    from lowgmap.app.formatting import format_percent
+
+    text = f"Moved to the most robust point of \u201c{rp.regime}\u201d: symmetric margin ±{format_percent(rp.margin)}."
+    if not rp.established and rp.reasons:
+        text += " Not established: " + " ".join(rp.reasons)
+    return text
+
+
+class _ChartFailed(Exception):
+    """The chart of the batch's final case could not be built (find the edit to blame)."""
+
+
+def _same_case(a, b) -> bool:
+    try:
+        return bool(a == b)
+    except (TypeError, ValueError):  # a field that does not compare as a plain value
+        return False
+
+
+#: Errors a chart build raises for a case it cannot draw (a constant out of range, an overflow);
+#: anything else is a defect, reported as such.
+_BUILD_ERRORS = (ValueError, OverflowError, FloatingPointError)
+
+
+def _work_off(snap: _Snapshot, batch: list[Edit]) -> _Outcome:
+    """Apply ``batch`` in order to the snapshot (worker thread; touches nothing shared).
+
+    The chart is built once, for the final case. If that build fails, the batch is worked off
+    again with a build after every case edit, so the failure is filed under the edit that caused
+    it and the other edits still apply.
+    """
+    try:
+        return _run(snap, batch, strict=False)
+    except _ChartFailed:
+        return _run(snap, batch, strict=True)
+
+
+def _run(snap: _Snapshot, batch: list[Edit], strict: bool) -> _Outcome:
+    from lowgmap.physics.chart.margins import robust_point
+
+    data, doc, point = snap.data, snap.doc, snap.point
+    points, source = snap.test_points, snap.source_name
+    chart = snap.study.chart
+    accepted, refused, notes = [], [], []
+
+    def chart_of(d):
+        if chart.case is d.case or _same_case(chart.case, d.case):
+            return chart
+        try:
+            return build_chart(d.case)
+        except _BUILD_ERRORS as exc:
+            if strict:
+                raise
+            raise _ChartFailed() from exc
+
+    for e in batch:
+        if e.kind in ("case", "load"):
+            try:
+                if e.kind == "case":
+                    trial = copy.deepcopy(data)
+                    for path, value in e.changes.items():
+                        _set_path(trial, path, value)
+                    new = loads_case(dumps_case(trial), source=source, base_dir=snap.base_dir)
+                else:
+                    new = loads_case(e.text, source=e.name or "uploaded case", base_dir=snap.base_dir)
+            except CaseFileError as exc:
+                msgs = ([_problem_text(p, e) for p in exc.problems] if e.kind == "case"
+                        else [str(p) for p in exc.problems])   # an uploaded file: its own line numbers
+                refused.append((e, _refusal(e, msgs, data)))
+                continue
+            if strict:
+                try:
+                    chart = chart_of(new)
+                except _BUILD_ERRORS as exc:
+                    msg = f"{e.label}: the chart cannot be built with this value: {exc}"
+                    refused.append((e, _refusal(e, [msg], data)))
+                    continue
+            if e.kind == "load":
+                source = e.name or "uploaded case"
+            data, doc = new.data, new
+            point = _point_of(doc, point)
+            accepted.append(e)
+        elif e.kind == "point":
+            point = e.point
+            if e.changes is None or e.changes.get("write_back", True):
+                data = copy.deepcopy(data)
+                _write_point(data, doc, point)
+            accepted.append(e)
+        elif e.kind == "points":
+            points = e.points
+            accepted.append(e)
+        elif e.kind == "robust":
+            chart = chart_of(doc)
+            try:
+                rp = robust_point(chart, e.regime)
+            except (ValueError, RuntimeError) as exc:
+                refused.append((e, [f"No robust point: {exc}"]))
+                continue
+            point = (rp.ql, rp.qg)
+            data = copy.deepcopy(data)
+            _write_point(data, doc, point)
+            notes.append((e, _robust_words(rp)))
+            accepted.append(e)
+    chart = chart_of(doc)
+    study = snap.study
+    if chart is not study.chart or points is not snap.test_points or not _same_case(study.case, doc.case):
+        study = run_study(doc.case, chart=chart, points=points)
+    if point is not None and study.point != tuple(point):
+        study = study.with_point(*point)
+    return _Outcome(data=data, doc=doc, study=study, point=point, test_points=points, source_name=source,
+                    case_changed=chart is not snap.study.chart or doc is not snap.doc, accepted=accepted,
+                    refused=refused, notes=notes)

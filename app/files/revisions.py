@@ -150,7 +150,7 @@ def operating_verdict(doc, chart):
 
 def verdict_words(v) -> str:
     """A verdict in one line of words: regime, intended-regime status, margin against the requirement."""
-    from lowgmap.app.outputs.formatting import format_percent
+    from lowgmap.app.formatting import format_percent
 
     if v is None:
         return "no verdict (no operating point or no regimes)"
@@ -180,7 +180,7 @@ def verdict_change(before, after, rev_before: str, rev_after: str) -> str:
     same_regime = before.regime == after.regime
     if same_regime and (before.margin_status, before.regime_status) == (after.margin_status, after.regime_status):
         return ""
-    from lowgmap.app.outputs.formatting import format_percent
+    from lowgmap.app.formatting import format_percent
 
     req = format_percent(after.required)
     now = ([after.regime_status] if after.intended_regime is not None else []) + \

@@ -126,7 +126,7 @@ def _verdict(study, st):
 
 def _point_label(study, settings, document=None):
     """Callout text of the operating point and whether a verdict fails (drawn in red)."""
-    from lowgmap.app.outputs.formatting import format_percent
+    from lowgmap.app.formatting import format_percent
 
     ql, qg = study.point
     tl, tg = _flow_texts(study, settings, document)

@@ -11,7 +11,7 @@ HTML template (:func:`lowgmap.app.outputs.exports.report_html`) and the PDF writ
 (:mod:`lowgmap.app.outputs.pdf`). Every verdict word comes from
 :meth:`lowgmap.physics.studies.study.Study.verdict`, every agreement count from the study's
 :class:`~lowgmap.physics.studies.agreement.Agreement`, and every number is written by the formatters
-of :mod:`lowgmap.app.outputs.formatting`, so the two documents, the command line and the screen read
+of :mod:`lowgmap.app.formatting`, so the two documents, the command line and the screen read
 the same.
 """
 from __future__ import annotations
@@ -24,7 +24,7 @@ from dataclasses import dataclass, field
 
 from lowgmap.app import CAUTION, __version__
 from lowgmap.app.files.units import convert
-from lowgmap.app.outputs.formatting import format_factor, format_percent, format_share
+from lowgmap.app.formatting import format_factor, format_percent, format_share
 
 __all__ = ["case_rows", "format_flow", "review_inputs", "document_study", "review_pack", "ReviewPack",
            "VerdictLine", "AgreementSection", "report_verdict", "suggest_regime", "FAILING_WORDS"]

@@ -9,7 +9,7 @@ from __future__ import annotations
 import html
 import math
 
-from lowgmap.app.outputs.formatting import format_factor
+from lowgmap.app.formatting import format_factor
 
 __all__ = ["margin_table_html", "MARGIN_CSS"]
 
@@ -34,7 +34,7 @@ def margin_table_html(margins, required: float) -> str:
 
     Factors are Q_cross/Q along each axis (the other flow held); a row is highlighted when the
     boundary lies closer than the required margin on either axis. Cells are written with
-    :func:`lowgmap.app.outputs.formatting.format_factor` (as in ``lowgmap margin``); the exact
+    :func:`lowgmap.app.formatting.format_factor` (as in ``lowgmap margin``); the exact
     numbers are carried in ``data-`` attributes (for tests and scripts).
 
     Parameters

@@ -84,9 +84,11 @@ def page(browser, server):
 
 
 def wait_ready(pg):
-    """Wait until the chart canvas and the margin table are on the page."""
+    """Wait until the chart canvas, the margin table and the upload drop zone are on the page."""
     pg.wait_for_selector("canvas", state="attached")
     pg.locator(".margin-summary").first.wait_for(state="visible")
+    # the upload widget replaces its file input when it starts: a file set before that is lost
+    pg.locator(".points-upload .filepond--root").first.wait_for(state="attached")
     pg.wait_for_function("""() => {
         if (!window.Bokeh) return false;
         for (const v of Object.values(Bokeh.index)) { if (v) return true; }

@@ -165,7 +165,8 @@ def test_report_and_case_downloads(page):
     with page.expect_download() as info:
         page.locator(".export-report a, .export-report button").first.click()
     html = open(info.value.path(), encoding="utf-8").read()
-    assert "<svg" in html and "margin-table" in html and "qualification testing" in html
+    # the review report embeds the chart as a PNG data URI (self-contained HTML, same template as `lowgmap report`)
+    assert 'src="data:image/png;base64,' in html and "margin-table" in html and "qualification testing" in html
     with page.expect_download() as info:
         page.locator(".export-case a, .export-case button").first.click()
     text = open(info.value.path(), encoding="utf-8").read()

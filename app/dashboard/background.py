@@ -1,0 +1,105 @@
+"""Work off the server's event loop: a shared pool of worker threads and per-session runners.
+
+The dashboard server answers every browser session on one event loop. Anything that can take
+longer than a blink (building a chart, the margins of a new point, reading an uploaded test-point
+file, the robust point, a calibration) runs on a worker thread, and its result is handed back to
+the session's document thread, where the widgets and bokeh models are changed.
+
+A *runner* has one method, ``submit(work, done)``: it runs ``work()`` somewhere and later calls
+``done(result, error)`` (``error`` is the exception ``work`` raised, or None) where the session's
+state may be changed. Two runners:
+
+* :class:`InlineRunner` runs the work at once in the calling thread (scripts, tests, a session
+  built outside a server);
+* :class:`DocumentRunner` runs it on the shared pool (:func:`worker_pool`) and calls ``done`` in
+  a next-tick callback of the session's bokeh document (``Document.add_next_tick_callback``, the
+  one document method bokeh allows from other threads; the callback runs with the document
+  locked). After :meth:`DocumentRunner.close` (the session was destroyed) results are dropped.
+
+The pool is the only module-level object and holds no session data: a few threads shared by all
+sessions, so a session that closes leaves nothing behind but idle threads.
+"""
+from __future__ import annotations
+
+import logging
+import threading
+from concurrent.futures import ThreadPoolExecutor
+from functools import partial
+
+__all__ = ["WORKER_THREADS", "worker_pool", "InlineRunner", "DocumentRunner"]
+
+#: Worker threads shared by all sessions (long jobs of one session never hold up the event loop;
+#: with more sessions than threads, jobs wait their turn).
+WORKER_THREADS = 4
+
+_POOL: ThreadPoolExecutor | None = None
+_POOL_LOCK = threading.Lock()
+_LOG = logging.getLogger("lowgmap.dashboard")
+
+
+def worker_pool() -> ThreadPoolExecutor:
+    """The shared pool of :data:`WORKER_THREADS` worker threads (created on first use)."""
+    global _POOL
+    with _POOL_LOCK:
+        if _POOL is None:
+            _POOL = ThreadPoolExecutor(max_workers=WORKER_THREADS, thread_name_prefix="lowgmap-work")
+        return _POOL
+
+
+class InlineRunner:
+    """Run each job at once in the calling thread, then call ``done`` (no server needed)."""
+
+    closed = False
+
+    def submit(self, work, done) -> None:
+        try:
+            result, error = work(), None
+        except Exception as exc:  # handed to ``done``, which reports it next to the field
+            result, error = None, exc
+        done(result, error)
+
+    def close(self) -> None:
+        self.closed = True
+
+
+class DocumentRunner:
+    """Run jobs on the worker pool and hand results back on the session document's thread.
+
+    Parameters
+    ----------
+    doc : bokeh.document.Document   the session's document (``pn.state.curdoc`` in the app factory)
+    """
+
+    def __init__(self, doc):
+        self.doc = doc
+        self.closed = False
+
+    def submit(self, work, done) -> None:
+        if self.closed:
+            return
+        future = worker_pool().submit(work)
+        future.add_done_callback(partial(self._hand_back, done))
+
+    def _hand_back(self, done, future) -> None:
+        doc = self.doc
+        if self.closed or doc is None:
+            return
+        error = future.exception()
+        result = None if error is not None else future.result()
+        try:
+            doc.add_next_tick_callback(partial(self._call, done, result, error))
+        except Exception:  # the session's document is gone: nobody to tell
+            _LOG.debug("result dropped: the session closed", exc_info=True)
+
+    def _call(self, done, result, error) -> None:
+        if self.closed:
+            return
+        from panel.io.state import set_curdoc
+
+        with set_curdoc(self.doc):
+            done(result, error)
+
+    def close(self) -> None:
+        """Drop results still to come and the reference to the document (the session ended)."""
+        self.closed = True
+        self.doc = None
