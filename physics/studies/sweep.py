@@ -53,7 +53,6 @@ import numpy as np
 import pandas as pd
 
 from lowgmap.physics.chart import lines as _lines
-from lowgmap.physics.chart import margins as _mg
 from lowgmap.physics.case import ModelChoice
 from lowgmap.physics.studies.design_space import (FLUID_KEYS, MAX_DESIGNS, VARIABLES, apply_changes, check_flow_range,
                                                   check_key, grid, variable_unit, zipped)
