@@ -86,8 +86,8 @@ def main() -> None:
             "--version": ["--version"],
             "check": ["check", str(CASE)],
             "margin": ["margin", str(CASE)],
-            "chart": ["chart", str(CASE), "-o", str(tmp / "chart.png")],
-            "chart corner": ["chart", str(CORNER), "-o", str(tmp / "corner.png")],
+            "chart": ["chart", str(CASE), "-o", str(tmp / "chart.png"), "--force"],
+            "chart corner": ["chart", str(CORNER), "-o", str(tmp / "corner.png"), "--force"],
         }
         print(f"lowgmap cold start, {opts.runs} runs each ({' '.join(Path(b).name for b in base)}; "
               f"case {CASE.name}; {os.cpu_count()} cores)")
