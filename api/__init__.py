@@ -16,6 +16,8 @@ Names (each documented where it lives):
 ========================  ================================================================
 loading a case            :func:`load_case`, :func:`loads_case`, :func:`sample_case_path`,
                           :class:`Case`, :class:`FlowRange`, :class:`OperatingPoint`
+gravity and orientation   :class:`Orientation`, :func:`gravity_level`, :class:`GravityLevel`,
+                          :data:`GRAVITY_LEVELS`, :func:`with_conduit`
 the chart                 :func:`build_chart`, :class:`Chart`, :func:`boundary_models`
 margins                   :func:`point_margins`, :func:`envelope_check`, :func:`robust_point`
 uncertainty               :func:`monte_carlo`, :class:`Uncertainty`
@@ -44,6 +46,11 @@ _EXPORTS = {
     "Case": ("lowgmap.physics.case", "Case"),
     "FlowRange": ("lowgmap.physics.case", "FlowRange"),
     "OperatingPoint": ("lowgmap.physics.case", "OperatingPoint"),
+    "Orientation": ("lowgmap.physics.case", "Orientation"),
+    "gravity_level": ("lowgmap.physics.properties.gravity", "gravity_level"),
+    "GravityLevel": ("lowgmap.physics.properties.gravity", "GravityLevel"),
+    "GRAVITY_LEVELS": ("lowgmap.physics.properties.gravity", "GRAVITY_LEVELS"),
+    "with_conduit": ("lowgmap.app.files.casefile", "with_conduit"),
     "Chart": ("lowgmap.physics.chart.composition", "Chart"),
     "build_chart": ("lowgmap.physics.chart.composition", "build_chart"),
     "boundary_models": ("lowgmap.physics.models.boundary", "model_names"),

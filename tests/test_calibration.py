@@ -227,3 +227,66 @@ def test_chart_with_boundary_replaces_the_line_of_the_same_pair(tube):
     assert new.regime_names == chart.regime_names
     assert str(new.classify(1e-5, 0.4e-5)) == "dispersed bubbles" and str(new.classify(1e-5, 0.6e-5)) != \
         "dispersed bubbles"
+
+
+def test_calibrated_revision_stores_the_calibrated_bands_and_keeps_the_conduit(fitted):
+    # catches a revision writer that stores the fitted constants but not their 95 % intervals (the calibrated
+    # case would draw the wide prior bands again), and one that drops keys it does not write (orientation)
+    from lowgmap.app.files.casefile import dumps_case, loads_case, with_conduit
+    from lowgmap.app.files.revisions import calibrated_document
+    from lowgmap.physics.chart.bands import chart_constant_bands
+    from lowgmap.physics.models.boundary import case_bands
+
+    cal, _, _ = fitted
+    doc = with_conduit(load_case(sample_case_path()), orientation="vertical downward flow")
+    data, rev = calibrated_document(doc, cal, points_name="synthetic", date=None)
+    new = loads_case(dumps_case(data))
+    assert rev == "B" and new.case.revision == "B"
+    assert new.case.orientation.kind == "vertical downward"                   # kept from the document
+    expected = {m: {c: (lo, hi, why)} for m, c, lo, hi, why in cal.band_entries()}
+    assert expected and case_bands(new.case) == expected                      # exactly the calibrated intervals
+    (model, const, lo, hi, _), = cal.band_entries()
+    drawn = {b.name: b for b in chart_constant_bands(Chart.build(new.case), model)}[const]
+    prior = {b.name: b for b in chart_constant_bands(Chart.build(doc.case), model)}[const]
+    assert (drawn.low, drawn.high, drawn.origin) == (lo, hi, "case")
+    assert drawn.width < prior.width                                          # the calibrated case draws narrower
+
+
+def test_calibrate_command_writes_a_revision_whose_bands_are_the_intervals(tmp_path, capsys):
+    # the same through `lowgmap calibrate -o`: the file written reads back with the printed bands
+    import json
+
+    from lowgmap.app.cli import main
+    from lowgmap.physics.models.boundary import case_bands
+
+    case = sample_case_path()
+    out = tmp_path / "rev_b.toml"
+    code = main(["calibrate", str(case), str(case.parent / "drop_tower_points.csv"), "--fit", f"{BS}.alpha_c",
+                 "--length", "0.1 m", "-o", str(out), "--json"])
+    printed = json.loads(capsys.readouterr().out)
+    assert code == 0
+    c, = printed["constants"]
+    got = case_bands(load_case(out).case)[BS]["alpha_c"]
+    assert got[:2] == tuple(c["band"]) and got[2] == c["band_reason"]
+
+
+def test_buoyant_case_fits_only_the_points_at_its_own_gravity_level():
+    """A case with an orientation puts each test point on the chart of its own gravity level; a fit of the
+    1-g chart must use only the 1-g points. Bug caught: drop-tower points (another chart) pulling the
+    ground-test constants, i.e. calibration ignoring the per-point gravity the agreement module uses."""
+    doc = load_case(sample_case_path("ground_test_loop"))    # invented sample: 60 mm tube, 1 g, vertical upflow
+    case = doc.case
+    chart = Chart.build(case)
+    flight = Chart.build(case.with_(g=1e-6 * 9.80665))
+    rng = np.random.default_rng(3)
+    n = 40
+    ql = 10 ** rng.uniform(-4.5, -3.0, 2 * n)
+    qg = 10 ** rng.uniform(-5.0, -2.0, 2 * n)
+    g = np.r_[np.full(n, case.g), np.full(n, 1e-6 * 9.80665)]
+    labels = np.r_[np.asarray(chart.classify(ql[:n], qg[:n])), np.asarray(flight.classify(ql[n:], qg[n:]))]
+    ids = [f"G{i}" for i in range(n)] + [f"F{i}" for i in range(n)]
+    pts = {"test_id": ids, "ql_m3_s": ql, "qg_m3_s": qg, "observed_regime": labels.astype(object),
+           "platform": ["ground test"] * n + ["drop tower"] * n, "g_m_s2": g, "duration_s": np.full(2 * n, 1e3)}
+    cal = calibrate(chart, pts, ["slug_churn_taitel_1980.entrance_coefficient"], use="all", folds=2)
+    assert cal.points_used and all(t.startswith("G") for t in cal.points_used)
+    assert cal.n_points == len(cal.points_used) <= n

@@ -358,3 +358,89 @@ def test_models_replace_defaults_uses_exactly_the_listed_set():
     doc = loads_case("models_replace_defaults = true\n" + GOOD + _ONE_CONSTANT)
     assert [m.name for m in doc.case.models] == ["slug_annular_dukler_1988"]
     assert "models_replace_defaults" in " ".join(map(str, _problems("models_replace_defaults = \"yes\"\n" + GOOD + _ONE_CONSTANT)))
+
+
+# --------------------------------------------------------------------------------------------- bands
+_BANDED = '''
+[[models]]
+name = "bubble_slug_dukler_1988"
+constants = { alpha_c = 0.45 }
+bands = { alpha_c = [0.30, 0.60] }
+band_reasons = { alpha_c = "spread of the transition data (test)" }
+'''
+
+
+def test_model_bands_become_case_bands_with_their_reason():
+    # catches bands read but never handed to the physics (the chart would draw the model's own band)
+    from lowgmap.physics.chart.bands import chart_constant_bands
+    from lowgmap.physics.chart.composition import Chart
+    from lowgmap.physics.models.boundary import case_bands
+
+    doc = loads_case(GOOD + _BANDED)
+    assert case_bands(doc.case) == {"bubble_slug_dukler_1988": {"alpha_c": (0.30, 0.60,
+                                                                            "spread of the transition data (test)")}}
+    used = {b.name: b for b in chart_constant_bands(Chart.build(doc.case), "bubble_slug_dukler_1988")}
+    band = used["alpha_c"]
+    assert (band.low, band.high, band.origin) == (0.30, 0.60, "case")
+
+
+def test_a_band_without_a_reason_gets_the_documented_default():
+    # catches an empty reason (the review pack would show a band with no word on where it comes from)
+    from lowgmap.app.files.casefile import DEFAULT_CASE_BAND_REASON
+    from lowgmap.physics.models.boundary import case_bands
+
+    doc = loads_case(GOOD + _BANDED.replace('band_reasons = { alpha_c = "spread of the transition data (test)" }\n', ""))
+    assert case_bands(doc.case)["bubble_slug_dukler_1988"]["alpha_c"][2] == DEFAULT_CASE_BAND_REASON
+    assert DEFAULT_CASE_BAND_REASON == "given by the case file"
+
+
+@pytest.mark.parametrize("bands, reasons, path, words", [
+    ("{ nope = [0.3, 0.6] }", "", "models[0].bands.nope", "no constant 'nope'"),          # unknown constant
+    ("{ alpha_c = [0.6, 0.3] }", "", "models[0].bands.alpha_c", "low must be <= high"),
+    ('{ alpha_c = ["low", 0.6] }', "", "models[0].bands.alpha_c", "plain number"),        # not a number
+    ("{ alpha_c = [0.3, 1.2] }", "", "models[0].bands.alpha_c", "allowed range of alpha_c"),
+    ("{ alpha_c = 0.3 }", "", "models[0].bands.alpha_c", "range [low, high]"),
+    ("{ alpha_c = [0.3, 0.6] }", '{ c0 = "why" }', "models[0].band_reasons.c0", "no entry in bands"),
+    ("{ alpha_c = [0.3, 0.6] }", "{ alpha_c = 5 }", "models[0].band_reasons.alpha_c", "must be text"),
+])
+def test_band_problems_are_named(bands, reasons, path, words):
+    # catches a band the reader lets through that the chart then refuses (or silently widens)
+    text = GOOD + f'\n[[models]]\nname = "bubble_slug_dukler_1988"\nbands = {bands}\n'
+    if reasons:
+        text += f"band_reasons = {reasons}\n"
+    probs = {p.path: p for p in _problems(text)}
+    assert path in probs, probs
+    assert words in probs[path].message, probs[path]
+
+
+def test_band_outside_the_range_names_value_and_range():
+    probs = {p.path: p.message for p in _problems(GOOD + _BANDED.replace("[0.30, 0.60]", "[0.30, 1.20]"))}
+    assert probs["models[0].bands.alpha_c"] == ("band [0.3, 1.2] must lie within the allowed range of alpha_c, "
+                                                "[0.05, 0.95]")
+
+
+def test_bands_round_trip_through_the_writer(tmp_path):
+    # catches a writer that drops the keys it does not know (a saved case would lose its bands)
+    from lowgmap.physics.models.boundary import case_bands
+
+    doc = loads_case(GOOD + _BANDED)
+    save_case(doc.data, tmp_path / "c.toml")
+    again = load_case(tmp_path / "c.toml")
+    assert case_bands(again.case) == case_bands(doc.case)
+    assert dumps_case(again.data) == dumps_case(doc.data)
+
+
+def test_a_failed_fluid_raises_no_second_problem_on_a_standard_gas_flow():
+    # catches the knock-on "'100 sccm' needs the local pressure and temperature" after a fluid that did not
+    # load: one wrong field gives one problem
+    probs = _problems(GOOD.replace('liquid = "water"', 'liquid = "unobtainium"'))
+    assert [p.path for p in probs] == ["fluid"]
+
+
+def test_band_problems_show_with_the_other_problems_of_the_file():
+    # catches bands checked only once everything else is right (the engineer fixes one problem, then meets
+    # the next): an unknown constant and a band out of range are listed beside a wrong contact angle
+    text = (GOOD.replace('contact_angle = "30 deg"', 'contact_angle = "210 deg"')
+            + '\n[[models]]\nname = "bubble_slug_dukler_1988"\nbands = { nope = [1, 2], alpha_c = [0.1, 2] }\n')
+    paths = {p.path for p in _problems(text)}
+    assert {"wetting.contact_angle", "models[0].bands.nope", "models[0].bands.alpha_c"} <= paths

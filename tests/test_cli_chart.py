@@ -80,3 +80,36 @@ def test_same_case_in_other_units_gives_the_same_chart(tube_doc):
     pts_ql = np.logspace(-6, -3, 50)
     pts_qg = np.logspace(-7, -2, 50)
     assert (a.classify(pts_ql, pts_qg) == b.classify(pts_ql, pts_qg)).all()
+
+
+def test_chart_prints_the_hand_over_note_of_a_closed_conduit(tmp_path, capsys):
+    # catches the hand-over sentence (which family of lines defines the regions at this gravity level) left
+    # out of the chart command's notes, or printed for an open channel whose lines are the corner family
+    out = tmp_path / "lunar.svg"
+    assert main(["chart", str(sample_case_path("lunar_separator")), "-o", str(out), "--json"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    note, = d["notes"]
+    assert note.startswith("Hand-over: Eötvös number") and "0.165 g0 (horizontal flow)" in note
+    assert d["residual_acceleration_m_s2"] == 1.62 and d["orientation"] == "horizontal flow"
+    from lowgmap.app.cli.chart import chart_notes
+
+    assert chart_notes(load_case(sample_case_path("wedge_separator")).case) == []     # open channel: no note
+
+
+def test_compare_level_is_checked_before_anything_is_drawn(tmp_path, capsys):
+    code = main(["chart", str(sample_case_path("condensate_line")), "--compare", "orbit", "-o", str(tmp_path / "p.png")])
+    err = capsys.readouterr().err
+    assert code == 2 and "--compare: 'orbit' is neither" in err and not (tmp_path / "p.png").exists()
+
+
+def test_bands_flag_draws_or_drops_the_uncertainty_bands(tmp_path):
+    """`--bands` / `--no-bands` reach the drawing: the band key entry is in the SVG only with bands.
+    Bug caught: the flag parsed but not passed on (bands always drawn, or never)."""
+    from lowgmap.app.outputs.chartview import BAND_KEY_TEXT
+
+    case = str(sample_case_path("condensate_line"))     # its drift-flux lines carry banded constants
+    with_bands, without = tmp_path / "b.svg", tmp_path / "n.svg"
+    assert main(["chart", case, "-o", str(with_bands), "--bands"]) == 0
+    assert main(["chart", case, "-o", str(without), "--no-bands"]) == 0
+    assert BAND_KEY_TEXT in with_bands.read_text()
+    assert BAND_KEY_TEXT not in without.read_text()

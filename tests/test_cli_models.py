@@ -133,3 +133,60 @@ def test_unknown_name_lists_the_known_ones(capsys):
     code, _, err = run(capsys, "models", "bubble_slug_dukler")
     assert code == 2
     assert "bubble_slug_dukler_1988" in err and "families: corner, tube" in err
+
+
+def test_buoyancy_models_say_they_apply_when_an_orientation_is_given(listing):
+    # catches the old wording "in the default set for horizontal sections" (no section is horizontal: the
+    # buoyancy lines join the chart of a circular tube when the case file gives conduit.orientation)
+    from lowgmap.physics.models.tube_gravity import HORIZONTAL_MODEL_NAMES, VERTICAL_UPWARD_MODEL_NAMES
+
+    text, entries = listing
+    by = {e["name"]: e for e in entries}
+    for name, words in [(n, '"vertical upward flow"') for n in VERTICAL_UPWARD_MODEL_NAMES] + \
+                       [(n, '"horizontal"') for n in HORIZONTAL_MODEL_NAMES]:
+        when = by[name]["default_when"]
+        assert "when the case gives an orientation" in when and f"conduit.orientation = {words}" in when, name
+        assert "hand-over rule" in when
+        assert f"  default:   {when}" in text
+    assert "sections sections" not in text and "for horizontal sections" not in text
+    assert by["bubble_slug_dukler_1988"]["default_when"] == "in the default set for closed sections (tubes and ducts)"
+
+
+def test_models_lists_the_measured_surrogate_errors(capsys):
+    """`lowgmap models` states how far the surrogate tables may be from the full solves (issue: surrogate
+    error reported in the models listing). Bug caught: errors dropped from the listing or from --json."""
+    from lowgmap.physics.surrogates import SURROGATE_ERRORS
+
+    assert main(["models", "corner"]) == 0
+    text = capsys.readouterr().out
+    assert "used unless --exact" in text
+    for quantity in SURROGATE_ERRORS:
+        assert quantity in text
+    assert main(["models", "--json"]) == 0
+    rows = json.loads(capsys.readouterr().out)["surrogate_errors"]
+    assert {r["quantity"] for r in rows} == set(SURROGATE_ERRORS)
+    assert all(r["max_rel_error"] < r["limit"] for r in rows)
+
+
+def test_exact_option_builds_the_chart_with_the_full_solves(monkeypatch, capsys):
+    """`--exact` reaches the chart builder (the full solves are requested while the command runs, and only
+    then). Bug caught: the flag parsed but the chart still built from the surrogates."""
+    from lowgmap.app.files.casefile import sample_case_path
+    from lowgmap.physics import surrogates
+    from lowgmap.physics.chart.composition import Chart
+
+    seen = []
+    original = Chart.build.__func__
+
+    def spy(cls, *args, **kwargs):
+        seen.append(surrogates.exact_requested())
+        return original(cls, *args, **kwargs)
+
+    monkeypatch.setattr(Chart, "build", classmethod(spy))
+    case = str(sample_case_path("condensate_line"))
+    assert main(["margin", case, "--exact", "--nominal-only", "--json"]) == 0
+    assert seen and all(seen)
+    seen.clear()
+    assert main(["margin", case, "--nominal-only", "--json"]) == 0
+    assert seen and not any(seen)
+    capsys.readouterr()

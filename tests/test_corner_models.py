@@ -550,3 +550,42 @@ def test_wedge_separator_sample_shows_every_regime():
     assert all(np.isfinite(b.ql).sum() >= 2 for b in ch.boundaries)
     op = doc.case.operating_point
     assert ch.separates_gas[ch.regime_at(op.ql, op.qg)]
+
+
+# -- uncertainty bands of the corner constants (issue 16 item 1) -------------------------------------------
+#: Constants that are design inputs, definitions or safety choices: drawn sharp (no band).
+SHARP = {"bubble_diameter_ratio", "injector_width_ratio", "injection_position", "confinement_ratio",
+         "safety_factor", "open_side_roll"}
+#: The bands given to the closure constants (low, high); reasons in physics/models/corner.py
+BANDS = {"squeeze_a": (0.5, 2.0), "merge_length_ratio": (1.0, 3.0), "capillary_coefficient": (1.0, 4.0),
+         "hele_shaw_drag": (6.0, 24.0), "film_drag": (0.0, 1.0), "form_drag": (0.5, 2.0),
+         "alpha_c": (0.30, 0.60), "c0": (1.0, 1.35), "entrance_loss": (0.5, 1.0), "gas_effect": (0.0, 1.0)}
+
+
+def test_every_corner_closure_constant_has_its_own_band_with_a_reason():
+    # catches a closure constant drawn as one sharp line (no band), a band that leaves out the default, or a
+    # band without its reason; design inputs and safety choices stay sharp
+    seen = set()
+    for name in ALL:
+        for c in get_model(name).constants:
+            seen.add(c.name)
+            if c.name in SHARP:
+                assert c.band_for() is None, c.name
+                continue
+            assert c.band == BANDS[c.name], c.name
+            assert c.band[0] <= c.default <= c.band[1] and len(c.band_reason) > 20
+            words = c.band_reason.lower()
+            assert any(w in words for w in ("from memory", "published", "physical range")), c.name
+    assert seen == SHARP | set(BANDS)
+
+
+def test_blow_through_band_matches_its_closed_form():
+    # catches band edges that are not the extremes over the constants' box: on the blow-through line
+    # r = C0 alpha_c/(1 - C0 alpha_c) the edges are at (0.30, 1.0) and (0.60, 1.35) (closed form)
+    from lowgmap.physics.chart.bands import boundary_band
+    chart = Chart.build(make_case())
+    band = boundary_band(chart, "corner_blow_through")
+    ok = np.isfinite(band.qg_lower) & np.isfinite(band.qg_upper)
+    assert ok.sum() > 5
+    np.testing.assert_allclose(band.qg_lower[ok] / band.ql[ok], 0.3 / 0.7, rtol=1e-6)
+    np.testing.assert_allclose(band.qg_upper[ok] / band.ql[ok], 0.81 / 0.19, rtol=1e-6)

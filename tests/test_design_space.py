@@ -158,3 +158,55 @@ def test_grid_and_pairs_are_bounded_before_anything_is_built():
     with pytest.raises(InputError, match="100,000"):
         zipped({"length": range(MAX_DESIGNS + 1)})
     assert len(grid({"length": range(400), "size": range(250)})) == MAX_DESIGNS     # the limit itself is allowed
+
+
+# ------------------------------------------------------------------------------------------------ adaptive_map
+def test_adaptive_map_value_at_the_current_design_equals_the_margin_table():
+    """The map evaluates the current design itself (a node of the map), so its value equals the margin table's
+    (point_margins on the case's chart, signed) within the sweep's margin error (5e-6, sweep module notes)
+    and the surrogate error. Catches a map that only interpolates the current design between grid nodes
+    (an 8x8 map once drew a design with a +-31.6 % margin on its 0 contour).
+    """
+    from lowgmap.physics.chart.composition import build_chart
+    from lowgmap.physics.chart.margins import point_margins
+    from lowgmap.physics.geometry.sections import Circle
+    from lowgmap.physics.studies.design_space import adaptive_map
+
+    case = example_case(Circle(0.01), length=1.0, g=1e-5, flow_range=(1e-7, 1e-3, 1e-7, 1e-3), point=(1e-5, 1e-5))
+    pm = point_margins(build_chart(case), 1e-5, 1e-5)
+    m = adaptive_map(case, "size", (0.004, 0.03), "liquid_flow", (2e-6, 5e-5), n_max=60, start=5,
+                     log_x=True, log_y=True)
+    assert m.current[:2] == (0.01, 1e-5)
+    assert m.regime == pm.regime
+    assert abs(m.current[2] - pm.symmetric_margin) < 1e-4
+    assert len(m.x) <= 60
+
+
+def test_adaptive_map_refines_only_cells_crossing_zero():
+    """With a known zero contour (margin = length - 1), added designs lie in cells the contour crosses and
+    the final cell next to the contour is smaller than the start spacing. Catches refinement of every cell
+    (budget spent away from the line) or of none."""
+    import numpy as np
+
+    from lowgmap.physics.studies.design_space import adaptive_map
+
+    case = example_case(point=(1e-5, 1e-6))
+    m = adaptive_map(case, "length", (0.5, 1.7), "size", (0.005, 0.02), n_max=150, start=5,
+                     evaluate=lambda ds: np.array([d["length"] - 1.1 for d in ds]))
+    added = m.levels > 0
+    assert added.any() and len(m.x) <= 150
+    assert np.all(np.abs(m.x[added] - 1.1) <= 0.3 + 1e-12)         # within the start cells crossing 1.1
+    gaps = np.abs(m.x[np.isclose(m.margin, m.x - 1.1)] - 1.1)
+    assert gaps.min() < 0.3 / 4                                      # resolved below the start spacing
+
+
+def test_adaptive_map_errors():
+    """Catches silent acceptance of an empty or reversed range and a bad budget."""
+    from lowgmap.physics.studies.design_space import adaptive_map
+
+    case = example_case(point=(1e-5, 1e-6))
+    f = lambda ds: [0.0] * len(ds)        # noqa: E731
+    with pytest.raises(ValueError, match="length"):
+        adaptive_map(case, "length", (2.0, 1.0), "size", (0.005, 0.02), evaluate=f)
+    with pytest.raises(ValueError, match="n_max"):
+        adaptive_map(case, "length", (1.0, 2.0), "size", (0.005, 0.02), n_max=2, evaluate=f)

@@ -107,3 +107,27 @@ def test_readme_case_files_load_and_give_a_margin(tmp_path, capsys):
         assert code == 0, (i, err)
         d = json.loads(out)
         assert d["regime"] and d["verdict"]["margin_status"] in ("met", "NOT MET", "not established"), i
+
+
+def test_readme_case_file_section_documents_the_gravity_and_band_keys():
+    # catches a case-file key the reader accepts but the README never mentions (an engineer cannot guess it)
+    from lowgmap.app.files.casefile import DEFAULT_CASE_BAND_REASON
+    from lowgmap.app.files.units import ORIENTATION_WORDS, gravity_names
+
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    start = text.index("## Case file")
+    section = text[start:text.index("\n## ", start + 5)]
+    for word in ("orientation", "bands", "band_reasons", DEFAULT_CASE_BAND_REASON, *gravity_names(),
+                 *ORIENTATION_WORDS):
+        assert f'"{word}"' in section or f"`{word}`" in section or f"{word} =" in section, word
+    commands = text[text.index("## Commands"):text.index("## Limits and errors")]
+    assert "--gravity" in commands and "--orientation" in commands and "--compare" in commands
+
+
+def test_public_api_exports_orientation_and_the_named_levels():
+    # catches the gravity inputs reachable only through internal module paths
+    import lowgmap
+
+    assert lowgmap.Orientation.vertical_up().axial_fraction == 1.0
+    assert lowgmap.gravity_level("lunar surface").value == 1.62      # NASA GSFC Moon Fact Sheet
+    assert {"Orientation", "gravity_level", "GravityLevel", "GRAVITY_LEVELS", "with_conduit"} <= set(lowgmap.__all__)

@@ -543,3 +543,69 @@ def test_curvature_interface_agrees_with_the_radius_functions(channel):
     depth = channel.depth_at(kap)                       # depth and curvature are inverse maps
     assert channel.kappa_of_depth(depth) == pytest.approx(kap, rel=1e-12)
     assert channel.arc_angle(channel.kappa_pinned) == pytest.approx(channel.arc_angle_max, rel=1e-12)
+
+
+# ---------------------------------------------------------------------------------------------
+# axial residual acceleration (hydrostatic term of the 1-D momentum balance)
+# ---------------------------------------------------------------------------------------------
+def inviscid_plates_with_gravity(g_a, l):
+    """Q_crit of inviscid plates a = b = 1, rho = sigma = 1, K_e = 0, reservoir at the gas pressure, with the
+    axial acceleration g_a against the flow over the length l.
+
+    Derivation: with mu = 0 the momentum equation with the hydrostatic term integrates to Bernoulli
+    p + rho v^2/2 + rho g_a z = 0 (p relative to the gas), so at the outlet
+    G(kappa) = sigma kappa - rho Q^2/(2 A^2) = rho g_a l. dG/dkappa = sigma (1 - S^2), so the largest Q for
+    which G reaches rho g_a l has S = 1 at the outlet: Q^2 = sigma A^3/(rho (-dA/dkappa)) there and
+    G = sigma kappa - sigma A/(2 (-dA/dkappa)) = rho g_a l fixes kappa. Area from plates_area (independent of
+    the module), dA/dkappa by central differences.
+    """
+    from scipy.optimize import brentq as _brentq
+
+    A = lambda k: plates_area(1.0 / k, 1.0, 1.0)                     # noqa: E731
+    dA = lambda k: (A(k + 1e-6) - A(k - 1e-6)) / 2e-6               # noqa: E731
+    G = lambda k: k - A(k) / (2.0 * -dA(k)) - g_a * l               # noqa: E731
+    k = _brentq(G, 1e-3, 2.0 - 1e-5)
+    return math.sqrt(A(k) ** 3 / -dA(k))
+
+
+def test_gravity_inviscid_plates_match_bernoulli_with_hydrostatics():
+    """Bernoulli + hydrostatics + Young-Laplace closed form (derived above). Catches a wrong sign or factor of
+    the hydrostatic term, and a quadrature that is too coarse (trapezoid on 1025 points: error ~1e-6)."""
+    pp = ParallelPlates(gap=1.0, breadth=1.0)
+    for g_a, l in ((0.05, 2.0), (0.2, 1.5)):
+        got = critical_flow_rate(pp, l, rho=1.0, mu=0.0, sigma=1.0, g_axial=g_a)
+        assert got.limited_by == "speed_index"
+        assert got.Q_crit == pytest.approx(inviscid_plates_with_gravity(g_a, l), rel=1e-4)
+
+
+def test_gravity_tends_to_the_low_gravity_model_and_orders_by_orientation():
+    """g_a -> 0 equals today's model (closed-form integrals) to the quadrature error; upward flow lowers the
+    critical flow, downward flow raises it. Catches a discontinuity at g = 0 and a reversed sign."""
+    w = WedgeChannel(10.0 * DEG, 0.02, 5.0 * DEG)
+    q0 = critical_flow_rate(w, 0.2, 1000.0, 1e-3, 0.07).Q_crit
+    q_tiny = critical_flow_rate(w, 0.2, 1000.0, 1e-3, 0.07, g_axial=1e-9).Q_crit
+    assert q_tiny == pytest.approx(q0, rel=1e-6)
+    up = [critical_flow_rate(w, 0.2, 1000.0, 1e-3, 0.07, g_axial=g).Q_crit for g in (1e-3, 1e-2, 1e-1)]
+    down = critical_flow_rate(w, 0.2, 1000.0, 1e-3, 0.07, g_axial=-1e-2).Q_crit
+    assert q0 > up[0] > up[1] > up[2] and down > q0
+
+
+def test_gravity_no_flow_held_above_the_static_rise():
+    """Static limit (Young-Laplace + hydrostatics): plates hold a column up to
+    l_max = sigma kappa_max/(rho g_a), kappa_max = 2/a (theta = 0, b > a). Longer: no flow reaches the outlet.
+    Catches an endless search for a vanishing flow and a wrong hold height."""
+    pp = ParallelPlates(gap=0.005, breadth=0.025)
+    l_max = 0.07 * (2.0 / 0.005) / (1000.0 * 1.0)                   # 0.028 m
+    above = critical_flow_rate(pp, 1.05 * l_max, 1000.0, 1e-3, 0.07, g_axial=1.0)
+    below = critical_flow_rate(pp, 0.9 * l_max, 1000.0, 1e-3, 0.07, g_axial=1.0)
+    assert above.Q_crit == 0.0 and above.limited_by == "hydrostatic" and "hydrostatic" in LIMITS
+    assert below.Q_crit > 0.0
+
+
+def test_gravity_errors():
+    """Catches a gravity value silently dropped by the streamwise-curvature model and a non-finite value."""
+    pp = ParallelPlates(gap=0.005, breadth=0.025)
+    with pytest.raises(ValueError, match="g_axial"):
+        critical_flow_rate(pp, 0.05, 1000.0, 1e-3, 0.07, streamwise_curvature=True, g_axial=1.0)
+    with pytest.raises(ValueError, match="g_axial"):
+        critical_flow_rate(pp, 0.05, 1000.0, 1e-3, 0.07, g_axial=float("nan"))

@@ -49,8 +49,18 @@ def test_table_matches_the_typical_class_figures(name, duration, duration_max, g
     assert p.source == SOURCE_FROM_MEMORY and "from memory" in p.source
 
 
+def test_ground_test_platform_uses_standard_gravity():
+    # catches the table's "upper end" convention applied to the ground test (its points are drawn on the
+    # 1-g chart, at g0), or a ground test whose time would run out
+    p = get_platform("ground")
+    assert p.name == "ground test" and get_platform("1 g") is p
+    assert p.g_typical == 9.80665                     # CGPM 1901: standard gravity, exact by definition
+    assert p.g_low == 9.780 and p.g_high == 9.832     # equator to poles, from memory
+    assert p.duration_max_s == math.inf and p.duration_s >= 86400.0
+
+
 def test_every_platform_is_tested_and_named_generically():
-    assert len(PLATFORMS) == 6 and platform_names() == list(PLATFORMS)
+    assert len(PLATFORMS) == 7 and platform_names() == list(PLATFORMS)
     rows = platform_table()
     assert [r["name"] for r in rows] == platform_names()
     assert set(rows[0]) == {"name", "aliases", "duration_s", "duration_max_s", "g_low_g0", "g_high_g0",

@@ -70,3 +70,40 @@ def test_cache_command_reports_and_clears(tmp_path, monkeypatch, capsys):
     assert main(["cache", "--clear"]) == 0
     out = capsys.readouterr().out
     assert "deleted 1 cached file(s)" in out and cache.info()["files"] == 0
+
+
+#: The gravity samples of issue 18 (invented): a 1-g ground-test loop and a lunar-surface separator.
+GRAVITY_SAMPLES = {"ground_test_loop": (9.80665, "vertical upward flow"),       # g0 exact (CGPM 1901)
+                   "lunar_separator": (1.62, "horizontal flow")}                 # NASA GSFC Moon Fact Sheet
+
+
+@pytest.mark.parametrize("name", sorted(GRAVITY_SAMPLES))
+def test_gravity_samples_load_chart_and_give_a_margin(name, tmp_path, capsys):
+    # catches a gravity sample that is listed but does not compute (a key the reader refuses, a chart that fails,
+    # an intended regime the buoyancy chart does not have) or that is not marked as invented
+    g, orientation = GRAVITY_SAMPLES[name]
+    path = samples.sample_path(name)
+    text = path.read_text(encoding="utf-8")
+    assert text.startswith("# INVENTED SCENARIO") and "invented = true" in text
+    doc = load_case(path)
+    assert doc.invented and doc.case.g == g and doc.case.orientation.describe() == orientation
+    assert main(["chart", str(path), "-o", str(tmp_path / f"{name}.svg"), "--json"]) == 0
+    drawn = json.loads(capsys.readouterr().out)
+    assert drawn["notes"] and "buoyancy-inclusive lines define the regions" in drawn["notes"][0]
+    assert main(["margin", str(path), "--nominal-only", "--json"]) == 0
+    m = json.loads(capsys.readouterr().out)
+    assert m["regime"] == doc.settings.intended_regime and m["verdict"]["margin_status"] == "met"
+    assert "taitel" in m["limiting_boundary"]                 # the buoyancy family limits the margin
+
+
+def test_samples_command_lists_the_gravity_samples(capsys):
+    assert main(["samples", "--json"]) == 0
+    assert set(GRAVITY_SAMPLES) <= set(json.loads(capsys.readouterr().out)["cases"])
+
+
+def test_no_bundled_test_point_is_set_aside_for_its_label(capsys):
+    # issue 15: the bundled points use labels of the bundled charts, so none is "not a chart regime"
+    case = samples.sample_path("condensate_line")
+    assert main(["compare", str(case), str(samples.sample_path("drop_tower_points.csv")), "--json"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    assert d["unknown_labels"] == [] and d["n_points"] == 25 and d["confusion_all"]["compared"] == 25

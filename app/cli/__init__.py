@@ -15,6 +15,7 @@ and that module is imported only when its command runs (or its ``--help`` is ask
 from __future__ import annotations
 
 import argparse
+import contextlib
 import importlib
 import os
 import sys
@@ -23,7 +24,7 @@ from dataclasses import dataclass
 from lowgmap.app import CAUTION, __version__
 from lowgmap.app.cli.common import EXIT_FAIL, EXIT_INVALID, EXIT_OK
 
-__all__ = ["main", "build_parser", "Command", "COMMANDS", "CliError", "EXIT_OK", "EXIT_FAIL", "EXIT_INVALID",
+__all__ = ["main", "build_parser", "Command", "COMMANDS", "GRAVITY_COMMANDS", "CliError", "EXIT_OK", "EXIT_FAIL", "EXIT_INVALID",
            "EXIT_BROKEN_PIPE", "EXIT_INTERRUPTED"]
 
 #: Exit code when stdout was closed by the reader (128 + SIGPIPE).
@@ -93,6 +94,11 @@ COMMANDS: tuple[Command, ...] = (
 
 _BY_NAME = {c.name: c for c in COMMANDS}
 
+#: Commands that compute from a case and take ``--gravity`` and ``--orientation`` (``check`` validates the
+#: file as written; ``calibrate`` writes the next revision of the file, so it computes with the file's values).
+GRAVITY_COMMANDS = ("section", "chart", "report", "margin", "robust", "uncertainty", "compare", "sweep", "design",
+                    "limit")
+
 
 def build_parser(command: str | None = None, *, every: bool = False) -> argparse.ArgumentParser:
     """The argument parser: every command with its help line; the options of ``command`` (or of all
@@ -115,6 +121,18 @@ def _add_arguments(sp: argparse.ArgumentParser, c: Command) -> None:
         sp.add_argument("case", metavar="CASE", help="case file (.toml)")
     if c.json:
         sp.add_argument("--json", action="store_true", help="print JSON for scripting")
+    if c.name in GRAVITY_COMMANDS:
+        sp.add_argument("--gravity", metavar="G",
+                        help="residual acceleration instead of the case's: a value with units (\"1 g0\", "
+                             "\"9.81 m/s^2\", \"1e-6 g0\") or a named level (\"ground\", \"lunar surface\", "
+                             "\"Martian surface\")")
+        sp.add_argument("--orientation", metavar="O",
+                        help="conduit orientation instead of the case's: \"vertical upward flow\", \"vertical "
+                             "downward flow\", \"horizontal\", \"unspecified\" or an angle above the horizontal "
+                             "(\"30 deg\", positive for upward flow)")
+        sp.add_argument("--exact", action="store_true",
+                        help="use the full solves (open-channel Stokes and critical-flow solutions) instead of "
+                             "their surrogate tables (measured errors: `lowgmap models`); slower")
     importlib.import_module(c.module_name).add_arguments(sp)
 
 
@@ -163,7 +181,17 @@ def _run(argv: list[str], debug: bool = False) -> int:
             return EXIT_INVALID
         name = args.command
         module = importlib.import_module(_BY_NAME[args.command].module_name)
-        return int(module.run(args) or 0)
+        gravity, orientation = getattr(args, "gravity", None), getattr(args, "orientation", None)
+        with contextlib.ExitStack() as stack:
+            if getattr(args, "exact", False):
+                from lowgmap.physics.surrogates import exact
+
+                stack.enter_context(exact())
+            if gravity is not None or orientation is not None:
+                from lowgmap.app.cli.common import case_overrides
+
+                stack.enter_context(case_overrides(gravity, orientation))
+            return int(module.run(args) or 0)
     except BrokenPipeError:
         raise
     except KeyboardInterrupt:

@@ -22,10 +22,11 @@ import json
 import math
 import os
 from contextlib import contextmanager
+from contextvars import ContextVar
 from pathlib import Path
 
 __all__ = ["EXIT_OK", "EXIT_FAIL", "EXIT_INVALID", "CliError", "emit",  # noqa: F822 (CliError: __getattr__) "clean", "json_default", "json_text",
-           "load_case_file", "check_output", "write_output", "input_errors", "check_count", "estimate_text",
+           "load_case_file", "case_overrides", "check_output", "write_output", "input_errors", "check_count", "estimate_text",
            "format_seconds", "MAX_SAMPLES", "MAX_CHART_DRAWS", "MAX_WORKERS", "SCHEDULER_TIMEOUT"]
 
 #: Exit codes: success, unexpected failure (a defect of lowgmap), invalid input (every problem printed).
@@ -103,11 +104,44 @@ def clean(obj):
     return obj
 
 
-def load_case_file(path: str):
-    """Load a case file (:func:`lowgmap.app.files.casefile.load_case`); problems end the command with exit 2."""
-    from lowgmap.app.files.casefile import load_case
+#: ``--gravity`` and ``--orientation`` of the running command (None: the case file's own values).
+_CASE_OVERRIDES: ContextVar = ContextVar("lowgmap_case_overrides", default=None)
 
-    return load_case(path)
+
+@contextmanager
+def case_overrides(gravity: str | None = None, orientation: str | None = None):
+    """While the block runs, :func:`load_case_file` replaces the case's residual acceleration and/or
+    orientation by these texts (``--gravity``, ``--orientation``), checked here first so a bad
+    option is reported under its own name (exit 2)."""
+    from lowgmap.app.files.casefile import check_bounds
+    from lowgmap.app.files.units import parse_gravity, parse_orientation
+
+    if gravity is not None:
+        check_bounds("acceleration", parse_gravity(gravity, "--gravity"), "--gravity")
+    if orientation is not None:
+        parse_orientation(orientation, "--orientation")
+    given = {k: v for k, v in (("residual_acceleration", gravity), ("orientation", orientation)) if v is not None}
+    token = _CASE_OVERRIDES.set(given or None)
+    try:
+        yield
+    finally:
+        _CASE_OVERRIDES.reset(token)
+
+
+def load_case_file(path: str):
+    """Load a case file (:func:`lowgmap.app.files.casefile.load_case`); problems end the command with exit 2.
+
+    Inside :func:`case_overrides` (the ``--gravity``/``--orientation`` options of the computing commands)
+    the case's conduit values are replaced in the document (:func:`lowgmap.app.files.casefile.with_conduit`),
+    so every output of the command shows the values it used.
+    """
+    from lowgmap.app.files.casefile import load_case, with_conduit
+
+    doc = load_case(path)
+    given = _CASE_OVERRIDES.get()
+    if given:
+        doc = with_conduit(doc, **given)
+    return doc
 
 
 # --------------------------------------------------------------------------------------------- counts

@@ -55,17 +55,19 @@ def format_compare(doc, tps, res, points_path) -> str:
     lines = [f"{doc.case.title} (revision {doc.case.revision}): {res.n_points} test point(s) from "
              f"{Path(points_path).name}" + (f"; {len(tps.rejected_rows)} row(s) set aside" if tps.rejected_rows
                                             else "")]
-    lines.append(f"Validity: {res.n_valid} of {res.n_points} valid. Checks: Bond number < {c.bond_max:g} on "
-                 f"L = {res.length_scale * 1e3:.4g} mm (Brauner 1990); low-g time >= {c.safety_factor:g} x required "
-                 f"time (capillary settling x {c.capillary_multiple:g} + transit over {res.observation_length:.4g} m; "
-                 f"factors: common practice, no source)")
-    head = (f"  {'test id':<10} {'Q_L [' + ul + ']':>13} {'Q_G [' + ug + ']':>13} {'Bo':>9} {'needs [s]':>10} "
+    lines.append(f"Validity: {res.n_valid} of {res.n_points} valid. {res.validity_rule}")
+    # column widths follow the longest entry, headers included: a header is never cut or run into its neighbour
+    hl, hg = f"Q_L [{ul}]", f"Q_G [{ug}]"
+    wi = max([len("test id")] + [len(str(p.test_id)) for p in res.points])
+    wl, wg = max(13, len(hl)), max(13, len(hg))
+    head = (f"  {'test id':<{wi}} {hl:>{wl}} {hg:>{wg}} {'Bo':>9} {'needs [s]':>10} "
             f"{'has [s]':>9}  valid  observed -> chart")
     lines.append(head)
     for p in res.points:
-        mark = "" if p.agrees is None else ("  ok" if p.agrees else "  DIFFERS")
+        mark = (("  not compared: label not a chart regime" if p.observed else "") if p.agrees is None
+                else ("  ok" if p.agrees else "  DIFFERS"))
         obs = p.observed or "(none)"
-        lines.append(f"  {p.test_id:<10} {convert(p.ql, 'flow', ul):13.4g} {convert(p.qg, 'flow', ug):13.4g} "
+        lines.append(f"  {str(p.test_id):<{wi}} {convert(p.ql, 'flow', ul):{wl}.4g} {convert(p.qg, 'flow', ug):{wg}.4g} "
                      f"{p.bond:9.3g} {c.safety_factor * p.t_required:10.3g} {p.duration:9.3g}  "
                      f"{'yes' if p.valid else 'no ':<5}  {obs} -> {p.predicted}{mark}")
     lines.append(f"Agreement with the chart: {format_share(res.fraction_valid)} of {res.confusion_valid.compared} "

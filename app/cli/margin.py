@@ -1,7 +1,11 @@
 """`lowgmap margin`: margins of the operating point to every boundary.
 
-All numbers come from :func:`lowgmap.physics.chart.margins.point_margins` on the chart built by
-:meth:`lowgmap.physics.chart.composition.Chart.build`, as in the dashboard and the exported reports.
+All numbers come from the :class:`~lowgmap.physics.studies.study.Study` of the case (its chart built
+once by :meth:`lowgmap.physics.chart.composition.Chart.build`, the point's margins by
+:func:`lowgmap.physics.chart.margins.point_margins`, the worst-case margin over the constants' bands by
+:attr:`Study.worst_case <lowgmap.physics.studies.study.Study.worst_case>`), as in the dashboard and the
+exported reports. The worst case takes under a second for the closed-tube lines and tens of seconds for
+the corner family; ``--nominal-only`` leaves it out.
 """
 from __future__ import annotations
 
@@ -18,17 +22,38 @@ def add_arguments(parser) -> None:
                         help="liquid flow rate with units (default: the case's operating point)")
     parser.add_argument("--qg", metavar="VALUE",
                         help="gas flow rate with units, sccm/slpm allowed (default: the case's operating point)")
+    parser.add_argument("--nominal-only", action="store_true",
+                        help="margins to the nominal lines only: leave out the worst-case margin over the "
+                             "constants' uncertainty bands (up to about a minute for corner lines)")
 
 
 def run(args) -> int:
-    from lowgmap.physics.chart.margins import point_margins
+    from lowgmap.physics.studies.study import run_study
 
     doc = load_case_file(args.case)
     ql, qg = operating.operating_point(args, doc)
     chart = operating.case_chart(doc)
-    pm = point_margins(chart, ql, qg)
-    emit(args, clean(margin_report(doc, chart, pm)), format_margin(doc, chart, pm))
+    study = run_study(doc.case, chart=chart).with_point(ql, qg)
+    pm = study.margins
+    if pm is None:                         # a chart without regimes: the margins still list every line
+        from lowgmap.physics.chart.margins import point_margins
+
+        pm = point_margins(chart, ql, qg)
+    wc = None if getattr(args, "nominal_only", False) else _worst_case(study, show=not args.json)
+    emit(args, clean(margin_report(doc, chart, pm, worst_case=wc)), format_margin(doc, chart, pm, worst_case=wc))
     return 0
+
+
+def _worst_case(study, show: bool = False):
+    import sys
+
+    from lowgmap.app.cli import common
+
+    if show and study.has_bands and sys.stderr.isatty():
+        print("  searching the worst-case margin over the constants' bands (corner lines: up to a minute; "
+              "--nominal-only leaves it out)", file=sys.stderr, flush=True)
+    with common.input_errors("worst-case margin"):
+        return study.worst_case
 
 
 def verdict_of(doc, chart, pm):
@@ -47,9 +72,14 @@ def verdict_of(doc, chart, pm):
     return margin_verdict(pm, doc.settings.required_margin, intended)
 
 
-def margin_report(doc, chart, pm) -> dict:
-    """JSON-ready margins of a point (the CLI's --json output)."""
+def margin_report(doc, chart, pm, worst_case=None) -> dict:
+    """JSON-ready margins of a point (the CLI's --json output).
+
+    ``worst_case``: the point's :class:`~lowgmap.physics.chart.bands.WorstCaseMargins` (its
+    ``to_dict()`` goes under ``"worst_case"``; None there when not computed or without banded constants).
+    """
     data = pm.to_dict()
+    data["worst_case"] = None if worst_case is None else worst_case.to_dict()
     if not chart.regime_names:
         data["symmetric_margin"] = None
     st = doc.settings
@@ -64,8 +94,10 @@ def margin_report(doc, chart, pm) -> dict:
     return data
 
 
-def format_margin(doc, chart, pm) -> str:
-    """The margins of a point as text for a person."""
+def format_margin(doc, chart, pm, worst_case=None) -> str:
+    """The margins of a point as text for a person (with the worst case over the bands when given)."""
+    from lowgmap.app.outputs.report import worst_case_rows
+
     st = doc.settings
     lu, gu = st.liquid_flow_unit, st.gas_flow_unit
     flow = operating.flow_text
@@ -84,7 +116,10 @@ def format_margin(doc, chart, pm) -> str:
                          f"(no boundary comes closer)")
         else:
             lines.append(f"Symmetric margin: ±{format_percent(pm.symmetric_margin)}, limited by {lim.label}")
-        lines.append(f"Required margin ±{format_percent(st.required_margin)}: {verdict.margin_status}")
+        for k, v in worst_case_rows(worst_case, chart):
+            lines.append(f"{k[0].upper()}{k[1:]}: {v}")
+        lines.append(f"Required margin ±{format_percent(st.required_margin)}: {verdict.margin_status}"
+                     + (" (judged on the nominal margin)" if worst_case is not None else ""))
         lines.append(f"  basis: {verdict.basis}")
         for limit in verdict.limits:
             lines.append(f"  limit: {limit}")

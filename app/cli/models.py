@@ -21,9 +21,25 @@ def add_arguments(parser) -> None:
 
 
 def run(args) -> int:
+    from lowgmap.physics.surrogates import surrogate_errors
+
     entries = models_report(args.name)
-    emit(args, clean({"models": entries}), format_models(entries))
+    errors = surrogate_errors()
+    text = format_models(entries)
+    if any(e["family"] in ("corner", "open_channel") for e in entries):
+        text += "\n\n" + format_surrogate_errors(errors)
+    emit(args, clean({"models": entries, "surrogate_errors": errors}), text)
     return 0
+
+
+def format_surrogate_errors(rows: list[dict]) -> str:
+    """The surrogate tables' measured errors against the full solves, as text (``--exact`` uses the solves)."""
+    out = ["Surrogate tables (used unless --exact): largest relative error against the full solve, measured at "
+           "random points between the table nodes"]
+    for r in rows:
+        err = "not measured" if r["max_rel_error"] is None else f"{r['max_rel_error']:.2g}"
+        out.append(f"  {r['quantity']}: {err} over {r['points']} points (limit {r['limit']:.2g}); {r['box']}")
+    return "\n".join(out)
 
 
 def _family(model) -> tuple[str, str]:
@@ -70,12 +86,35 @@ def model_entry(model) -> dict:
         "regime_below": model.regime_below, "regime_above": model.regime_above,
         "scheme": _scheme(model),
         "default_for": [k for k, names in DEFAULT_MODELS.items() if model.name in names],
+        "default_when": _default_when([k for k, names in DEFAULT_MODELS.items() if model.name in names]),
         "assumes_negligible_gravity": bool(getattr(model, "low_gravity", False)),
         "constants": constants, "validity": validity,
         "validity_note": str(getattr(model, "validity_note", "") or ""),
         "notes": str(getattr(model, "notes", "") or ""), "citation": model.citation,
         "case_file": _case_snippet(model),
     }
+
+
+#: When each default set is drawn, in words (keys of :data:`lowgmap.physics.chart.composition.DEFAULT_MODELS`).
+_DEFAULT_SETS = {
+    "closed": "closed sections (tubes and ducts)",
+    "open": "open sections (corners, grooves, wedge channels)",
+    "vertical upward": "closed circular tubes when the case gives an orientation: conduit.orientation = "
+                       "\"vertical upward flow\"",
+    "horizontal": "closed circular tubes when the case gives an orientation: conduit.orientation = \"horizontal\" "
+                  "or an angle within 10 deg of it",
+}
+
+
+def _default_when(keys) -> str:
+    """The default sets a model belongs to, in words (empty when none)."""
+    if not keys:
+        return ""
+    text = "in the default set for " + " and for ".join(_DEFAULT_SETS.get(k, f"{k} sections") for k in keys)
+    if any(k in ("vertical upward", "horizontal") for k in keys):
+        text += ("; a buoyancy model: it is not drawn without an orientation, and with one the hand-over rule "
+                 "(Eötvös number >= 1) decides whether it defines the regions or is a comparison line")
+    return text
 
 
 def _value(v: float) -> str:
@@ -133,11 +172,11 @@ def format_models(entries: list[dict]) -> str:
                                                                           else "") for r in sch["regimes"]))
         else:
             out.append(f"  scheme:    {sch['name']}")
-        default = e["default_for"]
-        out.append("  default:   " + (f"in the default set for {' and '.join(default)} sections" if default
-                                    else "not in a default set: list it under [[models]] to use it"))
+        out.append("  default:   " + (e["default_when"] or "not in a default set: list it under [[models]] to use it"))
         if e["assumes_negligible_gravity"]:
-            out.append("  gravity:   assumes gravity negligible (the chart reports the Eötvös-number check)")
+            out.append("  gravity:   assumes gravity negligible (the chart reports the Eötvös-number check"
+                       + ("; when the case gives vertical upward or horizontal flow in a circular tube, the buoyancy "
+                          "models take over from Eötvös number 1)" if "closed" in e["default_for"] else ")"))
         if e["constants"]:
             out.append("  constants (default, allowed range, meaning; source of the default):")
             for c in e["constants"]:

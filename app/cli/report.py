@@ -3,13 +3,17 @@
 One study is built (:func:`lowgmap.physics.studies.study.run_study`: the chart once, the operating point's
 margins, the test points' agreement) and both the chart page and every table of the pack are drawn
 from it (:func:`lowgmap.app.outputs.report.review_pack`). The HTML is the page the dashboard's report
-download gives for the same study.
+download gives for the same study. The output name is checked before anything is computed and the
+file is written atomically; an existing file is replaced only with ``--force``
+(:func:`lowgmap.app.cli.common.check_output`, :func:`lowgmap.app.cli.common.write_output`, as for every
+command that writes a file).
 """
 from __future__ import annotations
 
 import dataclasses
 from pathlib import Path
 
+from lowgmap.app.cli import common
 from lowgmap.app.cli.common import CliError, clean, emit, load_case_file
 
 __all__ = ["add_arguments", "run", "FORMATS"]
@@ -34,21 +38,19 @@ def add_arguments(parser) -> None:
                         help="required symmetric margin, e.g. \"30 %%\" or 0.3 (default: the case's [chart] "
                              "required_margin)")
     parser.add_argument("--force", action="store_true", help="replace FILE if it exists")
+    parser.add_argument("--nominal-only", action="store_true",
+                        help="leave out the worst-case margin over the constants' uncertainty bands (up to about a "
+                             "minute for corner lines); the bands are still drawn and listed")
+    parser.add_argument("--no-bands", action="store_true",
+                        help="leave the boundaries' uncertainty bands off the chart (tens of seconds for corner "
+                             "lines); the constants table still lists each constant's band")
 
 
 def _output(args) -> tuple[Path, str]:
-    """The output path and format, checked before anything is computed."""
-    out = Path(args.output)
-    fmt = FORMATS.get(out.suffix.lower())
-    if fmt is None:
-        raise CliError(f"--output must end in .pdf or .html, got {args.output!r}")
-    if out.exists() and not args.force:
-        raise CliError(f"{out} exists; add --force to replace it")
-    if out.exists() and out.is_dir():
-        raise CliError(f"{out} is a folder; give a file name ending in .pdf or .html")
-    if not out.parent.exists():
-        raise CliError(f"folder {str(out.parent)!r} does not exist")
-    return out, fmt
+    """The output path and format, checked before anything is computed (:func:`common.check_output`)."""
+    out = common.check_output(args.output, option="--output", formats=tuple(FORMATS), force=args.force,
+                              inputs=(args.case, getattr(args, "points", None)), formats_text=".pdf or .html")
+    return out, FORMATS[out.suffix.lower()]
 
 
 def _required_margin(text, doc):
@@ -89,16 +91,18 @@ def run(args) -> int:
     from lowgmap.physics.studies.study import run_study
 
     from lowgmap.app.cli.points import criteria_from_args, parse_regime_map
-    from lowgmap.app.files.atomic import write_atomic
     from lowgmap.app.outputs.report import review_pack
 
     regime_map = parse_regime_map(args.map)
     criteria = criteria_from_args(args) if tps is not None else None
     study = run_study(doc.case, points=tps, regime_map=regime_map or None, criteria=criteria)
-    pack = review_pack(study, settings=settings, invented=doc.invented, document=doc, point_file=tps)
+    with common.input_errors("worst-case margin"):
+        pack = review_pack(study, settings=settings, invented=doc.invented, document=doc, point_file=tps,
+                           worst_case=not getattr(args, "nominal_only", False))
     from lowgmap.app.outputs.exports import chart_bytes
 
-    png = chart_bytes(study, "png", settings=settings, invented=doc.invented)     # the same study: never rebuilt
+    png = chart_bytes(study, "png", settings=settings, invented=doc.invented,     # the same study: never rebuilt
+                      bands=False if getattr(args, "no_bands", False) else None)
     if fmt == "pdf":
         from lowgmap.app.outputs.pdf import review_pdf
 
@@ -107,7 +111,7 @@ def run(args) -> int:
         from lowgmap.app.outputs.exports import render_review_html
 
         data = render_review_html(pack, png).encode("utf-8")
-    write_atomic(out, data)
+    common.write_output(out, data, force=args.force, option="--output")
     summary = {"output": str(out), "format": fmt, "bytes": len(data), **pack.verdict_dict()}
     lines = [f"wrote {out} ({fmt.upper()}, {len(data) // 1024} kB): {pack.title}, revision {pack.revision}",
              pack.headline]

@@ -231,10 +231,10 @@ def _write_table(table, path: Path, *, force: bool = False) -> None:
 
 
 def _write_plot(df, plan, target: str, doc, *, force: bool = False) -> None:
-    """The margin map over the first one or two numeric variables, written atomically."""
+    """The margin map over the first one or two numeric variables, written atomically (PNG at 300 dpi)."""
     from lowgmap.physics.studies.design import nominal_design_value
 
-    from lowgmap.app.outputs.maps import margin_map_figure
+    from lowgmap.app.outputs.maps import figure_file_bytes, margin_map_figure
 
     p = Path(target)
     if p.suffix.lower() not in (".png", ".svg", ".pdf"):
@@ -250,6 +250,5 @@ def _write_plot(df, plan, target: str, doc, *, force: bool = False) -> None:
                             units=plan.units, log=(plan.spacing.get(xvar) == "log",
                                                    plan.spacing.get(yvar) == "log" if yvar else False),
                             title=f"{doc.case.title}", base=base if yvar else None)
-    buf = io.BytesIO()
-    fig.savefig(buf, format=p.suffix.lstrip(".").lower(), dpi=110)
-    common.write_output(p, buf.getvalue(), force=force, option="--plot")
+    # 300 dpi PNG with the caution line and the version (the export settings of every chart)
+    common.write_output(p, figure_file_bytes(fig, p.suffix.lstrip(".").lower()), force=force, option="--plot")

@@ -5,6 +5,11 @@ come from :func:`lowgmap.physics.studies.uncertainty.monte_carlo` on the chart o
 number of samples is at most :data:`lowgmap.app.cli.common.MAX_SAMPLES` and of property/geometry draws
 at most :data:`lowgmap.app.cli.common.MAX_CHART_DRAWS`; before the run, one draw is timed and an
 estimate printed on stderr (``--quiet`` leaves it out).
+
+``--model-constants`` adds model uncertainty: the constants of the region lines (all of them, or the
+``model.constant`` keys listed) are drawn uniformly over their uncertainty bands, and the result is
+reported beside the input-only result, separately (constants alone, and inputs and constants together),
+as :attr:`lowgmap.physics.studies.uncertainty.MonteCarloResult.model` gives it.
 """
 from __future__ import annotations
 
@@ -32,6 +37,14 @@ def add_arguments(parser) -> None:
                              "(default: samples/16); lower it for models that rebuild tables for every case")
     parser.add_argument("--ql", metavar="VALUE", help="nominal liquid flow rate with units (default: the case's)")
     parser.add_argument("--qg", metavar="VALUE", help="nominal gas flow rate with units (default: the case's)")
+    parser.add_argument("--model-constants", metavar="all|MODEL.CONSTANT,...",
+                        help="also draw the constants of the region lines over their uncertainty bands: 'all', or "
+                             "a comma-separated list such as bubble_slug_dukler_1988.c0 (a bare constant name "
+                             "takes it in every region line); reported separately from the input uncertainty")
+    parser.add_argument("--model-draws", type=int, metavar="K",
+                        help="constant draws of the constants-only study, 1 to "
+                             f"{common.MAX_CHART_DRAWS:,} (default: as many as the property/geometry draws, "
+                             "else samples/16)")
     parser.add_argument("--quiet", action="store_true", help="no progress and no run-time estimate on stderr")
 
 
@@ -45,6 +58,55 @@ def describe_uncertainty(u) -> str:
         size = f"{u.size:.4g} (SI units)"
     kind = "±" + size + " uniform" if u.distribution == "uniform" else size + " (1 s.d., normal)"
     return f"{u.target} {kind}"
+
+
+def model_constants(text):
+    """``--model-constants`` as ``monte_carlo(model_uncertainty=...)`` takes it: False, True or a list of keys.
+
+    >>> model_constants(None), model_constants("all"), model_constants(" a.c0, alpha_c ")
+    (False, True, ['a.c0', 'alpha_c'])
+    """
+    if text is None:
+        return False
+    keys = [k.strip() for k in str(text).split(",") if k.strip()]
+    if not keys:
+        raise common.CliError("--model-constants needs 'all' or a comma-separated list of MODEL.CONSTANT keys, "
+                              f"got {text!r}")
+    if [k.casefold() for k in keys] == ["all"]:
+        return True
+    return keys
+
+
+def model_lines(res, pct=format_percent) -> list[str]:
+    """The model-uncertainty part of the text output (empty without it)."""
+    m = res.model
+    if m is None:
+        return []
+    lines = ["", "Model uncertainty (constants drawn uniformly over their bands; reported apart from the inputs):",
+             "  Constants: " + "; ".join(f"{v.key} [{v.low:.4g}, {v.high:.4g}]" + (f" {v.unit}" if v.unit not in
+                                                                                   ("", "-") else "")
+                                         for v in m.variables)]
+    lines.append(f"  Constants alone ({m.draws} draws, inputs nominal): probability of staying in it "
+                 f"{m.probability_model:.4f} ± {m.std_error_model:.4f} (95 % interval {m.ci95_model[0]:.4f} to "
+                 f"{m.ci95_model[1]:.4f})")
+    lines.append("    margin " + ", ".join(f"{100 * q:g} % quantile {pct(v)}" for q, v in m.margin_quantiles_model))
+    if m.n_rejected_model:
+        lines.append(f"    left out: {m.n_rejected_model} constant draws the models reject")
+    lines.append(f"  Inputs and constants together ({m.groups_both} constant draws): probability "
+                 f"{m.probability_both:.4f} ± {m.std_error_both:.4f} (95 % interval {m.ci95_both[0]:.4f} to "
+                 f"{m.ci95_both[1]:.4f})")
+    lines.append("    margin " + ", ".join(f"{100 * q:g} % quantile {pct(v)}" for q, v in m.margin_quantiles_both))
+    if m.probability_required_model is not None:
+        lines.append(f"  Probability of a margin >= required ±{pct(res.required_margin)}: constants alone "
+                     f"{m.probability_required_model:.4f}, inputs and constants "
+                     f"{m.probability_required_both:.4f}")
+    if m.n_invalid_both:
+        lines.append(f"    left out: {m.n_invalid_both} joint samples (invalid inputs or rejected constants)")
+    if m.sensitivity:
+        lines.append("  Sensitivity to the constants (change of the margin per standard uncertainty):")
+        for name, eff in m.sensitivity:
+            lines.append(f"    {name:<40} {format_point_change(eff)}")
+    return lines
 
 
 def run(args) -> int:
@@ -75,6 +137,12 @@ def run(args) -> int:
         if show:
             print(f"\r  {done}/{total} samples", end="", file=sys.stderr, flush=True)
 
+    which = model_constants(getattr(args, "model_constants", None))
+    model_draws = getattr(args, "model_draws", None)
+    if model_draws is not None:
+        if which is False:
+            raise common.CliError("--model-draws applies to model uncertainty: add --model-constants")
+        common.check_count("--model-draws", model_draws, 1, common.MAX_CHART_DRAWS)
     kw = dict(seed=args.seed, intended_regime=regime, chart=chart, point=(ql, qg),
               required_margin=doc.settings.required_margin)
     if not args.quiet:
@@ -87,7 +155,7 @@ def run(args) -> int:
                             (time.perf_counter() - t0) * blocks), file=sys.stderr, flush=True)
     with common.input_errors("uncertainty"):
         res = monte_carlo(doc.case, doc.uncertainties, n=args.samples, progress=progress,
-                          chart_draws=args.chart_draws, **kw)
+                          chart_draws=args.chart_draws, model_uncertainty=which, model_draws=model_draws, **kw)
     if show:
         print(file=sys.stderr)
     data = res.to_dict()
@@ -105,6 +173,8 @@ def run(args) -> int:
     else:
         lines.append("Inputs: the case lists no uncertainties (every sample is the nominal point)")
     lines.append(f"Intended regime: {res.intended_regime} (nominal margin ±{pct(res.nominal_margin)})")
+    if res.model is not None:
+        lines.append("Input uncertainty (the case's inputs drawn, the line constants at their chart values):")
     lines.append(f"Probability of staying in it: {res.probability:.4f} ± {res.std_error:.4f} (standard error; "
                  f"95 % interval {res.ci95[0]:.4f} to {res.ci95[1]:.4f})")
     if res.probability_required is not None:
@@ -119,6 +189,7 @@ def run(args) -> int:
     lines.append("Regimes of the samples: " + ", ".join(f"{k} {v}" for k, v in res.regime_counts.items()))
     if res.n_invalid:
         lines.append(f"Left out: {res.n_invalid} samples with a non-positive flow, property or size.")
+    lines += model_lines(res, pct)
     lines.append(CAUTION)
     emit(args, clean(data), "\n".join(lines))
     return 0

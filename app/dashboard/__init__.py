@@ -18,6 +18,12 @@ Serving (:func:`serve`):
   (:mod:`lowgmap.app.dashboard.hosts`); the same list is the allowed websocket origins.
 * **Memory returns.** A closed browser session is discarded after :data:`SESSION_LIFETIME_MS`
   without a connection; its state drops every reference on the way out (``on_session_destroyed``).
+
+The page (:func:`create_app`) fits a 1280 x 800 window without horizontal scrolling: the case inputs in
+the side bar, the chart beside a narrow column with the verdict and the operating point, the margin
+table, the test points and the downloads below at full width. Every control has an accessible name
+(bokeh's checkbox, slider handles and spinner buttons draw none: the page gives them their widget's
+label). ``?sample=NAME`` in the address opens a bundled sample case.
 """
 from __future__ import annotations
 
@@ -42,11 +48,6 @@ SESSION_CHECK_MS = 2_000
 
 _LOG = logging.getLogger("lowgmap.dashboard")
 
-_CSS = """
-.lowgmap-caution {background: #fff3cd; border: 2px solid #8B0000; color: #8B0000; font-weight: bold;
-                  padding: 4px 10px; border-radius: 4px; font-size: 13px;}
-"""
-
 #: document -> function showing an unexpected error of that session's callbacks (weak: no leak)
 _ERROR_SINKS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
 
@@ -60,22 +61,103 @@ def _callback_error(exc: BaseException) -> None:
         sink(exc)
 
 
+def _requested_case(default: Path | None):
+    """The case of a new session: ``?sample=NAME`` in the address opens a bundled sample case by name
+    (only bundled samples: never a path on the server); otherwise the case the server was started with."""
+    from lowgmap.app.files.samples import sample_cases
+
+    args = getattr(pn.state, "session_args", None) or {}
+    wanted = args.get("sample") if hasattr(args, "get") else None
+    if wanted:
+        name = wanted[0].decode("utf-8", "replace") if isinstance(wanted[0], bytes) else str(wanted[0])
+        if name in sample_cases():
+            return sample_case_path(name)
+    return default or sample_case_path()
+
+
+#: Page layout: the chart takes what the side columns leave; nothing is wider than the window.
+_LAYOUT_CSS = """
+.lowgmap-caution {background: #fff3cd; border: 2px solid #8B0000; color: #8B0000; font-weight: bold;
+                  padding: 3px 8px; border-radius: 4px; font-size: 12px;}
+"""
+
+#: Accessible names for the controls of the page whose widgets draw none themselves (bokeh's checkbox,
+#: slider handle and spinner buttons, the search box of a multiple choice): each gets an ``aria-label``
+#: from its widget's own label. Runs when the page is ready and whenever a part of it is drawn anew.
+_LABEL_JS = """
+function nameOf(view) {
+  for (const k of ["label", "title"]) {
+    const t = view.model[k];
+    if (typeof t === "string" && t.trim()) return t.trim();
+  }
+  return "";
+}
+function unnamed(el) {
+  const a = el.getAttribute("aria-label");
+  if (a && a !== "null" && a !== "undefined" && a.trim()) return false;
+  if (el.getAttribute("aria-labelledby")) return false;
+  if (el.labels && el.labels.length && Array.from(el.labels).some(l => l.textContent.trim())) return false;
+  if ((el.tagName === "BUTTON" || el.getAttribute("role") === "button") && el.textContent.trim()) return false;
+  return true;
+}
+function labelView(view, seen) {
+  if (!view || seen.has(view)) return;
+  seen.add(view);
+  const root = view.shadow_el;
+  if (root && view.model) {
+    const base = nameOf(view);
+    root.querySelectorAll("input, select, textarea, button, [role=slider], [role=combobox], [role=textbox]").forEach(el => {
+      if (!unnamed(el)) return;
+      let text = base || el.getAttribute("title") || el.getAttribute("placeholder") || "";
+      if (el.classList.contains("bk-spin-btn-up")) text = "increase " + text;
+      else if (el.classList.contains("bk-spin-btn-down")) text = "decrease " + text;
+      else if (el.getAttribute("role") === "slider") text = text + " (slider)";
+      if (text.trim()) el.setAttribute("aria-label", text.trim());
+    });
+  }
+  let kids = [];
+  try { kids = Array.from(view.child_views || []); } catch (e) {}
+  for (const c of kids) labelView(c, seen);
+}
+function labelAll() {
+  if (!window.Bokeh) return;
+  const seen = new Set();
+  for (const v of Object.values(Bokeh.index)) labelView(v, seen);
+}
+labelAll();
+if (!window._lowgmapLabeller) {
+  window._lowgmapLabeller = new MutationObserver(() => {
+    if (window._lowgmapLabelPending) return;
+    window._lowgmapLabelPending = true;
+    requestAnimationFrame(() => { window._lowgmapLabelPending = false; labelAll(); });
+  });
+  window._lowgmapLabeller.observe(document.body, {subtree: true, childList: true, attributes: true,
+                                                  attributeFilter: ["class", "style"]});
+}
+"""
+
+
 def create_app(case_path: str | Path | None = None):
-    """Build one session's dashboard for the case at ``case_path`` (default: the bundled tube case)."""
+    """Build one session's dashboard for the case at ``case_path`` (default: the bundled tube case).
+
+    ``?sample=NAME`` in the page address opens the bundled sample case NAME instead.
+    """
     from lowgmap.app.dashboard.background import DocumentRunner, InlineRunner
     from lowgmap.app.dashboard.chartpane import ChartPane
     from lowgmap.app.dashboard.design_tab import DesignTab
     from lowgmap.app.dashboard.inputs import SetupPanel
-    from lowgmap.app.dashboard.panels import ExportPanel, MarginTable, PointPanel, TestPointsPanel, Working
+    from lowgmap.app.dashboard.panels import (ExportPanel, MarginTable, PointPanel, TestPointsPanel, VerdictPanel,
+                                              Working)
     from lowgmap.app.dashboard.state import Session
 
-    doc = load_case(case_path or sample_case_path())
+    doc = load_case(_requested_case(Path(case_path) if case_path else None))
     bokeh_doc = pn.state.curdoc if pn.state.curdoc is not None and pn.state.curdoc.session_context else None
     runner = DocumentRunner(bokeh_doc) if bokeh_doc is not None else InlineRunner()
     session = Session(doc, runner=runner)
     chart = ChartPane(session)
     setup = SetupPanel(session, chart)
     point = PointPanel(session, chart)
+    verdict = VerdictPanel(session)
     margins = MarginTable(session)
     points = TestPointsPanel(session, chart)
     export = ExportPanel(session, points)
@@ -98,15 +180,18 @@ def create_app(case_path: str | Path | None = None):
     session.param.watch(show_warnings, ["revision_counter"])
     session.param.watch(show_activity, ["busy", "activity"])
     caution = pn.pane.HTML(f"<div class='lowgmap-caution'>CAUTION: {CAUTION}</div>", sizing_mode="stretch_width",
-                           stylesheets=[_CSS], css_classes=["caution"])
+                           stylesheets=[_LAYOUT_CSS], css_classes=["caution"], margin=(2, 10))
     invented = (pn.pane.Markdown("*This sample case is an invented scenario for demonstration.*")
                 if doc.invented else pn.pane.Markdown(""))
     design_tab = DesignTab(session)
+    # the chart takes the width the point column leaves; the margin table and test points run the full
+    # width below it, so nothing is wider than a 1280 px window
     chart_tab = pn.Column(
-        pn.Row(pn.Column(activity, chart, warnings, sizing_mode="stretch_width", min_width=600),
-               pn.Column(point, margins, width=500), sizing_mode="stretch_width"),
-        pn.Row(pn.Column(points, sizing_mode="stretch_width"), pn.Column(export, width=300),
-               sizing_mode="stretch_width"),
+        pn.Row(pn.Column(activity, chart, warnings, sizing_mode="stretch_width", min_width=360),
+               pn.Column(verdict, point, width=330, css_classes=["point-column"]), sizing_mode="stretch_width"),
+        margins,
+        pn.Row(pn.Column(points, sizing_mode="stretch_width", min_width=300),
+               pn.Column(export, width=260), sizing_mode="stretch_width"),
         name="Regime chart", sizing_mode="stretch_width")
     design = pn.Column(design_tab, name="Design map", sizing_mode="stretch_width")
     main = pn.Column(caution, unexpected, pn.Tabs(chart_tab, design, sizing_mode="stretch_width",
@@ -114,10 +199,14 @@ def create_app(case_path: str | Path | None = None):
                      sizing_mode="stretch_width")
     template = pn.template.BootstrapTemplate(
         title=f"lowgmap {__version__} — low-gravity regime charts", sidebar=[invented, setup], main=[main],
-        sidebar_width=380, header_background="#1f3b57")
+        sidebar_width=300, header_background="#1f3b57")
     template.lowgmap_session = session  # for tests and debugging: the session's state object
 
     if bokeh_doc is not None:
+        from bokeh.models import CustomJS
+
+        bokeh_doc.js_on_event("document_ready", CustomJS(code=_LABEL_JS))
+
         def show_unexpected(exc):
             unexpected.object = (f"Something went wrong while handling your last action ({type(exc).__name__}: "
                                  f"{html.escape(str(exc))}). The values shown are the ones in effect; please "

@@ -4,9 +4,22 @@ Two figures (log and linear axes) share every data source; switching axes scale 
 is visible, so no figure is ever rebuilt. The operating point is a PointDrawTool point: while it is
 dragged, bokeh Pan events give a live readout (flow values and regime); on release the new position
 reaches Python and the authoritative margins are computed.
+
+Live morph: a new chart (a new case, or the preview of a slider being dragged,
+:attr:`lowgmap.app.dashboard.state.Session.live`) only assigns new ``data`` to the existing sources of
+the regions, the lines, the labels, the bands and the point; the key's entries are kept in a pool and
+changed in place; the glyphs are found once, when the figure is made. The drawing data of a preview
+are prepared on the worker thread (:meth:`ChartPane.frame_of` touches no bokeh model), so the event
+loop only hands them over. While a preview is shown, the chart title and a status line above the chart
+say which value is drawn, with the operating point's regime and margin on that chart.
+
+Toggles above the chart: the bands of the lines (translucent, each in its line's colour, under the
+lines; off by default: for the corner family they take seconds, computed in the background with a
+"computing bands…" notice) and the full solves (``Chart.build(case, exact=True)``).
 """
 from __future__ import annotations
 
+import html
 import math
 
 import numpy as np
@@ -16,15 +29,30 @@ from bokeh.events import Pan, PanEnd, PanStart
 from bokeh.models import (ColumnDataSource, HoverTool, Legend, LegendItem, PointDrawTool, Range1d)
 from bokeh.plotting import figure
 
-from lowgmap.app.outputs.chartview import chart_view, line_label_positions
+from lowgmap.app.outputs.chartview import BAND_KEY_TEXT, chart_view, line_label_positions
+from lowgmap.app.outputs.styles import DISAGREE_COLOUR, OPERATING_POINT_COLOUR, platform_marker
 from lowgmap.app.files.units import convert
 
-__all__ = ["ChartPane", "BOKEH_HATCH"]
+__all__ = ["ChartPane", "BOKEH_HATCH", "CHART_HEIGHT", "live_html", "LIVE_CSS"]
 
 #: matplotlib hatch -> bokeh hatch pattern
 BOKEH_HATCH = {"": " ", "//": "/", "..": ".", "\\\\": "\\", "xx": "x", "++": "+", "--": "-", "oo": "o"}
 
-OBS_MARKERS = ("circle", "square", "triangle", "diamond", "inverted_triangle", "hex", "star", "plus")
+#: Smallest side of the drawn flow-rate uncertainty frame [px] (the operating-point star is 24 px).
+BOX_MIN_PX = 36
+#: Width of the plot frame assumed when deciding whether the true box is drawn too small [px].
+_FRAME_PX = 600
+#: Most key entries shown in one column (a longer key takes two, so the plot keeps its height).
+LEGEND_ONE_COLUMN = 8
+#: Height of the chart with its key [px]: it fits an 800 px window below the header, caution line and tabs.
+CHART_HEIGHT = 620
+
+LIVE_CSS = """
+.live-status {background: #e8f1fa; border: 1px solid #1f3b57; color: #1f3b57; padding: 3px 8px;
+              border-radius: 4px; font-size: 13px;}
+.live-status.problem {background: #fde0dc; border-color: #B00000; color: #8B0000;}
+.extras-notice {color: #1f3b57; font-size: 12px;}
+"""
 
 
 class ChartPane(pn.viewable.Viewer):
@@ -45,20 +73,71 @@ class ChartPane(pn.viewable.Viewer):
         self.src_line_labels = ColumnDataSource(dict(x=[], y=[], text=[], colour=[]))
         self.src_point = ColumnDataSource(dict(x=[1.0], y=[1.0]))
         self.src_box = ColumnDataSource(dict(left=[], right=[], bottom=[], top=[]))
+        self.src_box_frame = ColumnDataSource(dict(x=[], y=[]))
+        self.src_bands = ColumnDataSource(dict(xs=[], ys=[], colour=[], label=[]))
         self.src_tests = ColumnDataSource(dict(x=[], y=[], observed=[], predicted=[], platform=[], test_id=[],
                                                marker=[], fill=[], line=[], width=[], agree=[]))
+        self._line_items: list = []
+        self._test_items: list = []
+        self._key_shown: list | None = None
+        self._renderers: dict = {}
+        self._key_pool: dict = {True: [], False: []}
+        self._showing_preview = False
+        self._drawn_preview = -1
         self.x_range = Range1d(1, 10)
         self.y_range = Range1d(1, 10)
         self.figs = {True: self._figure("log"), False: self._figure("linear")}
-        self._layout = pn.Column(pn.pane.Bokeh(self.figs[True], sizing_mode="stretch_width"),
+        self.live_status = pn.pane.HTML("", visible=False, sizing_mode="stretch_width", stylesheets=[LIVE_CSS],
+                                        css_classes=["live-status-pane"], margin=(2, 10))
+        self.bands_toggle = pn.widgets.Checkbox(label="Show uncertainty bands of the lines", value=session.show_bands,
+                                                css_classes=["bands-toggle"])
+        self.exact_toggle = pn.widgets.Checkbox(label="Full solves (exact, slower)", value=session.exact,
+                                                css_classes=["exact-toggle"])
+        self.extras_notice = pn.pane.HTML("", visible=False, stylesheets=[LIVE_CSS], css_classes=["bands-notice"],
+                                          margin=(2, 10))
+        self.bands_toggle.param.watch(lambda e: setattr(session, "show_bands", bool(e.new)), "value")
+        self.exact_toggle.param.watch(self._exact_switched, "value")
+        # the chart takes the width the point column leaves, and a height that fits a 800 px window
+        # below the header, caution line and tabs
+        self._layout = pn.Column(pn.Row(self.bands_toggle, self.exact_toggle, self.extras_notice,
+                                        sizing_mode="stretch_width", margin=(0, 0)),
+                                 self.live_status,
+                                 pn.pane.Bokeh(self.figs[True], sizing_mode="stretch_width"),
                                  pn.pane.Bokeh(self.figs[False], sizing_mode="stretch_width"),
                                  sizing_mode="stretch_width")
         self.refresh_chart()
         session.param.watch(lambda *_: self._held(self._follow_case), ["revision_counter"])
         session.param.watch(lambda *_: self._held(self.refresh_point), ["ql", "qg", "show_uncertainty"])
+        session.param.watch(lambda *_: self._held(self._show_live), ["live"])
+        session.param.watch(lambda *_: self._held(self._bands_changed), ["bands", "bands_state", "show_bands"])
+        session.param.watch(lambda *_: self._show_exact(), ["exact"])
         self.param.watch(lambda *_: self._held(self._toggle_scale), ["log_axes"])
         self.src_point.on_change("data", self._on_point_released)
         self._toggle_scale()
+
+    def _exact_switched(self, event):
+        if bool(event.new) != self.session.exact:
+            self.session.set_exact(bool(event.new))
+
+    def _show_exact(self):
+        if self.exact_toggle.value != self.session.exact and "exact" not in self.session.pending_keys:
+            self.exact_toggle.value = self.session.exact
+
+    def _bands_changed(self):
+        s = self.session
+        if s.closed:
+            return
+        notice = "computing bands…" if s.show_bands and s.bands_state == "computing" else (
+            "no line of this chart has a banded constant" if s.show_bands and s.bands_state == "none" else (
+                s.extras_problem if s.show_bands and s.bands_state == "failed" else ""))
+        self.extras_notice.object = f"<span class='extras-notice'>{html.escape(notice)}</span>" if notice else ""
+        self.extras_notice.visible = bool(notice)
+        if self.bands_toggle.value != s.show_bands:
+            self.bands_toggle.value = s.show_bands
+        drawn = bool(self.src_bands.data["xs"])
+        want = s.show_bands and s.bands_state == "ready"
+        if (drawn or want) and not self._showing_preview:
+            self.refresh_chart()
 
     @staticmethod
     def _held(fn, *args):
@@ -69,11 +148,14 @@ class ChartPane(pn.viewable.Viewer):
     # ----------------------------------------------------------------------------- figures
     def _figure(self, kind: str):
         fig = figure(x_axis_type=kind, y_axis_type=kind, x_range=self.x_range, y_range=self.y_range,
-                     height=640, sizing_mode="stretch_width", tools="pan,wheel_zoom,box_zoom,reset,save",
+                     height=CHART_HEIGHT, sizing_mode="stretch_width", min_width=300,
+                     tools="pan,wheel_zoom,box_zoom,reset,save",
                      active_scroll="wheel_zoom", toolbar_location="above", name=f"regime-chart-{kind}")
         fig.patches("xs", "ys", source=self.src_regions, fill_color="colour", fill_alpha=0.35,
                     hatch_pattern="hatch", hatch_color="colour", hatch_alpha=0.8, hatch_scale=10,
                     line_color=None)
+        bands = fig.patches("xs", "ys", source=self.src_bands, fill_color="colour", fill_alpha=0.28,
+                            line_color="colour", line_alpha=0.5, line_width=1.0, name="bands")
         valid = fig.multi_line("xs", "ys", source=self.src_valid, line_color="colour", line_dash="dash",
                                line_width="width", name="boundaries")
         invalid = fig.multi_line("xs", "ys", source=self.src_invalid, line_color="colour", line_dash="dotted",
@@ -85,14 +167,22 @@ class ChartPane(pn.viewable.Viewer):
                  background_fill_color="white", background_fill_alpha=0.7)
         fig.text("x", "y", text="text", source=self.src_line_labels, text_color="colour", text_font_size="11px",
                  x_offset=4, y_offset=-4, background_fill_color="white", background_fill_alpha=0.75)
-        fig.quad(left="left", right="right", bottom="bottom", top="top", source=self.src_box, fill_alpha=0.08,
-                 fill_color="#D55E00", line_color="#D55E00", line_dash="dashed", line_width=1.5)
-        tests = fig.scatter("x", "y", source=self.src_tests, marker="marker", size=10, fill_color="fill",
-                            line_color="line", line_width="width", name="test-points")
+        # the flow-rate uncertainty box: the true box, solid; when it is smaller than the star, a frame of
+        # BOX_MIN_PX around the point says where it is (both in the key)
+        fig.quad(left="left", right="right", bottom="bottom", top="top", source=self.src_box, fill_alpha=0.15,
+                 fill_color=OPERATING_POINT_COLOUR, line_color="#7a2e00", line_width=2.5,
+                 name="uncertainty-box")
+        fig.rect("x", "y", width=BOX_MIN_PX, height=BOX_MIN_PX, width_units="screen", height_units="screen",
+                 source=self.src_box_frame, fill_alpha=0.0, line_color="#7a2e00", line_width=2.0,
+                 line_dash=[5, 3], name="uncertainty-frame")
+        tests = fig.scatter("x", "y", source=self.src_tests, marker="marker", size=11, fill_color="fill",
+                            fill_alpha=0.9, line_color="line", line_width="width", name="test-points")
         fig.add_tools(HoverTool(renderers=[tests], tooltips=[("test", "@test_id"), ("observed", "@observed"),
                                                              ("chart says", "@predicted"), ("platform", "@platform")]))
-        point = fig.scatter("x", "y", source=self.src_point, marker="star", size=24, fill_color="#D55E00",
+        point = fig.scatter("x", "y", source=self.src_point, marker="star", size=24, fill_color=OPERATING_POINT_COLOUR,
                             line_color="black", line_width=1.2, name="operating-point")
+        # every glyph the updates touch, found once here (never searched for on an update)
+        self._renderers[kind == "log"] = {r.name: r for r in fig.renderers if r.name} | {"bands": bands}
         draw = PointDrawTool(renderers=[point], add=False, drag=True, description="Drag the operating point")
         fig.add_tools(draw)
         fig.toolbar.active_tap = draw
@@ -104,8 +194,9 @@ class ChartPane(pn.viewable.Viewer):
         fig.yaxis.axis_label_text_font_size = "13px"
         fig.xaxis.major_label_text_font_size = "12px"
         fig.yaxis.major_label_text_font_size = "12px"
-        legend = Legend(items=[], location="top_left", label_text_font_size="12px", click_policy="hide",
-                        background_fill_alpha=0.85, spacing=2)
+        legend = Legend(items=[], location="top_left", label_text_font_size="11px", click_policy="hide",
+                        background_fill_alpha=0.85, spacing=0, padding=4, label_height=14, glyph_height=14,
+                        margin=4)
         fig.add_layout(legend, "below")
         fig.legend.visible = True
         return fig
@@ -114,6 +205,8 @@ class ChartPane(pn.viewable.Viewer):
         """A new case revision: redraw, with the axes scale the case says (unless a switch is queued)."""
         s = self.session
         if s.closed:
+            return
+        if self._showing_preview and s.live is not None:   # a slider is dragged: its preview stays drawn
             return
         want = bool(s.doc.settings.log_axes)
         if want != self.log_axes and "chart.log_axes" not in s.pending_keys:
@@ -133,20 +226,21 @@ class ChartPane(pn.viewable.Viewer):
         return chart_view(s.chart, axes=st.axes, log_axes=self.log_axes, ql_unit=st.liquid_flow_unit,
                           qg_unit=st.gas_flow_unit, point=point)
 
-    def refresh_chart(self):
-        s = self.session
-        if s.closed:
-            return
-        v = self.view()
-        self._view = v
-        self.src_regions.data = dict(
-            xs=[list(r.x) for r in v.regions], ys=[list(r.y) for r in v.regions],
-            colour=[r.colour for r in v.regions], hatch=[BOKEH_HATCH.get(r.hatch, " ") for r in v.regions],
-            name=[r.name for r in v.regions])
+    def frame_of(self, doc, chart, bands=None, title: str | None = None) -> dict:
+        """Everything drawn for ``chart`` as plain data (no bokeh model is touched: safe on a worker thread).
+
+        Returns the :class:`~lowgmap.app.outputs.chartview.ChartView` (``view``), the new ``data`` of each
+        source, the key entries of the lines, the axis labels, the title and the ranges.
+        """
+        st = doc.settings
+        v = chart_view(chart, axes=st.axes, log_axes=self.log_axes, ql_unit=st.liquid_flow_unit,
+                       qg_unit=st.gas_flow_unit, bands=bands)
+        regions = dict(xs=[list(r.x) for r in v.regions], ys=[list(r.y) for r in v.regions],
+                       colour=[r.colour for r in v.regions], hatch=[BOKEH_HATCH.get(r.hatch, " ") for r in v.regions],
+                       name=[r.name for r in v.regions])
         labelled = [r for r in v.regions if r.show_label]
-        self.src_region_labels.data = dict(x=[r.label_x for r in labelled], y=[r.label_y for r in labelled],
-                                           text=[r.name for r in labelled],
-                                           align=[_text_align(v, r.label_x) for r in labelled])
+        region_labels = dict(x=[r.label_x for r in labelled], y=[r.label_y for r in labelled],
+                             text=[r.name for r in labelled], align=[_text_align(v, r.label_x) for r in labelled])
         vx, vy, vc, vd, vw, vl, vs = [], [], [], [], [], [], []
         ix, iy, ic, iw, il, is_ = [], [], [], [], [], []
         lx, ly, lt, lc = [], [], [], []
@@ -162,23 +256,116 @@ class ChartPane(pn.viewable.Viewer):
             pos = positions.get(c.name)
             if pos is not None:
                 lx.append(pos[0]); ly.append(pos[1]); lt.append(c.label.split(" (")[0]); lc.append(c.colour)
-        self.src_valid.data = dict(xs=vx, ys=vy, colour=vc, dash=vd, width=vw, label=vl, source=vs)
-        self.src_invalid.data = dict(xs=ix, ys=iy, colour=ic, width=iw, label=il, source=is_)
-        self.src_line_labels.data = dict(x=lx, y=ly, text=lt, colour=lc)
-        for log, fig in self.figs.items():
-            fig.xaxis.axis_label = v.x_label
-            fig.yaxis.axis_label = v.y_label
-            fig.title.text = s.doc.case.title
-            items = []
-            valid_r = fig.select(name="boundaries")[0]
-            for c in v.curves:
-                suffix = "" if c.role == "regions" else " (comparison)"
-                items.append(LegendItem(label=c.label + suffix, renderers=[valid_r],
-                                        index=_first_index(vl, c.label)))
-            fig.legend.items = [it for it in items if it.index is not None]
-        self.x_range.start, self.x_range.end = v.x_range
-        self.y_range.start, self.y_range.end = v.y_range
+        bx, by, bc, bl = [], [], [], []
+        for band in v.bands:
+            for x, y in band.polygons:
+                ok = np.isfinite(x) & np.isfinite(y)
+                if ok.sum() >= 3:
+                    bx.append(list(x[ok])); by.append(list(y[ok])); bc.append(band.colour); bl.append(band.label)
+        key = []   # (label, renderer, index) of the lines' entries in the key
+        for c in v.curves:
+            index = _first_index(vl, c.label)
+            if index is not None:
+                key.append((c.label + ("" if c.role == "regions" else " (comparison)"), "boundaries", index))
+        if il:
+            key.append(("dotted: outside the source's validity range", "boundaries-outside-validity", 0))
+        if bx:
+            key.append((BAND_KEY_TEXT, "bands", 0))
+        return dict(view=v, regions=regions, region_labels=region_labels,
+                    valid=dict(xs=vx, ys=vy, colour=vc, dash=vd, width=vw, label=vl, source=vs),
+                    invalid=dict(xs=ix, ys=iy, colour=ic, width=iw, label=il, source=is_),
+                    line_labels=dict(x=lx, y=ly, text=lt, colour=lc),
+                    bands=dict(xs=bx, ys=by, colour=bc, label=bl), key=key,
+                    title=doc.case.title if title is None else title, x_label=v.x_label, y_label=v.y_label,
+                    x_range=v.x_range, y_range=v.y_range)
+
+    def preview_frame(self, doc, chart) -> dict:
+        """:meth:`frame_of` for a preview (handed to :meth:`Session.preview`, run on the worker)."""
+        return self.frame_of(doc, chart)
+
+    def refresh_chart(self):
+        """Draw the session's chart (with its bands when they are shown)."""
+        s = self.session
+        if s.closed:
+            return
+        bands = s.bands if s.show_bands and s.bands_state == "ready" else None
+        self._apply_frame(self.frame_of(s.doc, s.chart, bands))
+        self._showing_preview = False
+        self._drawn_preview = -1
         self.refresh_point()
+
+    def _apply_frame(self, f: dict) -> None:
+        """Put a frame on the chart: new data in the existing sources, the key entries updated in place."""
+        self._view = f["view"]
+        for src, name in ((self.src_regions, "regions"), (self.src_region_labels, "region_labels"),
+                          (self.src_valid, "valid"), (self.src_invalid, "invalid"),
+                          (self.src_line_labels, "line_labels"), (self.src_bands, "bands")):
+            src.data = f[name]
+        self._line_items = f["key"]
+        for fig in self.figs.values():
+            fig.xaxis.axis_label = f["x_label"]
+            fig.yaxis.axis_label = f["y_label"]
+            fig.title.text = f["title"]
+        self._show_legends()
+        self.x_range.start, self.x_range.end = f["x_range"]
+        self.y_range.start, self.y_range.end = f["y_range"]
+
+    def _show_legends(self):
+        """The key: boundary lines (and bands), then the uncertainty box and the test points when drawn.
+
+        The key's entries are a pool of LegendItem models changed in place (new ones only when the key
+        grows), and nothing is sent when the key is unchanged (a morphing chart keeps its key).
+        """
+        spec = list(self._line_items)
+        if self.src_box.data["left"]:
+            spec.append(("flow-rate uncertainty box (±1 standard uncertainty)", "uncertainty-box", 0))
+        if self.src_box_frame.data["x"]:
+            spec.append((f"frame: uncertainty box under {BOX_MIN_PX} px", "uncertainty-frame", 0))
+        for label, index in self._test_items:
+            spec.append((label, "test-points", index))
+        if spec == self._key_shown:
+            return
+        self._key_shown = spec
+        for log, fig in self.figs.items():
+            pool = self._key_pool[log]
+            renderers = self._renderers[log]
+            while len(pool) < len(spec):
+                pool.append(LegendItem(label="", renderers=[renderers["boundaries"]], index=0))
+            for item, (label, rname, index) in zip(pool, spec):
+                item.update(label=label, renderers=[renderers[rname]], index=index)
+            if list(fig.legend.items) != pool[:len(spec)]:
+                fig.legend.items = pool[:len(spec)]
+            ncols = 1 if len(spec) <= LEGEND_ONE_COLUMN else 2   # a long key in two columns
+            if fig.legend.ncols != ncols:
+                fig.legend.ncols = ncols
+
+    # ----------------------------------------------------------------------------- live preview
+    def _show_live(self):
+        """Draw the session's live preview (a slider being dragged), or go back to the chart in effect."""
+        s = self.session
+        if s.closed:
+            return
+        live = s.live
+        if live is None:
+            self.live_status.object = ""
+            self.live_status.visible = False
+            if self._showing_preview:
+                self._showing_preview = False
+                self.refresh_chart()
+            return
+        if live.chart is not None and live.display is not None and live.seq != self._drawn_preview:
+            frame = dict(live.display)
+            frame["title"] = f"{live.doc.case.title} — {live.label} {live.text}"
+            frame["bands"] = dict(xs=[], ys=[], colour=[], label=[])   # bands are those of the case in effect
+            frame["key"] = [k for k in frame["key"] if k[1] != "bands"]
+            self._apply_frame(frame)
+            self._drawn_preview = live.seq
+            self._showing_preview = True
+            self.refresh_point()
+        self.live_status.object = live_html(live, s.doc.settings)
+        self.live_status.visible = True
+        if s.ql is not None:
+            self.readout = self._readout_text(s.ql, s.qg, moving=False)
 
     def refresh_point(self):
         s = self.session
@@ -193,13 +380,29 @@ class ChartPane(pn.viewable.Viewer):
             finally:
                 self._suppress = False
         box = s.flow_uncertainty_box() if s.show_uncertainty else None
+        had = (bool(self.src_box.data["left"]), bool(self.src_box_frame.data["x"]))
         if box:
             x0, y0 = self._to_display(box[0], box[2])
             x1, y1 = self._to_display(box[1], box[3])
             self.src_box.data = dict(left=[x0], right=[x1], bottom=[y0], top=[y1])
+            small = min(self._frame_share(x0, x1, 0), self._frame_share(y0, y1, 1)) * _FRAME_PX < BOX_MIN_PX
+            self.src_box_frame.data = dict(x=[x], y=[y]) if small else dict(x=[], y=[])
         else:
             self.src_box.data = dict(left=[], right=[], bottom=[], top=[])
+            self.src_box_frame.data = dict(x=[], y=[])
+        if had != (bool(self.src_box.data["left"]), bool(self.src_box_frame.data["x"])):
+            self._show_legends()
         self.readout = self._readout_text(s.ql, s.qg, moving=False)
+
+    def _frame_share(self, a: float, b: float, axis: int) -> float:
+        """Share of the plot frame that the span a..b takes on ``axis`` (0: x, 1: y)."""
+        lo, hi = self._view.x_range if axis == 0 else self._view.y_range
+        try:
+            if self._view.log_axes:
+                return abs(math.log10(b / a)) / abs(math.log10(hi / lo))
+            return abs(b - a) / abs(hi - lo)
+        except (ValueError, ZeroDivisionError):
+            return 0.0
 
     def _to_display(self, ql, qg):
         x, y = self._view.to_display(np.array([ql]), np.array([qg]))
@@ -222,8 +425,13 @@ class ChartPane(pn.viewable.Viewer):
 
     def _readout_text(self, ql, qg, moving: bool) -> str:
         st = self.session.doc.settings
-        regime = self.session.regime_at(ql, qg) or "no regime"
-        lead = "moving" if moving else "operating point"
+        live = self.session.live
+        if not moving and live is not None and live.chart is not None:   # a slider being dragged
+            regime = live.regime or "no regime"
+            lead = f"operating point, {live.label} {live.text}"
+        else:
+            regime = self.session.regime_at(ql, qg) or "no regime"
+            lead = "moving" if moving else "operating point"
         return (f"**{lead}:** Q_L = {convert(ql, 'flow', st.liquid_flow_unit):.4g} {st.liquid_flow_unit}, "
                 f"Q_G = {convert(qg, 'flow', st.gas_flow_unit):.4g} {st.gas_flow_unit} → **{regime}**")
 
@@ -271,27 +479,71 @@ class ChartPane(pn.viewable.Viewer):
         self.session.move_point(ql, qg)
 
     # ----------------------------------------------------------------------------- test points
-    def show_test_points(self, points, predicted, observed_styles):
-        """Draw test points: marker by platform, fill by observed regime, thick red edge on disagreement."""
-        if points is None or len(points) == 0:
+    def show_test_points(self, points, agreement=None):
+        """Draw test points: a fixed marker per platform class, the fill of the observed regime (by name),
+        a thick red outline where the chart disagrees; each marker, fill and the outline in the key.
+
+        ``agreement``: the study's :class:`lowgmap.physics.studies.agreement.Agreement` of these points
+        (per point: the chart's regime and whether it agrees). A label that is not a chart regime is
+        drawn white with a grey outline (not compared).
+        """
+        if points is None or len(points) == 0 or agreement is None:
             self.src_tests.data = {k: [] for k in self.src_tests.data}
+            self._test_items = []
+            self._show_legends()
             return
         x, y = self._view.to_display(points["ql_m3_s"].to_numpy(), points["qg_m3_s"].to_numpy())
-        platforms = sorted(set(points["platform"].fillna("").astype(str)))
-        pm = {p: OBS_MARKERS[i % len(OBS_MARKERS)] for i, p in enumerate(platforms)}
-        obs = points["observed_regime"].fillna("").astype(str).tolist()
-        agree = [o == p for o, p in zip(obs, predicted)]
+        checks = agreement.points
+        fills = self._view.regime_styles
+        platforms = points["platform"].fillna("").astype(str).tolist() if "platform" in points else [""] * len(checks)
+        markers = [platform_marker(p) for p in platforms]
+        obs = [c.observed for c in checks]
+        agrees = [c.agrees for c in checks]
         self.src_tests.data = dict(
-            x=list(np.asarray(x, float)), y=list(np.asarray(y, float)), observed=obs, predicted=list(predicted),
-            platform=points["platform"].fillna("").astype(str).tolist(),
-            test_id=points["test_id"].astype(str).tolist(),
-            marker=[pm[p] for p in points["platform"].fillna("").astype(str)],
-            fill=[observed_styles.get(o, "#ffffff") for o in obs],
-            line=["#222222" if a else "#C00000" for a in agree], width=[1.0 if a else 3.0 for a in agree],
-            agree=agree)
+            x=list(np.asarray(x, float)), y=list(np.asarray(y, float)), observed=[c.label or c.observed for c in checks],
+            predicted=[c.predicted for c in checks], platform=platforms, test_id=[c.test_id for c in checks],
+            marker=[m.bokeh for m in markers],
+            fill=[fills[o][0] if o in fills else "#ffffff" for o in obs],
+            line=[DISAGREE_COLOUR if a is False else ("#222222" if a else "#777777") for a in agrees],
+            width=[3.0 if a is False else 1.0 for a in agrees], agree=[a is True for a in agrees])
+        items, seen = [], set()
+        for i, m in enumerate(markers):
+            if ("m", m.label) not in seen:
+                seen.add(("m", m.label))
+                items.append((f"marker: {m.label}", i))
+        for i, o in enumerate(obs):
+            if o in fills and ("f", o) not in seen:
+                seen.add(("f", o))
+                items.append((f"fill: observed {o}", i))
+        if any(a is False for a in agrees):
+            items.append(("red outline: chart disagrees", agrees.index(False)))
+        if any(a is None and o for a, o in zip(agrees, obs)):
+            items.append(("grey outline: label not a chart regime",
+                          next(i for i, (a, o) in enumerate(zip(agrees, obs)) if a is None and o)))
+        self._test_items = items
+        self._show_legends()
 
     def __panel__(self):
         return self._layout
+
+
+def live_html(live, settings=None) -> str:
+    """The status line of a live preview: the value drawn, the operating point's regime and margin on that chart."""
+    from lowgmap.app.formatting import format_percent
+
+    what = f"{html.escape(live.label)} {html.escape(live.text)}"
+    if live.problem:
+        return f"<div class='live-status problem'>No chart for {what}: {html.escape(live.problem)}</div>"
+    if live.chart is None:
+        return f"<div class='live-status'>Preview of {what}: computing…</div>"
+    regime = html.escape(live.regime or "no regime")
+    if live.margins is not None and live.margins.symmetric_margin is not None:
+        margin = f"symmetric margin <b class='live-margin'>±{format_percent(live.margins.symmetric_margin)}</b>"
+    else:
+        margin = "margin: computing…" if live.regime else "no margins"
+    tail = "applying…" if live.released else "release to apply"
+    return (f"<div class='live-status' data-seq='{live.seq}'>Preview of <b class='live-value'>{what}</b>: the "
+            f"operating point is in <b class='live-regime'>{regime}</b>, {margin} ({tail}).</div>")
 
 
 def _text_align(v, x: float) -> str:

@@ -16,11 +16,26 @@ state, a field is left alone while
 
 otherwise it shows the value in effect (after a refused edit: the previous value, with the
 message quoting what was typed).
+
+Sliders beside the geometry fields (diameter, width, height, side, half-angle, depth, wall length,
+conduit length, contact angle) and the gravity level: lengths on a log scale over two decades around the
+value in effect (in the field's own unit), angles linearly in degrees over a window around it; the
+window moves only when a typed value falls outside it. While a slider is dragged, the typed field shows
+its value and the session previews the chart for it (:meth:`~lowgmap.app.dashboard.state.Session.preview`:
+coalesced, latest value wins, computed on a worker thread); on release the value is committed exactly
+as if it had been typed into the field (same text, same edit, same numbers). A typed value moves the
+slider.
+
+Gravity level and orientation: a named level (orbit, lunar surface, Martian surface, ground), the
+typed residual acceleration and a log slider from 1e-6 g0 to 1 g0 all write ``conduit.residual_acceleration``;
+the flow direction to the acceleration (and the inclination of an inclined conduit) writes
+``conduit.orientation``, read by the case-file layer like every other key.
 """
 from __future__ import annotations
 
 import html
 import math
+import re
 from dataclasses import dataclass
 from typing import Callable
 
@@ -33,7 +48,7 @@ from lowgmap.physics.chart.composition import AXIS_KINDS
 
 from lowgmap.app.dashboard.state import Edit
 
-__all__ = ["SetupPanel", "SECTION_FIELDS", "FieldView", "FIELD_CSS"]
+__all__ = ["SetupPanel", "SECTION_FIELDS", "SLIDER_FIELDS", "FieldView", "FieldSlider", "FIELD_CSS"]
 
 #: Parameters shown for each section kind (besides the kind itself and the conduit length).
 SECTION_FIELDS = {
@@ -44,6 +59,18 @@ SECTION_FIELDS = {
     "wedge_channel": ("half_angle", "wall_length"),
     "polygon": ("vertices_unit", "vertices"),
 }
+
+#: Fields with a slider beside the typed field: key -> kind ("length": log scale, two decades around the
+#: value in effect; "half_angle" / "contact_angle": linear in degrees within :data:`ANGLE_LIMITS`).
+SLIDER_FIELDS = {"section.diameter": "length", "section.width": "length", "section.height": "length",
+                 "section.side": "length", "section.half_angle": "half_angle", "section.depth": "length",
+                 "section.wall_length": "length", "conduit.length": "length", "wetting.contact_angle": "contact_angle"}
+#: Range of the angle sliders [deg] (a corner half-angle is below 90 deg; a contact angle within [0, 180] deg).
+ANGLE_LIMITS = {"half_angle": (0.5, 89.5), "contact_angle": (0.0, 180.0)}
+#: Slider steps: log10 of a length (0.2 %), an angle [deg], log10(g/g0).
+LENGTH_STEP, ANGLE_STEP, LOG_G_STEP = 0.001, 0.05, 0.01
+_QUANTITY = re.compile(r"\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*")
+_DEGREES = ("deg", "degree", "degrees", "°", "")
 
 #: Style of the message line under a field.
 FIELD_CSS = """
@@ -81,8 +108,30 @@ class WettingInputs(param.Parameterized):
     receding = param.String(default="", label="Receding angle (optional)")
 
 
+#: Named gravity levels offered in the page: (words shown, case-file text). The surface values are
+#: those of :mod:`lowgmap.physics.properties.gravity` (with their sources); orbit is a typical residual
+#: acceleration of an orbiting laboratory, 1e-6 g0 (common practice, no source).
+GRAVITY_LEVELS = (("orbit, 1e-6 g0", "1e-6 g0"), ("lunar surface, 1.62 m/s^2", "lunar surface"),
+                  ("Martian surface, 3.71 m/s^2", "Martian surface"), ("ground, 1 g0", "ground"))
+OTHER_LEVEL = "other (typed below)"
+#: Orientation choices: words shown -> case-file text (None: no orientation written).
+ORIENTATIONS = {"unspecified": None, "vertical upward flow": "vertical upward flow",
+                "vertical downward flow": "vertical downward flow", "horizontal": "horizontal",
+                "inclined (angle below)": ""}
+INCLINED = "inclined (angle below)"
+#: Range of the gravity slider, log10(g/g0).
+LOG_G_RANGE = (-6.0, 0.0)
+
+
 class GravityInputs(param.Parameterized):
-    residual_acceleration = param.String(default="", label="Residual acceleration", doc="e.g. 1e-5 g0")
+    level = param.Selector(default=OTHER_LEVEL, objects=[w for w, _ in GRAVITY_LEVELS] + [OTHER_LEVEL],
+                           label="Gravity level")
+    residual_acceleration = param.String(default="", label="Residual acceleration",
+                                         doc="e.g. 1e-5 g0, 1.62 m/s^2, lunar surface")
+    orientation = param.Selector(default="unspecified", objects=list(ORIENTATIONS),
+                                 label="Flow direction to the acceleration")
+    inclination = param.String(default="", label="Inclination above the horizontal",
+                               doc="e.g. 30 deg (positive: upward flow)")
 
 
 class ChartInputs(param.Parameterized):
@@ -196,6 +245,85 @@ class FieldView:
         return [self.widget, self.message]
 
 
+class FieldSlider:
+    """A slider beside a typed field: dragging calls ``on_move(key, text)``, releasing ``on_release(key, text)``
+    with the value written as the field would hold it ("6.35 deg", "12.76 mm").
+
+    ``kind``: "length" (log10 of the value in the field's unit, two decades around the value in
+    effect), "half_angle" or "contact_angle" (degrees, linear, within :data:`ANGLE_LIMITS`).
+    """
+
+    def __init__(self, key: str, kind: str, label: str, on_move, on_release):
+        self.key, self.kind, self.label = key, kind, label
+        self.unit = "mm" if kind == "length" else "deg"
+        step = LENGTH_STEP if kind == "length" else ANGLE_STEP
+        scale = " (log scale)" if kind == "length" else ""
+        self.widget = pn.widgets.FloatSlider(label=f"{label}{scale}, drag to explore", start=0.0, end=1.0,
+                                             step=step, value=0.5, show_value=False, sizing_mode="stretch_width",
+                                             css_classes=["geometry-slider", f"slider-{_css_key(key)}"],
+                                             margin=(0, 10, 6, 10))
+        self._pushing = False
+        self._on_move, self._on_release = on_move, on_release
+        self.widget.param.watch(self._moved, "value")
+        self.widget.param.watch(self._released, "value_throttled")
+
+    def text_of(self, x: float) -> str:
+        """The field text of slider position ``x``."""
+        if self.kind == "length":
+            return f"{10.0 ** float(x):.4g} {self.unit}"
+        return f"{float(x):.4g} deg"
+
+    def position_of(self, text: str):
+        """(slider position, unit) of a field text, or None when it is not a value the slider can show."""
+        m = _QUANTITY.fullmatch(text or "")
+        if not m:
+            return None
+        number, unit = float(m.group(1)), m.group(2)
+        if self.kind == "length":
+            return (math.log10(number), unit) if number > 0 and unit else None
+        if unit in _DEGREES:
+            return number, "deg"
+        if unit in ("rad", "radian", "radians"):
+            return math.degrees(number), "deg"
+        return None
+
+    def follow(self, text: str) -> None:
+        """Put the slider at the value written in the field (its window moves only when the value is outside)."""
+        pos = self.position_of(text)
+        if pos is None:
+            return
+        x, unit = pos
+        w = self.widget
+        start, end = w.start, w.end
+        if self.kind == "length":
+            if unit != self.unit or not start <= x <= end:
+                self.unit = unit
+                start, end = round(x - 1.0, 3), round(x + 1.0, 3)
+        else:
+            lo, hi = ANGLE_LIMITS[self.kind]
+            x = min(max(x, lo), hi)
+            if not start <= x <= end or (start, end) == (0.0, 1.0):
+                span = max(10.0, x)
+                start, end = max(lo, round(x - span)), min(hi, round(x + span))
+        self._pushing = True
+        try:
+            if (start, end) != (w.start, w.end):
+                w.param.update(start=min(start, w.start), end=max(end, w.end))
+                w.param.update(value=x, start=start, end=end)
+            elif abs(w.value - x) > 1e-12:
+                w.value = x
+        finally:
+            self._pushing = False
+
+    def _moved(self, event) -> None:
+        if not self._pushing and event.new is not None:
+            self._on_move(self.key, self.text_of(event.new))
+
+    def _released(self, event) -> None:
+        if not self._pushing and event.new is not None:
+            self._on_release(self.key, self.text_of(event.new))
+
+
 @dataclass
 class _Spec:
     group: str
@@ -228,8 +356,12 @@ class SetupPanel(pn.viewable.Viewer):
             if n not in ("name", "kind", "length"):
                 specs.append(_Spec("section", self.section, n, f"section.{n}", f"section.{n}"))
         specs.append(_Spec("section", self.section, "length", "conduit.length", "conduit.length"))
+        specs.append(_Spec("gravity", self.gravity, "level", "conduit.gravity_level",
+                           "conduit.residual_acceleration"))
         specs.append(_Spec("gravity", self.gravity, "residual_acceleration", "conduit.residual_acceleration",
                            "conduit.residual_acceleration"))
+        specs.append(_Spec("gravity", self.gravity, "orientation", "conduit.orientation", "conduit.orientation"))
+        specs.append(_Spec("gravity", self.gravity, "inclination", "conduit.inclination", "conduit.orientation"))
         for n in ChartInputs.param:
             if n == "name":
                 continue
@@ -243,6 +375,20 @@ class SetupPanel(pn.viewable.Viewer):
         for s in specs:
             w = widget_for(s.obj.param[s.name], values[s.key], f"field-{_css_key(s.key)}")
             self.fields[s.key] = FieldView(s.key, w, lambda v, k=s.key: self._commit(k, v))
+        # sliders beside the geometry fields
+        self.sliders: dict[str, FieldSlider] = {}
+        for key, kind in SLIDER_FIELDS.items():
+            spec = self.specs[key]
+            self.sliders[key] = FieldSlider(key, kind, spec.obj.param[spec.name].label, self._slider_moved,
+                                            self._slider_released)
+        # the gravity level on a log scale beside the typed field (10^-6 g0 to 1 g0)
+        self.gravity_slider = pn.widgets.FloatSlider(label="Gravity level, log10(g/g0)", start=LOG_G_RANGE[0],
+                                                     end=LOG_G_RANGE[1], step=LOG_G_STEP, value=LOG_G_RANGE[0],
+                                                     sizing_mode="stretch_width", css_classes=["gravity-slider"],
+                                                     format="0.00")
+        self._slider_pushing = False
+        self.gravity_slider.param.watch(self._slid, "value_throttled")
+        self.gravity_slider.param.watch(self._gravity_moved, "value")
         self._model_rows: dict[str, dict] = {}
         self._no_models = pn.pane.Markdown("No registered boundary model applies to this section.", visible=False)
         self.models_message = pn.pane.HTML("", visible=False, sizing_mode="stretch_width", stylesheets=[FIELD_CSS],
@@ -250,6 +396,7 @@ class SetupPanel(pn.viewable.Viewer):
         self.models_box = pn.Column(self._no_models, self.models_message, sizing_mode="stretch_width")
         self.show_state()
         session.param.watch(lambda *_: self.show_state(), ["applied_counter", "revision_counter"])
+        session.param.watch(lambda e: self._show_sliders() if e.new is None else None, ["live"])
         session.param.watch(self._on_problems, ["problems"])
 
     # ------------------------------------------------------------------------------- state -> fields
@@ -277,6 +424,15 @@ class SetupPanel(pn.viewable.Viewer):
                 out[key] = st.liquid_flow_unit
             elif key == "chart.gas_flow_unit":
                 out[key] = st.gas_flow_unit
+            elif key == "conduit.gravity_level":
+                out[key] = _level_of(s.doc.case.g)
+            elif key == "conduit.orientation":
+                out[key] = _orientation_choice(s.doc.case)
+            elif key == "conduit.inclination":
+                o = getattr(s.doc.case, "orientation", None)
+                out[key] = (f"{math.degrees(o.angle_rad):.4g} deg" if o is not None and o.kind == o.INCLINED
+                            else _text(s.get("conduit.orientation")) if _orientation_choice(s.doc.case) == INCLINED
+                            else "")
             else:
                 out[key] = _text(s.get(spec.path))
         return out
@@ -297,6 +453,8 @@ class SetupPanel(pn.viewable.Viewer):
                     f.show(values[key])
                 f.set_messages(problems.get(key, []))
             self._show_section_fields()
+            self._show_sliders(values)
+            self._show_gravity()
             if "models" not in pending:
                 self._show_models()
             msgs = problems.get("models", [])
@@ -311,12 +469,110 @@ class SetupPanel(pn.viewable.Viewer):
                 visible = key.split(".", 1)[1] in shown
                 f.widget.visible = visible
                 f.message.visible = visible and bool(f.message.object)
+                if key in self.sliders:
+                    self.sliders[key].widget.visible = visible and not self.section_draft
+
+    def _show_sliders(self, values=None) -> None:
+        """Each slider at the value in effect of its field (not while it is dragged or its edit is queued)."""
+        s = self.session
+        if s.closed:
+            return
+        values = values or self._values()
+        live = s.live
+        pending = s.pending_keys
+        for key, slider in self.sliders.items():
+            if key in pending or (live is not None and live.key == key):
+                continue
+            slider.follow(str(values[key]))
+
+    # ------------------------------------------------------------------------------- sliders -> previews, edits
+    def _slider_moved(self, key: str, text: str) -> None:
+        """A slider being dragged: the field shows its value and the chart previews it (nothing applied)."""
+        spec = self.specs[key]
+        if self.section_draft or self.fields[key].dirty:
+            return
+        self.fields[key].show(text)
+        if text == str(self.session.get(spec.path)):
+            self.session.cancel_preview()          # back at the value in effect: the chart in effect is drawn
+            return
+        self.session.preview({spec.path: text}, key=key, label=spec.obj.param[spec.name].label, text=text,
+                             display=self.chart_pane.preview_frame)
+
+    def _slider_released(self, key: str, text: str) -> None:
+        """A slider released: its value is applied exactly as if it had been typed into the field."""
+        if self.section_draft:
+            return
+        self.fields[key].show(text)
+        self.session.end_preview()
+        self._commit(key, text)
+
+    def _gravity_moved(self, event) -> None:
+        if self._slider_pushing or event.new is None:
+            return
+        text = f"{10.0 ** float(event.new):.3g} g0"
+        key = "conduit.residual_acceleration"
+        self.fields[key].show(text)
+        if text == str(self.session.get(key)):
+            self.session.cancel_preview()
+            return
+        self.session.preview({key: text}, key=key, label="Residual acceleration", text=text,
+                             display=self.chart_pane.preview_frame)
+
+    def _show_gravity(self) -> None:
+        """The slider at the case's gravity level; the angle field only for an inclined conduit."""
+        s = self.session
+        g0 = 9.80665
+        dragged = s.live is not None and s.live.key == "conduit.residual_acceleration"
+        if ("conduit.residual_acceleration" not in s.pending_keys and "conduit.gravity_level" not in s.pending_keys
+                and not dragged):
+            g = s.doc.case.g
+            v = min(max(math.log10(g / g0), LOG_G_RANGE[0]), LOG_G_RANGE[1]) if g > 0 else LOG_G_RANGE[0]
+            if abs(self.gravity_slider.value - v) > 1e-9:
+                self._slider_pushing = True
+                try:
+                    self.gravity_slider.value = round(v, 4)
+                finally:
+                    self._slider_pushing = False
+        f = self.fields["conduit.inclination"]
+        refused = "conduit.inclination" in self.session.field_problems
+        inclined = self.fields["conduit.orientation"].widget.value == INCLINED or refused
+        f.widget.visible = inclined
+        f.message.visible = inclined and bool(f.message.object)
+
+    def _slid(self, event) -> None:
+        if self._slider_pushing or event.new is None:
+            return
+        text = f"{10.0 ** float(event.new):.3g} g0"
+        self.fields["conduit.residual_acceleration"].show(text)
+        self.session.end_preview()
+        self.session.edit({"conduit.residual_acceleration": text}, key="conduit.residual_acceleration",
+                          label="Residual acceleration", path="conduit.residual_acceleration")
 
     # ------------------------------------------------------------------------------- fields -> edits
     def _commit(self, key: str, value) -> None:
         spec = self.specs[key]
         label = spec.obj.param[spec.name].label
         changes: dict[str, object] = {}
+        if key == "conduit.gravity_level":
+            text = dict(GRAVITY_LEVELS).get(value)
+            if text is None:   # "other": the typed field is where the value goes
+                return
+            self.fields["conduit.residual_acceleration"].show(text)
+            self.session.edit({"conduit.residual_acceleration": text}, key="conduit.residual_acceleration",
+                              label="Residual acceleration", path="conduit.residual_acceleration")
+            return
+        if key in ("conduit.orientation", "conduit.inclination"):
+            choice = INCLINED if key == "conduit.inclination" else self.fields["conduit.orientation"].widget.value
+            self._show_gravity()
+            if choice == INCLINED:
+                text = (self.fields["conduit.inclination"].widget.value or "").strip()
+                if not text:        # the angle is still to be typed
+                    return
+            else:
+                text = ORIENTATIONS.get(choice)
+            label = "Inclination" if key == "conduit.inclination" else "Flow direction"
+            self.session.edit({"conduit.orientation": text}, key=key, label=label, path="conduit.orientation")
+            return
         if key.startswith("section.") and (key == "section.kind" or self.section_draft):
             # a new kind needs its own dimensions: the section is sent whole, as a draft until it is valid
             kind = self.fields["section.kind"].widget.value
@@ -467,8 +723,14 @@ class SetupPanel(pn.viewable.Viewer):
         out = []
         for key, spec in self.specs.items():
             if spec.group == group:
-                out += self.fields[key].views
+                f = self.fields[key]
+                out += [f.widget] + ([self.sliders[key].widget] if key in self.sliders else []) + [f.message]
         return out
+
+    def _gravity_body(self) -> list:
+        f = self.fields
+        return (f["conduit.gravity_level"].views + f["conduit.residual_acceleration"].views + [self.gravity_slider]
+                + f["conduit.orientation"].views + f["conduit.inclination"].views)
 
     def __panel__(self):
         def group(title, body, key, collapsed=False):
@@ -480,10 +742,35 @@ class SetupPanel(pn.viewable.Viewer):
             group("Fluid and temperature", self._group_body("fluid"), "fluid"),
             group("Cross-section and length", self._group_body("section"), "section"),
             group("Wetting", self._group_body("wetting"), "wetting"),
-            group("Residual acceleration", self._group_body("gravity"), "gravity"),
+            group("Gravity level and orientation", self._gravity_body(), "gravity"),
             group("Boundary models and constants", [self.models_box], "models", collapsed=True),
             group("Chart ranges, axes and units", self._group_body("chart"), "chart", collapsed=True),
             sizing_mode="stretch_width")
+
+
+def _level_of(g: float) -> str:
+    """The named level (words shown) of a gravity ``g`` [m/s^2], or "other"."""
+    from lowgmap.physics.properties.gravity import GRAVITY_LEVELS as NAMED
+
+    g0 = 9.80665
+    values = {"1e-6 g0": 1e-6 * g0}
+    values.update({lv.name: lv.value for lv in NAMED.values()})
+    for words, text in GRAVITY_LEVELS:
+        v = values.get(text)
+        if v is not None and math.isclose(g, v, rel_tol=1e-9):
+            return words
+    return OTHER_LEVEL
+
+
+def _orientation_choice(case) -> str:
+    """The orientation choice (words shown) of a case."""
+    o = getattr(case, "orientation", None)
+    if o is None or not o.is_known:
+        return "unspecified"
+    if o.kind == o.INCLINED:
+        return INCLINED
+    return {o.VERTICAL_UP: "vertical upward flow", o.VERTICAL_DOWN: "vertical downward flow",
+            o.HORIZONTAL: "horizontal"}.get(o.kind, "unspecified")
 
 
 def _num_or_text(p: str):

@@ -1,4 +1,10 @@
-"""Operating point, margin table, test points and export panels of the dashboard.
+"""Operating point, verdict, margin table, test points and export panels of the dashboard.
+
+What a person reads here is what the command line writes: the verdict block (:class:`VerdictPanel`)
+uses the sentences of ``lowgmap margin`` with the same formatter (:mod:`lowgmap.app.formatting`), the
+test-point summary the counts of ``lowgmap compare`` (its label mapping and observation length are set
+in the panel), and the review report is :func:`lowgmap.app.outputs.exports.report_html` with the case
+file and the uploaded points, as ``lowgmap report -o review.html``.
 
 Long work runs off the server's event loop through the session's runner
 (:mod:`lowgmap.app.dashboard.background`): parsing an uploaded file, comparing test points with the
@@ -10,6 +16,7 @@ from __future__ import annotations
 import asyncio
 import html
 import io
+import math
 import threading
 
 import numpy as np
@@ -18,10 +25,11 @@ import panel as pn
 from lowgmap.app.dashboard import uploads
 from lowgmap.app.dashboard.background import worker_pool
 from lowgmap.app.dashboard.inputs import FIELD_CSS, FieldView
-from lowgmap.app.files.units import UnitError, convert
+from lowgmap.app.files.units import UnitError, convert, parse_flow
 from lowgmap.app.outputs.tables import MARGIN_CSS, margin_table_html
 
-__all__ = ["PointPanel", "MarginTable", "TestPointsPanel", "ExportPanel", "Working", "outside_chart_words"]
+__all__ = ["PointPanel", "VerdictPanel", "MarginTable", "TestPointsPanel", "ExportPanel", "Working",
+           "outside_chart_words", "verdict_html"]
 
 _RENDER_LOCK = threading.Lock()   # matplotlib exports one at a time (rc settings are process-wide)
 
@@ -33,6 +41,11 @@ _NOTE_CSS = """
 .margin-verdict.not-met {background: #fde0dc; border: 2px solid #C00000;}
 .margin-verdict.not-established {background: #fff3cd; border: 2px solid #b8860b;}
 .margin-verdict ul {margin: 2px 0 0 0; padding-left: 18px; font-size: 12px;}
+.point-verdict {font-size: 14px; line-height: 1.45;}
+.point-verdict .status {font-weight: bold;}
+.point-verdict .status.ok {color: #1b5e20;}
+.point-verdict .status.fail {color: #B00000;}
+.point-verdict .status.open {color: #7a5200;}
 """
 
 
@@ -80,12 +93,17 @@ def outside_chart_words(margins, doc) -> str:
 
 
 class PointPanel(pn.viewable.Viewer):
-    """Typed operating-point fields (with units), live readout, required margin, robust point, uncertainty.
+    """Typed operating-point fields (with units), live readout, required margin, intended regime, robust point.
 
-    The required margin is one control (a slider with a number box) bound to the session's
+    The required margin is one value (a slider with a typed box) bound to the session's
     ``required_margin``, which is the case's ``chart.required_margin``: the margin table, the
-    exports and the downloaded case file all read that one value.
+    exports and the downloaded case file all read that one value. The intended regime is the
+    case's ``chart.intended_regime`` ("none": no intended regime). The most robust point is
+    searched within the flow ranges typed here (empty: a decade either side of the operating
+    point, as ``lowgmap robust``).
     """
+
+    NONE = "none"
 
     def __init__(self, session, chart_pane, **params):
         super().__init__(**params)
@@ -102,23 +120,38 @@ class PointPanel(pn.viewable.Viewer):
                                      sizing_mode="stretch_width")
         self.readout = pn.pane.Markdown(chart_pane.param.readout, css_classes=["point-readout"],
                                         sizing_mode="stretch_width")
-        # one value, two views kept in step by the session: a slider and a number box
+        # one value, two views kept in step by the session: a slider and a typed box
         # (not panel's EditableFloatSlider: its browser-side link keeps every session's widgets alive)
         rm = round(100 * session.required_margin, 4)
-        self.required = pn.widgets.FloatSlider(label="Required margin ± [%]", start=0, end=90, step=0.5, value=rm,
-                                               sizing_mode="stretch_width", css_classes=["required-margin"])
-        self.required_box = pn.widgets.FloatInput(label="± [%]", start=0, end=99, step=0.5, value=rm, width=90,
-                                                  css_classes=["required-margin-input"])
+        self.required = pn.widgets.FloatSlider(label="Required margin ± [%]", start=0, end=90, step=0.5,
+                                               value=rm, sizing_mode="stretch_width", show_value=False,
+                                               css_classes=["required-margin"])
+        self.required_box = pn.widgets.TextInput(label="typed [%]", value=_pct_text(rm), width=90,
+                                                 css_classes=["required-margin-input"])
         self.required_message = pn.pane.HTML("", visible=False, stylesheets=[FIELD_CSS],
                                              css_classes=["field-message", "message-required-margin"])
         self._pushing = False
         self.required.param.watch(self._required_changed, "value_throttled")
-        self.required_box.param.watch(self._required_changed, "value")
-        self.uncertainty = pn.widgets.Checkbox(label="Show flow-rate uncertainty box", value=False,
-                                               css_classes=["uncertainty-toggle"])
-        self.uncertainty.param.watch(lambda e: setattr(session, "show_uncertainty", e.new), "value")
+        self.required_box.param.watch(self._required_typed, "value")
+        self.intended = pn.widgets.Select(label="Intended regime", options=[self.NONE], value=self.NONE,
+                                          sizing_mode="stretch_width", css_classes=["intended-regime"])
+        self.intended.param.watch(self._intended_changed, "value")
+        self.intended_message = pn.pane.HTML("", visible=False, stylesheets=[FIELD_CSS],
+                                             css_classes=["field-message", "message-intended-regime"])
+        self.uncertainty = pn.widgets.CheckBoxGroup(label="Flow-rate uncertainty",
+                                                    options=["Show flow-rate uncertainty box"], value=[],
+                                                    css_classes=["uncertainty-toggle"])
+        self.uncertainty.param.watch(lambda e: setattr(session, "show_uncertainty", bool(e.new)), "value")
         self.regime_select = pn.widgets.Select(label="Regime for the robust point", options=[],
-                                               sizing_mode="stretch_width")
+                                               sizing_mode="stretch_width", css_classes=["robust-regime"])
+        self.range_fields = {}
+        for key, label in (("ql_lo", "Liquid flow searched, from"), ("ql_hi", "Liquid flow searched, to"),
+                           ("qg_lo", "Gas flow searched, from"), ("qg_hi", "Gas flow searched, to")):
+            self.range_fields[key] = pn.widgets.TextInput(label=label, sizing_mode="stretch_width",
+                                                          css_classes=[f"robust-{key.replace('_', '-')}"])
+        self.range_message = pn.pane.HTML("", visible=False, stylesheets=[FIELD_CSS],
+                                          css_classes=["field-message", "message-robust-range"],
+                                          sizing_mode="stretch_width")
         self.robust_button = pn.widgets.Button(label="Move to the most robust point", color="primary",
                                                sizing_mode="stretch_width", css_classes=["robust-run"])
         self.robust_button.on_click(self._robust)
@@ -147,9 +180,10 @@ class PointPanel(pn.viewable.Viewer):
             value = round(100 * s.required_margin, 4)
             self._pushing = True
             try:
-                for w in (self.required, self.required_box):
-                    if w.value != value:
-                        w.value = value
+                if self.required.value != value:
+                    self.required.value = value
+                if self.required_box.value != _pct_text(value):
+                    self.required_box.value = _pct_text(value)
             finally:
                 self._pushing = False
         msgs = s.field_problems.get("required_margin", [])
@@ -161,20 +195,79 @@ class PointPanel(pn.viewable.Viewer):
         names = list(s.chart.regime_names)
         if list(self.regime_select.options) != names:
             self.regime_select.options = names
-        intended = st.intended_regime
+        intended = st.intended_regime or None
         if names and self.regime_select.value not in names:
             self.regime_select.value = intended if intended in names else (s.regime_at(s.ql, s.qg) or names[0])
+        if "chart.intended_regime" not in pending:
+            options = [self.NONE] + names + ([intended] if intended and intended not in names else [])
+            self._pushing = True
+            try:
+                if list(self.intended.options) != options:
+                    self.intended.options = options
+                if self.intended.value != (intended or self.NONE):
+                    self.intended.value = intended or self.NONE
+            finally:
+                self._pushing = False
+        msgs = list(s.field_problems.get("chart.intended_regime", []))
+        if intended and intended not in names:
+            msgs.append(f"Intended regime: \u201c{intended}\u201d is not a regime of this chart; choose one of its "
+                        "regimes or none.")
+        self.intended_message.object = "<br>".join(html.escape(m) for m in msgs)
+        self.intended_message.visible = bool(msgs)
+        self._show_default_ranges()
+
+    def _show_default_ranges(self):
+        """Empty range fields show the default search range (a decade either side of the point)."""
+        s = self.session
+        rng = s.robust_default_ranges()
+        if rng is None:
+            return
+        st = s.doc.settings
+        (ql_lo, ql_hi), (qg_lo, qg_hi) = rng
+        for key, v, unit in (("ql_lo", ql_lo, st.liquid_flow_unit), ("ql_hi", ql_hi, st.liquid_flow_unit),
+                             ("qg_lo", qg_lo, st.gas_flow_unit), ("qg_hi", qg_hi, st.gas_flow_unit)):
+            text = f"{convert(v, 'flow', unit):.4g} {unit} (default)"
+            if self.range_fields[key].placeholder != text:
+                self.range_fields[key].placeholder = text
 
     def _required_changed(self, event):
         if self._pushing or event.new is None:
             return
-        other = self.required_box if event.obj is self.required else self.required
         self._pushing = True
         try:
-            other.value = event.new  # the other view follows at once
+            self.required_box.value = _pct_text(event.new)  # the other view follows at once
         finally:
             self._pushing = False
         self.session.set_required_margin(float(event.new) / 100.0)
+
+    def _required_typed(self, event):
+        if self._pushing:
+            return
+        text = (event.new or "").replace("%", "").replace("±", "").strip()
+        try:
+            value = float(text)
+            if not 0 <= value < 99.95:
+                raise ValueError
+        except ValueError:
+            self.required_message.object = html.escape(
+                f"Required margin: must be a number within [0, 99.9] %, got {event.new!r}. Not applied; in effect: "
+                f"{_pct_text(100 * self.session.required_margin)} %.")
+            self.required_message.visible = True
+            return
+        self.required_message.visible = False
+        self._pushing = True
+        try:
+            self.required.value = min(value, self.required.end)
+        finally:
+            self._pushing = False
+        self.session.set_required_margin(value / 100.0)
+
+    def _intended_changed(self, event):
+        if self._pushing or event.new is None:
+            return
+        value = None if event.new == self.NONE else str(event.new)
+        self.session.edit({"chart.intended_regime": value}, key="chart.intended_regime", label="Intended regime",
+                          path="chart.intended_regime")
 
     def _typed(self, _value=None):
         s = self.session
@@ -191,24 +284,146 @@ class PointPanel(pn.viewable.Viewer):
         self.message.visible = False
         s.move_point(ql, qg)
 
+    def search_ranges(self):
+        """The typed search ranges (SI) as (ql_range, qg_range); None for an axis left empty.
+
+        Raises UnitError / ValueError with the field's name.
+        """
+        s = self.session
+        f = s.doc.case.fluid
+        default = s.robust_default_ranges()
+        out = []
+        for axis, gas, (lo_key, hi_key) in (("liquid", False, ("ql_lo", "ql_hi")), ("gas", True, ("qg_lo", "qg_hi"))):
+            lo_t, hi_t = (self.range_fields[lo_key].value or "").strip(), (self.range_fields[hi_key].value or "").strip()
+            if not lo_t and not hi_t:
+                out.append(None)
+                continue
+            d = default[0 if axis == "liquid" else 1]
+            vals = []
+            for text, key, fallback in ((lo_t, lo_key, d[0]), (hi_t, hi_key, d[1])):
+                if not text:
+                    vals.append(fallback)
+                    continue
+                name = self.range_fields[key].name
+                v = parse_flow(text, name, gas=gas, pressure=f.pressure, temperature=f.temperature)
+                if not (v > 0 and math.isfinite(v)):
+                    raise UnitError(f"{name}: must be a positive flow, got {text!r}")
+                vals.append(v)
+            if not vals[1] > vals[0]:
+                raise UnitError(f"{axis.capitalize()} flow searched: 'to' must be above 'from', got "
+                                f"{lo_t or 'the default'} to {hi_t or 'the default'}")
+            out.append((vals[0], vals[1]))
+        return tuple(out)
+
     def _robust(self, event):
+        try:
+            ql_range, qg_range = self.search_ranges()
+        except (UnitError, ValueError) as exc:
+            self.range_message.object = html.escape(f"{exc}. The point was not moved.")
+            self.range_message.visible = True
+            return
+        self.range_message.visible = False
         self.robust_note.object = "<span>Searching for the most robust point…</span>"
         self.robust_note.visible = True
-        self.session.request_robust_point(self.regime_select.value)
+        self.session.request_robust_point(self.regime_select.value, ql_range=ql_range, qg_range=qg_range)
 
     def __panel__(self):
-        return pn.Column(pn.pane.Markdown("#### Operating point"), self.readout, self.ql_input, self.qg_input,
-                         self.message, pn.Row(self.required, self.required_box, sizing_mode="stretch_width"),
-                         self.required_message, self.uncertainty,
-                         self.regime_select, self.robust_button, self.robust_note, sizing_mode="stretch_width")
+        robust = pn.Card(self.regime_select,
+                         pn.Row(self.range_fields["ql_lo"], self.range_fields["ql_hi"], sizing_mode="stretch_width"),
+                         pn.Row(self.range_fields["qg_lo"], self.range_fields["qg_hi"], sizing_mode="stretch_width"),
+                         self.range_message, self.robust_button, self.robust_note,
+                         title="Most robust point", collapsed=True, sizing_mode="stretch_width",
+                         css_classes=["robust-card"])
+        return pn.Column(pn.pane.Markdown("#### Operating point", margin=(0, 10)), self.readout, self.ql_input,
+                         self.qg_input, self.message,
+                         pn.Row(self.required, self.required_box, sizing_mode="stretch_width"),
+                         self.required_message, self.intended, self.intended_message, self.uncertainty,
+                         robust, sizing_mode="stretch_width")
+
+
+def _pct_text(value: float) -> str:
+    """A required margin in percent as typed text: 30.0 -> '30', 42.5 -> '42.5'."""
+    return f"{float(value):.6g}"
+
+
+class VerdictPanel(pn.viewable.Viewer):
+    """The verdict on the operating point in words: regime, intended regime, symmetric margin, required margin.
+
+    The sentences are those of ``lowgmap margin`` (the same :class:`~lowgmap.physics.chart.margins.Verdict`
+    and the same number formatter, :mod:`lowgmap.app.formatting`); what fails ("NOT MET", "NOT IN THE
+    INTENDED REGIME") is in red, "not established" in amber with its reasons.
+    """
+
+    def __init__(self, session, **params):
+        super().__init__(**params)
+        self.session = session
+        self.pane = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["verdict-pane"],
+                                 stylesheets=[_NOTE_CSS])
+        session.param.watch(lambda *_: self.refresh(), ["margins", "required_margin", "revision_counter"])
+        self.refresh()
+
+    def refresh(self):
+        s = self.session
+        if s.closed:
+            return
+        self.pane.object = verdict_html(s.margins, s.verdict(), s.doc)
+
+    def __panel__(self):
+        return self.pane
+
+
+def verdict_html(margins, v, doc) -> str:
+    """The verdict block (HTML) of a point's margins and :class:`~lowgmap.physics.chart.margins.Verdict`."""
+    from lowgmap.app.formatting import format_percent
+
+    if margins is None or v is None:
+        return "<div class='point-verdict'>No regimes on this chart: no verdict.</div>"
+    intended = (doc.settings.intended_regime or getattr(doc.case, "intended_regime", "") or "") if doc else ""
+
+    def status(text):
+        cls = "ok" if text in ("met", "in the intended regime") else (
+            "fail" if text in ("NOT MET", "NOT IN THE INTENDED REGIME") else "open")
+        return f"<span class='status {cls}'>{html.escape(text)}</span>"
+
+    regime = html.escape(margins.regime or "none")
+    if v.intended_regime:
+        regime_line = (f"Regime: <b class='verdict-regime'>{regime}</b> ({status(v.regime_status)}: "
+                       f"{html.escape(v.intended_regime)})")
+    else:
+        regime_line = f"Regime: <b class='verdict-regime'>{regime}</b> ({status(v.regime_status)})"
+    if intended and not v.intended_regime:
+        regime_line += (f"<br><span class='status open'>Intended regime \u201c{html.escape(intended)}\u201d is not "
+                        "a regime of this chart: judged on the margin alone.</span>")
+    m = margins.symmetric_margin
+    lim = margins.limiting
+    if lim is None:
+        margin_line = (f"Symmetric margin: <b class='verdict-margin'>at least ±{format_percent(m)}</b> "
+                       "(no boundary comes closer)")
+    else:
+        margin_line = (f"Symmetric margin: <b class='verdict-margin'>±{format_percent(m)}</b>, limited by "
+                       f"<span class='verdict-limiting'>{html.escape(lim.label)}</span>")
+    required_line = f"Required margin ±{format_percent(v.required)}: {status(v.margin_status)}"
+    notes = list(v.limits[:-1]) if v.margin_status == "not established" else []
+    items = "".join(f"<li>{html.escape(n)}</li>" for n in notes if n and n != margins.outside_chart_note)
+    cls = {"met": "met", "NOT MET": "not-met"}.get(v.margin_status, "not-established")
+    if v.regime_status == "NOT IN THE INTENDED REGIME":
+        cls = "not-met"
+    return (f"<div class='point-verdict margin-verdict {cls}' data-status='{html.escape(v.margin_status)}' "
+            f"data-regime-status='{html.escape(v.regime_status)}'>"
+            f"<div class='verdict-line'>{regime_line}</div><div class='verdict-line'>{margin_line}</div>"
+            f"<div class='verdict-line verdict-required'>{required_line}</div>"
+            + (f"<ul>{items}</ul>" if items else "") + "</div>")
 
 
 class MarginTable(pn.viewable.Viewer):
     """Margins of the operating point to every boundary (recomputed on release, never on drag).
 
-    Above the table: the verdict against the required margin (:meth:`Session.verdict`, "met" only
-    when the margin is established) and, when the point lies outside the drawn chart range, a
-    statement saying so.
+    Below the table, once computed in the background, the worst case over the constants' bands
+    (:attr:`lowgmap.physics.studies.study.Study.worst_case`, in the words of
+    :func:`lowgmap.app.outputs.tables.margin_table_html`); a "computing worst case…" notice until then.
+
+    Above the table, when the point lies outside the drawn chart range, a statement saying so. The
+    verdict against the required margin is the :class:`VerdictPanel` beside the chart.
     """
 
     def __init__(self, session, **params):
@@ -216,35 +431,35 @@ class MarginTable(pn.viewable.Viewer):
         self.session = session
         self.pane = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["margin-pane"],
                                  stylesheets=[MARGIN_CSS])
-        self.verdict = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["margin-verdict-pane"],
-                                    stylesheets=[_NOTE_CSS], visible=False)
         self.outside = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["outside-chart-pane"],
                                     stylesheets=[_NOTE_CSS], visible=False)
-        session.param.watch(lambda *_: self.refresh(), ["margins", "required_margin"])
+        self.worst_notice = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["worst-case-notice"],
+                                         visible=False, margin=(0, 10))
+        session.param.watch(lambda *_: self.refresh(), ["margins", "required_margin", "worst_case",
+                                                        "worst_case_state"])
+        session.want_worst_case()     # the worst case over the bands, computed in the background
         self.refresh()
 
     def refresh(self):
         s = self.session
         if s.closed:
             return
-        self.pane.object = margin_table_html(s.margins, s.required_margin)
+        wc = s.worst_case if s.worst_case_state == "ready" else None
+        self.pane.object = margin_table_html(s.margins, s.required_margin, wc)
+        notice = ""
+        if s.margins is not None and s.worst_case_state == "computing":
+            notice = "computing worst case… (the margin to the near edge of each line's band, in the background)"
+        elif s.worst_case_state == "failed":
+            notice = s.extras_problem
+        self.worst_notice.object = f"<i>{html.escape(notice)}</i>" if notice else ""
+        self.worst_notice.visible = bool(notice)
         words = outside_chart_words(s.margins, s.doc)
         self.outside.object = f"<div class='outside-chart'>{html.escape(words)}</div>" if words else ""
         self.outside.visible = bool(words)
-        v = s.verdict()
-        if v is None:
-            self.verdict.object, self.verdict.visible = "", False
-            return
-        cls = {"met": "met", "NOT MET": "not-met"}.get(v.margin_status, "not-established")
-        notes = list(v.limits[:-1]) if v.margin_status == "not established" else []
-        items = "".join(f"<li>{html.escape(n)}</li>" for n in notes if n and n != s.margins.outside_chart_note)
-        self.verdict.object = (f"<div class='margin-verdict {cls}' data-status='{html.escape(v.margin_status)}'>"
-                               f"{html.escape(v.headline)}" + (f"<ul>{items}</ul>" if items else "") + "</div>")
-        self.verdict.visible = True
 
     def __panel__(self):
-        return pn.Column(pn.pane.Markdown("#### Margins to every boundary"), self.verdict, self.outside, self.pane,
-                         sizing_mode="stretch_width")
+        return pn.Column(pn.pane.Markdown("#### Margins to every boundary", margin=(0, 10)), self.outside, self.pane,
+                         self.worst_notice, sizing_mode="stretch_width")
 
 
 class TestPointsPanel(pn.viewable.Viewer):
@@ -274,6 +489,17 @@ class TestPointsPanel(pn.viewable.Viewer):
         self.summary = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["points-summary"])
         self.problems = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["points-problems"])
         self.mapping_box = pn.Column(sizing_mode="stretch_width", visible=False)
+        # as `lowgmap compare --map LABEL=REGIME --length L`
+        self.label_map = pn.widgets.TextAreaInput(
+            name="Label mapping (one per line: label in the file = chart regime)", rows=3, sizing_mode="stretch_width",
+            placeholder="e.g. bubbly = dispersed bubbles", css_classes=["label-map"])
+        self.obs_length = pn.widgets.TextInput(label="Observation length (inlet to where the regime was seen)",
+                                               sizing_mode="stretch_width", css_classes=["observation-length"])
+        self.compare_button = pn.widgets.Button(label="Compare again with this mapping and length",
+                                                color="primary", css_classes=["compare-run"])
+        self.compare_button.on_click(self._apply_compare)
+        self.compare_message = pn.pane.HTML("", visible=False, stylesheets=[FIELD_CSS], sizing_mode="stretch_width",
+                                            css_classes=["field-message", "message-compare"])
         self._raw: bytes | None = None
         self._name = ""
         self._token = 0
@@ -292,7 +518,67 @@ class TestPointsPanel(pn.viewable.Viewer):
         self.apply_button.on_click(self._apply_fit)
         self._calibration = None
         self._refresh_fit_options()
-        session.param.watch(lambda *_: (self._redraw(), self._refresh_fit_options()), ["revision_counter"])
+        self._show_compare_defaults()
+        session.param.watch(lambda *_: (self._redraw(), self._refresh_fit_options(), self._show_compare_defaults()),
+                            ["revision_counter"])
+        session.param.watch(lambda *_: self._compare_applied(), ["compare"])
+
+    # ------------------------------------------------------------------------------- comparison settings
+    def _show_compare_defaults(self):
+        length = self.session.doc.case.length
+        text = f"default: the conduit length, {length:.4g} m"
+        if self.obs_length.placeholder != text:
+            self.obs_length.placeholder = text
+
+    def compare_settings(self):
+        """The label mapping and observation length typed here (ValueError/UnitError naming the field)."""
+        from lowgmap.app.dashboard.state import CompareSettings
+        from lowgmap.app.files.units import to_si
+
+        pairs = []
+        for n, line in enumerate((self.label_map.value or "").splitlines(), start=1):
+            if not line.strip():
+                continue
+            if "=" not in line:
+                raise ValueError(f"Label mapping, line {n} of the box: write label = chart regime, got {line.strip()!r}")
+            k, v = (x.strip() for x in line.split("=", 1))
+            if not k or not v:
+                raise ValueError(f"Label mapping, line {n} of the box: both the label and the regime are needed, "
+                                 f"got {line.strip()!r}")
+            regimes = list(self.session.chart.regime_names)
+            if v not in regimes:
+                raise ValueError(f"Label mapping: {v!r} is not a regime of this chart; its regimes: {'; '.join(regimes)}")
+            pairs.append((k, v))
+        length = None
+        text = (self.obs_length.value or "").strip()
+        if text:
+            length = to_si(text, "length", "Observation length")
+            if not (length > 0 and math.isfinite(length)):
+                raise ValueError(f"Observation length: must be a positive length, got {text!r}")
+        return CompareSettings(regime_map=tuple(pairs), observation_length=length)
+
+    def _apply_compare(self, event=None):
+        try:
+            settings = self.compare_settings()
+        except (ValueError, UnitError) as exc:
+            self.compare_message.object = html.escape(f"{exc}. Not applied.")
+            self.compare_message.visible = True
+            return
+        self.compare_message.visible = False
+        if self.points is not None:
+            self.working.show("Comparing the test points with the chart…")
+        self.session.set_compare(settings, on_done=lambda ok, msgs: self._compared_again())
+
+    def _compared_again(self):
+        self.working.show("")
+        self._redraw()
+
+    def _compare_applied(self):
+        """The settings in effect are shown in the fields (unless the person is editing them)."""
+        c = self.session.compare
+        text = "\n".join(f"{k} = {v}" for k, v in c.regime_map)
+        if (self.label_map.value or "").strip() != text.strip() and not self.compare_message.visible:
+            self.label_map.value = text
 
     # ------------------------------------------------------------------------------- upload
     def _on_refused(self, name: str, size: int) -> None:
@@ -338,7 +624,7 @@ class TestPointsPanel(pn.viewable.Viewer):
         if error is not None:
             self.points = None
             self.session.set_test_points(None)
-            self.chart_pane._held(self.chart_pane.show_test_points, None, [], {})
+            self.chart_pane._held(self.chart_pane.show_test_points, None)
             self.summary.object = ""
             self.working.show("")
             if isinstance(error, TestPointError):
@@ -359,8 +645,14 @@ class TestPointsPanel(pn.viewable.Viewer):
         self.mapping_box.visible = False
         self.points = tps
         self.working.show(f"Comparing {len(tps.points):,} test points with the chart…")
+        try:
+            settings = self.compare_settings()
+        except (ValueError, UnitError) as exc:
+            self.compare_message.object = html.escape(f"{exc}. The points are compared without it.")
+            self.compare_message.visible = True
+            settings = None
         # compared on the session's chart (the study's agreement), on a worker thread, in edit order
-        self.session.set_test_points(tps, on_done=lambda ok, msgs: self._compared(token, tps))
+        self.session.set_test_points(tps, on_done=lambda ok, msgs: self._compared(token, tps), compare=settings)
 
     def _compared(self, token: int, tps) -> None:
         if token != self._token:
@@ -387,7 +679,7 @@ class TestPointsPanel(pn.viewable.Viewer):
             text = ""
         lines = text.splitlines()[:8]
         self.preview.object = ("<p><b>" + html.escape(self._name) + "</b> (first lines, the file is not changed)"
-                               "</p><pre style='font-size:11px;max-height:140px;overflow:auto'>"
+                               "</p><pre style='font-size:11px;max-height:140px;overflow-y:auto;white-space:pre-wrap;overflow-wrap:anywhere'>"
                                + html.escape("\n".join(lines)) + "</pre>") if lines else ""
 
     def _offer_mapping(self):
@@ -422,39 +714,44 @@ class TestPointsPanel(pn.viewable.Viewer):
         self.load(mapping=mapping)
 
     def _redraw(self):
-        from lowgmap.app.outputs.chartview import regime_style
+        from lowgmap.app.formatting import format_share
+        from lowgmap.app.outputs.report import suggest_regime
 
         tps = self.points
         study = self.session.study
         if tps is None or study is None or study.agreement is None:
             return
-        chart = study.chart
         pts = tps.points
         res = study.agreement  # lowgmap.physics.studies.agreement.agreement, as in `lowgmap compare`
-        predicted = [p.predicted for p in res.points]
-        styles = {name: regime_style(i)[0] for i, name in enumerate(chart.regime_names)}
-        self.chart_pane._held(self.chart_pane.show_test_points, pts, predicted, styles)
+        self.chart_pane._held(self.chart_pane.show_test_points, pts, res)
         ca, cv = res.confusion_all, res.confusion_valid
-        n_valid = sum(p.valid for p in res.points)
-
-        def pct(f):
-            return "—" if f is None else f"{100 * f:.0f} %"
-
         invalid = [p for p in res.points if not p.valid]
         reasons = "".join(f"<li>{html.escape(p.test_id)}: {html.escape('; '.join(p.reasons))}</li>"
                           for p in invalid[:8])
         more = f"<li>… and {len(invalid) - 8} more</li>" if len(invalid) > 8 else ""
         matrix = html.escape(ca.format()) if ca.compared else ""
+        unknown = ""
+        if res.unknown_labels:
+            items = []
+            for label, n in res.unknown_labels:
+                fix = suggest_regime(label, res.regimes)
+                how = (f"map it with “{label} = {fix}”" if fix else "no chart regime matches its words; map it by hand")
+                items.append(f"<li>{html.escape(label)} ({n}): {html.escape(how)}</li>")
+            unknown = ("<br><b>Labels that are not chart regimes (not compared, not counted as disagreeing):</b>"
+                       f"<ul>{''.join(items)}</ul>")
+        rows_out = len(getattr(tps, "rejected_rows", ()) or ())
         self.summary.object = (
             f"<div class='agreement' data-agree='{ca.agreeing}' data-total='{ca.compared}' "
-            f"data-valid='{n_valid}'>"
-            f"<b>Agreement:</b> {ca.agreeing} of {ca.compared} labelled points ({pct(ca.fraction)}) fall in the "
-            f"regime they were observed in; valid points only: {cv.agreeing} of {cv.compared} "
-            f"({pct(cv.fraction)}). {len(pts)} points drawn; disagreements outlined in red."
-            + (f"<br>Labels not on this chart (left out until mapped): "
-               f"{html.escape(', '.join(f'{u[0]} ({u[1]})' for u in res.unknown_labels))}"
-               if res.unknown_labels else "")
-            + (f"<br><b>{len(invalid)} point(s) cannot support a low-gravity conclusion:</b><ul>{reasons}{more}</ul>"
+            f"data-valid='{res.n_valid}'>"
+            f"<p class='agreement-validity'>Validity: {res.n_valid} of {res.n_points} valid "
+            f"(observation length {res.observation_length:.4g} m).</p>"
+            f"<p class='agreement-words'><b>Agreement with the chart:</b> {format_share(res.fraction_valid)} of "
+            f"{cv.compared} valid point(s) ({cv.agreeing} agree); {format_share(res.fraction_all)} of {ca.compared} "
+            f"point(s) in all ({ca.agreeing} agree).</p>"
+            f"<p>{len(pts)} points drawn; disagreements outlined in red."
+            + (f" {rows_out} row(s) of the file set aside (see the problems below)." if rows_out else "") + "</p>"
+            + unknown
+            + (f"<b>{len(invalid)} point(s) cannot support a low-gravity conclusion:</b><ul>{reasons}{more}</ul>"
                if invalid else "")
             + (f"<details><summary>confusion matrix (rows observed, columns chart)</summary>"
                f"<pre style='font-size:11px'>{matrix}</pre></details>" if matrix else "")
@@ -543,8 +840,12 @@ class TestPointsPanel(pn.viewable.Viewer):
         self._calibration = None
 
     def __panel__(self):
-        return pn.Column(pn.pane.Markdown("#### Test points (CSV or Excel)"), self.upload, self.limits, self.working,
-                         self.preview, self.mapping_box, self.summary, self.problems,
+        compare = pn.Card(self.label_map, self.obs_length, self.compare_button, self.compare_message,
+                          title="Label mapping and observation length", collapsed=False, sizing_mode="stretch_width",
+                          css_classes=["compare-card"])
+        return pn.Column(pn.pane.Markdown("#### Test points (CSV or Excel)", margin=(0, 10)), self.upload,
+                         self.limits, self.working, self.preview, self.mapping_box, self.summary, self.problems,
+                         compare,
                          pn.pane.Markdown("**Calibrate boundary constants to these points**"), self.fit_choice,
                          self.fit_all, self.fit_button, self.fit_working, self.fit_result, self.apply_button,
                          sizing_mode="stretch_width")
@@ -625,8 +926,11 @@ class ExportPanel(pn.viewable.Viewer):
     def _report(self):
         from lowgmap.app.outputs.exports import report_html
 
-        study, kw = self.session.study, self._export_args()
-        return io.BytesIO(report_html(study, **kw).encode("utf-8"))
+        s = self.session
+        study, kw = s.study, self._export_args()
+        tps = self.tp.points if self.tp is not None else None
+        page = report_html(study, document=s.doc, point_file=tps if study.agreement is not None else None, **kw)
+        return io.BytesIO(page.encode("utf-8"))
 
     def _case(self):
         return io.BytesIO(self.session.case_text().encode("utf-8"))

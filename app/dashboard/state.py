@@ -28,6 +28,27 @@ and touches nothing shared; its result is applied back on the session's own thre
 arrive while a batch is being worked on wait on the queue and form the next batch; the views skip
 fields with a queued edit (:attr:`Session.pending_keys`) when they show the state, so a value typed
 during a rebuild stays on screen until it is applied.
+
+Live previews (a slider being dragged)
+--------------------------------------
+While a slider moves, :meth:`Session.preview` asks for the chart of the case with the slider's value,
+outside the queue and without changing the case in effect. Previews are coalesced: one job at a time
+per session, and while it runs only the latest value waits (older ones are dropped, never queued).
+Each preview is published as :attr:`Session.live` (a :class:`Preview`: the case, its chart, the regime
+of the operating point and, in a second, cheaper-to-skip step, its margins, which are left out while a
+newer value waits). On release the value becomes an ordinary edit, exactly as if it had been typed
+(:meth:`Session.end_preview`, then :meth:`Session.edit`); previews still running are dropped, and
+:attr:`Session.live` is cleared once the edit is applied. A chart built by a preview for exactly the
+released case is reused by the edit (same case, same build, same numbers).
+
+Full solves and bands
+---------------------
+:attr:`Session.exact` builds every chart with the full solves (``Chart.build(case, exact=True)``).
+The worst-case margin of the operating point over the constants' bands (:attr:`Study.worst_case`) and,
+when :attr:`Session.show_bands` is on, the band of every line (:attr:`Study.bands`) are computed on a
+worker thread after each new study (one such job at a time; a result for a study that is no longer
+shown is dropped and the latest study is done next): :attr:`Session.worst_case`,
+:attr:`Session.bands` and their states ("computing", "ready", "none", "failed").
 """
 from __future__ import annotations
 
@@ -48,7 +69,7 @@ from lowgmap.physics.studies.study import Study, run_study
 from lowgmap.app.files.casefile import CaseDocument, CaseFileError, dumps_case, loads_case
 from lowgmap.app.files.units import UnitError, convert, parse_flow
 
-__all__ = ["Session", "Edit", "GROUPS", "group_of", "build_chart", "live_sessions"]
+__all__ = ["Session", "Edit", "Preview", "CompareSettings", "GROUPS", "group_of", "build_chart", "live_sessions"]
 
 _LOG = logging.getLogger("lowgmap.dashboard")
 
@@ -57,7 +78,7 @@ GROUPS = (
     ("fluid", "Fluid and temperature", ("fluid",)),
     ("section", "Cross-section and length", ("section", "conduit.length")),
     ("wetting", "Wetting", ("wetting",)),
-    ("gravity", "Residual acceleration", ("conduit.residual_acceleration",)),
+    ("gravity", "Gravity level and orientation", ("conduit.residual_acceleration", "conduit.orientation")),
     ("models", "Boundary models and constants", ("models", "custom_boundaries")),
     ("chart", "Chart ranges, axes and units", ("chart",)),
     ("point", "Operating point", ("operating_point",)),
@@ -84,9 +105,73 @@ def group_of(path: str) -> str:
     return best
 
 
-def build_chart(case) -> Chart:
-    """Build the chart of ``case`` (the one expensive step of a case edit; runs on a worker thread)."""
-    return Chart.build(case)
+def build_chart(case, exact: bool = False) -> Chart:
+    """Build the chart of ``case`` (the one expensive step of a case edit; runs on a worker thread);
+    ``exact``: with the full solves instead of the surrogates."""
+    return Chart.build(case, exact=exact) if exact else Chart.build(case)
+
+
+def _build(case, exact: bool) -> Chart:
+    # called as build_chart(case) unless exact, so a replacement taking one argument still works
+    return build_chart(case, exact=True) if exact else build_chart(case)
+
+
+@dataclass(frozen=True)
+class Preview:
+    """The chart of a value being dragged on a slider (not the case in effect; see :meth:`Session.preview`).
+
+    Attributes
+    ----------
+    key, label : str     the field being dragged and its label
+    text : str           the value previewed, as written in the field ("6.35 deg")
+    seq : int            order of the request (a later request has a larger number)
+    changes : dict       {case-file key path: text} previewed
+    doc : CaseDocument or None   the case with that value (None when it is not a valid case)
+    chart : Chart or None        its chart
+    regime : str or None         regime of the operating point on that chart
+    margins : PointMargins or None   margins of the operating point (None until computed: they follow
+                                 the chart at a lower rate and are skipped while a newer value waits)
+    display : object             what the view asked to have prepared off the event loop (its drawing data)
+    problem : str                why there is no chart for this value ('' when there is one)
+    released : bool              the slider was released: the value is being applied as an edit
+    """
+
+    key: str
+    label: str
+    text: str
+    seq: int
+    changes: Any = None
+    doc: Any = None
+    chart: Any = None
+    regime: str | None = None
+    margins: Any = None
+    display: Any = None
+    problem: str = ""
+    released: bool = False
+
+
+@dataclass(frozen=True)
+class CompareSettings:
+    """How test points are compared with the chart, as for ``lowgmap compare`` (``--map``, ``--length``).
+
+    Attributes
+    ----------
+    regime_map : tuple of (str, str)   (label in the file, chart regime name) pairs
+    observation_length : float or None   distance from the inlet to where the regime was observed [m];
+                                       None: the conduit length (the default of the agreement module)
+    """
+
+    regime_map: tuple = ()
+    observation_length: float | None = None
+
+    def criteria(self):
+        """The validity criteria (:class:`lowgmap.physics.studies.agreement.ValidityCriteria`)."""
+        from lowgmap.physics.studies.agreement import ValidityCriteria
+
+        return ValidityCriteria(observation_length=self.observation_length)
+
+    def mapping(self) -> dict | None:
+        return dict(self.regime_map) or None
 
 
 @dataclass(frozen=True)
@@ -141,6 +226,9 @@ class _Snapshot:
     test_points: Any
     source_name: str
     base_dir: Any
+    compare: "CompareSettings"
+    exact: bool = False
+    spare_charts: tuple = ()
 
 
 @dataclass
@@ -154,6 +242,8 @@ class _Outcome:
     test_points: Any
     source_name: str
     case_changed: bool
+    compare: "CompareSettings" = None
+    exact: bool = False
     accepted: list = field(default_factory=list)      # [Edit]
     refused: list = field(default_factory=list)       # [(Edit, [message])]
     notes: list = field(default_factory=list)         # [(Edit, message)]
@@ -182,10 +272,21 @@ class Session(param.Parameterized):
     required_margin = param.Number(default=0.2, bounds=(0, 0.99), doc="required symmetric margin (fraction), "
                                    "the case's chart.required_margin")
     show_uncertainty = param.Boolean(default=False)
+    compare = param.ClassSelector(class_=CompareSettings, default=CompareSettings(),
+                                  doc="label mapping and observation length of the test-point comparison")
     revision_counter = param.Integer(default=0, doc="increments on every successful case rebuild")
     applied_counter = param.Integer(default=0, doc="increments after every batch of edits is applied")
     busy = param.Boolean(default=False, doc="a batch of edits is being worked on")
     activity = param.String(default="", doc="what the session is working on, in words ('' when idle)")
+    exact = param.Boolean(default=False, doc="charts built with the full solves (Chart.build(..., exact=True))")
+    live = param.Parameter(default=None, doc="Preview of a slider value being dragged, or None")
+    show_bands = param.Boolean(default=False, doc="compute and draw the band of every line")
+    bands = param.Parameter(default=None, doc="bands of the study's lines (Study.bands) once computed, or None")
+    bands_state = param.Selector(default="off", objects=["off", "computing", "ready", "none", "failed"])
+    worst_case = param.Parameter(default=None, doc="the study's worst case (Study.worst_case) once computed")
+    worst_case_state = param.Selector(default="off", objects=["off", "computing", "ready", "none", "failed"],
+                                      doc="off until a view asks for it (want_worst_case)")
+    extras_problem = param.String(default="", doc="why the bands or the worst case could not be computed")
 
     def __init__(self, doc: CaseDocument, runner=None, **params):
         super().__init__(**params)
@@ -198,6 +299,14 @@ class Session(param.Parameterized):
         self._queue: dict[str, Edit] = {}
         self._in_flight: dict[str, Edit] = {}
         self._closed = False
+        self._preview_seq = 0           # number of the latest preview asked for
+        self._preview_dropped = 0       # previews up to this number are stale (released)
+        self._preview_want = None       # the latest value waiting for the preview job
+        self._preview_busy = False
+        self._previewing = False        # a slider is being dragged
+        self._extras_busy = False
+        self._want_worst = False
+        self.param.watch(lambda *_: self._bands_switched(), ["show_bands"])
         study = run_study(doc.case)
         point = study.point
         if point is None:
@@ -264,8 +373,10 @@ class Session(param.Parameterized):
         batch = list(self._queue.values())
         self._in_flight = dict(self._queue)
         self._queue = {}
+        live = self.live
+        spare = (live.chart,) if live is not None and live.chart is not None else ()
         snap = _Snapshot(self.data, self.doc, self.study, (self.ql, self.qg), self.test_points,
-                         self.source_name, self.base_dir)
+                         self.source_name, self.base_dir, self.compare, self.exact, spare)
         self.activity = _activity_words(batch)
         self.busy = True
         self.runner.submit(lambda: _work_off(snap, batch), self._finished)
@@ -301,6 +412,8 @@ class Session(param.Parameterized):
                 self.field_problems = fp
                 self.notices = notices
                 self.source_name = outcome.source_name
+                self.compare = outcome.compare
+                self.exact = outcome.exact
                 self._publish(data=outcome.data, doc=outcome.doc, study=outcome.study, point=outcome.point,
                               test_points=outcome.test_points, new_case=outcome.case_changed)
                 if any(e.kind == "load" for e in outcome.accepted):
@@ -309,6 +422,9 @@ class Session(param.Parameterized):
                     if e.kind == "load":
                         self.problems = {"case": msgs}
                 self.applied_counter += 1
+        live = self.live
+        if live is not None and not self._previewing and live.key in {e.key for e in batch}:
+            self.live = None            # the released value is in effect (or refused): the preview is over
         for e, ok, msgs in done:
             if e.on_done is not None:
                 try:
@@ -320,9 +436,18 @@ class Session(param.Parameterized):
         else:
             self.busy = False
             self.activity = ""
+        self._extras_kick()
 
     def _publish(self, *, data, doc, study, point, test_points, new_case: bool) -> None:
+        old = self.study
         with param.parameterized.batch_call_watchers(self):
+            if study is not old:
+                # results for the study shown before are stale: the bands stay while the chart is the same
+                if old is None or study.chart is not old.chart:
+                    self.bands = None
+                    self.bands_state = "computing" if self.show_bands else "off"
+                self.worst_case = None
+                self.worst_case_state = "computing" if self._want_worst else "off"
             self.data = data
             self.doc = doc
             self.study = study
@@ -340,6 +465,10 @@ class Session(param.Parameterized):
         self._closed = True
         self._queue.clear()
         self._in_flight.clear()
+        self._preview_want = None
+        self.live = None
+        self.bands = None
+        self.worst_case = None
         self.runner.close()
         self.runner = None
         self.study = None
@@ -351,6 +480,129 @@ class Session(param.Parameterized):
     @property
     def closed(self) -> bool:
         return self._closed
+
+    # ------------------------------------------------------------------------------- live previews
+    def preview(self, changes: dict[str, object], *, key: str, label: str = "", text: str = "",
+                display: Callable | None = None) -> None:
+        """Show the chart of the case with ``changes`` while a slider is dragged (the case stays as it is).
+
+        Coalesced: at most one preview job runs; a request made meanwhile replaces any older waiting
+        one, so the latest value is always drawn next and stale ones are dropped. The result is
+        published as :attr:`live`; its margins follow in a second job, skipped while a newer value
+        waits. ``display(doc, chart)``, when given, is run on the worker too and its result kept as
+        ``Preview.display`` (e.g. a view's drawing data). ``text``: the value as written in the field.
+        """
+        if self._closed:
+            return
+        self._preview_seq += 1
+        self._previewing = True
+        self._preview_want = Preview(key=key, label=label or key, text=text, seq=self._preview_seq,
+                                     changes=dict(changes), display=display)
+        self._preview_kick()
+
+    def end_preview(self) -> None:
+        """The slider was released: drop previews still to come (the value is applied as an edit next)."""
+        self._preview_dropped = self._preview_seq
+        self._preview_want = None
+        self._previewing = False
+        if self.live is not None and not self.live.released:
+            self.live = dataclasses.replace(self.live, released=True)
+
+    def cancel_preview(self) -> None:
+        """Drop the preview altogether (e.g. the slider is back at the value in effect)."""
+        self.end_preview()
+        self.live = None
+
+    def _preview_kick(self) -> None:
+        if self._closed or self._preview_busy:
+            return
+        want = self._preview_want
+        if want is not None:
+            self._preview_want = None
+            self._preview_busy = True
+            args = (self.data, self.source_name, self.base_dir, (self.ql, self.qg), self.exact)
+            self.runner.submit(lambda: _preview_work(want, *args),
+                               lambda result, error: self._preview_done(want, "chart", result, error))
+            return
+        live = self.live
+        if (live is not None and live.chart is not None and live.margins is None and not live.released
+                and live.seq > self._preview_dropped and self.ql is not None and live.chart.regime_names):
+            self._preview_busy = True
+            point = (self.ql, self.qg)
+            self.runner.submit(lambda: _preview_margins(live.chart, point),
+                               lambda result, error: self._preview_done(live, "margins", result, error))
+
+    def _preview_done(self, req: "Preview", stage: str, result, error) -> None:
+        self._preview_busy = False
+        if self._closed or self.runner is None:
+            return
+        if req.seq > self._preview_dropped:            # not released since it was asked for
+            if stage == "chart":
+                if error is not None:
+                    old = self.live
+                    self.live = dataclasses.replace(req, doc=None, display=old.display if old else None,
+                                                    chart=None, problem=_preview_problem(req, error))
+                else:
+                    self.live = result
+            elif error is None and self.live is not None and self.live.seq == req.seq:
+                self.live = dataclasses.replace(self.live, margins=result)
+        self._preview_kick()
+
+    # ------------------------------------------------------------------------------- full solves, bands
+    def set_exact(self, on: bool, on_done=None) -> None:
+        """Build the charts with the full solves (True) or the surrogates (False); rebuilds the chart."""
+        self.submit(Edit(key="exact", kind="exact", label="Full solves", changes={"exact": bool(on)},
+                         on_done=on_done))
+
+    def want_worst_case(self) -> None:
+        """A view shows the worst-case margin: compute it (in the background) for every study from now on."""
+        if self._want_worst:
+            return
+        self._want_worst = True
+        if self.worst_case_state == "off":
+            self.worst_case_state = "computing"
+        self._extras_kick()
+
+    def _bands_switched(self) -> None:
+        if self.show_bands and self.bands_state == "off":
+            self.bands_state = "computing"
+        elif not self.show_bands and self.bands_state == "computing":
+            self.bands_state = "off"
+        self._extras_kick()
+
+    def _extras_kick(self) -> None:
+        """Start the next background job for the study shown: its bands (when asked for), then its worst case."""
+        if self._closed or self._extras_busy or self.study is None or self.runner is None:
+            return
+        study = self.study
+        if self.bands_state == "computing":
+            what = "bands"
+        elif self.worst_case_state == "computing":
+            what = "worst_case"
+        else:
+            return
+        self._extras_busy = True
+        self.runner.submit(lambda: getattr(study, what),
+                           lambda result, error: self._extras_done(study, what, result, error))
+
+    def _extras_done(self, study, what: str, result, error) -> None:
+        self._extras_busy = False
+        if self._closed:
+            return
+        current = self.study is study or (what == "bands" and self.study is not None
+                                          and self.study.chart is study.chart)
+        if current:                                    # a result for a study no longer shown is dropped
+            state = "failed" if error is not None else ("none" if result is None else "ready")
+            if error is not None:
+                _LOG.warning("dashboard %s failed", what, exc_info=(type(error), error, error.__traceback__))
+                self.extras_problem = f"The {what.replace('_', ' ')} could not be computed: {error}"
+            with param.parameterized.batch_call_watchers(self):
+                if what == "bands":
+                    if self.show_bands:
+                        self.bands, self.bands_state = result, state
+                else:
+                    self.worst_case, self.worst_case_state = result, state
+        self._extras_kick()
 
     # ------------------------------------------------------------------------------- edits
     def edit(self, changes: dict[str, object], *, key: str | None = None, label: str = "",
@@ -385,9 +637,18 @@ class Session(param.Parameterized):
                          path="chart.required_margin",
                          changes={"chart.required_margin": f"{100.0 * float(fraction):.6g} %"}))
 
-    def set_test_points(self, points, on_done=None) -> None:
-        """Compare ``points`` (a TestPointSet, or None to drop them) with the chart; kept across case edits."""
-        self.submit(Edit(key="points", kind="points", points=points, label="Test points", on_done=on_done))
+    def set_test_points(self, points, on_done=None, *, compare: CompareSettings | None = None) -> None:
+        """Compare ``points`` (a TestPointSet, or None to drop them) with the chart; kept across case edits.
+
+        ``compare``: label mapping and observation length (default: the ones in effect).
+        """
+        self.submit(Edit(key="points", kind="points", points=points, label="Test points", on_done=on_done,
+                         changes={"compare": compare or self.compare}))
+
+    def set_compare(self, compare: CompareSettings, on_done=None) -> None:
+        """Compare the test points with this label mapping and observation length (kept across case edits)."""
+        self.submit(Edit(key="compare", kind="compare", label="Test-point comparison", on_done=on_done,
+                         changes={"compare": compare}))
 
     # ------------------------------------------------------------------------------ the point
     def move_point(self, ql: float, qg: float, *, write_back: bool = True) -> None:
@@ -411,17 +672,28 @@ class Session(param.Parameterized):
                 raise UnitError(f"{name} must be > 0, got {v:g} m^3/s")
         return ql, qg
 
-    def request_robust_point(self, regime: str, on_done=None) -> None:
-        """Queue a move of the point to the most robust point of ``regime`` (computed on a worker)."""
-        self.submit(Edit(key="robust", kind="robust", regime=regime, label="Robust point", on_done=on_done))
+    def request_robust_point(self, regime: str, on_done=None, *, ql_range=None, qg_range=None) -> None:
+        """Queue a move of the point to the most robust point of ``regime`` (computed on a worker).
 
-    def robust_point(self, regime: str):
+        ``ql_range``, ``qg_range``: flows searched, each (low, high) [m^3/s]; default (None): a decade
+        either side of the operating point (:func:`lowgmap.physics.chart.margins.robust_point`).
+        """
+        self.submit(Edit(key="robust", kind="robust", regime=regime, label="Robust point", on_done=on_done,
+                         changes={"ql_range": ql_range, "qg_range": qg_range}))
+
+    def robust_point(self, regime: str, *, ql_range=None, qg_range=None):
         """Move the point to the most robust point of ``regime`` at once; returns the RobustPoint."""
         from lowgmap.physics.chart.margins import robust_point
 
-        rp = robust_point(self.chart, regime)
+        rp = robust_point(self.chart, regime, ql_range, qg_range, around=(self.ql, self.qg))
         self.move_point(rp.ql, rp.qg)
         return rp
+
+    def robust_default_ranges(self) -> tuple[tuple[float, float], tuple[float, float]] | None:
+        """The default search ranges of the robust point: a decade either side of the operating point [m^3/s]."""
+        if self.ql is None:
+            return None
+        return (self.ql / 10.0, self.ql * 10.0), (self.qg / 10.0, self.qg * 10.0)
 
     def update_margins(self) -> None:
         """Publish the margins of the study (kept for callers of the former interface)."""
@@ -444,8 +716,40 @@ class Session(param.Parameterized):
 
 
 # ===================================================================================== the work
+def _preview_work(req: Preview, data, source, base_dir, point, exact: bool) -> Preview:
+    """The chart of the case with a slider's value (worker thread; touches nothing shared)."""
+    trial = copy.deepcopy(data)
+    for path, value in req.changes.items():
+        _set_path(trial, path, value)
+    new = loads_case(dumps_case(trial), source=source, base_dir=base_dir)
+    chart = Chart.build(new.case, exact=exact)
+    regime = None
+    if point[0] is not None and chart.regime_names:
+        regime = str(chart.regime_at(*point))
+    display = req.display(new, chart) if req.display is not None else None
+    return dataclasses.replace(req, doc=new, chart=chart, regime=regime, display=display)
+
+
+def _preview_margins(chart, point):
+    from lowgmap.physics.chart.margins import point_margins
+
+    return point_margins(chart, *point)
+
+
+def _preview_problem(req: Preview, error) -> str:
+    if isinstance(error, CaseFileError):
+        return "; ".join(f"{req.label}: {p.message}" for p in error.problems) or str(error)
+    if isinstance(error, _BUILD_ERRORS):
+        return f"{req.label}: the chart cannot be built with this value: {error}"
+    _LOG.error("dashboard preview failed", exc_info=(type(error), error, error.__traceback__))
+    return f"{req.label}: no preview ({type(error).__name__}: {error})"
+
+
 def _activity_words(batch: list[Edit]) -> str:
     kinds = {e.kind for e in batch}
+    if "exact" in kinds and len(kinds) == 1:
+        return "Rebuilding the chart with the full solves…" if any(e.changes["exact"] for e in batch) \
+            else "Rebuilding the chart with the surrogates…"
     if "load" in kinds:
         return "Opening the case file and building its chart…"
     if "case" in kinds:
@@ -453,7 +757,7 @@ def _activity_words(batch: list[Edit]) -> str:
         return f"Applying {names} and rebuilding the chart…"
     if "robust" in kinds:
         return "Searching for the most robust point…"
-    if "points" in kinds:
+    if "points" in kinds or "compare" in kinds:
         return "Comparing the test points with the chart…"
     return "Computing the margins of the operating point…"
 
@@ -474,6 +778,25 @@ def _set_path(data, path: str, value) -> None:
 
 def _words(path: str) -> str:
     return path.replace("_", " ").replace(".", " ").strip().capitalize()
+
+
+def _concerns(p, edit: Edit) -> bool:
+    """Whether case-file problem ``p`` is about the field ``edit`` changed."""
+    return bool(edit.path) and (p.path == edit.path or p.path.startswith(edit.path + "[")
+                                or p.path.startswith(edit.path + ".") or edit.path.startswith(p.path + "."))
+
+
+def _own_problems(problems, edit: Edit) -> list:
+    """The problems to show for ``edit``: those about its own field when there are any.
+
+    A bad value in one field can make the reader stumble over another that depends on it (a
+    temperature out of range leaves '400 sccm' without the conditions to convert it); that second
+    problem is a consequence, not a fault of the other field, so it is not shown. When no problem is
+    about the edited field, every problem is shown (the edit did cause them).
+    """
+    problems = list(problems)
+    own = [p for p in problems if _concerns(p, edit)]
+    return own or problems
 
 
 def _problem_text(p, edit: Edit) -> str:
@@ -565,14 +888,19 @@ def _run(snap: _Snapshot, batch: list[Edit], strict: bool) -> _Outcome:
 
     data, doc, point = snap.data, snap.doc, snap.point
     points, source = snap.test_points, snap.source_name
+    compare = snap.compare or CompareSettings()
     chart = snap.study.chart
+    exact = snap.exact
     accepted, refused, notes = [], [], []
 
     def chart_of(d):
-        if chart.case is d.case or _same_case(chart.case, d.case):
+        if getattr(chart, "exact", False) == exact and (chart.case is d.case or _same_case(chart.case, d.case)):
             return chart
+        for spare in snap.spare_charts:   # a preview's chart of exactly this case (a released slider)
+            if getattr(spare, "exact", False) == exact and _same_case(spare.case, d.case):
+                return spare
         try:
-            return build_chart(d.case)
+            return _build(d.case, exact)
         except _BUILD_ERRORS as exc:
             if strict:
                 raise
@@ -589,7 +917,7 @@ def _run(snap: _Snapshot, batch: list[Edit], strict: bool) -> _Outcome:
                 else:
                     new = loads_case(e.text, source=e.name or "uploaded case", base_dir=snap.base_dir)
             except CaseFileError as exc:
-                msgs = ([_problem_text(p, e) for p in exc.problems] if e.kind == "case"
+                msgs = ([_problem_text(p, e) for p in _own_problems(exc.problems, e)] if e.kind == "case"
                         else [str(p) for p in exc.problems])   # an uploaded file: its own line numbers
                 refused.append((e, _refusal(e, msgs, data)))
                 continue
@@ -613,11 +941,20 @@ def _run(snap: _Snapshot, batch: list[Edit], strict: bool) -> _Outcome:
             accepted.append(e)
         elif e.kind == "points":
             points = e.points
+            compare = (e.changes or {}).get("compare") or compare
+            accepted.append(e)
+        elif e.kind == "compare":
+            compare = e.changes["compare"]
+            accepted.append(e)
+        elif e.kind == "exact":
+            exact = bool(e.changes["exact"])
             accepted.append(e)
         elif e.kind == "robust":
             chart = chart_of(doc)
+            ranges = e.changes or {}
             try:
-                rp = robust_point(chart, e.regime)
+                rp = robust_point(chart, e.regime, ranges.get("ql_range"), ranges.get("qg_range"),
+                                  around=tuple(point) if point is not None else None)
             except (ValueError, RuntimeError) as exc:
                 refused.append((e, [f"No robust point: {exc}"]))
                 continue
@@ -628,10 +965,13 @@ def _run(snap: _Snapshot, batch: list[Edit], strict: bool) -> _Outcome:
             accepted.append(e)
     chart = chart_of(doc)
     study = snap.study
-    if chart is not study.chart or points is not snap.test_points or not _same_case(study.case, doc.case):
-        study = run_study(doc.case, chart=chart, points=points)
+    if chart is not study.chart or not _same_case(study.case, doc.case):
+        study = run_study(doc.case, chart=chart, points=points, regime_map=compare.mapping(),
+                          criteria=compare.criteria())
+    elif points is not snap.test_points or compare != snap.compare:
+        study = study.with_test_points(points, regime_map=compare.mapping(), criteria=compare.criteria())
     if point is not None and study.point != tuple(point):
         study = study.with_point(*point)
     return _Outcome(data=data, doc=doc, study=study, point=point, test_points=points, source_name=source,
                     case_changed=chart is not snap.study.chart or doc is not snap.doc, accepted=accepted,
-                    refused=refused, notes=notes)
+                    refused=refused, notes=notes, compare=compare, exact=exact)

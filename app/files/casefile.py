@@ -43,10 +43,11 @@ from lowgmap.app.files.atomic import write_atomic
 from lowgmap.app.files.samples import sample_dir, sample_path
 from lowgmap.app.files.problems import CaseFileError, Problem, ProblemCollector, line_index, short_value
 from lowgmap.app.files.reading import MAX_CASE_BYTES, FileReadError, read_text_file
-from lowgmap.app.files.units import UnitError, check_unit, parse_flow, to_si
+from lowgmap.app.files.units import (UnitError, check_unit, gravity_names, parse_flow, parse_gravity,
+                                     parse_orientation, to_si)
 
 __all__ = ["SCHEMA_VERSION", "Problem", "CaseFileError", "CaseDocument", "ChartSettings", "Uncertainty",
-           "load_case", "loads_case", "build_case", "save_case", "dumps_case", "SAMPLE_DIR", "sample_case_path",
+           "load_case", "loads_case", "build_case", "save_case", "dumps_case", "with_conduit", "SAMPLE_DIR", "sample_case_path",
            "AXES_KINDS", "BOUNDS", "check_bounds", "COUNT_LIMITS", "TEXT_LIMITS", "MAX_CASE_BYTES"]
 
 #: Version of the case-file layout written by this release.
@@ -83,7 +84,7 @@ COUNT_LIMITS: dict[str, int] = {"section.vertices": 1000, "section.n_sides": 100
 MAX_POWER_LAW_EXPONENT = 10.0
 #: Longest texts of a case file [characters].
 TEXT_LIMITS: dict[str, int] = {"title": 200, "revision": 20, "author": 200, "description": 5000,
-                               "chart.intended_regime": 200, "name": 200}
+                               "chart.intended_regime": 200, "name": 200, "band_reason": 500}
 
 
 def check_bounds(kind: str, x: float | None, path: str) -> float | None:
@@ -326,9 +327,39 @@ def _build_wetting(col: ProblemCollector, data: dict):
     return col.run("wetting", lambda: Wetting(theta, adv, rec), t)
 
 
+def _build_gravity(col: ProblemCollector, conduit: dict):
+    """conduit.residual_acceleration: an acceleration with units or a named level
+    (:func:`lowgmap.app.files.units.parse_gravity`), within :data:`BOUNDS`."""
+    path = "conduit.residual_acceleration"
+    if "residual_acceleration" not in conduit:
+        names = ", ".join(repr(n) for n in gravity_names())
+        col.add(path, f"missing (an acceleration with units such as \"1e-6 g0\", or a named level: {names})")
+        return None
+    value = conduit["residual_acceleration"]
+    return col.run(path, lambda: check_bounds("acceleration", parse_gravity(value, path), path), value)
+
+
+def _build_orientation(col: ProblemCollector, conduit: dict):
+    """conduit.orientation (optional, default unspecified): words or an angle above the horizontal
+    (:func:`lowgmap.app.files.units.parse_orientation`)."""
+    from lowgmap.physics.case import Orientation
+
+    if not conduit or "orientation" not in conduit:
+        return Orientation.unspecified()
+    value = conduit["orientation"]
+    got = col.run("conduit.orientation", lambda: parse_orientation(value, "conduit.orientation"), value)
+    return got if got is not None else Orientation.unspecified()
+
+
 def _flow(col, value, path, fluid, gas):
     p = fluid.pressure if fluid is not None else None
     temp = fluid.temperature if fluid is not None else None
+    if fluid is None and any(pr.path == "fluid" or pr.path.startswith("fluid.") for pr in col.problems):
+        try:                            # a standard-unit gas flow needs the fluid's p and T: the fluid's own
+            return check_bounds("flow", parse_flow(value, path, pressure=p, temperature=temp, gas=gas), path)
+        except (InputError, ValueError, TypeError) as exc:  # problem is reported; say nothing more about that
+            if "needs the local pressure and temperature" in str(exc):
+                return None
     return col.run(path, lambda: check_bounds("flow", parse_flow(value, path, pressure=p, temperature=temp, gas=gas), path),
                    value)
 
@@ -459,21 +490,87 @@ def _parse_uncertainty(key: str, spec, path: str) -> Uncertainty:
     return Uncertainty(key, distribution, size, relative)
 
 
-def _build_models(col: ProblemCollector, data: dict) -> tuple[ModelChoice, ...]:
+#: Reason of a band a case file gives without ``band_reasons`` for its constant.
+DEFAULT_CASE_BAND_REASON = "given by the case file"
+
+
+@dataclass(frozen=True)
+class _BandEntry:
+    """A ``bands`` entry of a [[models]] table, read but not yet checked against the model."""
+
+    index: int
+    model: str
+    constant: str
+    low: float
+    high: float
+    reason: str
+
+
+def _build_bands(col: ProblemCollector, m: dict, path: str, name: str, index: int) -> list[_BandEntry]:
+    """``bands = { alpha_c = [0.30, 0.60] }`` and ``band_reasons = { alpha_c = "..." }`` of one [[models]]
+    entry: each band a [low, high] pair of plain numbers (or percentages) with low <= high; each reason
+    text for a constant that has a band. The constant names and allowed ranges are checked against
+    the model in :func:`_check_models`."""
+    bands = m.get("bands", {})
+    reasons = m.get("band_reasons", {})
+    if not isinstance(bands, dict):
+        col.add(f"{path}.bands", "must be a table of constant = [low, high], e.g. { alpha_c = [0.30, 0.60] }", bands)
+        return []
+    if not isinstance(reasons, dict):
+        col.add(f"{path}.band_reasons", "must be a table of constant = \"reason\" (text)", reasons)
+        reasons = {}
+    out = []
+    for key, pair in bands.items():
+        where = f"{path}.bands.{key}"
+        if not (isinstance(pair, list) and len(pair) == 2):
+            col.add(where, f"must be a range [low, high] of plain numbers, got {_short(pair)}", pair)
+            continue
+        lo, hi = (col.run(where, lambda v=v: _band_end(v, where), v) for v in pair)
+        if lo is None or hi is None:
+            continue
+        if lo > hi:
+            col.add(where, f"low must be <= high, got [{format_number(lo)}, {format_number(hi)}]", pair)
+            continue
+        reason = reasons.get(key, DEFAULT_CASE_BAND_REASON)
+        if not isinstance(reason, str) or not reason.strip() or len(reason) > TEXT_LIMITS["band_reason"]:
+            col.add(f"{path}.band_reasons.{key}", f"must be text of 1 to {TEXT_LIMITS['band_reason']} characters "
+                                                  f"saying why the band is what it is", reason)
+            continue
+        out.append(_BandEntry(index, name, str(key), float(lo), float(hi), reason.strip()))
+    for key in reasons:
+        if key not in bands:
+            col.add(f"{path}.band_reasons.{key}", f"gives a reason for {key!r}, which has no entry in bands "
+                                                  f"(bands = {{ {key} = [low, high] }})", reasons[key])
+    return out
+
+
+def _band_end(value, path: str) -> float:
+    """One end of a band: a plain number, or a percentage as text ("45 %")."""
+    try:
+        return to_si(value, "dimensionless", path)
+    except UnitError:
+        raise InputError(f"{path}: each end must be a plain number (or a percentage such as \"45 %\"), "
+                         f"got {_short(value)}") from None
+
+
+def _build_models(col: ProblemCollector, data: dict) -> tuple[tuple[ModelChoice, ...], list[_BandEntry]]:
+    """[[models]]: the model choices and the bands they give (:func:`_build_bands`)."""
     models = data.get("models", [])
+    band_entries: list[_BandEntry] = []
     if not isinstance(models, list):
         col.add("models", "must be an array of tables ([[models]])", models)
-        return ()
+        return (), band_entries
     if len(models) > COUNT_LIMITS["models"]:
         col.add("models", f"lists {len(models)} models; at most {COUNT_LIMITS['models']}")
-        return ()
+        return (), band_entries
     out = []
     for i, m in enumerate(models):
         path = f"models[{i}]"
         if not isinstance(m, dict) or not isinstance(m.get("name"), str) or len(m["name"]) > TEXT_LIMITS["name"]:
             col.add(f"{path}.name", "each [[models]] entry needs a name (a registered boundary model)", m)
             continue
-        col.unknown_keys(m, path, {"name", "constants"})
+        col.unknown_keys(m, path, {"name", "constants", "bands", "band_reasons"})
+        band_entries += _build_bands(col, m, path, m["name"], i)
         constants = m.get("constants") or {}
         if not isinstance(constants, dict):
             col.add(f"{path}.constants", "must be a table of constant = value", constants)
@@ -486,7 +583,7 @@ def _build_models(col: ProblemCollector, data: dict) -> tuple[ModelChoice, ...]:
             if v is not None:
                 consts[key] = v
         out.append(ModelChoice.of(m["name"], consts))
-    return tuple(out)
+    return tuple(out), band_entries
 
 
 def _build_custom_boundaries(col: ProblemCollector, data: dict) -> tuple:
@@ -595,14 +692,15 @@ def build_case(data: dict, *, text: str = "", base_dir: Path | None = None, sour
     section = _build_section(col, plain)
     wetting = _build_wetting(col, plain)
     conduit = _table(col, plain, "conduit")
-    col.unknown_keys(conduit, "conduit", {"length", "residual_acceleration"})
+    col.unknown_keys(conduit, "conduit", {"length", "residual_acceleration", "orientation"})
     length = _quantity(col, conduit, "conduit", "length", "length") if conduit else None
-    g = _quantity(col, conduit, "conduit", "residual_acceleration", "acceleration") if conduit else None
+    g = _build_gravity(col, conduit) if conduit else None
+    orientation = _build_orientation(col, conduit)
     flow_range, settings = _build_chart(col, plain, fluid)
     if "chart" not in plain:
         pass  # already reported as a missing table
     op, uncertainties = _build_operating_point(col, plain, fluid)
-    models = _build_models(col, plain)
+    models, bands = _build_models(col, plain)
     custom = _build_custom_boundaries(col, plain)
     tp = plain.get("test_points", {})
     files: list[Path] = []
@@ -620,15 +718,23 @@ def build_case(data: dict, *, text: str = "", base_dir: Path | None = None, sour
                     p = Path(f)
                     files.append(p if p.is_absolute() or base_dir is None else base_dir / p)
     case = None
+    if col.problems and bands:                         # the case will not be built: check the bands of the
+        _precheck_bands(col, plain, bands)              # registered models now, so every problem shows at once
     if not col.problems and None not in (fluid, section, wetting, length, g, flow_range):
         case = col.run("(case)", lambda: Case(
             fluid=fluid, section=section, wetting=wetting, length=length, g=g, flow_range=flow_range,
             operating_point=op, models=models, title=plain.get("title", "untitled case"),
             revision=plain.get("revision", "A"), author=plain.get("author", ""),
             extra=(("custom_boundaries", _freeze(list(custom))),),
-            intended_regime=settings.intended_regime or "" if settings is not None else ""))
+            intended_regime=settings.intended_regime or "" if settings is not None else "",
+            orientation=orientation))
     if case is not None and models:
-        _check_models(col, case, models)
+        _check_models(col, case, models, bands)
+        if bands and not col.problems:
+            from lowgmap.physics.models.boundary import with_case_bands
+
+            case = col.run("models", lambda: with_case_bands(
+                case, [(b.model, b.constant, b.low, b.high, b.reason) for b in bands]))
         replace = plain.get("models_replace_defaults", False)
         if not isinstance(replace, bool):
             col.add("models_replace_defaults", "must be true or false", replace)
@@ -665,10 +771,11 @@ def _merged_onto_defaults(case, models):
     return dataclasses.replace(case, models=tuple(models) + extra) if extra else case
 
 
-def _check_models(col: ProblemCollector, case, models) -> None:
+def _check_models(col: ProblemCollector, case, models, bands=()) -> None:
     """The [[models]] as the chart will use them: known names (the registry or the file's own
-    boundaries), each listed once, constants known and within their ranges, and a model that
-    applies to the section (or whose mechanism is only absent for this case, which the chart notes)."""
+    boundaries), each listed once, constants known and within their ranges, bands for known constants
+    within their allowed ranges, and a model that applies to the section (or whose mechanism is only
+    absent for this case, which the chart notes)."""
     from lowgmap.physics.models.boundary import resolve_model
 
     seen: dict[str, int] = {}
@@ -683,6 +790,8 @@ def _check_models(col: ProblemCollector, case, models) -> None:
             continue
         seen[choice.name] = i
         col.run(f"{path}.constants", lambda model=model, choice=choice: model.resolve_constants(choice.param_dict))
+        for b in (b for b in bands if b.index == i):
+            _check_band(col, model, b, f"{path}.bands.{b.constant}")
         reason = col.run(path, lambda model=model: model.applies_to(case))
         if reason is not None:
             inactive = getattr(model, "inactive_reason", None)
@@ -690,6 +799,35 @@ def _check_models(col: ProblemCollector, case, models) -> None:
             if not absent:
                 col.add(f"{path}.name", f"boundary model {choice.name} does not apply to this case: {reason}",
                         choice.name)
+
+
+def _precheck_bands(col: ProblemCollector, plain: dict, bands) -> None:
+    """Bands of registered models checked without a case (when other problems stop the case being built);
+    a model the file defines itself ([[custom_boundaries]]) or an unknown name is left to :func:`_check_models`."""
+    from lowgmap.physics.models.boundary import get_model
+
+    own = {str(b.get("name")) for b in plain.get("custom_boundaries", []) or [] if isinstance(b, dict)}
+    for b in bands:
+        if b.model in own:
+            continue
+        try:
+            model = get_model(b.model)
+        except ValueError:
+            continue
+        _check_band(col, model, b, f"models[{b.index}].bands.{b.constant}")
+
+
+def _check_band(col: ProblemCollector, model, band: _BandEntry, path: str) -> None:
+    """A case band against its model: a constant the model has, both ends within its allowed range."""
+    const = col.run(path, lambda: model.constant(band.constant), band.constant)
+    if const is None:
+        return
+    lo, hi = float(const.low), float(const.high)
+    if not (lo <= band.low and band.high <= hi):
+        unit = "" if const.unit in ("-", "") else f" {const.unit}"
+        col.add(path, f"band [{format_number(band.low)}, {format_number(band.high)}]{unit} must lie within the "
+                      f"allowed range of {band.constant}, [{format_number(lo)}, {format_number(hi)}]{unit}",
+                [band.low, band.high])
 
 
 def _short(value) -> str:
@@ -743,6 +881,47 @@ def load_case(path: str | os.PathLike) -> CaseDocument:
     doc = loads_case(text, source=str(p), base_dir=p.parent)
     doc.path = p
     return doc
+
+
+def with_conduit(doc: CaseDocument, *, residual_acceleration: str | None = None, orientation: str | None = None,
+                 source: str | None = None) -> CaseDocument:
+    """The case document with ``conduit.residual_acceleration`` and/or ``conduit.orientation`` replaced (as
+    text, e.g. ``"1 g0"``, ``"lunar surface"``, ``"vertical upward flow"``, ``"30 deg"``), loaded again.
+
+    The new values are written into a copy of the document, so everything that reads the document (the
+    inputs as written in a report, a saved revision) shows them, and the case is built from it as from
+    a file (a [[models]] list merged onto the defaults of the new orientation). ``doc`` is not changed.
+
+    Raises
+    ------
+    CaseFileError
+        The changed document does not load (its problems name the conduit keys).
+
+    Examples
+    --------
+    >>> doc = load_case(sample_case_path("condensate_line"))
+    >>> ground = with_conduit(doc, residual_acceleration="ground", orientation="vertical upward flow")
+    >>> ground.case.g, ground.case.orientation.describe(), doc.case.g_over_g0
+    (9.80665, 'vertical upward flow', 1e-06)
+    """
+    import tomlkit
+
+    data = tomlkit.parse(dumps_case(doc.data))
+    conduit = data.get("conduit")
+    if conduit is None:
+        data["conduit"] = tomlkit.table()
+        conduit = data["conduit"]
+    for key, value in (("residual_acceleration", residual_acceleration), ("orientation", orientation)):
+        if value is not None:
+            old = conduit.get(key)
+            item = tomlkit.item(str(value))
+            if old is not None and str(old) != str(value):   # the file's own comment described the old value
+                item.comment(f"replaced; the file gives {str(old)!r}")
+            conduit[key] = item
+    base = Path(doc.path).parent if doc.path is not None else None
+    new = build_case(data, text=dumps_case(data), base_dir=base, source=source or str(doc.path or "case"))
+    new.path = doc.path
+    return new
 
 
 def dumps_case(data) -> str:

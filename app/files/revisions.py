@@ -229,8 +229,26 @@ def relocate_test_points(data, old_path, new_path) -> None:
             files[i] = str(target)
 
 
+def _write_bands(entry, bands) -> None:
+    """Write calibrated bands into a [[models]] entry: ``bands = { c = [low, high] }`` (exact floats, so the
+    revision reads back the same interval) and ``band_reasons = { c = "..." }``; a constant's band
+    already in the entry is replaced."""
+    import tomlkit
+
+    if not bands:
+        return
+    for key in ("bands", "band_reasons"):
+        if entry.get(key) is None:
+            entry[key] = tomlkit.inline_table()
+    for _model, const, low, high, reason in bands:
+        entry["bands"][const] = [float(low), float(high)]
+        entry["band_reasons"][const] = str(reason)
+
+
 def calibrated_document(doc, cal, *, points_name: str = "", date=None):
-    """A copy of the case document with the fitted constants, the next revision and a [[history]] entry.
+    """A copy of the case document with the fitted constants, their calibrated bands (the 95 % intervals,
+    :meth:`~lowgmap.physics.studies.calibration.Calibration.band_entries`, written as the model's ``bands``
+    and ``band_reasons``), the next revision and a [[history]] entry.
 
     Parameters
     ----------
@@ -269,6 +287,7 @@ def calibrated_document(doc, cal, *, points_name: str = "", date=None):
         ints = "; ".join(f"{c.name} 95 % [{c.interval[0]:.4g}, {c.interval[1]:.4g}]" for c in cal.constants
                          if c.model == name)
         consts.comment(f"fitted in revision {new} to {cal.n_points} test points ({cal.interval_method}: {ints})")
+        _write_bands(entry, [b for b in cal.band_entries() if b[0] == name])
     note, vb, va = _record_verdicts(doc, cal.chart_before, cal.chart_after, str(doc.case.revision), new)
     if note:
         change += ". " + note

@@ -24,6 +24,8 @@ SWEEP file::
     [[variables]]
     name = "half_angle"           # a lowgmap.physics.studies.sweep.VARIABLES name, section.<field>,
     from = "4 deg"                # model.<name>.<constant> or constant.<constant>
+                                  # (residual_acceleration also takes named levels: values = ["ground",
+                                  #  "Martian surface", "lunar surface", "1e-6 g0"])
     to = "10 deg"
     steps = 7                     # or: values = ["4 deg", "6 deg"]; spacing = "log" for geometric steps
 
@@ -64,7 +66,7 @@ import numpy as np
 
 from lowgmap.app.files.problems import CaseFileError, Problem, ProblemCollector, line_index, short_value
 from lowgmap.app.files.reading import MAX_STUDY_BYTES, FileReadError, read_text_file
-from lowgmap.app.files.units import MAX_QUANTITY_CHARS, UnitError, convert, parse_flow, to_si, ureg
+from lowgmap.app.files.units import MAX_QUANTITY_CHARS, UnitError, convert, parse_flow, parse_gravity, to_si, ureg
 
 __all__ = ["SweepPlan", "read_sweep", "loads_sweep", "read_goal", "loads_goal", "fluid_spec", "variable_kind",
            "to_display", "unit_of_text", "DEFAULT_UNITS"]
@@ -129,6 +131,8 @@ def _si(value, kind: str, path: str, *, fluid=None):
         f = fluid
         v = parse_flow(value, path, gas=True, pressure=getattr(f, "pressure", None),
                        temperature=getattr(f, "temperature", None))
+    elif kind == "acceleration":                  # a value with units or a named level ("lunar surface")
+        v = parse_gravity(value, path)
     else:
         v = to_si(value, kind, path)
     return check_bounds(_BOUND_OF.get(kind, ""), v, path)

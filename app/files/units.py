@@ -31,6 +31,7 @@ from lowgmap.physics.validate import InputError
 __all__ = [
     "UnitError", "MAX_QUANTITY_CHARS", "ureg", "to_si", "parse_flow", "standard_to_actual_flow", "format_quantity",
     "STANDARD_TEMPERATURE", "STANDARD_PRESSURE", "KINDS", "STANDARD_FLOW_UNITS",
+    "parse_gravity", "gravity_names", "parse_orientation", "ORIENTATION_WORDS", "orientation_text",
 ]
 
 #: Standard reference temperature for sccm/slpm [K] (SEMI E12: 0 degC).
@@ -252,3 +253,110 @@ def check_unit(unit: str, kind: str, field: str = "unit") -> str:
     except UnitError as exc:
         raise UnitError(f"{field}: {unit!r} is not a {kind.replace('_', ' ')} unit ({exc})") from None
     return unit
+
+
+# --------------------------------------------------------------------------------------------- gravity
+def gravity_names() -> tuple[str, ...]:
+    """The named gravity levels a case file, a study file or ``--gravity`` accepts (from
+    :data:`lowgmap.physics.properties.gravity.GRAVITY_LEVELS`, where each has its source).
+
+    >>> gravity_names()
+    ('ground', 'lunar surface', 'Martian surface')
+    """
+    from lowgmap.physics.properties.gravity import GRAVITY_LEVELS
+
+    return tuple(lv.name for lv in GRAVITY_LEVELS.values())
+
+
+def parse_gravity(value, field: str = "residual_acceleration") -> float:
+    """Residual acceleration [m/s^2] from an acceleration with units or a named level.
+
+    A named level (case-insensitive; :func:`gravity_names`) gives the value of
+    :func:`lowgmap.physics.properties.gravity.gravity_level`; anything else is read by :func:`to_si`
+    as an acceleration. The error names the field, the value and both ways of writing it.
+
+    Examples
+    --------
+    >>> parse_gravity("lunar surface"), parse_gravity("1 g0"), parse_gravity("9.81 m/s^2")
+    (1.62, 9.80665, 9.81)
+    >>> parse_gravity("moon", "conduit.residual_acceleration")  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    lowgmap.app.files.units.UnitError: conduit.residual_acceleration: 'moon' is neither an acceleration ... \
+nor a named level ('ground', 'lunar surface', 'Martian surface')
+    """
+    from lowgmap.physics.properties.gravity import GRAVITY_LEVELS
+
+    if isinstance(value, str) and " ".join(value.split()).lower() in GRAVITY_LEVELS:
+        return GRAVITY_LEVELS[" ".join(value.split()).lower()].value
+    try:
+        return to_si(value, "acceleration", field)
+    except UnitError:
+        if isinstance(value, str) and not _NUMBER.match(value.strip()):
+            names = ", ".join(repr(n) for n in gravity_names())
+            raise UnitError(f"{field}: {value[:60]!r} is neither an acceleration with units (e.g. '1e-6 g0', "
+                            f"'1.62 m/s^2') nor a named level ({names})") from None
+        raise
+
+
+# --------------------------------------------------------------------------------------------- orientation
+#: Words for the orientation of the conduit axis to the residual acceleration -> Orientation kind.
+#: The short forms without "flow" are accepted too; an angle ("30 deg", above the horizontal,
+#: positive for upward flow) gives an inclination.
+ORIENTATION_WORDS = {
+    "unspecified": "unspecified",
+    "vertical upward flow": "vertical upward",
+    "vertical downward flow": "vertical downward",
+    "horizontal": "horizontal",
+}
+
+
+def parse_orientation(value, field: str = "orientation"):
+    """The :class:`lowgmap.physics.case.Orientation` of a text: one of :data:`ORIENTATION_WORDS`
+    (case-insensitive, "flow" optional) or an angle above the horizontal within [-90, 90] deg
+    (positive: upward flow; "90 deg" is vertical upward flow, "0 deg" horizontal).
+
+    Examples
+    --------
+    >>> parse_orientation("Vertical upward flow").describe()
+    'vertical upward flow'
+    >>> parse_orientation("30 deg").describe()
+    'inclined 30 deg above the horizontal (upward flow)'
+    >>> parse_orientation("120 deg", "conduit.orientation")  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    lowgmap.app.files.units.UnitError: conduit.orientation: an angle must be within [-90, 90] deg ... got '120 deg'
+    """
+    from lowgmap.physics.case import Orientation
+
+    choices = ", ".join(repr(w) for w in ORIENTATION_WORDS)
+    hint = f"one of {choices}, or an angle above the horizontal such as '30 deg' (positive for upward flow)"
+    if not isinstance(value, str) or not value.strip():
+        raise UnitError(f"{field}: must be {hint}, got {value!r}"[:400])
+    words = " ".join(value.split()).lower()
+    for text, kind in ORIENTATION_WORDS.items():
+        if words in (text, kind):
+            return {"unspecified": Orientation.unspecified, "vertical upward": Orientation.vertical_up,
+                    "vertical downward": Orientation.vertical_down, "horizontal": Orientation.horizontal}[kind]()
+    if not _NUMBER.match(value.strip()):
+        raise UnitError(f"{field}: must be {hint}, got {value[:60]!r}")
+    angle = to_si(value, "angle", field)
+    if not -math.pi / 2 - 1e-12 <= angle <= math.pi / 2 + 1e-12:
+        raise UnitError(f"{field}: an angle must be within [-90, 90] deg above the horizontal (positive for upward "
+                        f"flow), got {value[:60]!r}")
+    if abs(abs(angle) - math.pi / 2) <= 1e-12:
+        angle = math.copysign(math.pi / 2, angle)
+    return Orientation.inclined(angle)
+
+
+def orientation_text(orientation) -> str:
+    """The case-file text of an :class:`~lowgmap.physics.case.Orientation` (read back by :func:`parse_orientation`).
+
+    >>> from lowgmap.physics.case import Orientation
+    >>> orientation_text(Orientation.vertical_down()), orientation_text(Orientation.inclined(-0.5236))
+    ('vertical downward flow', '-30.0001 deg')
+    """
+    if orientation.kind == orientation.INCLINED:
+        return f"{math.degrees(orientation.angle_rad):.6g} deg"
+    for text, kind in ORIENTATION_WORDS.items():
+        if kind == orientation.kind:
+            return text
+    raise ValueError(f"unknown orientation kind {orientation.kind!r}")

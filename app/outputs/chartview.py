@@ -18,8 +18,11 @@ import numpy as np
 from lowgmap.app.files.units import convert
 from lowgmap.app.outputs import styles as _styles
 
-__all__ = ["REGIME_COLOURS", "REGIME_HATCHES", "LINE_COLOURS", "CurveView", "RegionView", "ChartView",
-           "chart_view", "regime_style", "line_label_positions"]
+__all__ = ["REGIME_COLOURS", "REGIME_HATCHES", "LINE_COLOURS", "CurveView", "RegionView", "BandView", "ChartView",
+           "chart_view", "band_views", "regime_style", "line_label_positions", "BAND_KEY_TEXT"]
+
+#: Key text of the band fills (one entry for every band: each is drawn in its line's colour).
+BAND_KEY_TEXT = "band: constants over their ranges"
 
 #: Colour-blind-safe qualitative palette (Okabe & Ito, "Color Universal Design", 2008), light to dark.
 REGIME_COLOURS = _styles.FILL_COLOURS
@@ -95,6 +98,23 @@ class RegionView:
 
 
 @dataclass(frozen=True)
+class BandView:
+    """The band of one boundary for drawing: the region its line sweeps as its constants move over
+    their bands (:class:`lowgmap.physics.chart.bands.Band`), in display coordinates.
+
+    ``polygons``: closed outlines (x, y) in display units, clipped to the chart's gas-flow range;
+    ``colour``: the line's own colour (fixed per boundary name); ``constants``: the constants varied.
+    """
+
+    name: str
+    label: str
+    role: str
+    colour: str
+    polygons: tuple
+    constants: tuple = ()
+
+
+@dataclass(frozen=True)
 class ChartView:
     x_label: str
     y_label: str
@@ -112,6 +132,8 @@ class ChartView:
     to_display: object = field(default=None, repr=False, compare=False)
     #: regime name -> (fill colour, hatch) of every regime of the chart (test-point fills use these)
     regime_styles: dict = field(default_factory=dict, repr=False, compare=False)
+    #: bands of the boundaries (empty: none drawn); from :func:`band_views`
+    bands: tuple = ()
 
 
 def _axis_converters(chart, kind: str, ql_unit: str, qg_unit: str):
@@ -131,8 +153,13 @@ def _axis_converters(chart, kind: str, ql_unit: str, qg_unit: str):
 
 
 def chart_view(chart, *, axes: str = "flow", log_axes: bool = True, ql_unit: str = "mL/min",
-               qg_unit: str = "mL/min", point: tuple[float, float] | None = None) -> ChartView:
-    """Display data for ``chart`` in axes ``axes`` (see :data:`lowgmap.physics.chart.composition.AXIS_KINDS`)."""
+               qg_unit: str = "mL/min", point: tuple[float, float] | None = None, bands=None) -> ChartView:
+    """Display data for ``chart`` in axes ``axes`` (see :data:`lowgmap.physics.chart.composition.AXIS_KINDS`).
+
+    ``bands``: the bands of the chart's lines to draw (:attr:`lowgmap.physics.studies.study.Study.bands`,
+    computed by the study, never here); None or empty: no bands. A band whose constants have no width
+    (the band is the line) is left out.
+    """
     to_disp, xl, yl, xu, yu = _axis_converters(chart, axes, ql_unit, qg_unit)
     fr = chart.case.flow_range
     corners_ql = np.array([fr.ql_min, fr.ql_max, fr.ql_min, fr.ql_max])
@@ -172,7 +199,34 @@ def chart_view(chart, *, axes: str = "flow", log_axes: bool = True, ql_unit: str
     return ChartView(xl, yl, xu, yu, log_axes, (float(np.min(cx)), float(np.max(cx))),
                      (float(np.min(cy)), float(np.max(cy))), tuple(regions), tuple(curves),
                      tuple(chart.warnings), tuple(chart.regime_names), pt, axes, to_disp,
-                     {k: tuple(v) for k, v in r_styles.items()})
+                     {k: tuple(v) for k, v in r_styles.items()}, band_views(chart, bands, to_disp))
+
+
+def band_views(chart, bands, to_display) -> tuple[BandView, ...]:
+    """:class:`BandView` of each band in ``bands`` (Band objects of ``chart``'s lines) with ``to_display``.
+
+    The outlines are the bands' own (:meth:`lowgmap.physics.chart.bands.Band.outline`, clipped to the
+    chart's gas-flow range); colours are the lines' (:func:`lowgmap.app.outputs.styles.boundary_styles`).
+    Bands of lines whose constants have no width are left out.
+    """
+    if not bands:
+        return ()
+    fr = chart.case.flow_range
+    b_styles = _styles.boundary_styles(b.name for b in chart.boundaries)
+    out = []
+    for band in bands:
+        if band.known_exactly:
+            continue
+        polys = []
+        for ql, qg in band.outline((fr.qg_min, fr.qg_max)):
+            x, y = to_display(ql, qg)
+            polys.append((np.asarray(x, float), np.asarray(y, float)))
+        if not polys:
+            continue
+        style = b_styles.get(band.name) or _styles.boundary_style(band.name)
+        out.append(BandView(band.name, band.label, band.role, style.colour, tuple(polys),
+                            tuple(c.name for c in band.constants)))
+    return tuple(out)
 
 
 def _label_point(ql, qg) -> tuple[float, float]:

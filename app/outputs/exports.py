@@ -18,7 +18,7 @@ from lowgmap.app.outputs.report import case_rows, format_flow, review_inputs
 from lowgmap.app.outputs.tables import MARGIN_CSS, margin_table_html
 
 __all__ = ["compose", "chart_bytes", "chart_figure", "write_chart", "report_html", "render_review_html",
-           "test_point_marks", "human_rows"]
+           "test_point_marks", "human_rows", "study_bands"]
 
 
 def compose(doc):
@@ -190,7 +190,7 @@ def human_rows(rows, case, *, document=None, flows=None) -> list[tuple[str, str]
 
 
 def chart_bytes(source, fmt: str, *, axes=None, log_axes=None, with_point=True, test_points=None,
-                settings=None, invented=None, document=None) -> bytes:
+                settings=None, invented=None, document=None, bands=None) -> bytes:
     """The annotated chart as PNG (300 dpi), SVG or PDF bytes (title block and caution included).
 
     Parameters
@@ -204,6 +204,12 @@ def chart_bytes(source, fmt: str, *, axes=None, log_axes=None, with_point=True, 
     settings, invented : optional    see :func:`lowgmap.app.outputs.report.review_inputs`
     document : CaseDocument, optional   the case file behind a study: the flows and fluids are shown
                                      as typed there (default: ``source`` when it is a document)
+    bands : bool, optional           draw each boundary's band (the region its line sweeps as its
+                                     constants move over their ranges, :attr:`Study.bands
+                                     <lowgmap.physics.studies.study.Study.bands>`); default (None): drawn
+                                     whenever some line of the chart has a banded constant. The bands of
+                                     the corner family take tens of seconds the first time (then cached
+                                     with the study's chart); ``bands=False`` skips them.
 
     Examples
     --------
@@ -216,7 +222,7 @@ def chart_bytes(source, fmt: str, *, axes=None, log_axes=None, with_point=True, 
     """
     study, st, inv = review_inputs(source, settings=settings, invented=invented, test_points=test_points)
     return _chart_bytes(study, st, inv, fmt, axes=axes, log_axes=log_axes, with_point=with_point,
-                        document=_document_of(source, document))
+                        document=_document_of(source, document), bands=bands)
 
 
 def _document_of(source, document):
@@ -226,21 +232,32 @@ def _document_of(source, document):
 
 
 def chart_figure(source, *, axes=None, log_axes=None, with_point=True, test_points=None, settings=None,
-                 invented=None, document=None):
+                 invented=None, document=None, bands=None):
     """The annotated chart as a matplotlib Figure (what :func:`chart_bytes` writes); arguments as there."""
     study, st, inv = review_inputs(source, settings=settings, invented=invented, test_points=test_points)
     return _chart_figure(study, st, inv, axes=axes, log_axes=log_axes, with_point=with_point,
-                         document=_document_of(source, document))
+                         document=_document_of(source, document), bands=bands)
 
 
-def _chart_figure(study, st, invented, *, axes=None, log_axes=None, with_point=True, document=None):
+def study_bands(study, bands=None):
+    """The bands an export of ``study`` draws: the study's own (:attr:`Study.bands
+    <lowgmap.physics.studies.study.Study.bands>`) unless ``bands`` is False; None when there are none.
+
+    ``bands`` None (the default of every export) draws them whenever some line has a banded constant.
+    """
+    if bands is False or (bands is None and not getattr(study, "has_bands", False)):
+        return None
+    return getattr(study, "bands", None)
+
+
+def _chart_figure(study, st, invented, *, axes=None, log_axes=None, with_point=True, document=None, bands=None):
     from lowgmap.app.outputs.render import chart_figure as _figure
 
     chart = study.chart
     show_point = study.point is not None and with_point
     view = chart_view(chart, axes=axes or st.axes, log_axes=st.log_axes if log_axes is None else log_axes,
                       ql_unit=st.liquid_flow_unit, qg_unit=st.gas_flow_unit,
-                      point=study.point if show_point else None)
+                      point=study.point if show_point else None, bands=study_bands(study, bands))
     rows = _chart_rows(study, st, invented, document)
     label, alert = _point_label(study, st, document) if show_point else (None, False)
     return _figure(view, title=study.case.title, title_block=rows, point_label=label, point_alert=alert,
@@ -248,21 +265,21 @@ def _chart_figure(study, st, invented, *, axes=None, log_axes=None, with_point=T
 
 
 def _chart_bytes(study, st, invented, fmt, *, axes=None, log_axes=None, with_point=True, document=None,
-                 dpi=None) -> bytes:
+                 dpi=None, bands=None) -> bytes:
     from lowgmap.app.outputs.render import EXPORT_DPI, FORMATS, figure_bytes
 
     if fmt not in FORMATS:
         raise ValueError(f"output format must be one of {', '.join(FORMATS)}, got {fmt!r}")
     fig = _chart_figure(study, st, invented, axes=axes, log_axes=log_axes, with_point=with_point,
-                        document=document)
+                        document=document, bands=bands)
     return figure_bytes(fig, fmt, dpi=dpi or EXPORT_DPI)
 
 
 def write_chart(source, path, *, settings=None, invented=None, test_points=None, **kwargs):
     """Write the chart to ``path`` (format from the suffix) atomically; returns (chart, margins).
 
-    ``source``, ``settings``, ``invented``, ``test_points`` and the other keywords (``document``
-    included) as for :func:`chart_bytes`.
+    ``source``, ``settings``, ``invented``, ``test_points`` and the other keywords (``document`` and
+    ``bands`` included) as for :func:`chart_bytes`.
     """
     p = Path(path)
     fmt = p.suffix.lstrip(".").lower()

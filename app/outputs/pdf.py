@@ -312,11 +312,14 @@ def _blocks(pack) -> list:
             b.append(_p(f"{k}: {v}", 7.5, indent=0.15, space_after=0.015))
     if not pack.models:
         b.append(_p("No boundary model applies to this case."))
-    b.append(_h3("Constants: value used, default, allowed range and source"))
+    b.append(_h3("Constants: value used, default, allowed range, uncertainty band and source"))
     if pack.constants:
-        b.append(_Table(["model", "constant", "used", "default", "unit", "allowed range", "source of the default",
-                         "meaning"], [(list(r), None) for r in pack.constants],
-                        _cols([1.55, 1.75, 0.6, 0.75, 0.5, 0.95, 2.2, 1.7]), size=6.5))
+        b.append(_p("Band: the range over which the constant is uncertain (the chart draws each line's band, the "
+                    "region the line sweeps as its constants move over their bands; the worst-case margin takes the "
+                    "constants anywhere in them).", 7.5, _GREY))
+        b.append(_Table(["model", "constant", "used", "default", "unit", "allowed range", "band", "why this band",
+                         "source of the default", "meaning"], [(list(r), None) for r in pack.constants],
+                        _cols([1.3, 1.1, 0.6, 0.72, 0.55, 0.85, 0.85, 1.8, 1.5, 1.25]), size=6.3))
     else:
         b.append(_p("No adjustable constants."))
     b.append(_h3("Validity ranges of the sources"))

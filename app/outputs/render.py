@@ -3,7 +3,9 @@
 The figure shows the regime regions (faint colour plus hatching), every boundary in its own colour
 and dash pattern (fixed per boundary model, :mod:`lowgmap.app.outputs.styles`; lines that define the
 regions thick, comparison lines thin, the parts outside a source's validity range dotted and faint),
-the regime names inside their regions, a short label on each line, test points (a marker per
+the band of each boundary (the region its line sweeps as its constants move over their ranges: a
+translucent fill in the line's own colour under the line, one key entry), the regime names inside
+their regions, a short label on each line, test points (a marker per
 platform class, a fill per observed regime, a ring where the chart disagrees, arrows at the edge
 for points beyond the chart range, with their count written on the chart), the operating point
 with its callout, a key with all of these, the chart's warnings and a title block with the case
@@ -40,10 +42,10 @@ from matplotlib.patches import FancyArrowPatch, Patch  # noqa: E402
 from lowgmap.app import CAUTION, __version__  # noqa: E402
 from lowgmap.app.files.atomic import write_atomic  # noqa: E402
 from lowgmap.app.outputs import styles  # noqa: E402
-from lowgmap.app.outputs.chartview import ChartView  # noqa: E402
+from lowgmap.app.outputs.chartview import BAND_KEY_TEXT, ChartView  # noqa: E402
 
 __all__ = ["render_chart", "chart_figure", "figure_bytes", "typeset", "place_labels", "add_footer",
-           "LabelRequest", "Candidate", "FORMATS", "EXPORT_DPI", "RC"]
+           "LabelRequest", "Candidate", "FORMATS", "EXPORT_DPI", "RC", "BAND_ALPHA", "BAND_ALPHA_COMPARISON"]
 
 FORMATS = ("png", "svg", "pdf")
 
@@ -73,6 +75,11 @@ _AX_TOP = 0.8          # top of the chart axes, from the top of the page
 _KEY_L = 8.05
 _KEY_W = _W - _KEY_L - 0.15
 _DARK = "#222222"
+
+#: Opacity of a band's fill for a region boundary (its outline is drawn stronger, in the same colour); the
+#: bands of comparison lines are fainter (:data:`BAND_ALPHA_COMPARISON`) and outlined dashed.
+BAND_ALPHA = 0.12
+BAND_ALPHA_COMPARISON = 0.05
 _CAUTION_COLOUR = "#8B0000"
 
 # =============================================================================================
@@ -278,7 +285,7 @@ def place_labels(requests, obstacles=(), *, search: int = 8) -> dict:
 def render_chart(view: ChartView, target=None, *, fmt: str | None = None, title: str = "",
                  title_block: list[tuple[str, str]] | None = None, point_label: str | None = None,
                  extra_points: list[dict] | None = None, dpi: int = EXPORT_DPI, point_alert: bool = False,
-                 notes: list[str] | None = None):
+                 notes: list[str] | None = None, bands: bool = True):
     """Draw ``view`` and write it to ``target`` (path or binary file); return bytes when target is None.
 
     Parameters
@@ -293,6 +300,8 @@ def render_chart(view: ChartView, target=None, *, fmt: str | None = None, title:
     dpi : int               PNG resolution (default :data:`EXPORT_DPI`)
     point_alert : bool      draw the callout in red (a verdict that fails)
     notes : list of str     extra lines under the chart
+    bands : bool            draw the bands the view carries (``view.bands``; a view built without
+                            bands has none to draw)
     """
     if fmt is None:
         if target is None or not hasattr(target, "__fspath__") and not isinstance(target, str):
@@ -301,7 +310,7 @@ def render_chart(view: ChartView, target=None, *, fmt: str | None = None, title:
     if fmt not in FORMATS:
         raise ValueError(f"output format must be one of {', '.join(FORMATS)}, got {fmt!r}")
     fig = chart_figure(view, title=title, title_block=title_block, point_label=point_label,
-                       extra_points=extra_points, point_alert=point_alert, notes=notes)
+                       extra_points=extra_points, point_alert=point_alert, notes=notes, bands=bands)
     data = figure_bytes(fig, fmt, dpi=dpi)
     if target is None:
         return data
@@ -357,7 +366,7 @@ def _pt(fig, points: float) -> float:
 
 
 def chart_figure(view: ChartView, *, title: str = "", title_block=None, point_label: str | None = None,
-                 extra_points=None, point_alert: bool = False, notes=None) -> Figure:
+                 extra_points=None, point_alert: bool = False, notes=None, bands: bool = True) -> Figure:
     """The annotated chart as a matplotlib Figure (headless, not attached to pyplot).
 
     ``extra_points`` are marks, each a dict: ``x``, ``y`` (display units); ``marker`` (matplotlib
@@ -367,18 +376,23 @@ def chart_figure(view: ChartView, *, title: str = "", title_block=None, point_la
     conclusion); other marks carry ``key`` (their key text) and ``kind`` (a plural noun for the
     count of marks beyond the chart, e.g. ``"envelope corners"``).
 
+    ``bands``: draw the boundaries' bands carried by ``view`` (``view.bands``, see
+    :func:`lowgmap.app.outputs.chartview.chart_view`): a translucent fill in the line's colour under
+    the line, and one key entry (:data:`lowgmap.app.outputs.chartview.BAND_KEY_TEXT`).
+
     Artists carry ids (``gid``) for tests and SVG readers: ``operating-point``,
-    ``boundary:<name>``, ``label:region:<name>``, ``label:line:<name>``, ``label:callout``,
+    ``boundary:<name>``, ``band:<name>``, ``label:region:<name>``, ``label:line:<name>``, ``label:callout``,
     ``label:count:<edge>``, ``key``.
     """
     with matplotlib.rc_context(RC):
         return _ChartFigure(view, title, list(title_block or []), point_label, list(extra_points or []),
-                            point_alert, list(notes or [])).build()
+                            point_alert, list(notes or []), bool(bands)).build()
 
 
 class _ChartFigure:
-    def __init__(self, view, title, rows, point_label, marks, point_alert, notes):
+    def __init__(self, view, title, rows, point_label, marks, point_alert, notes, bands=True):
         self.view, self.title, self.rows = view, title, rows
+        self.bands = tuple(view.bands) if bands else ()
         self.point_label, self.marks, self.point_alert, self.notes = point_label, marks, point_alert, notes
         self.fig = Figure(figsize=(_W, _H_MIN), dpi=_LAYOUT_DPI)
         FigureCanvasAgg(self.fig)
@@ -432,6 +446,7 @@ class _ChartFigure:
         ax.set_ylim(*v.y_range)
         self.w_px, self.h_px = ax.bbox.width, ax.bbox.height
         self._draw_regions()
+        self._draw_bands()
         self._draw_curves()
         self._draw_marks()
         self._draw_point()
@@ -449,6 +464,19 @@ class _ChartFigure:
             if r.hatch:
                 self.ax.fill(r.x, r.y, facecolor="none", edgecolor=r.colour, hatch=r.hatch, linewidth=0,
                              alpha=0.75, zorder=1)
+
+    def _draw_bands(self):
+        """Each band as a translucent fill in its line's colour, under the lines (over the regions)."""
+        for b in self.bands:
+            main = b.role == "regions"
+            for x, y in b.polygons:
+                (poly,) = self.ax.fill(x, y, facecolor=b.colour, alpha=BAND_ALPHA if main else BAND_ALPHA_COMPARISON,
+                                       edgecolor="none", zorder=2)
+                poly.set_gid(f"band:{b.name}")
+                (edge,) = self.ax.fill(x, y, facecolor="none", edgecolor=b.colour, alpha=0.85 if main else 0.6,
+                                       linewidth=0.8 if main else 0.6, linestyle="solid" if main else (0, (4, 3)),
+                                       zorder=2)
+                edge.set_gid(f"band-edge:{b.name}")
 
     def _draw_curves(self):
         self.line_geoms = []   # (name, shapely geometry in axes pixels, pieces)
@@ -854,6 +882,13 @@ class _ChartFigure:
                    _wrap(typeset(c.label), 50)) for c in v.curves if c.role == role]
             if hs:
                 secs.append((head, hs, 3.4))
+        if self.bands:
+            hs = [(Patch(facecolor=(0.47, 0.47, 0.47, BAND_ALPHA + 0.1), edgecolor="#777777", linewidth=0.7),
+                   _wrap(BAND_KEY_TEXT, 50))]
+            if any(b.role != "regions" for b in self.bands):
+                hs.append((Patch(facecolor=(0.47, 0.47, 0.47, BAND_ALPHA_COMPARISON + 0.05), edgecolor="#777777",
+                                 linewidth=0.6, linestyle=(0, (4, 3))), "fainter, dashed edge: band of a comparison line"))
+            secs.append(("Line bands (each in its line's colour)", hs, 2.4))
         if self.any_invalid:
             secs.append(("Line parts", [(Line2D([], [], color="#444444", linestyle=(0, styles.INVALID_DASH),
                                                 linewidth=2.0), "dotted, faint: outside the validity range\nof "

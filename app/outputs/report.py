@@ -24,10 +24,11 @@ from dataclasses import dataclass, field
 
 from lowgmap.app import CAUTION, __version__
 from lowgmap.app.files.units import convert
-from lowgmap.app.formatting import format_factor, format_percent, format_share
+from lowgmap.app.formatting import format_factor, format_percent, format_point_change, format_share
 
 __all__ = ["case_rows", "format_flow", "review_inputs", "document_study", "review_pack", "ReviewPack",
-           "VerdictLine", "AgreementSection", "report_verdict", "suggest_regime", "FAILING_WORDS"]
+           "VerdictLine", "AgreementSection", "report_verdict", "suggest_regime", "FAILING_WORDS",
+           "worst_case_margin_text", "worst_case_rows", "constant_band_rows"]
 
 
 def document_study(doc, *, test_points=None, chart=None):
@@ -124,6 +125,7 @@ def case_rows(source, chart=None, margins=None, *, settings=None, invented=None)
         ("section", f"{s.kind}: {dims}; length {c.length:.4g} m"),
         ("wetting", f"contact angle {_deg(c.wetting.contact_angle)}"),
         ("residual acceleration", f"{c.g:.3g} m/s^2 ({c.g_over_g0:.3g} g0)"),
+        ("orientation", c.orientation.describe()),
     ]
     if chart is not None:
         models = "; ".join(m.label for m, _ in list(chart.region_models) + list(chart.comparison_models))
@@ -246,6 +248,8 @@ class ReviewPack:
     assumptions: list
     history: list
     history_note: str
+    worst_case: str | None = None
+    worst_case_limiting: str | None = None
     settings: object = field(default=None, repr=False, compare=False)
     study: object = field(default=None, repr=False, compare=False)
 
@@ -257,7 +261,8 @@ class ReviewPack:
     def verdict_dict(self) -> dict:
         """The verdicts and the point's numbers as printed (for ``--json`` output and tests)."""
         return {"regime": self.regime, "symmetric_margin": self.symmetric_margin,
-                "limiting_boundary": self.limiting_boundary,
+                "limiting_boundary": self.limiting_boundary, "worst_case_margin": self.worst_case,
+                "worst_case_limiting_constant": self.worst_case_limiting,
                 "verdicts": {v.label: v.status for v in self.verdicts}, "headline": self.headline,
                 "agreement": None if self.agreement is None else dict(self.agreement.counts)}
 
@@ -279,6 +284,88 @@ def report_verdict(study, settings):
 def _margin_text(m: float, cap: bool) -> str:
     """The symmetric margin as every output prints it: '±31.6 %', 'at least ±99.9 %' at the cap."""
     return f"at least ±{format_percent(m)}" if cap else f"±{format_percent(m)}"
+
+
+# -- worst case over the constants' bands ------------------------------------------------------
+
+def worst_case_margin_text(wc) -> str:
+    """The worst-case margin as every output prints it: '±57.8 %'; a negative one with the regime the
+    constants can put the point in: '−26.5 %, in gas blow-through'.
+
+    ``wc`` is a :class:`~lowgmap.physics.chart.bands.WorstCaseMargins` (``Study.worst_case``).
+    """
+    if wc.worst_case >= 0:
+        return f"±{format_percent(wc.worst_case)}"
+    return f"{format_percent(wc.worst_case)}, in {wc.worst_regime}"
+
+
+def _line_label(chart, name, labels=None) -> str:
+    if labels and name in labels:
+        return str(labels[name])
+    if chart is not None:
+        for m, _ in list(chart.region_models) + list(chart.comparison_models):
+            if m.name == name:
+                return m.label
+    return str(name)
+
+
+def _limiting_constant_text(wc, chart, labels=None) -> str | None:
+    """'alpha_c of <line label> at 0.35 (band [0.35, 0.55])' for the limiting constant."""
+    if wc.limiting_constant is None or wc.limiting_boundary is None:
+        return None
+    c, line = wc.limiting_constant, wc.limiting_boundary
+    value = (wc.constants.get(line) or {}).get(c)
+    if value is None:                              # the constant is shared: its value sits under another line
+        value = next((v[c] for v in wc.constants.values() if c in v), None)
+    var = next((v for v in wc.variables if v.name == c and line in v.lines), None) or \
+        next((v for v in wc.variables if v.name == c), None)
+    text = f"{c} of {_line_label(chart, line, labels)}"
+    if value is not None:
+        text += f" at {_num_text(value)}" + (f" {var.unit}" if var is not None and var.unit not in ("", "-") else "")
+    if var is not None:                           # its reason: in the constants table
+        text += f" (band {_range_text(var.low, var.high)})"
+    return text
+
+
+def worst_case_rows(wc, chart=None, labels=None) -> list[tuple[str, str]]:
+    """Rows (quantity, value) of the worst-case margin, for the margin text, the PDF and the HTML pack.
+
+    ``wc``: :class:`~lowgmap.physics.chart.bands.WorstCaseMargins` (``Study.worst_case``) or None (no rows);
+    ``chart`` (or ``labels``, {line name: label}) gives the lines' labels.
+    Every number is written by :mod:`lowgmap.app.formatting`. The worst case takes the constants of the
+    lines that bound the point's regime anywhere in their bands; a negative margin means constants within
+    their bands put the point in another regime (named).
+    """
+    if wc is None:
+        return []
+    rows = [("worst-case margin", worst_case_margin_text(wc) + " (constants of the lines bounding the regime "
+                                                               "anywhere in their bands)")]
+    lim = _limiting_constant_text(wc, chart, labels)
+    if lim is None:
+        rows.append(("limiting constant", "none: no banded constant of a bounding line lowers the margin"))
+    else:
+        rows.append(("limiting constant", lim))
+        rows.append(("margin taken by the bands", f"{format_point_change(-wc.loss)} from the nominal "
+                                                  f"±{format_percent(wc.nominal)}"))
+    if not wc.established:
+        rows.append(("worst case established", "no: " + " ".join(wc.reasons)))
+    return rows
+
+
+def constant_band_rows(chart) -> dict:
+    """{(model, constant): (band text, reason)} of every constant of the chart's lines with a band."""
+    from lowgmap.physics.chart.bands import chart_constant_bands
+
+    try:
+        per_line = chart_constant_bands(chart)
+    except ValueError as exc:                     # a case band the models refuse: say so in every row
+        return {None: ("—", f"the case's bands could not be used: {exc}")}
+    out = {}
+    for line, bands in per_line.items():
+        for b in bands:
+            band = _range_text(b.low, b.high) if b.high > b.low else "none (exact)"
+            out[(line, b.name)] = (band, f"{b.reason} [{b.origin}]" if b.origin else str(b.reason))
+    return out
 
 
 def _norm_words(text: str) -> list[str]:
@@ -428,6 +515,7 @@ def _used(case, st, path: str) -> str:
         "wetting.contact_angle": _deg(case.wetting.contact_angle),
         "conduit.length": f"{case.length:.6g} m",
         "conduit.residual_acceleration": f"{case.g:.4g} m/s² ({case.g_over_g0:.3g} g0)",
+        "conduit.orientation": case.orientation.describe(),
         "chart.required_margin": f"±{format_percent(st.required_margin)}",
         "chart.liquid_flow": f"[{case.flow_range.ql_min:.4g}, {case.flow_range.ql_max:.4g}] m³/s",
         "chart.gas_flow": f"[{case.flow_range.qg_min:.4g}, {case.flow_range.qg_max:.4g}] m³/s",
@@ -521,6 +609,7 @@ def _range_text(low, high) -> str:
 
 def _model_rows(chart):
     models, constants, validity = [], [], []
+    bands = constant_band_rows(chart)
     pairs = [(m, c, "defines regions") for m, c in chart.region_models] + \
             [(m, c, "comparison") for m, c in chart.comparison_models]
     for m, consts, role in pairs:
@@ -533,8 +622,9 @@ def _model_rows(chart):
                        "changed": ", ".join(changed) or "none (all defaults)",
                        "citation": m.citation, "notes": str(getattr(m, "notes", "") or "")})
         for c in m.constants:
+            band, why = bands.get((m.name, c.name)) or bands.get(None) or ("none", "no uncertainty band")
             constants.append((m.name, c.name, _num_text(used.get(c.name, c.default)), _num_text(c.default),
-                              c.unit, _range_text(c.low, c.high), c.source, c.doc))
+                              c.unit, _range_text(c.low, c.high), band, why, c.source, c.doc))
         for v in getattr(m, "validity", ()):
             validity.append((m.name, v.describe(), v.source))
         note = getattr(m, "validity_note", "")
@@ -556,11 +646,7 @@ def _agreement_section(res, st, point_file=None) -> AgreementSection:
                f"the chart: {cv.agreeing} of {cv.compared} valid point(s) ({format_share(cv.fraction)}); "
                f"{ca.agreeing} of {ca.compared} point(s) in all ({format_share(ca.fraction)}). "
                f"{not_compared} point(s) not compared (observed label not a chart regime, or none).")
-    c = res.criteria
-    criteria = (f"A point is valid when the Bond number on L = {res.length_scale * 1e3:.4g} mm is below "
-                f"{c.bond_max:g} (Brauner 1990) and the low-g time is at least {c.safety_factor:g} × the time the "
-                f"flow needs (capillary settling × {c.capillary_multiple:g} + transit over "
-                f"{res.observation_length:.4g} m; factors: common practice, no source).")
+    criteria = res.validity_rule
     rows, set_aside = [], []
     if point_file is not None:
         for pr in getattr(point_file, "problems", ()):
@@ -637,7 +723,7 @@ def _history(doc) -> list[dict]:
 # -- the pack ---------------------------------------------------------------------------------
 
 def review_pack(source, *, settings=None, invented=None, test_points=None, document=None, point_file=None,
-                date=None) -> ReviewPack:
+                date=None, worst_case: bool = True) -> ReviewPack:
     """Collect the review pack of a study: verdicts, point, margins, inputs, models, agreement, history.
 
     Parameters
@@ -652,6 +738,9 @@ def review_pack(source, *, settings=None, invented=None, test_points=None, docum
     point_file : TestPointSet, optional   the test-point file read: its rows set aside by the reader are
                                      listed with the points set aside
     date : datetime.date or str, optional   the date printed (default today)
+    worst_case : bool   show the worst-case margin over the constants' bands (:attr:`Study.worst_case
+                        <lowgmap.physics.studies.study.Study.worst_case>`, tens of seconds for the corner
+                        family); the constants table lists each constant's band and its reason either way
 
     Returns
     -------
@@ -688,6 +777,7 @@ def review_pack(source, *, settings=None, invented=None, test_points=None, docum
         inputs_note = ("The case file was not available to this export: the inputs are shown as the calculation "
                        "used them.")
     models, constants, validity = _model_rows(chart)
+    wc = study.worst_case if worst_case else None
     scheme = chart.scheme
     scheme_text = (f"{scheme.name}: {getattr(scheme, 'description', '')}".rstrip(": ") if scheme is not None else "")
     assumptions = [f"{m['label']}: {m['notes']}" for m in models if m["notes"]]
@@ -713,7 +803,7 @@ def review_pack(source, *, settings=None, invented=None, test_points=None, docum
         invented=inv, description=str(doc.data.get("description", "")) if doc is not None else "",
         headline=headline, verdicts=verdicts, verdict_basis="" if verdict is None else verdict.basis,
         verdict_limits=[] if verdict is None else list(verdict.limits),
-        point_rows=_point_rows(study, st, verdict, doc),
+        point_rows=_point_rows(study, st, verdict, doc) + worst_case_rows(wc, chart),
         regime=None if pm is None else str(pm.regime),
         symmetric_margin=None if pm is None else _margin_text(pm.symmetric_margin, lim is None),
         limiting_boundary=None if pm is None else pm.limiting_boundary,
@@ -725,7 +815,9 @@ def review_pack(source, *, settings=None, invented=None, test_points=None, docum
         models=models, constants=constants, validity_ranges=validity, scheme=scheme_text,
         warnings=[str(w) for w in chart.warnings],
         agreement=None if study.agreement is None else _agreement_section(study.agreement, st, point_file),
-        assumptions=assumptions, history=hist, history_note=history_note, settings=st, study=study)
+        assumptions=assumptions, history=hist, history_note=history_note,
+        worst_case=None if wc is None else worst_case_margin_text(wc),
+        worst_case_limiting=None if wc is None else wc.limiting_constant, settings=st, study=study)
 
 
 def _same_case(a, b) -> bool:

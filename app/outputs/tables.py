@@ -9,9 +9,9 @@ from __future__ import annotations
 import html
 import math
 
-from lowgmap.app.formatting import format_factor
+from lowgmap.app.formatting import format_factor, format_percent
 
-__all__ = ["margin_table_html", "MARGIN_CSS"]
+__all__ = ["margin_table_html", "worst_case_html", "MARGIN_CSS"]
 
 #: Styles of the margin table (the dashboard's pane and the review report).
 MARGIN_CSS = """
@@ -22,6 +22,8 @@ MARGIN_CSS = """
 .margin-summary {font-size: 14px; margin-bottom: 6px; padding: 6px; border-radius: 4px; background: #eef6ee;}
 .margin-summary.below-required {background: #fde0dc; border: 2px solid #C00000;}
 .margin-note {font-size: 11px; color: #555;}
+.worst-case {font-size: 13px; margin-top: 6px; padding: 6px; border-radius: 4px; background: #f3f0fa;}
+.worst-case.leaves-regime {background: #fde0dc; border: 2px solid #C00000;}
 """
 
 
@@ -29,7 +31,7 @@ def _finite(f) -> bool:
     return f is not None and math.isfinite(f)
 
 
-def margin_table_html(margins, required: float) -> str:
+def margin_table_html(margins, required: float, worst_case=None) -> str:
     """The margin table as HTML: one row per boundary, the symmetric margin with its limiting line.
 
     Factors are Q_cross/Q along each axis (the other flow held); a row is highlighted when the
@@ -41,6 +43,10 @@ def margin_table_html(margins, required: float) -> str:
     ----------
     margins : PointMargins or None   :func:`lowgmap.physics.chart.margins.point_margins` of the point
     required : float                 required symmetric margin (fraction, 0.2 = ±20 %)
+    worst_case : WorstCaseMargins, optional   the point's worst case over the constants' bands
+                                     (``Study.worst_case``): written under the table, in the words of
+                                     :func:`lowgmap.app.outputs.report.worst_case_rows` (for the
+                                     dashboard's margin pane)
 
     Examples
     --------
@@ -61,10 +67,10 @@ def margin_table_html(margins, required: float) -> str:
             f"data-regime='{html.escape(margins.regime)}' data-ql='{margins.ql:.12g}' data-qg='{margins.qg:.12g}' "
             f"data-limiting='{html.escape(margins.limiting_boundary or '')}'>"
             f"Regime at the point: <b>{html.escape(margins.regime)}</b><br>"
-            f"Symmetric margin: <b class='sym-margin'>±{100 * m:.1f} %</b> "
+            f"Symmetric margin: <b class='sym-margin'>±{format_percent(m)}</b> "
             f"(limited by {html.escape(_label_of(margins, margins.limiting_boundary))}); "
-            f"required ±{100 * required:.0f} %"
-            + (" — <b>BELOW REQUIRED MARGIN</b>" if low else "") + "</div>")
+            f"required ±{format_percent(required)}"
+            + (" — required margin <b>NOT MET</b>" if low else "") + "</div>")
     rows = []
     for b in margins.boundaries:
         close = any(_finite(f) and ((1 <= f < 1 + required) or (1 - required < f < 1))
@@ -84,7 +90,23 @@ def margin_table_html(margins, required: float) -> str:
              + "".join(rows) + "</tbody></table>"
              "<p class='margin-note'>Factor = flow at the crossing / present flow, the other flow held "
              "(1.8 = may rise 80 %); — = no crossing inside the chart range.</p>")
-    return head + table
+    return head + table + worst_case_html(worst_case, {b.name: b.label for b in margins.boundaries})
+
+
+def worst_case_html(wc, labels=None) -> str:
+    """The worst case over the constants' bands as an HTML block (empty without one): the rows of
+    :func:`lowgmap.app.outputs.report.worst_case_rows`, every value escaped; the exact margin in ``data-``.
+    ``labels``: {line name: label} for the words (default: the names). The review pack shows these rows in
+    its point table instead."""
+    if wc is None:
+        return ""
+    from lowgmap.app.outputs.report import worst_case_rows
+
+    rows = "".join(f"<tr><th>{html.escape(k)}</th><td>{html.escape(v)}</td></tr>"
+                   for k, v in worst_case_rows(wc, labels=labels))
+    cls = "worst-case" + (" leaves-regime" if wc.leaves_regime else "")
+    return (f"<div class='{cls}' data-worst-margin='{wc.worst_case:.9g}' "
+            f"data-limiting-constant='{html.escape(wc.limiting_constant or '')}'><table>{rows}</table></div>")
 
 
 def _factor(f) -> str:

@@ -88,6 +88,7 @@ from lowgmap.physics.chart import lines as _lines
 from lowgmap.physics.chart import margins as _mg
 from lowgmap.physics.chart.sampling import mask_runs
 from lowgmap.physics.models.boundary import ConstantBand, case_bands
+from lowgmap.physics.surrogates import in_chart_solves
 
 __all__ = ["BAND_SAMPLES", "Band", "boundary_band", "chart_bands", "chart_constant_bands", "BandVariable",
            "band_variables", "variable_changes", "GroupWorstCase", "WorstCaseMargins", "worst_case_margins",
@@ -534,6 +535,7 @@ def _holder(chart) -> _ChartBands:
     return h
 
 
+@in_chart_solves
 def boundary_band(chart, name: str, *, n: int = BAND_SAMPLES, seed: int = 0) -> Band:
     """Band of the line ``name`` of ``chart``: the region it sweeps as its constants move over their bands.
 
@@ -580,6 +582,7 @@ def boundary_band(chart, name: str, *, n: int = BAND_SAMPLES, seed: int = 0) -> 
     return got
 
 
+@in_chart_solves
 def chart_bands(chart) -> tuple[Band, ...]:
     """Bands of every line of ``chart`` (region-defining first, as the margins order them); cached.
 
@@ -880,6 +883,7 @@ def _groups(chart, variables, bounding):
     return [(sorted(ks), vs) for ks, vs in out.values()]
 
 
+@in_chart_solves
 def worst_case_margins(chart, ql: float, qg: float, *, seed: int = 0) -> WorstCaseMargins:
     r"""Nominal and worst-case symmetric margins of the point (Q_L, Q_G) over the constants' bands.
 

@@ -66,6 +66,7 @@ margins use it too), each use with its own tolerance.
 """
 from __future__ import annotations
 
+import contextlib
 import math
 from dataclasses import dataclass
 from typing import Callable, Mapping
@@ -73,6 +74,7 @@ from typing import Callable, Mapping
 import numpy as np
 from scipy.optimize import brentq
 
+from lowgmap.physics import surrogates
 from lowgmap.physics.case import ModelChoice
 from lowgmap.physics.chart.lines import piece_function
 from lowgmap.physics.chart.sampling import mask_runs, sample_line
@@ -313,6 +315,8 @@ class Chart:
     comparison_models : tuple of (BoundaryModel, constants)
     scheme : RegimeScheme   how the region-defining lines make regimes (:data:`CHAIN` unless the
         chosen models belong to a :class:`PartitionScheme`)
+    exact : bool   built with the full solves instead of the surrogates (:mod:`lowgmap.physics.surrogates`);
+        later evaluations of its models (margins, classification) use the same (:meth:`solves`)
     """
 
     case: object
@@ -324,14 +328,21 @@ class Chart:
     region_models: tuple
     comparison_models: tuple
     scheme: RegimeScheme = None
+    exact: bool = False
 
     def __post_init__(self):
         if self.scheme is None:
             object.__setattr__(self, "scheme", CHAIN)
 
+    def solves(self):
+        """Context in which this chart's models are evaluated again (margins, classification): the full
+        solves when the chart was built with ``exact=True`` (:func:`lowgmap.physics.surrogates.exact`),
+        otherwise the caller's setting."""
+        return surrogates.exact() if self.exact else contextlib.nullcontext()
+
     # ----------------------------------------------------------------------------------------
     @classmethod
-    def build(cls, case, models=None) -> "Chart":
+    def build(cls, case, models=None, *, exact: bool = False) -> "Chart":
         """Compose the chart of ``case``.
 
         Parameters
@@ -345,6 +356,11 @@ class Chart:
             boundaries (:func:`lowgmap.physics.models.boundary.case_boundaries`), then in the registry. When a
             chosen model belongs to a :class:`PartitionScheme` (its ``scheme`` attribute), that
             scheme makes the regimes (see the module notes); otherwise the sequence rule does.
+        exact : bool, optional
+            True: use the full solves instead of the surrogates of
+            :mod:`lowgmap.physics.surrogates` (open-channel Stokes resistance over the half-angle,
+            critical-flow similarity curve), for this chart and every later evaluation of its models
+            (margins, classification). Also True inside ``with lowgmap.physics.surrogates.exact():``.
 
         Returns
         -------
@@ -371,6 +387,14 @@ class Chart:
         >>> str(chart.classify(1e-4, 1e-5))
         'dispersed bubbles'
         """
+        exact = bool(exact) or surrogates.exact_requested()
+        with surrogates.exact(exact):
+            chart = cls._build(case, models)
+        object.__setattr__(chart, "exact", exact)
+        return chart
+
+    @classmethod
+    def _build(cls, case, models) -> "Chart":
         fr = case.flow_range
         x0, x1 = math.log10(fr.ql_min), math.log10(fr.ql_max)
         ylo, yhi = math.log10(fr.qg_min), math.log10(fr.qg_max)
@@ -585,7 +609,8 @@ class Chart:
         "" (empty string). Points outside the chart range are classified too (the lines extend).
         """
         ql, qg = positive_flows(ql, qg)
-        return self.scheme.classify(self.case, self.region_models, self.regime_names, ql, qg)
+        with self.solves():
+            return self.scheme.classify(self.case, self.region_models, self.regime_names, ql, qg)
 
     def regime_at(self, ql: float, qg: float) -> str:
         """Regime name at one point (convenience wrapper of :meth:`classify`)."""
@@ -1005,7 +1030,7 @@ def _runs_to_flow(runs, box):
     return ql, qg
 
 
-def build_chart(case, models=None) -> Chart:
+def build_chart(case, models=None, *, exact: bool = False) -> Chart:
     """Compose the regime chart of ``case`` (the same as :meth:`Chart.build`).
 
     Parameters
@@ -1013,9 +1038,10 @@ def build_chart(case, models=None) -> Chart:
     case : Case
     models : sequence, optional   boundary models (see :meth:`Chart.build`); default: the case's or the
                                   section's default set
+    exact : bool, optional        full solves instead of the surrogates (see :meth:`Chart.build`)
 
     Returns
     -------
     Chart
     """
-    return Chart.build(case, models)
+    return Chart.build(case, models, exact=exact)

@@ -94,6 +94,7 @@ import numpy as np
 from lowgmap.physics.chart.lines import (LN10, MAX_MARGIN, MODEL_ERRORS, WINDOW_HI, WINDOW_LO,
                                          LineGeometry, bounding_lines, evaluation_gaps, geometry_of, is_chain,
                                          make_geometry, margin_window, regime_indices)
+from lowgmap.physics.surrogates import in_chart_solves
 from lowgmap.physics.validate import finite, positive
 
 __all__ = ["MAX_MARGIN", "DIRECTIONS", "BoundaryMargin", "PointMargins", "point_margins", "symmetric_margins",
@@ -744,6 +745,7 @@ def regime_index(chart, regime: str) -> int:
     raise ValueError(f"unknown regime {regime!r}; regimes on this chart: {known}")
 
 
+@in_chart_solves
 def point_margins(chart, ql: float, qg: float) -> PointMargins:
     r"""Margins of the operating point (Q_L, Q_G) to every boundary of ``chart``.
 
@@ -909,6 +911,7 @@ def _point_evidence(chart, holder_lines, g: LineGeometry, regime: str, r: int, x
     return determined, reasons, caveats
 
 
+@in_chart_solves
 def symmetric_margins(chart, ql, qg, *, regime=None):
     r"""Symmetric margins of many points at once (vectorised), with the limiting line of each.
 
@@ -1075,6 +1078,7 @@ def _check_range(name, rng) -> tuple[float, float]:
     return lo, hi
 
 
+@in_chart_solves
 def envelope_check(chart, ql_range, qg_range, reference=None) -> EnvelopeCheck:
     """Whether an operating envelope (a rectangle of flow rates) lies wholly inside one regime.
 
@@ -1250,6 +1254,7 @@ def _search_ranges(chart, ql_range, qg_range, around):
     return out[0], out[1], phrase
 
 
+@in_chart_solves
 def robust_point(chart, regime: str, ql_range=None, qg_range=None, *, around=None, grid: int = 25,
                  starts: int = 4) -> RobustPoint:
     r"""The point of ``regime`` with the largest symmetric margin, within stated flow ranges.

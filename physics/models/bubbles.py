@@ -40,7 +40,7 @@ __all__ = [
     "bubble_spacing", "merging_ratio", "merged_volume",
     "homogeneous_void_fraction", "mixture_density", "residence_time",
     "squeezed_fraction", "migration_capillary_number", "migration_speed",
-    "TaperPath", "taper_path", "migration_time",
+    "TaperPath", "taper_path", "migration_time", "stall_diameter",
 ]
 
 #: Bretherton (1961) film coefficient: h/R = 1.3375 Ca^(2/3) (= 0.643 * 3^(2/3)).
@@ -523,7 +523,7 @@ def squeezed_fraction(diameter, gap, confinement_ratio=1.0):
 
 def migration_capillary_number(taper, contact_angle=0.0, gap_over_radius=0.0, laplace_gap=0.0, *,
                                capillary_coefficient=2.0, hele_shaw_drag=12.0, film_drag=1.0, form_drag=1.0,
-                               squeezed=1.0):
+                               squeezed=1.0, buoyancy=0.0):
     r"""Capillary number Ca = mu U / sigma of a bubble squeezed in a tapering gap, from a force balance.
 
     Driving force (capillary pressure on the flattened part of the bubble, :func:`squeezed_fraction`)
@@ -548,6 +548,14 @@ def migration_capillary_number(taper, contact_angle=0.0, gap_over_radius=0.0, la
     (:math:`h/a_* = h/a` for a flattened bubble, V = pi a^2 h), which has one positive root (solved
     by Newton from an upper bound).
 
+    With a residual acceleration, buoyancy :math:`(\rho_L - \rho_G)\, a_m V` acts on the whole bubble
+    along the migration direction (:math:`a_m` the component toward the open side of the acceleration
+    buoyancy gives, see :func:`migration_time`) and adds to the right-hand side the Bond number of the gap
+
+    .. math:: Bo_m = \frac{(\rho_L - \rho_G)\, a_m h^2}{\sigma}
+
+    (``buoyancy``; negative where buoyancy opposes the push).
+
     Parameters
     ----------
     taper : float or array            dh/ds, growth of the local gap along the path [-]
@@ -560,11 +568,14 @@ def migration_capillary_number(taper, contact_angle=0.0, gap_over_radius=0.0, la
     form_drag : float                 C_D [-]
     squeezed : float or array         phi, share of the volume pressed flat [-] in [0, 1]
                                       (default 1: a fully flattened bubble; see :func:`squeezed_fraction`)
+    buoyancy : float or array         Bo_m = (rho_L - rho_G) a_m h^2 / sigma [-], buoyancy along the
+                                      migration direction (default 0: no buoyancy, the low-gravity balance)
 
     Returns
     -------
-    float or array   Ca [-]; 0 where the drive is not positive (taper <= 0, theta >= 90 deg, or a
-    bubble that fits the gap, phi = 0)
+    float or array   Ca [-]; 0 where the drive is not positive (taper <= 0, theta >= 90 deg, a bubble
+    that fits the gap, phi = 0, or buoyancy that opposes the push and is at least as strong: the bubble
+    does not move toward the open side)
 
     Notes
     -----
@@ -588,6 +599,8 @@ def migration_capillary_number(taper, contact_angle=0.0, gap_over_radius=0.0, la
     0.083333
     >>> round(migration_capillary_number(0.5, film_drag=0.0, form_drag=0.0, squeezed=0.5), 6)
     0.041667
+    >>> round(migration_capillary_number(0.5, film_drag=0.0, form_drag=0.0, buoyancy=-0.25), 6)   # (1 - 0.25)/12
+    0.0625
     """
     c_cap = in_range("capillary_coefficient", capillary_coefficient, 0.0, math.inf)
     c_hs = in_range("hele_shaw_drag", hele_shaw_drag, 0.0, math.inf)
@@ -595,33 +608,46 @@ def migration_capillary_number(taper, contact_angle=0.0, gap_over_radius=0.0, la
     c_d = in_range("form_drag", form_drag, 0.0, math.inf)
     if c_hs == 0 and c_f == 0 and c_d == 0:
         raise ValueError("at least one of hele_shaw_drag, film_drag, form_drag must be > 0")
-    taper, theta, hr, la, phi = np.broadcast_arrays(_arr(taper), _arr(contact_angle), _arr(gap_over_radius),
-                                                    _arr(laplace_gap), _arr(squeezed))
+    taper, theta, hr, la, phi, bo = np.broadcast_arrays(_arr(taper), _arr(contact_angle), _arr(gap_over_radius),
+                                                        _arr(laplace_gap), _arr(squeezed), _arr(buoyancy))
     with np.errstate(invalid="ignore"):
         phi = np.where(np.isfinite(phi), np.clip(phi, 0.0, 1.0), np.nan)
     drive = c_cap * np.cos(theta) * taper * phi
+    if np.any(bo != 0.0):
+        drive = drive + bo
     k6 = (c_d / math.pi) * hr * la
     k3 = c_hs + c_f * 4.0 * AQ_DENOMINATOR / AQ_COEFFICIENT * phi
     k1 = c_f * 4.0 / AQ_COEFFICIENT * phi
     pos = np.isfinite(drive) & (drive > 0)
-    d = np.where(pos, drive, 1.0)
+    shape = drive.shape
+    sel = np.flatnonzero(pos)                       # only points with a drive move: solve there
+    d = drive.ravel()[sel]
+    a6, a3, a1 = (np.broadcast_to(k, shape).ravel()[sel] for k in (k6, k3, k1))
     big = np.inf
     with np.errstate(all="ignore"):
         y = np.full(d.shape, big)
-        y = np.minimum(y, np.where(k6 > 0, (d / np.where(k6 > 0, k6, 1.0)) ** (1.0 / 6.0), big))
-        y = np.minimum(y, np.where(k3 > 0, np.cbrt(d / np.where(k3 > 0, k3, 1.0)), big))
-        y = np.minimum(y, np.where(k1 > 0, d / np.where(k1 > 0, k1, 1.0), big))
-    # Newton from above on a convex increasing function: monotone convergence
-    with np.errstate(all="ignore"):
+        y = np.minimum(y, np.where(a6 > 0, np.sqrt(np.cbrt(d / np.where(a6 > 0, a6, 1.0))), big))
+        y = np.minimum(y, np.where(a3 > 0, np.cbrt(d / np.where(a3 > 0, a3, 1.0)), big))
+        y = np.minimum(y, np.where(a1 > 0, d / np.where(a1 > 0, a1, 1.0), big))
+        # Newton from above on a convex increasing function: monotone convergence, y > 0 and P'(y) > 0
+        # all the way (an entry with no drag term at all keeps y = inf)
+        fin = np.isfinite(y)
+        if not fin.all():
+            keep, sel_y = y, np.flatnonzero(fin)
+            y, d, a6, a3, a1 = y[sel_y], d[sel_y], a6[sel_y], a3[sel_y], a1[sel_y]
         for _ in range(60):
-            fy = k6 * y**6 + k3 * y**3 + k1 * y - d
-            dfy = 6.0 * k6 * y**5 + 3.0 * k3 * y**2 + k1
-            step = np.where(np.isfinite(y) & (dfy > 0), fy / np.where(dfy > 0, dfy, 1.0), 0.0)
+            y2 = y * y
+            y3 = y2 * y
+            step = ((a6 * y3 + a3) * y3 + a1 * y - d) / ((6.0 * a6 * y3 + 3.0 * a3) * y2 + a1)
             y = y - step
-            if np.all(np.abs(step) <= 1e-14 * np.abs(y)):
+            if np.all(np.abs(step) <= 1e-14 * y):
                 break
-        out = np.where(pos, y**3, 0.0)
-    out = np.where(np.isfinite(drive), out, np.nan)
+        if not fin.all():
+            keep[sel_y] = y
+            y = keep
+        out = np.zeros(drive.size)
+        out[sel] = y * y * y
+    out = np.where(np.isfinite(drive), out.reshape(shape), np.nan)
     return _out(out)
 
 
@@ -886,7 +912,8 @@ _MIG_NODES = 401
 
 def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_ratio=1.0, rho, mu, sigma,
                    contact_angle=0.0, capillary_coefficient=2.0, hele_shaw_drag=12.0, film_drag=1.0,
-                   form_drag=1.0):
+                   form_drag=1.0, rho_gas=None, buoyancy_acceleration=0.0, axial_acceleration=0.0,
+                   with_drift=False):
     r"""Time a squeezed bubble takes to migrate from its injection point to the open side.
 
     .. math:: t_\mathrm{mig} = \int_{s_\mathrm{inj}}^{s_\mathrm{touch}} \frac{\mathrm{d}s}{U(s)},
@@ -894,8 +921,9 @@ def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_rati
               \phi(s)\right), \qquad \phi = 1 - \left(\frac{k_c h(s)}{d}\right)^3
 
     with Ca from :func:`migration_capillary_number`, phi from :func:`squeezed_fraction`, footprint
-    radius :math:`a = \max(d/2, \sqrt{V/(\pi h)})`, :math:`h/a_* = \pi a h^2/V` and
-    :math:`La_h = \rho\sigma h/\mu^2`.
+    radius :math:`a = \max(d/2, \sqrt{V/(\pi h)})`, :math:`h/a_* = \pi a h^2/V`,
+    :math:`La_h = \rho\sigma h/\mu^2` and, with a residual acceleration, the Bond number of the gap
+    :math:`Bo_m = (\rho_L - \rho_G)\, a_m h^2/\sigma` (buoyancy along the path).
 
     Parameters
     ----------
@@ -907,12 +935,26 @@ def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_rati
     contact_angle : float        theta [rad]
     capillary_coefficient, hele_shaw_drag, film_drag, form_drag : float   see
         :func:`migration_capillary_number`
+    rho_gas : float, optional    gas density [kg/m^3]; required when ``buoyancy_acceleration`` is not 0
+                                 (buoyancy is (rho_L - rho_G) a_m V: the gas density is never dropped)
+    buoyancy_acceleration : float   a_m [m/s^2]: component along the migration direction (along the path
+                                 from the apex toward the open side) of the acceleration buoyancy gives a
+                                 bubble, i.e. of minus the residual acceleration; > 0 when buoyancy helps
+                                 the capillary push, < 0 when it opposes it (default 0: low gravity)
+    axial_acceleration : float   a_z [m/s^2]: component along the conduit axis, in the direction of the
+                                 flow, of the acceleration buoyancy gives a bubble (> 0 in upward flow);
+                                 used only for the drift (``with_drift``)
+    with_drift : bool            also return the mean axial drift speed of the bubble relative to the
+                                 liquid during the migration (see Notes)
 
     Returns
     -------
     float or array   t_mig [s]; 0 where the bubble touches the open side at injection, inf on the
-    confinement line itself (d = d_reach, the bubble only just fits where it would touch), NaN where
-    it does not reach the open side (too small: it stops where the gap equals its size)
+    confinement line itself (d = d_reach, the bubble only just fits where it would touch) and where
+    buoyancy opposes the push at least as strongly somewhere on the path (the bubble stalls and never
+    arrives, see :func:`stall_diameter`), NaN where it does not reach the open side (too small: it
+    stops where the gap equals its size). With ``with_drift``: (t_mig, q) with q [m/s] the mean axial drift
+    speed D_z / t_mig (0 where t_mig is 0, NaN where it is not finite)
 
     Notes
     -----
@@ -925,7 +967,16 @@ def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_rati
     \ln\frac{1}{\delta_\mathrm{end}} + O(1)` diverges logarithmically as d -> d_reach (theory manual).
     Quadrature: Simpson's rule on 401 nodes uniform in :math:`\ln(x + x_0)`, x the distance before the
     touching point and :math:`x_0 = \delta_\mathrm{end}/(k_c h')` (exact up to about 1e-6 for a
-    straight wedge); the gap and its taper are interpolated on the path.
+    straight wedge); the gap and its taper are interpolated on the path. With buoyancy the nodes also
+    crowd over the distance in which the net drive at the touching point doubles, so the time stays
+    accurate as it diverges at the stall diameter.
+
+    Axial drift (``with_drift``): the share of buoyancy along the conduit axis,
+    :math:`(\rho_L - \rho_G) a_z V`, moves the squeezed bubble along the stream relative to the liquid at
+    :math:`U_z = \sigma Ca_z/\mu`, with :math:`Ca_z` from the same drag law driven by
+    :math:`Bo_z = (\rho_L - \rho_G) a_z h^2/\sigma` alone (the two directions are solved separately:
+    exact for the linear Hele-Shaw drag, an approximation with film and form drag). Over the migration the
+    bubble drifts :math:`D_z = \int U_z/U\, \mathrm{d}s`; q = D_z / t_mig, on the same nodes.
 
     Examples
     --------
@@ -947,10 +998,13 @@ def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_rati
     d = np.atleast_1d(_arr(diameter)).ravel()
     scalar = np.ndim(diameter) == 0
     k_c = positive("confinement_ratio", confinement_ratio)
+    bond_per_h2 = _buoyancy_factor(rho, rho_gas, sigma, buoyancy_acceleration)
+    axial_per_h2 = _buoyancy_factor(rho, rho_gas, sigma, axial_acceleration) if with_drift else 0.0
     reaches, s_touch, touch0 = path.travel(d, injection, k_c)
     s_inj = float(injection) * path.length
     s, h, taper = path.s, path.gap, path.taper
     t = np.where(touch0, 0.0, np.where(reaches, np.inf, np.nan))
+    drift = np.where(touch0, 0.0, np.nan)
     go = np.nonzero(reaches & ~touch0 & np.isfinite(s_touch) & np.isfinite(d) & (d > 0))[0]
     if go.size:
         dd, st = d[go], np.minimum(s_touch[go], s[-1])
@@ -959,9 +1013,13 @@ def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_rati
         slope = k_c * np.interp(st, s, taper)
         with np.errstate(divide="ignore", invalid="ignore"):
             x0 = np.where(slope > 0, delta_end / np.where(slope > 0, slope, 1.0), np.inf)
+        if bond_per_h2 != 0.0:
+            x0 = np.minimum(x0, _drive_doubling(path, dd, st, X, k_c, contact_angle, capillary_coefficient,
+                                                bond_per_h2))
         x0 = np.minimum(x0, 10.0 * np.maximum(X, 1e-300))       # far from the line: nearly uniform nodes
         ok = (delta_end > 0) & (X > 0) & (x0 > 0)
         res = np.where(X > 0, np.inf, 0.0)
+        res_q = np.where(X > 0, np.nan, 0.0)
         if ok.any():
             x0k, Xk, stk, dk = x0[ok, None], X[ok, None], st[ok, None], dd[ok, None]
             w = np.linspace(0.0, 1.0, _MIG_NODES)[None, :]
@@ -977,11 +1035,136 @@ def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_rati
                 ca = migration_capillary_number(hpj, contact_angle, math.pi * a * hj ** 2 / V,
                                                 rho * sigma * hj / mu ** 2, capillary_coefficient=capillary_coefficient,
                                                 hele_shaw_drag=hele_shaw_drag, film_drag=film_drag,
-                                                form_drag=form_drag, squeezed=phi)
+                                                form_drag=form_drag, squeezed=phi,
+                                                buoyancy=bond_per_h2 * hj ** 2 if bond_per_h2 != 0.0 else 0.0)
                 f = np.where(ca > 0, mu / (sigma * np.where(ca > 0, ca, 1.0)), np.inf) * (x + x0k)
+                if with_drift and axial_per_h2 != 0.0:
+                    bz = axial_per_h2 * hj ** 2
+                    ca_z = migration_capillary_number(0.0, 0.0, math.pi * a * hj ** 2 / V, rho * sigma * hj / mu ** 2,
+                                                      capillary_coefficient=0.0, hele_shaw_drag=hele_shaw_drag,
+                                                      film_drag=film_drag, form_drag=form_drag, squeezed=phi,
+                                                      buoyancy=np.abs(bz))
+                    fz = np.sign(bz) * ca_z * (sigma / mu) * f          # U_z / U ds/du
             wts = np.ones(_MIG_NODES)
             wts[1:-1:2], wts[2:-1:2] = 4.0, 2.0
             with np.errstate(invalid="ignore"):
                 res[ok] = (f @ wts) * span[:, 0] / (3.0 * (_MIG_NODES - 1))
+                if with_drift:
+                    if axial_per_h2 != 0.0:
+                        res_q[ok] = (fz @ wts) * span[:, 0] / (3.0 * (_MIG_NODES - 1)) / res[ok]
+                    else:
+                        res_q[ok] = 0.0
         t[go] = res
+        drift[go] = res_q
+    if with_drift:
+        drift = np.where(np.isfinite(t), drift, np.nan)
+        return (float(t[0]), float(drift[0])) if scalar else (t, drift)
     return float(t[0]) if scalar else t
+
+
+def _buoyancy_factor(rho, rho_gas, sigma, acceleration) -> float:
+    """(rho_L - rho_G) a_m / sigma [1/m^2] (0 without acceleration); checks that rho_gas is given."""
+    a = float(acceleration)
+    if not math.isfinite(a):
+        raise ValueError(f"buoyancy_acceleration must be finite, got {acceleration!r} m/s^2")
+    if a == 0.0:
+        return 0.0
+    if rho_gas is None:
+        raise ValueError("rho_gas is required with a buoyancy_acceleration: buoyancy is (rho_L - rho_G) a V, "
+                         "the gas density is not dropped")
+    rho_g = in_range("rho_gas", rho_gas, 0.0, math.inf, "kg/m^3")
+    return (float(rho) - rho_g) * a / positive("sigma", sigma, "N/m")
+
+
+def _net_drive(path, d, s_at, k_c, theta, c_cap, bond_per_h2):
+    """Net drive c_cap cos(theta) h' phi + Bo_m at positions s_at for bubbles d (same shapes) [-]."""
+    h = np.interp(s_at, path.s, path.gap)
+    hp = np.interp(s_at, path.s, path.taper)
+    phi = np.asarray(squeezed_fraction(d, h, k_c), dtype=float)
+    return c_cap * math.cos(theta) * hp * phi + bond_per_h2 * h * h
+
+
+def _drive_doubling(path, d, st, X, k_c, theta, c_cap, bond_per_h2):
+    """Distance before the touching point over which the net drive doubles (inf where it does not grow)."""
+    eps = 1e-4 * X
+    with np.errstate(all="ignore"):
+        end = _net_drive(path, d, st, k_c, theta, c_cap, bond_per_h2)
+        back = _net_drive(path, d, st - eps, k_c, theta, c_cap, bond_per_h2)
+        slope = (back - end) / eps
+        return np.where((slope > 0) & (end > 0), end / np.where(slope > 0, slope, 1.0), np.inf)
+
+
+def stall_diameter(path: TaperPath, *, injection=0.5, confinement_ratio=1.0, rho, sigma, contact_angle=0.0,
+                   capillary_coefficient=2.0, rho_gas=None, buoyancy_acceleration=0.0) -> float:
+    r"""Smallest bubble that buoyancy lets reach the open side [m] (the reach diameter when buoyancy helps).
+
+    .. math:: d_\mathrm{arr} = \min\{d \ge d_\mathrm{reach} :\ c_\mathrm{cap}\cos\theta\, h'(s)\,\phi(s)
+              + \frac{(\rho_L - \rho_G)\, a_m h(s)^2}{\sigma} > 0
+              \ \text{for } s_\mathrm{inj} \le s \le s_\mathrm{touch}(d)\}
+
+    A bubble between d_reach and d_arr is confined but stalls where buoyancy (a_m < 0) balances the
+    fading capillary push: it never arrives (:func:`migration_time` gives inf).
+
+    Parameters
+    ----------
+    path : TaperPath
+    injection, confinement_ratio, contact_angle, capillary_coefficient : see :func:`migration_time`
+    rho, rho_gas : float   liquid and gas densities [kg/m^3] (``rho_gas`` required when a_m != 0)
+    sigma : float          surface tension [N/m]
+    buoyancy_acceleration : float   a_m [m/s^2] (see :func:`migration_time`)
+
+    Returns
+    -------
+    float   d_arr [m]; :meth:`TaperPath.reach_diameter` when a_m >= 0; 2 dist_open(s_inj) (touching at
+    injection) when no smaller bubble gets through
+
+    Notes
+    -----
+    Found by bisection on the sign of the net drive along the path (path points and the touching point);
+    for a straight wedge the drive falls monotonically along the path, so its minimum is at the touching
+    point and the bisection is exact to 1e-12.
+
+    Examples
+    --------
+    >>> import math
+    >>> from lowgmap.physics.geometry.sections import Groove
+    >>> p = taper_path(Groove(math.radians(30.0), 0.004))
+    >>> kw = dict(injection=0.25, rho=1000.0, rho_gas=1.2, sigma=0.02)
+    >>> stall_diameter(p, **kw, buoyancy_acceleration=1.0) == p.reach_diameter(0.25)
+    True
+    >>> stall_diameter(p, **kw, buoyancy_acceleration=-1.0) > p.reach_diameter(0.25)
+    True
+    """
+    k_c = positive("confinement_ratio", confinement_ratio)
+    b = _buoyancy_factor(rho, rho_gas, sigma, buoyancy_acceleration)
+    d_reach = path.reach_diameter(injection, k_c)
+    if b >= 0.0:
+        return d_reach
+    s_inj = float(injection) * path.length
+    hi = 2.0 * float(np.interp(s_inj, path.s, path.open_distance))
+    c_cap = float(capillary_coefficient)
+    theta = float(contact_angle)
+
+    def arrives(d):
+        reaches, s_touch, touch0 = path.travel(d, injection, k_c)
+        if bool(touch0[0]):
+            return True
+        if not bool(reaches[0]):
+            return False
+        st = float(s_touch[0])
+        inner = path.s[(path.s > s_inj) & (path.s < st)]
+        nodes = np.concatenate([[s_inj], inner, [st]])
+        return bool(np.all(_net_drive(path, np.full(nodes.shape, d), nodes, k_c, theta, c_cap, b) > 0))
+
+    lo = d_reach
+    if arrives(lo * (1.0 + 1e-12)) and lo > 0:
+        return lo
+    for _ in range(100):
+        mid = 0.5 * (lo + hi)
+        if arrives(mid):
+            hi = mid
+        else:
+            lo = mid
+        if hi - lo <= 1e-12 * hi:
+            break
+    return hi

@@ -44,6 +44,22 @@ Near the confinement line the capillary push fades: only the part of the bubble 
 the walls is pushed (:func:`lowgmap.physics.models.bubbles.squeezed_fraction`), so the migration time
 diverges (logarithmically) as the bubble size falls to the reach diameter.
 
+Buoyancy (a case that states its orientation, :class:`lowgmap.physics.case.Orientation`): the share of the
+residual acceleration along the migration path (:func:`migration_buoyancy`; the path runs across the conduit
+axis, from the apex toward the open side, and ``open_side_roll`` says how the section is turned about the
+axis) adds (rho_L - rho_G) a_m V to the force balance, helping or opposing the capillary push; an opposing
+one stalls bubbles below :func:`arrival_diameter` (migration time infinite: carried through). The share
+along the axis makes the bubbles drift with or against the stream while they migrate, which the separation
+line counts. The lines using the bubble size are flagged where its Bond number exceeds
+:data:`BUBBLE_BOND_LIMIT` (:func:`bubble_bond_number`, Brauner 1990). The share along the axis also enters
+the open channel's critical flow (hydrostatic term of the one-dimensional model), and the gas-ingestion line
+is flagged where the transverse Bond number of the channel exceeds 0.1 (:func:`transverse_bond`). With the
+orientation unspecified the chart is exactly the low-gravity chart (buoyancy ignored, a warning when it is not
+negligible).
+
+Uncertainty bands: every closure constant carries its own band with its reason (``Constant.band``); the
+design inputs, the safety factor and the geometric confinement ratio are drawn sharp.
+
 All constants are exposed (:class:`~lowgmap.physics.models.boundary.Constant`); the defaults are order-of-magnitude
 values or design inputs, meant to be calibrated against test points. Where a default is a choice it
 sits on the safe side for the separating regimes (entrance loss 1, gas share 1, safety factor 2,
@@ -60,7 +76,7 @@ import numpy as np
 from scipy.interpolate import CubicSpline, PchipInterpolator
 from scipy.optimize import brentq
 
-from lowgmap.physics import cache
+from lowgmap.physics import cache, surrogates
 from lowgmap.physics.models import bubbles as bb
 from lowgmap.physics.models.boundary import BoundaryModel, Constant, register
 from lowgmap.physics.models.regimes import LinePiece, PartitionScheme, RegimeInfo
@@ -70,7 +86,8 @@ __all__ = [
     "ISOLATED_CARRIED", "ISOLATED_SEPARATED", "MERGING_SEPARATED", "MERGING_CARRIED", "BLOW_THROUGH",
     "INGESTION", "REGIMES", "SCHEME", "CORNER_MODEL_NAMES",
     "CornerGeometry", "corner_geometry", "open_channel_of", "bubble_state", "separation_liquid_flow",
-    "ingestion_liquid_flow",
+    "ingestion_liquid_flow", "transverse_bond", "migration_buoyancy", "arrival_diameter", "bubble_bond_number",
+    "BUBBLE_BOND_LIMIT",
     "CornerConfinement", "CornerSeparation", "CornerMerging", "CornerBlowThrough", "OpenChannelIngestion",
     "CORNER_CONFINEMENT", "CORNER_SEPARATION", "CORNER_MERGING", "CORNER_BLOW_THROUGH", "OPEN_CHANNEL_INGESTION",
 ]
@@ -86,11 +103,13 @@ INGESTION = "free-surface collapse / gas ingestion"
 #: Regimes of the scheme, in display order, with their flags.
 REGIMES = (
     RegimeInfo(ISOLATED_CARRIED, False, "bubbles stay apart and leave with the liquid (too small to be pushed "
-               "to the open side, or too slow for the conduit length)"),
+               "to the open side, too slow for the conduit length, or held back by buoyancy that opposes the "
+               "push: then they never arrive)"),
     RegimeInfo(ISOLATED_SEPARATED, True, "bubbles stay apart and reach the open side within the conduit length"),
     RegimeInfo(MERGING_SEPARATED, True, "bubbles merge; the merged bubbles reach the open side within the "
                "conduit length"),
-    RegimeInfo(MERGING_CARRIED, False, "bubbles merge but leave with the liquid"),
+    RegimeInfo(MERGING_CARRIED, False, "bubbles merge but leave with the liquid (too slow, or held back by "
+               "buoyancy that opposes the push)"),
     RegimeInfo(BLOW_THROUGH, False, "the gas is a continuous phase and reaches the liquid outlet"),
     RegimeInfo(INGESTION, False, "the channel cannot carry this flow: the free surface collapses at the outlet "
                "and gas is drawn in (at any flow when the open channel cannot hold liquid below the gas "
@@ -117,7 +136,9 @@ _C_INJ_W = Constant(
     1e-3, 10.0, "injector channel width w over S (square injector channel), for the squeezing law")
 _C_SQ_A = Constant(
     "squeeze_a", 1.0, "-", "Garstecki et al. (2006): a of order 1, set by the junction geometry (from memory)",
-    0.0, 20.0, "a in the squeezing law L/w = 1 + a Q_G/Q_L")
+    0.0, 20.0, "a in the squeezing law L/w = 1 + a Q_G/Q_L", band=(0.5, 2.0),
+    band_reason="order of magnitude, from memory: Garstecki et al. (2006) report a of order 1, set by the "
+                "junction geometry; x/÷ 2 about 1")
 _C_INJ = Constant(
     "injection_position", 0.5, "-", "design input; default mid-depth, no source", 0.0, 0.99,
     "injection point on the apex bisector, as a fraction of S from the apex")
@@ -128,23 +149,34 @@ _C_MERGE = Constant(
     "merge_length_ratio", 1.0, "-", "a choice, no source: bubbles merge when they touch (spacing = bubble "
     "length), the least merging the geometry allows; merged bubbles are larger and separate more easily, so "
     "the smaller value is the safe one; calibrate", 1.0, 50.0,
-    "k_m: bubbles merge when their spacing is below k_m bubble lengths")
+    "k_m: bubbles merge when their spacing is below k_m bubble lengths", band=(1.0, 3.0),
+    band_reason="order of magnitude, from memory, no source: from touching bubbles (1, the least merging the "
+                "geometry allows) to bubbles drawn together over a few lengths by deformation and wakes (3)")
 _C_CAP = Constant(
     "capillary_coefficient", 2.0, "-", "our derivation (theory manual): the normal force of the walls on the "
     "flattened faces, 2 sigma cos(theta)/h over the faces, times the taper gives 2; the same order as the "
     "estimate after Reyssat 2014; uncertain, calibrate", 0.1, 20.0,
-    "c_cap in the capillary push c_cap sigma cos(theta) phi V h'/h^2")
+    "c_cap in the capillary push c_cap sigma cos(theta) phi V h'/h^2", band=(1.0, 4.0),
+    band_reason="order of magnitude, from memory: our derivation gives 2, a finite-length cap estimate for a "
+                "circular footprint 8/pi = 2.5 (theory manual); x/÷ 2 about 2")
 _C_HS = Constant(
     "hele_shaw_drag", 12.0, "-", "our derivation: Darcy flow of the liquid round a circular flattened bubble "
     "(theory manual); > 0: a bubble moving in the gap always drives liquid round it", 1.0, 200.0,
-    "c_HS in the Hele-Shaw drag c_HS mu U V/h^2")
+    "c_HS in the Hele-Shaw drag c_HS mu U V/h^2", band=(6.0, 24.0),
+    band_reason="order of magnitude, from memory: 12 from Darcy flow round a circular disc (our derivation), 6 "
+                "in the rough upper-bound estimate U ~ sigma h' cos(theta)/(3 mu); a non-circular or partly "
+                "flattened footprint may double it")
 _C_FILM = Constant(
     "film_drag", 1.0, "-", "1 = wetting films sheared over both faces (rigid interface, slowest); 0 = clean "
     "interface; film thickness after Aussillous & Quere (2000)", 0.0, 1.0,
-    "c_f in the film drag c_f 4 mu U phi V/(h^2 f(Ca)) on the flattened faces")
+    "c_f in the film drag c_f 4 mu U phi V/(h^2 f(Ca)) on the flattened faces", band=(0.0, 1.0),
+    band_reason="the whole physical range: from a clean interface (0, films not sheared) to a rigid one (1, "
+                "films sheared over both faces); which applies depends on surfactants, not known a priori")
 _C_FORM = Constant(
     "form_drag", 1.0, "-", "common practice, no source: a drag coefficient of order 1", 0.0, 20.0,
-    "C_D in the inertial drag C_D rho U^2 a h")
+    "C_D in the inertial drag C_D rho U^2 a h", band=(0.5, 2.0),
+    band_reason="order of magnitude, from memory: drag coefficients of bluff bodies at moderate Reynolds "
+                "numbers are of order 1; x/÷ 2 about 1")
 _C_SF = Constant(
     "safety_factor", 2.0, "-", "a choice, no source: 2 leaves room for the order-of-magnitude migration "
     "constants; larger is safe (1: migration and residence times equal on the line, no margin)",
@@ -153,22 +185,47 @@ _C_ALPHA = Constant(
     "alpha_c", 0.45, "-", "a choice on the safe side: the bubble-slug void fraction of low-gravity tube flow "
     "(Dukler et al. 1988, from memory), where bubbles crowd into plugs; continuous gas needs at least that "
     "much gas, and a lower value is safe; no corner data, calibrate", 0.05, 0.99,
-    "void fraction at which the gas becomes continuous")
+    "void fraction at which the gas becomes continuous", band=(0.30, 0.60),
+    band_reason="order of magnitude, from memory, deliberately wide: no corner data; the tube bubble-slug "
+                "value 0.45 (Dukler et al. 1988) varies by about ±0.05 between tube data sets as recalled, and "
+                "a corner's crowding differs from a tube's; ±0.15 about 0.45")
 _C_C0 = Constant(
     "c0", 1.0, "-", "1 = no slip between bubbles and liquid (low gravity, no buoyant drift); not a bound: "
     "C0 < 1 (gas in the slower liquid near the walls) moves the blow-through line to less gas", 0.8, 2.0,
-    "drift-flux distribution parameter")
+    "drift-flux distribution parameter", band=(1.0, 1.35),
+    band_reason="published scatter of tube data, used by analogy: 1.0 is no slip, 1.2 is used by most "
+                "low-gravity studies and a pooled fit of low-gravity slug-flow data gives 1.336 (Larsen, "
+                "Kurwitz & Best, NETS 2009, abstract, as quoted for the tube family); no corner data")
 _C_KE = Constant(
     "entrance_loss", 1.0, "-", "a choice on the safe side: the loss of a thin re-entrant entrance, zeta = 1.0 "
     "(Idelchik, Handbook of Hydraulic Resistance, 3rd ed. 1994, Diagram 3-1; a flush sharp entrance has 0.5); "
     "a larger loss lowers the critical flow, 0 makes the ingestion line an upper bound", 0.0, 10.0,
-    "entrance loss coefficient K_e of the open channel")
+    "entrance loss coefficient K_e of the open channel", band=(0.5, 1.0),
+    band_reason="published range of plain entrances (Idelchik, Handbook of Hydraulic Resistance, 3rd ed. "
+                "1994, Diagram 3-1): 0.5 flush sharp-edged to 1.0 thin re-entrant; a rounded entrance (0.04) "
+                "would lie below the band")
 _C_GAS = Constant(
     "gas_effect", 1.0, "-", "1 = all the gas carried as a no-slip mixture through the channel: the safe end "
     "(the line falls as the share grows, theory manual); 0 = liquid only", 0.0, 1.0,
-    "share of the gas flow that loads the channel (mixture volume flow and density)")
+    "share of the gas flow that loads the channel (mixture volume flow and density)", band=(0.0, 1.0),
+    band_reason="the whole physical range: from liquid only (the gas leaves before the outlet) to all the gas "
+                "as a no-slip mixture; no data on the share")
+
+_C_ROLL = Constant(
+    "open_side_roll", 0.0, "rad", "design input: how the conduit is mounted about its axis; the default 0 "
+    "(open side facing up, as an open channel is mounted for a ground test) lets buoyancy help the push; pi "
+    "(open side facing down) makes it oppose, the unsafe end for the separating regimes", 0.0, math.pi,
+    "angle, in the cross-section, between the path from the apex to the open side and the upward direction "
+    "(against the acceleration); used only when the case states an orientation")
 
 _SIZE = (_C_BUBBLE, _C_INJ_W, _C_SQ_A)
+
+#: Largest Bond (Eötvös) number of the bubble, (rho_L - rho_G) g d_eff^2 / sigma, for which its shape and the
+#: capillary push are those of the low-gravity models: the criterion Eo < 1 of Brauner (1990), the same
+#: limit as the tube family's hand-over (lowgmap.physics.models.tube_gravity.EO_HANDOVER).
+BUBBLE_BOND_LIMIT = 1.0
+BRAUNER_1990 = ("N. Brauner, \"On the relations between two-phase flows under reduced gravity and earth "
+                "experiment\", Int. Commun. Heat Mass Transf. 17(3):271-281, 1990")
 
 #: Squeezing regime of the injector: liquid capillary number in the injector channel below this
 #: (from memory: Garstecki et al. 2006 worked at Ca below about 1e-2).
@@ -439,31 +496,242 @@ _Z_END = 30.0
 
 
 @functools.lru_cache(maxsize=256)
-def _mig_table(path, rho, mu, sigma, theta, injection, k_c, c_cap, c_hs, c_f, c_d):
-    """(z grid, ln t grid, d_reach, d_touch, interpolator): migration time against bubble diameter.
+def _mig_table(path, rho, mu, sigma, theta, injection, k_c, c_cap, c_hs, c_f, c_d, rho_g=0.0, a_m=0.0, a_z=0.0):
+    """(z grid, ln t grid, d_low, d_touch, interpolator, drift interpolator): migration time against bubble
+    diameter; the drift interpolator (mean axial drift speed q [m/s] against z, flat beyond the grid) is None
+    without an axial acceleration a_z.
 
-    z = ln(w/(W - w)) with w = d - d_reach and W = d_touch - d_reach; ln t is smooth in z and close to
-    linear at both ends (t ~ ln(1/w) near the confinement line, t ~ W - w near the touching size), so
-    it is interpolated by a cubic spline in z (measured error below 1e-5 against direct quadrature)
-    and extrapolated linearly.
+    d_low is the smallest bubble that arrives: the reach diameter, or with buoyancy that opposes the push
+    (a_m < 0) the larger stall diameter (:func:`lowgmap.physics.models.bubbles.stall_diameter`).
+    z = ln(w/(W - w)) with w = d - d_low and W = d_touch - d_low; ln t is smooth in z and close to
+    linear at both ends (t ~ ln(1/w) near the confinement line or the stall diameter, t ~ W - w near the
+    touching size), so it is interpolated by a cubic spline in z (measured error below 1e-5 against
+    direct quadrature) and extrapolated linearly.
     """
-    d_reach = path.reach_diameter(injection, k_c)
+    buoy = {}
+    if a_m != 0.0 or a_z != 0.0:
+        buoy["rho_gas"] = rho_g
+    if a_m == 0.0:
+        d_low = path.reach_diameter(injection, k_c)
+    else:
+        buoy["buoyancy_acceleration"] = a_m
+        d_low = bb.stall_diameter(path, injection=injection, confinement_ratio=k_c, rho=rho, sigma=sigma,
+                                  contact_angle=theta, capillary_coefficient=c_cap, **buoy)
+    if a_z != 0.0:
+        buoy.update(axial_acceleration=a_z, with_drift=True)
     d_touch = 2.0 * float(np.interp(injection * path.length, path.s, path.open_distance))
-    W = d_touch - d_reach
+    W = d_touch - d_low
     if not W > 1e-12 * max(d_touch, 1e-300):
-        return np.zeros(0), np.zeros(0), d_reach, d_touch, None
+        return np.zeros(0), np.zeros(0), d_low, d_touch, None, None
     z = np.linspace(-_Z_END, _Z_END, _N_TABLE)
     w = W * 0.5 * (1.0 + np.tanh(0.5 * z))                # = W / (1 + exp(-z)), without overflow
-    t = bb.migration_time(path, d_reach + w, injection=injection, confinement_ratio=k_c, rho=rho, mu=mu,
+    t = bb.migration_time(path, d_low + w, injection=injection, confinement_ratio=k_c, rho=rho, mu=mu,
                           sigma=sigma, contact_angle=theta, capillary_coefficient=c_cap, hele_shaw_drag=c_hs,
-                          film_drag=c_f, form_drag=c_d)
+                          film_drag=c_f, form_drag=c_d, **buoy)
+    q = None
+    if a_z != 0.0:
+        t, q = t
     with np.errstate(divide="ignore"):
         lt = np.log(np.asarray(t, dtype=float))
     good = np.isfinite(lt)
     z, lt = z[good], lt[good]
     for a in (z, lt):
         a.flags.writeable = False
-    return z, lt, d_reach, d_touch, (CubicSpline(z, lt, extrapolate=False) if z.size >= 4 else None)
+    drift = None
+    if q is not None and z.size >= 4:
+        drift = CubicSpline(z, np.asarray(q, dtype=float)[good], extrapolate=False)
+    return z, lt, d_low, d_touch, (CubicSpline(z, lt, extrapolate=False) if z.size >= 4 else None), drift
+
+
+def migration_buoyancy(case, **consts) -> float:
+    r"""Component along the migration path of the acceleration buoyancy gives a bubble [m/s^2].
+
+    .. math:: a_m = g\, \cos\beta\, \cos\psi
+
+    The migration path runs in the cross-section, along the bisector of the apex corner from the apex
+    toward the open side; it is perpendicular to the conduit axis. Buoyancy pushes a bubble against the
+    residual acceleration g. With the axis inclined at beta above the horizontal
+    (``case.orientation``, :class:`lowgmap.physics.case.Orientation`), the share of g across the axis is
+    cos(beta) (``Orientation.transverse_fraction``: 1 horizontal, 0 vertical upward or downward flow),
+    and psi (``open_side_roll``) is the angle in the cross-section between the path and the upward
+    direction: psi = 0 (open side facing up) gives a_m = g cos(beta) > 0, buoyancy helps the capillary
+    push; psi = pi (open side facing down) gives a_m < 0, buoyancy opposes it. The share of g along the
+    axis, a_z = g sin(beta) (``Orientation.axial_fraction``), acts along the stream, not along the path: it
+    makes the bubble drift along the conduit relative to the liquid while it migrates (faster than the
+    liquid in upward flow, slower in downward flow), which the separation line counts
+    (:func:`separation_liquid_flow`).
+
+    Parameters
+    ----------
+    case : Case
+    **consts : constants of :data:`CORNER_SEPARATION` (``open_side_roll``; defaults where omitted)
+
+    Returns
+    -------
+    float   a_m [m/s^2]; exactly 0 when the orientation is unspecified (the low-gravity chart) or g = 0
+
+    Examples
+    --------
+    >>> import math
+    >>> from lowgmap.physics.case import Orientation
+    >>> from lowgmap.physics.examples import example_case
+    >>> case = example_case(g=1.62, orientation=Orientation.horizontal())
+    >>> migration_buoyancy(case), migration_buoyancy(case, open_side_roll=math.pi)
+    (1.62, -1.62)
+    >>> migration_buoyancy(case.with_(orientation=Orientation.vertical_up()))
+    0.0
+    """
+    c = CORNER_SEPARATION.resolve_constants(consts) if consts else CORNER_SEPARATION.defaults
+    return _a_m(case, c)
+
+
+def _a_z(case) -> float:
+    """Axial component, along the flow, of the acceleration buoyancy gives a bubble [m/s^2] (0: unspecified)."""
+    o = getattr(case, "orientation", None)
+    if o is None or not o.is_known or case.g == 0.0:
+        return 0.0
+    ax = o.axial_fraction
+    return 0.0 if ax == 0.0 else float(case.g) * ax
+
+
+def _a_m(case, c) -> float:
+    o = getattr(case, "orientation", None)
+    if o is None or not o.is_known or case.g == 0.0:
+        return 0.0
+    tr = o.transverse_fraction
+    roll = float(c.get("open_side_roll", 0.0))
+    if tr == 0.0 or roll == 0.5 * math.pi:
+        return 0.0
+    cos_roll = {0.0: 1.0, 0.5 * math.pi: 0.0, math.pi: -1.0}.get(roll, math.cos(roll))
+    return float(case.g) * tr * cos_roll
+
+
+def _table_for(case, geom, c):
+    f = case.fluid
+    a_m = _a_m(case, c)
+    a_z = _a_z(case)
+    extra = (f.rho_g, a_m, a_z) if a_z != 0.0 else (f.rho_g, a_m) if a_m != 0.0 else ()
+    return _mig_table(geom.path, f.rho_l, f.mu_l, f.sigma, geom.contact_angle,
+                      *(float(c[k]) for k in _MIG_KEYS), *extra)
+
+
+def arrival_diameter(case, **consts) -> float:
+    r"""Smallest bubble diameter that arrives at the open side [m]: the reach diameter, or with buoyancy
+    that opposes the push the larger stall diameter (:func:`lowgmap.physics.models.bubbles.stall_diameter`).
+
+    Bubbles between the two are confined (above the confinement line) but never arrive: their migration
+    time is infinite and the chart counts them as carried through.
+
+    Parameters
+    ----------
+    case : Case   an open section the corner models apply to
+    **consts : constants of :data:`CORNER_SEPARATION`
+
+    Returns
+    -------
+    float   d_arr [m]
+
+    Examples
+    --------
+    >>> import math
+    >>> from lowgmap.physics.case import Orientation
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.geometry.sections import Groove
+    >>> case = example_case(Groove(math.radians(10.0), 0.004), g=9.80665, orientation=Orientation.horizontal())
+    >>> up = arrival_diameter(case)
+    >>> down = arrival_diameter(case, open_side_roll=math.pi)
+    >>> up == bubble_state(case, 1e-6, 1e-7)["reach_diameter"], down > up
+    (True, True)
+    """
+    c = CORNER_SEPARATION.resolve_constants(consts)
+    geom = _usable_geometry(case)
+    return float(_table_for(case, geom, c)[2])
+
+
+def bubble_bond_number(case, ql, qg, **consts):
+    r"""Bond (Eötvös) number of the (merged) bubbles at flow rates (Q_L, Q_G) [-].
+
+    .. math:: Eo_b = \frac{(\rho_L - \rho_G)\, g\, d_\mathrm{eff}^2}{\sigma}
+
+    Where it exceeds :data:`BUBBLE_BOND_LIMIT` (1, Brauner 1990) the bubble's shape is no longer set by
+    capillarity alone and the capillary models of this family (push, drags, confinement) stop applying;
+    with the case's orientation given, the lines that use the bubble size are flagged there
+    (drawn as outside validity).
+
+    Parameters
+    ----------
+    case : Case
+    ql, qg : float or array   flow rates [m^3/s]
+    **consts : constants of :data:`CORNER_SEPARATION`
+
+    Returns
+    -------
+    float or array   Eo_b [-] (NaN where the flow rates are not > 0)
+
+    Examples
+    --------
+    >>> import math
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.geometry.sections import Groove
+    >>> case = example_case(Groove(math.radians(10.0), 0.004), g=9.80665)
+    >>> round(bubble_bond_number(case, 1e-6, 1e-7, bubble_diameter_ratio=0.75), 4)     # 3 mm air bubble in water
+    1.2104
+    """
+    c = CORNER_SEPARATION.resolve_constants(consts)
+    geom = _usable_geometry(case)
+    _, _, r = _ratio(ql, qg)
+    out = _bubble_bond(case, geom, r, c)
+    return float(out) if np.ndim(out) == 0 else out
+
+
+def _bubble_bond(case, geom, r, c):
+    f = case.fluid
+    *_, d_eff = _sizes(geom, r, c)
+    return (f.rho_l - f.rho_g) * case.g * d_eff ** 2 / f.sigma
+
+
+def transverse_bond(case) -> float:
+    r"""Bond number of the residual acceleration across the open channel of a case [-].
+
+    .. math:: Bo_\perp = \frac{(\rho_L - \rho_G)\, g \cos\beta\, L^2}{\sigma}
+
+    with L the length scale of the section's open-channel model (:func:`open_channel_of`: wall length of a
+    V-groove or wedge channel, width of a rectangular groove, gap of plates) and cos(beta) the share of g
+    across the axis (``Orientation.transverse_fraction``), from
+    :func:`lowgmap.physics.models.open_channel.transverse_bond_number`. Above
+    :data:`~lowgmap.physics.models.open_channel.TRANSVERSE_BOND_LIMIT` (0.1, common practice, no source) the
+    free surface is no longer a circular arc in the section and the gas-ingestion line is flagged.
+
+    Parameters
+    ----------
+    case : Case
+
+    Returns
+    -------
+    float   Bo_perp [-]; 0 when the orientation is unspecified (the low-gravity chart: no buoyancy on it), NaN
+    without an open-channel model or when the liquid is not denser than the gas
+
+    Examples
+    --------
+    >>> import math
+    >>> from lowgmap.physics.case import Orientation
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.geometry.sections import Groove
+    >>> case = example_case(Groove(math.radians(10.0), 0.004), g=9.80665, orientation=Orientation.horizontal())
+    >>> transverse_bond(case) > 1.0, transverse_bond(case.with_(g=9.80665e-6)) < 1e-4
+    (True, True)
+    """
+    o = getattr(case, "orientation", None)
+    if o is None or not o.is_known:
+        return 0.0
+    ch = open_channel_of(case.section, case.wetting.contact_angle)
+    f = case.fluid
+    drho = f.rho_l - f.rho_g
+    if ch is None or not drho > 0:
+        return math.nan
+    from lowgmap.physics.models.open_channel import transverse_bond_number
+
+    return float(transverse_bond_number(ch, drho, f.sigma, float(case.g) * o.transverse_fraction))
 
 
 #: Relative margin (d - d_reach)/d_reach below which the charts take the migration time at this margin.
@@ -474,17 +742,17 @@ _REACH_RESOLUTION = 1e-9
 
 
 def _t_mig(case, geom, d, c):
-    """Migration time [s] of bubbles of diameter d: NaN if they do not reach, 0 if they touch at once; for
-    d within _REACH_RESOLUTION of d_reach, the time at that margin (the exact time diverges there)."""
-    f = case.fluid
-    z, lt, d_reach, d_touch, interp = _mig_table(geom.path, f.rho_l, f.mu_l, f.sigma, geom.contact_angle,
-                                                 *(float(c[k]) for k in _MIG_KEYS))
+    """Migration time [s] of bubbles of diameter d: NaN if they do not reach, 0 if they touch at once, inf if
+    buoyancy stalls them; for d within _REACH_RESOLUTION of the smallest arriving size (the reach or the stall
+    diameter), the time at that margin (the exact time diverges there)."""
+    z, lt, d_low, d_touch, interp, _ = _table_for(case, geom, c)
+    d_reach = geom.path.reach_diameter(float(c["injection_position"]), float(c["confinement_ratio"]))
     d0 = np.asarray(d, dtype=float)
-    d = np.where(d0 >= d_reach * (1.0 - 1e-12), np.maximum(d0, d_reach * (1.0 + _REACH_RESOLUTION)), d0)
+    d = np.where(d0 >= d_low * (1.0 - 1e-12), np.maximum(d0, d_low * (1.0 + _REACH_RESOLUTION)), d0)
     out = np.full(d.shape, np.nan)
     if interp is not None:
-        W = d_touch - d_reach
-        w = d - d_reach
+        W = d_touch - d_low
+        w = d - d_low
         with np.errstate(all="ignore"):
             zz = np.log(w) - np.log(W - w)
         inside = np.isfinite(zz)
@@ -501,10 +769,33 @@ def _t_mig(case, geom, d, c):
     return np.where(d0 >= d_reach * (1.0 - 1e-12), out, np.nan)
 
 
+def _drift(case, geom, d, c):
+    """Mean axial drift speed of bubbles of diameter d during their migration [m/s]; None without axial buoyancy."""
+    z, lt, d_low, d_touch, interp, drift = _table_for(case, geom, c)
+    if drift is None:
+        return None
+    d = np.asarray(d, dtype=float)
+    d = np.maximum(d, d_low * (1.0 + _REACH_RESOLUTION))
+    with np.errstate(all="ignore"):
+        zz = np.log(d - d_low) - np.log(d_touch - d)
+    zc = np.clip(np.where(np.isfinite(zz), zz, z[0]), z[0], z[-1])
+    zc = np.where(d >= d_touch, z[-1], zc)
+    return np.where(d >= d_touch, 0.0, drift(zc))
+
+
 def separation_liquid_flow(case, ratio, **consts):
     r"""Liquid flow rate on the separation line at flow ratios r = Q_G/Q_L [m^3/s].
 
     .. math:: Q_L = \frac{l A}{s_f\, t_\mathrm{mig}(d_\mathrm{eff}(r))\,(1 + r)}
+
+    With buoyancy along the conduit axis (a case with an inclined or vertical orientation) the bubble also
+    drifts along the stream at the mean speed q during its migration
+    (:func:`lowgmap.physics.models.bubbles.migration_time` with ``with_drift``), and it must reach the open
+    side within the conduit length: :math:`s_f (\bar u + q)\, t_\mathrm{mig} \le l`, so
+
+    .. math:: Q_L = \frac{A}{1 + r}\left(\frac{l}{s_f\, t_\mathrm{mig}} - q\right)
+
+    (0 where the drift alone carries the bubble out: q >= l/(s_f t_mig)).
 
     Parameters
     ----------
@@ -527,49 +818,138 @@ def separation_liquid_flow(case, ratio, **consts):
 def _sep_ql(case, geom, r, c):
     *_, d_eff = _sizes(geom, r, c)
     t = _t_mig(case, geom, d_eff, c)
+    q = _drift(case, geom, d_eff, c)
     with np.errstate(divide="ignore", invalid="ignore"):
-        return case.length * geom.area / (c["safety_factor"] * t * (1.0 + r))
+        if q is None:
+            return case.length * geom.area / (c["safety_factor"] * t * (1.0 + r))
+        # the bubble travels (mean liquid speed + drift) x t_mig along the conduit while it migrates
+        u = case.length / (c["safety_factor"] * t) - q
+        out = geom.area * np.maximum(u, 0.0) / (1.0 + r)
+        return np.where(np.isinf(t), 0.0, np.where(np.isnan(u), np.nan, out))
 
 
-# critical flow-rate table ------------------------------------------------------------------
+# critical flow rate ------------------------------------------------------------------------
 _N_RHO = 11
+#: Entries of the in-memory cache of critical-flow tables: a slider or a band search that revisits many
+#: values (lengths, constants) must not rebuild them.
+_QCRIT_CACHE_SIZE = 1024
 
 
-@functools.lru_cache(maxsize=64)
-def _qcrit_table(channel, length, rho_l, rho_g, mu, sigma, K_e, full):
-    """PCHIP of log Q_crit against log density (one point when ``full`` is False) and the limits."""
+def _axial_gravity(case) -> float:
+    """Residual acceleration along the conduit axis, against the flow [m/s^2]: ``g * orientation.axial_fraction``
+    (> 0 upward flow, < 0 downward flow); 0 when the orientation is unspecified (the low-gravity chart)."""
+    return _a_z(case)
+
+
+def _uses_similarity(channel) -> bool:
+    """Whether the critical flow without axial gravity comes from the similarity curve (the surrogate: one
+    interpolation per density) rather than from the root search tabulated over the density (:func:`_qcrit_table`)."""
+    if surrogates.exact_requested():
+        return False
+    from lowgmap.physics.models.open_channel.surrogate import similarity_applies
+
+    return similarity_applies(channel)
+
+
+@functools.lru_cache(maxsize=_QCRIT_CACHE_SIZE)
+def _qcrit_table(channel, length, rho_l, rho_g, mu, sigma, K_e, full, g_ax=0.0, exact=False):
+    """Critical flow against the mixture density by the root search at _N_RHO densities (at rho_L alone when
+    ``full`` is False): (ln rho grid, Q_crit grid [m^3/s], function ln rho -> Q_crit or None, limits).
+
+    Used under the exact switch and with axial gravity, where the similarity curve does not apply. ``g_ax``
+    [m/s^2] and ``exact`` (:func:`lowgmap.physics.surrogates.exact_requested`: the Stokes tables are then solved,
+    not interpolated) are part of the key of both caches. The function is a PCHIP of ln Q_crit against ln rho,
+    or of Q_crit itself when some are 0 (upward flow whose hydrostatic rise exceeds what the surface holds).
+    """
     def build():
         from lowgmap.physics.models.open_channel import critical_flow_rate
 
         rhos = np.geomspace(max(rho_g, 1e-6 * rho_l), rho_l, _N_RHO) if full else np.array([rho_l])
         q, lim = [], []
         for rho in rhos:
-            res = critical_flow_rate(channel, length, rho=float(rho), mu=mu, sigma=sigma, K_e=K_e)
+            res = critical_flow_rate(channel, length, rho=float(rho), mu=mu, sigma=sigma, K_e=K_e, g_axial=g_ax)
             q.append(res.Q_crit)
             lim.append(res.limited_by)
-        return {"log_rho": np.log(rhos), "log_q": np.log(np.array(q)), "limited_by": np.array(lim, dtype=str)}
+        return {"log_rho": np.log(rhos), "q": np.array(q, dtype=float), "limited_by": np.array(lim, dtype=str)}
 
-    # kept on disk too (lowgmap.physics.cache): one table costs 11 critical-flow solves
-    arrays = cache.cached_arrays("corner.critical_flow_table.v2",
-                                 (channel, length, rho_l, rho_g, mu, sigma, K_e, bool(full), _N_RHO), build)
-    lr, lq = arrays["log_rho"], arrays["log_q"]
-    for a in (lr, lq):
+    # kept on disk too (lowgmap.physics.cache): one table costs up to 11 critical-flow solves
+    arrays = cache.cached_arrays("corner.critical_flow_table.v3",
+                                 (channel, length, rho_l, rho_g, mu, sigma, K_e, bool(full), _N_RHO, float(g_ax),
+                                  bool(exact)), build)
+    lr, q = arrays["log_rho"], arrays["q"]
+    for a in (lr, q):
         a.flags.writeable = False
-    interp = PchipInterpolator(lr, lq, extrapolate=True) if full else None
-    return lr, lq, interp, tuple(str(x) for x in arrays["limited_by"])
+    fn = None
+    if full and np.all(q > 0):
+        log_interp = PchipInterpolator(lr, np.log(q), extrapolate=True)
+
+        def fn(x):
+            return np.exp(log_interp(x))
+    elif full:
+        interp = PchipInterpolator(lr, q, extrapolate=True)       # monotone: stays >= 0 between the nodes
+
+        def fn(x):
+            return np.maximum(interp(x), 0.0)
+    return lr, q, fn, tuple(str(x) for x in arrays["limited_by"])
+
+
+def _case_table(case, channel, c, g_ax):
+    f = case.fluid
+    return _qcrit_table(channel, float(case.length), f.rho_l, f.rho_g, f.mu_l, f.sigma, float(c["entrance_loss"]),
+                        c["gas_effect"] > 0, float(g_ax), surrogates.exact_requested())
 
 
 def _q_crit(case, rho_m, c):
+    """Critical flow rate [m^3/s] of the case's open channel at the mixture densities rho_m [kg/m^3], clipped to
+    [max(rho_G, 1e-6 rho_L), rho_L].
+
+    Without axial gravity: the similarity curve (:func:`~lowgmap.physics.models.open_channel.surrogate.critical_flow_rates`),
+    or under the exact switch the root search tabulated over the density. With axial gravity g_a (the similarity
+    does not hold: gravity adds a group) the similarity value times the ratio Q_crit(g_a)/Q_crit(0) of two root
+    searches tabulated at the same densities: the ratio is smooth in the density and tends to 1 as g_a -> 0, so
+    the line moves continuously away from the low-gravity line, and the interpolation error of the tables cancels.
+    """
     f = case.fluid
     ch = open_channel_of(case.section, case.wetting.contact_angle)
-    full = c["gas_effect"] > 0
-    lr, lq, interp, _ = _qcrit_table(ch, float(case.length), f.rho_l, f.rho_g, f.mu_l, f.sigma,
-                                     float(c["entrance_loss"]), full)
+    g_ax = _axial_gravity(case)
     rho_m = np.asarray(rho_m, dtype=float)
-    if not full:
-        return np.full(rho_m.shape, math.exp(lq[0]))
-    x = np.clip(np.log(rho_m), lr[0], lr[-1])
-    return np.exp(interp(x))
+    if not _uses_similarity(ch):
+        return _tabulated(_case_table(case, ch, c, g_ax), rho_m)
+    from lowgmap.physics.models.open_channel.surrogate import critical_flow_rates
+
+    out = np.full(rho_m.shape, np.nan)
+    ok = np.isfinite(rho_m)
+    if ok.any():
+        rho = np.clip(rho_m[ok], max(f.rho_g, 1e-6 * f.rho_l), f.rho_l)
+        out[ok], _ = critical_flow_rates(ch, float(case.length), rho, f.mu_l, f.sigma, K_e=float(c["entrance_loss"]))
+    if g_ax == 0.0:
+        return out
+    return out * _gravity_ratio(_case_table(case, ch, c, g_ax), _case_table(case, ch, c, 0.0), rho_m)
+
+
+def _tabulated(table, rho_m):
+    lr, q, fn, _ = table
+    if fn is None:
+        return np.full(rho_m.shape, q[0])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return fn(np.clip(np.log(rho_m), lr[0], lr[-1]))
+
+
+def _gravity_ratio(with_g, without_g, rho_m):
+    """Q_crit(g_a)/Q_crit(0) at the densities rho_m from two root-search tables on the same density nodes."""
+    lr, q_g, _, _ = with_g
+    q_0 = without_g[1]
+    ratio = q_g / q_0
+    if ratio.size == 1:
+        return np.full(rho_m.shape, ratio[0])
+    interp = _ratio_interpolator(lr.tobytes(), ratio.tobytes())
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.maximum(interp(np.clip(np.log(rho_m), lr[0], lr[-1])), 0.0)
+
+
+@functools.lru_cache(maxsize=_QCRIT_CACHE_SIZE)
+def _ratio_interpolator(lr_bytes, ratio_bytes):
+    return PchipInterpolator(np.frombuffer(lr_bytes), np.frombuffer(ratio_bytes), extrapolate=True)
 
 
 def ingestion_liquid_flow(case, ratio, **consts):
@@ -578,9 +958,8 @@ def ingestion_liquid_flow(case, ratio, **consts):
     .. math:: Q_L = \frac{Q_\mathrm{crit}(\rho_m)}{1 + \phi r}, \qquad
               \rho_m = \frac{\rho_L + \phi r \rho_G}{1 + \phi r}
 
-    with :math:`Q_\mathrm{crit}` the critical flow rate of the open channel
-    (:func:`lowgmap.physics.models.open_channel.critical_flow_rate`, conduit length, liquid viscosity) and
-    :math:`\phi` = ``gas_effect``.
+    with :math:`Q_\mathrm{crit}` the critical flow rate of the open channel (conduit length, liquid viscosity,
+    rho_m clipped to [max(rho_G, 1e-6 rho_L), rho_L]) and :math:`\phi` = ``gas_effect``.
 
     Parameters
     ----------
@@ -592,6 +971,31 @@ def ingestion_liquid_flow(case, ratio, **consts):
     -------
     float or array   Q_L [m^3/s]; 0 when the open channel cannot hold liquid below the gas pressure
     (:func:`meniscus_state`): gas is then drawn in at any flow
+
+    Notes
+    -----
+    Without axial gravity :math:`Q_\mathrm{crit}` comes from the similarity curve of the channel's shape
+    (:func:`lowgmap.physics.models.open_channel.surrogate.critical_flow_rates`; measured error against the
+    root search below 1.3e-4, :data:`lowgmap.physics.surrogates.SURROGATE_ERRORS`); under the exact switch
+    (:func:`lowgmap.physics.surrogates.exact`) from the root search of
+    :func:`lowgmap.physics.models.open_channel.critical_flow_rate` at 11 densities between max(rho_G,
+    1e-6 rho_L) and rho_L, interpolated (PCHIP) in ln rho. With the case's orientation given, the share of g
+    along the axis, :math:`g_a = g \sin\beta` (against the flow), enters the one-dimensional model; the
+    similarity then does not hold, and :math:`Q_\mathrm{crit}(\rho_m) = Q_\mathrm{sim}(\rho_m)\,
+    [Q(g_a)/Q(0)](\rho_m)`, the ratio of two root searches tabulated at the same 11 densities: it is smooth in
+    the density and tends to 1 as g_a -> 0, so the line leaves the low-gravity line continuously.
+
+    Examples
+    --------
+    >>> import math
+    >>> from lowgmap.physics.case import Orientation
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.geometry.sections import Groove
+    >>> case = example_case(Groove(math.radians(10.0), 0.004), g=0.01)
+    >>> up, down = (ingestion_liquid_flow(case.with_(orientation=o), 0.1)
+    ...             for o in (Orientation.vertical_up(), Orientation.vertical_down()))
+    >>> bool(up < ingestion_liquid_flow(case, 0.1) < down)
+    True
     """
     c = OPEN_CHANNEL_INGESTION.resolve_constants(consts)
     r = np.asarray(ratio, dtype=float)
@@ -658,10 +1062,18 @@ def _notes(case, region_models):
         push = consts.get("capillary_coefficient", 2.0) * math.cos(geom.contact_angle) * \
             float(np.median(geom.path.taper))
         ratio = (f.rho_l - f.rho_g) * case.g * h_max ** 2 / (f.sigma * push) if push > 0 else math.inf
-        if bo >= 1.0 or ratio >= 0.1:
-            out.append(f"Gravity NOT negligible: Bond number (rho_L - rho_G) g S^2 / sigma = {bo:.3g} on the depth "
-                       f"S = {S * 1e3:.4g} mm, buoyancy/capillary push on a bubble = {ratio:.2g} at "
-                       f"g = {case.g:.3g} m/s^2. The corner lines ignore buoyancy; use them as indications only.")
+        o = getattr(case, "orientation", None)
+        if o is None or not o.is_known:
+            if bo >= 1.0 or ratio >= 0.1:
+                out.append(f"Gravity NOT negligible: Bond number (rho_L - rho_G) g S^2 / sigma = {bo:.3g} on the "
+                           f"depth S = {S * 1e3:.4g} mm, buoyancy/capillary push on a bubble = {ratio:.2g} at "
+                           f"g = {case.g:.3g} m/s^2. The corner lines ignore buoyancy (no orientation given); use "
+                           f"them as indications only.")
+        elif "corner_separation" in names:
+            out.extend(_buoyancy_notes(case, geom, consts, bo, ratio))
+    if "open_channel_ingestion" in names and geom.holds_liquid:
+        out.extend(_ingestion_gravity_notes(case, dict(next(c for m, c in region_models
+                                                            if m.name == "open_channel_ingestion"))))
     present = set(SCHEME.regime_names(region_models))
     sep = [r.name for r in REGIMES if r.separates_gas and r.name in present]
     if not geom.holds_liquid:
@@ -672,6 +1084,69 @@ def _notes(case, region_models):
     else:
         out.append("No regime on this chart separates the gas: without the separation line the gas always "
                    "reaches the liquid outlet.")
+    return out
+
+
+def _ingestion_gravity_notes(case, consts):
+    """Chart notes on gravity in the open channel's critical flow when the case states an orientation."""
+    from lowgmap.physics.models.open_channel import TRANSVERSE_BOND_LIMIT
+
+    o = getattr(case, "orientation", None)
+    if o is None or not o.is_known:
+        return []
+    out = []
+    g_ax = _axial_gravity(case)
+    if g_ax != 0.0:
+        out.append(f"Gravity along the open channel ({o.describe()}, {abs(g_ax):.3g} m/s^2 "
+                   f"{'against' if g_ax > 0 else 'with'} the flow): the hydrostatic term of the one-dimensional "
+                   f"model {'lowers' if g_ax > 0 else 'raises'} the critical flow, which the gas-ingestion line "
+                   f"counts.")
+        if g_ax > 0 and OPEN_CHANNEL_INGESTION.critical_flow(case, **consts)[0] == 0.0:
+            out.append(f"LIQUID NOT HELD: the hydrostatic rise over the conduit length ({case.length * 1e3:.4g} mm "
+                       f"at {g_ax:.3g} m/s^2) exceeds what the free surface holds at its smallest radius, so even a "
+                       f"vanishing liquid flow draws gas in: the gas-ingestion regime covers at least the liquid-only "
+                       f"edge of the chart.")
+    bo = transverse_bond(case)
+    if bo > TRANSVERSE_BOND_LIMIT:
+        out.append(f"Transverse Bond number of the open channel (rho_L - rho_G) g_perp L^2 / sigma = {bo:.3g} > "
+                   f"{TRANSVERSE_BOND_LIMIT:g}: gravity across the channel bends the free surface, which the "
+                   f"open-channel model takes as circular arcs; the gas-ingestion line is flagged.")
+    return out
+
+
+def _buoyancy_notes(case, geom, consts, bo, ratio):
+    """Chart notes on buoyancy in the migration when the case states an orientation."""
+    c = {**CORNER_SEPARATION.defaults, **dict(consts)}
+    a_m = _a_m(case, c)
+    g = case.g
+    o = case.orientation
+    a_z = _a_z(case)
+    if a_m > 0:
+        way = "helps the capillary push"
+    elif a_m < 0:
+        way = "OPPOSES the capillary push"
+    else:
+        way = "has no component along the migration path"
+    along = ("" if a_z == 0 else
+             f" Along the conduit {a_z:.3g} m/s^2: the bubbles drift "
+             f"{'with the flow (they leave sooner)' if a_z > 0 else 'against the flow (they stay longer)'} while "
+             f"they migrate, which the separation line counts.")
+    out = [f"Buoyancy in the corner migration ({o.describe()}, g = {g:.3g} m/s^2, open side at "
+           f"{math.degrees(float(c.get('open_side_roll', 0.0))):.4g} deg from upward): component along the path "
+           f"from the apex to the open side {a_m:.3g} m/s^2, buoyancy {way}; buoyancy/capillary push on a bubble "
+           f"at the open side = {ratio:.2g}.{along}"]
+    if a_m < 0:
+        d_reach = geom.path.reach_diameter(float(c["injection_position"]), float(c["confinement_ratio"]))
+        d_arr = float(_table_for(case, geom, c)[2])
+        if d_arr > d_reach * (1.0 + 1e-6):
+            out.append(f"Bubbles that stall: confined bubbles smaller than {d_arr * 1e3:.4g} mm (reach diameter "
+                       f"{d_reach * 1e3:.4g} mm) are held back by buoyancy before the open side and never arrive "
+                       f"(migration time infinite); they count as carried through.")
+    if bo >= 1.0:
+        out.append(f"Bond number (rho_L - rho_G) g S^2 / sigma = {bo:.3g} >= 1 on the depth S = "
+                   f"{geom.depth * 1e3:.4g} mm: the liquid's own free surface is shaped by gravity (Brauner 1990); "
+                   f"the capillary models are outside their range, and the lines using the bubble size are "
+                   f"flagged where the bubble Bond number exceeds {BUBBLE_BOND_LIMIT:g}.")
     return out
 
 
@@ -816,17 +1291,24 @@ class _CornerModel(BoundaryModel):
             out.append(LinePiece(x0, x1, lambda t, r=r: (10.0 ** t, r * 10.0 ** t)))
         return out
 
-    # -- validity: squeezing law at the injector ---------------------------------------------
+    # -- validity: squeezing law at the injector; bubble Bond number with buoyancy -------------
     def validity_mask(self, case, ql, qg, **consts):
+        """True where the sub-models hold: the squeezing law at the injector (liquid capillary number <=
+        :data:`SQUEEZING_CA_MAX`) and, when the case states an orientation (buoyancy on the chart), the bubble
+        Bond number (:func:`bubble_bond_number`) <= :data:`BUBBLE_BOND_LIMIT`."""
         ql, qg = positive_flows(ql, qg)
         mask = np.isfinite(ql) & np.isfinite(qg)
         if _C_BUBBLE.name not in {k.name for k in self.constants}:
             return mask
         c = self._c(consts) if consts else self.defaults
-        if c["bubble_diameter_ratio"] > 0:
-            return mask
         geom = corner_geometry(case)
         if geom.reason is not None:
+            return mask
+        o = getattr(case, "orientation", None)
+        if o is not None and o.is_known:
+            with np.errstate(all="ignore"):
+                mask = mask & (_bubble_bond(case, geom, qg / ql, c) <= BUBBLE_BOND_LIMIT)
+        if c["bubble_diameter_ratio"] > 0:
             return mask
         w = c["injector_width_ratio"] * geom.depth
         f = case.fluid
@@ -835,7 +1317,8 @@ class _CornerModel(BoundaryModel):
 
 
 _SQUEEZE_NOTE = (f"squeezing law: liquid capillary number in the injector channel <= {SQUEEZING_CA_MAX:g}, from "
-                 f"memory")
+                 f"memory; with an orientation given, bubble Bond number (rho_L - rho_G) g d^2/sigma <= "
+                 f"{BUBBLE_BOND_LIMIT:g} (Brauner 1990)")
 
 
 class CornerConfinement(_CornerModel):
@@ -972,8 +1455,13 @@ class CornerSeparation(_CornerModel):
         ql, qg, r = _ratio(ql, qg)
         *_, d_eff = _sizes(geom, r, c)
         t = _t_mig(case, geom, d_eff, c)
+        q = _drift(case, geom, d_eff, c)
         with np.errstate(divide="ignore", invalid="ignore"):
-            out = np.log(np.maximum(c["safety_factor"] * t, 1e-300) * (ql + qg) / (case.length * geom.area))
+            if q is None:
+                out = np.log(np.maximum(c["safety_factor"] * t, 1e-300) * (ql + qg) / (case.length * geom.area))
+            else:
+                travel = np.maximum(c["safety_factor"] * t * ((ql + qg) / geom.area + q), 1e-300)
+                out = np.where(np.isinf(t), np.inf, np.log(travel / case.length))
         out = np.where(np.isnan(t), np.nan, out)
         return float(out) if np.ndim(out) == 0 else out
 
@@ -981,12 +1469,22 @@ class CornerSeparation(_CornerModel):
         c = self._c(consts)
         geom = corner_geometry(case)
         lo, hi = self._r_range(case)
-        logd_reach = math.log(max(geom.path.reach_diameter(c["injection_position"], c["confinement_ratio"]), 1e-300))
+        logd_reach = math.log(max(_table_for(case, geom, c)[2], 1e-300))       # reach or stall diameter
         d_touch = 2.0 * float(np.interp(c["injection_position"] * geom.depth, geom.path.s, geom.path.open_distance))
+
+        drifts = _a_z(case) != 0.0
 
         def reach(x):
             *_, d_eff = _sizes(geom, 10.0 ** np.asarray(x, dtype=float), c)
-            return np.minimum(np.log(d_eff) - logd_reach, math.log(d_touch) - np.log(d_eff))
+            out = np.minimum(np.log(d_eff) - logd_reach, math.log(d_touch) - np.log(d_eff))
+            if drifts:               # the line exists while the migration outruns the drift: l/(s_f t) > q
+                with np.errstate(all="ignore"):
+                    t = _t_mig(case, geom, d_eff, c)
+                    u = case.length / (c["safety_factor"] * t)
+                    q = _drift(case, geom, d_eff, c)
+                    cond = np.where(q > 0, np.log(u / np.where(q > 0, q, 1.0)), np.inf)
+                    out = np.where(np.isnan(cond), out, np.minimum(out, cond))
+            return out
         ends = [lo] + [x for x, _ in _roots(reach, lo, hi)] + [hi]
         kinks = tuple(x for x, _ in _roots(CORNER_MERGING._phi(case, c), lo, hi))
         out = []
@@ -1008,10 +1506,18 @@ class OpenChannelIngestion(_CornerModel):
     .. math:: g = \ln\frac{(1 + \phi r)\, Q_L}{Q_\mathrm{crit}(\rho_m)}, \qquad
               \rho_m = \frac{\rho_L + \phi r \rho_G}{1 + \phi r}
 
-    :math:`Q_\mathrm{crit}` from :func:`lowgmap.physics.models.open_channel.critical_flow_rate` for the section's
-    open-channel model (:func:`open_channel_of`), the conduit length and the liquid viscosity,
-    tabulated once per case over the mixture density. :math:`\phi` (``gas_effect``) = 1 loads the
-    channel with the no-slip mixture (volume flow Q_L + Q_G, density rho_m); 0 with the liquid alone.
+    :math:`Q_\mathrm{crit}` is the critical flow rate of the section's open-channel model
+    (:func:`open_channel_of`) for the conduit length and the liquid viscosity, from its similarity curve
+    (:func:`lowgmap.physics.models.open_channel.surrogate.critical_flow_rates`, one interpolation per mixture
+    density; under the exact switch the root search of
+    :func:`lowgmap.physics.models.open_channel.critical_flow_rate` tabulated once per case over the mixture
+    density). :math:`\phi` (``gas_effect``) = 1 loads the channel with the no-slip mixture (volume flow
+    Q_L + Q_G, density rho_m); 0 with the liquid alone.
+
+    With the case's orientation given, the share of g along the axis, g_a = g sin(beta) (against the flow:
+    > 0 in upward flow), adds the hydrostatic term of the one-dimensional model: the line falls in upward
+    flow and rises in downward flow (:func:`ingestion_liquid_flow`). The share across the axis bends the free
+    surface; where its Bond number (:func:`transverse_bond`) exceeds 0.1 the line is flagged.
 
     When the open channel cannot hold liquid below the gas pressure (:func:`meniscus_state`; for a
     V-groove or wedge the Concus–Finn condition of the apex fails) the critical flow is 0: every flow
@@ -1040,8 +1546,17 @@ class OpenChannelIngestion(_CornerModel):
         return None
 
     def validity_mask(self, case, ql, qg, **consts):
+        """True where the open-channel model holds: with the case's orientation given, the whole line is flagged
+        when the transverse Bond number of the channel (:func:`transverse_bond`) exceeds
+        :data:`~lowgmap.physics.models.open_channel.TRANSVERSE_BOND_LIMIT` (gravity across the channel bends the
+        free surface, which the model takes as circular arcs)."""
+        from lowgmap.physics.models.open_channel import TRANSVERSE_BOND_LIMIT
+
         ql, qg = positive_flows(ql, qg)
-        return np.isfinite(ql) & np.isfinite(qg)
+        mask = np.isfinite(ql) & np.isfinite(qg)
+        if transverse_bond(case) > TRANSVERSE_BOND_LIMIT:
+            mask = np.zeros_like(mask)
+        return mask
 
     def _ln_f(self, case, c, r):
         with np.errstate(all="ignore"):
@@ -1064,9 +1579,14 @@ class OpenChannelIngestion(_CornerModel):
             return 0.0, "no_hold"
         f = case.fluid
         ch = open_channel_of(case.section, case.wetting.contact_angle)
-        lr, lq, _, lim = _qcrit_table(ch, float(case.length), f.rho_l, f.rho_g, f.mu_l, f.sigma,
-                                      float(c["entrance_loss"]), c["gas_effect"] > 0)
-        return math.exp(lq[-1]), lim[-1]
+        g_ax = _axial_gravity(case)
+        q = float(_q_crit(case, f.rho_l, c))
+        if g_ax != 0.0 or not _uses_similarity(ch):
+            return q, _case_table(case, ch, c, g_ax)[3][-1]
+        from lowgmap.physics.models.open_channel.surrogate import critical_flow_rates
+
+        return q, str(critical_flow_rates(ch, float(case.length), f.rho_l, f.mu_l, f.sigma,
+                                          K_e=float(c["entrance_loss"]))[1])
 
     def line_pieces(self, case, **consts):
         c = self._c(consts)
@@ -1104,7 +1624,7 @@ CORNER_SEPARATION = register(CornerSeparation(
     "corner_separation", "separation (migration time = residence time)",
     _COMPOSITION + _SIZE_CITE + _MIG_CITE + "corner wetting: " + CONCUS_FINN_1969,
     "separated within the conduit", "carried out of the conduit",
-    (*_SIZE, _C_INJ, _C_CONF, _C_MERGE, _C_CAP, _C_HS, _C_FILM, _C_FORM, _C_SF),
+    (*_SIZE, _C_INJ, _C_CONF, _C_MERGE, _C_CAP, _C_HS, _C_FILM, _C_FORM, _C_SF, _C_ROLL),
     "Quasi-steady force balance on a squeezed bubble: capillary push against Hele-Shaw, wetting-film and form "
     "drag; the bubble moves with the mean liquid speed along the conduit. Uncertain constants: c_cap, "
     "c_HS, c_f, C_D."))
@@ -1136,7 +1656,10 @@ OPEN_CHANNEL_INGESTION = register(OpenChannelIngestion(
     "free surface held", "free-surface collapse, gas drawn into the outlet",
     (_C_KE, _C_GAS),
     "Steady one-dimensional open-channel model (lowgmap.physics.models.open_channel) for the conduit length, loaded with the "
-    "liquid or the no-slip bubbly mixture."))
+    "liquid or the no-slip bubbly mixture; with the orientation given, the share of g along the axis enters its "
+    "momentum balance (hydrostatic term)."))
+OPEN_CHANNEL_INGESTION.validity_note = ("with an orientation given, transverse Bond number (rho_L - rho_G) g_perp L^2/"
+                                        "sigma <= 0.1 (circular-arc free surface; common practice, no source)")
 
 #: Registry names of the family, in the scheme's order.
 CORNER_MODEL_NAMES = SCHEME.members

@@ -43,6 +43,18 @@ residual acceleration g, low-g duration):
    observed regime (else the nearest boundary of its predicted regime), with its log distance from
    :func:`lowgmap.physics.chart.margins.point_margins`.
 
+3. **Each point on the chart of its own gravity level** (issue: ground test vs flight). When the case states
+   the conduit's orientation (:class:`lowgmap.physics.case.Orientation`: the buoyancy-inclusive models are on
+   the chart), the gravity level of a point (its own residual acceleration, else its platform's) is an input
+   of the chart, not a reason to set the point aside: the points are grouped by equal gravity level, one chart
+   is built per level with the case's models (:func:`chart_at_gravity`, the public chart builder
+   :func:`lowgmap.physics.chart.composition.build_chart`), and each point is classified, given its margin and
+   its blamed boundary on the chart of its level; ``PointCheck.chart_g`` reports the level used. The Bond
+   number is still reported but no longer makes a point invalid (a 1-g ground-test point is valid on the 1-g
+   chart); the low-g time check still applies. When the orientation is unspecified (the low-gravity chart), the
+   rule above holds: the Bond-number check sets high-g points aside and every point is classified on the
+   case's chart.
+
 All flows are volumetric at local conditions [m^3/s], times in s, accelerations in m/s^2.
 """
 from __future__ import annotations
@@ -60,7 +72,7 @@ from lowgmap.physics.validate import positive
 __all__ = [
     "ValidityCriteria", "PointValidity", "point_validity", "map_regimes", "ConfusionMatrix", "confusion_matrix",
     "PointCheck", "Disagreement", "BoundaryDisagreements", "Agreement", "agreement", "point_arrays",
-    "BRAUNER_1990",
+    "BRAUNER_1990", "chart_at_gravity", "per_point_gravity",
 ]
 
 BRAUNER_1990 = ("N. Brauner, \"On the relations between two-phase flows under reduced gravity and earth "
@@ -271,11 +283,25 @@ def _corner_migration(chart, case, ql, qg):
                                    sigma=f.sigma, contact_angle=geom.contact_angle,
                                    capillary_coefficient=consts["capillary_coefficient"],
                                    hele_shaw_drag=consts["hele_shaw_drag"], film_drag=consts["film_drag"],
-                                   form_drag=consts["form_drag"])
+                                   form_drag=consts["form_drag"], rho_gas=f.rho_g,
+                                   buoyancy_acceleration=cm.migration_buoyancy(case, **consts))
     return t
 
 
-def point_validity(case, points, criteria: ValidityCriteria | None = None, *, chart=None) -> PointValidity:
+def per_point_gravity(case) -> bool:
+    """True when the case states an orientation: each point then goes on the chart of its own gravity level.
+
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.case import Orientation
+    >>> per_point_gravity(example_case()), per_point_gravity(example_case(orientation=Orientation.vertical_up()))
+    (False, True)
+    """
+    o = getattr(case, "orientation", None)
+    return bool(o is not None and o.is_known)
+
+
+def point_validity(case, points, criteria: ValidityCriteria | None = None, *, chart=None,
+                   own_gravity: bool = False) -> PointValidity:
     r"""Whether each test point can support a conclusion: Bond number and low-g time (see the module notes).
 
     .. math:: Bo = \frac{\Delta\rho\, g\, L^2}{\sigma} < Bo_\mathrm{max}, \qquad
@@ -288,6 +314,9 @@ def point_validity(case, points, criteria: ValidityCriteria | None = None, *, ch
     points : table         see :func:`point_arrays`
     criteria : ValidityCriteria, optional
     chart : Chart, optional   when it has corner models, the bubble migration time is included
+    own_gravity : bool        each point is judged on the chart of its own gravity level
+                              (:func:`per_point_gravity`): the Bond number is reported but does not make the
+                              point invalid, and the migration time uses the point's gravity level
 
     Returns
     -------
@@ -333,14 +362,21 @@ def point_validity(case, points, criteria: ValidityCriteria | None = None, *, ch
     t_cap = max(float(tc.inertial), float(tc.viscous))
     t_mig = np.full(n, np.nan)
     if chart is not None and n:
-        got = _corner_migration(chart, case, np.where(flows_ok, ql, np.nan), np.where(flows_ok, qg, np.nan))
-        if got is not None:
-            t_mig = np.asarray(got, dtype=float)
+        qlm, qgm = np.where(flows_ok, ql, np.nan), np.where(flows_ok, qg, np.nan)
+        if own_gravity:
+            for level, idx in _levels(g, case.g):
+                got = _corner_migration(chart, case.with_(g=level), qlm[idx], qgm[idx])
+                if got is not None:
+                    t_mig[idx] = np.asarray(got, dtype=float)
+        else:
+            got = _corner_migration(chart, case, qlm, qgm)
+            if got is not None:
+                t_mig = np.asarray(got, dtype=float)
     with np.errstate(invalid="ignore"):
         t_flow = np.where(np.isfinite(t_mig), np.fmax(t_tr, t_mig), t_tr)
         t_req = crit.capillary_multiple * t_cap + t_flow
         time_ok = crit.safety_factor * t_req <= dur
-        bo_ok = bo < crit.bond_max
+        bo_ok = (bo < crit.bond_max) | bool(own_gravity)
     reasons = []
     for i in range(n):
         why = []
@@ -367,6 +403,48 @@ def point_validity(case, points, criteria: ValidityCriteria | None = None, *, ch
     valid = np.array([not r for r in reasons], dtype=bool)
     return PointValidity(g, g_from, dur, d_from, bo, t_tr, np.full(n, t_cap), t_mig, t_req, valid, tuple(reasons),
                          L, l_obs, crit)
+
+
+def _levels(g, default_g):
+    """[(gravity level, indices)] of the points: equal values of g grouped (unknown g: ``default_g``)."""
+    g = np.asarray(g, dtype=float)
+    used = np.where(np.isfinite(g), g, float(default_g))
+    out = []
+    for level in dict.fromkeys(used.tolist()):
+        out.append((float(level), np.flatnonzero(used == level)))
+    return out
+
+
+def chart_at_gravity(chart, g: float):
+    """The chart of the same case and lines at the residual acceleration ``g`` [m/s^2].
+
+    The chart itself when ``g`` is its case's. Otherwise :func:`lowgmap.physics.chart.composition.build_chart`
+    of ``chart.case.with_(g=g)``: with the section's default models when the chart uses only those (so the
+    hand-over between the low-gravity and the buoyancy-inclusive families follows the gravity level), else
+    with the chart's own (model, constants) pairs.
+
+    Examples
+    --------
+    >>> from lowgmap.physics.chart.composition import build_chart
+    >>> from lowgmap.physics.case import Orientation
+    >>> from lowgmap.physics.examples import example_case
+    >>> from lowgmap.physics.geometry.sections import Circle
+    >>> flight = build_chart(example_case(Circle(0.0127), g=1e-6 * 9.80665, orientation=Orientation.vertical_up()))
+    >>> ground = chart_at_gravity(flight, 9.80665)
+    >>> ground.case.g, ground.region_models[0][0].name
+    (9.80665, 'bubble_slug_taitel_1980')
+    """
+    from lowgmap.physics.chart.composition import build_chart, default_models
+
+    g = float(g)
+    if g == float(chart.case.g):
+        return chart
+    case = chart.case.with_(g=g)
+    pairs = list(getattr(chart, "region_models", ())) + list(getattr(chart, "comparison_models", ()))
+    names = {m.name for m, _ in pairs}
+    if not chart.case.models and names <= set(default_models(chart.case)) | set(default_models(case)):
+        return build_chart(case)
+    return build_chart(case, [(m, dict(c)) for m, c in pairs])
 
 
 # =============================================================================================
@@ -489,7 +567,8 @@ class PointCheck:
 
     Flows [m^3/s], g [m/s^2], times [s], ``margin`` the symmetric margin of the point in its predicted
     regime (fraction, :func:`lowgmap.physics.chart.margins.symmetric_margins`), ``log_distance`` [decade] to
-    ``boundary`` (disagreeing points only).
+    ``boundary`` (disagreeing points only); ``chart_g`` the gravity level [m/s^2] of the chart the point was
+    classified on (its own level when the case states an orientation, else the case's).
     """
 
     index: int
@@ -520,6 +599,7 @@ class PointCheck:
     boundary_label: str | None = None
     log_distance: float | None = None
     crossing_explains: bool | None = None
+    chart_g: float = math.nan
 
     def to_dict(self) -> dict:
         def num(x):
@@ -527,10 +607,11 @@ class PointCheck:
         d = {k: getattr(self, k) for k in self.__dataclass_fields__}
         d["reasons"], d["notes"] = list(self.reasons), list(self.notes)
         for k in ("ql", "qg", "g", "duration", "bond", "t_transit", "t_capillary", "t_migration", "t_required",
-                  "margin", "log_distance"):
+                  "margin", "log_distance", "chart_g"):
             d[k] = num(d[k])
         d["ql_m3_s"], d["qg_m3_s"] = d.pop("ql"), d.pop("qg")
         d["g_m_s2"], d["duration_s"] = d.pop("g"), d.pop("duration")
+        d["chart_g_m_s2"] = d.pop("chart_g")
         return d
 
 
@@ -574,6 +655,9 @@ class Agreement:
     criteria : ValidityCriteria
     regime_map : tuple of (str, str)
     length_scale, observation_length : float   [m]
+    chart : Chart              the chart passed in
+    level_charts : tuple of (float, Chart)   the chart of each gravity level used [m/s^2] (one entry, the chart
+                               passed in, when the orientation is unspecified)
     """
 
     points: tuple
@@ -589,6 +673,36 @@ class Agreement:
     length_scale: float = math.nan
     observation_length: float = math.nan
     chart: object = field(default=None, repr=False, compare=False)
+    level_charts: tuple = field(default=(), repr=False, compare=False)
+
+    @property
+    def gravity_levels(self) -> tuple:
+        """Gravity levels [m/s^2] of the charts the points were classified on, in order of first use."""
+        return tuple(g for g, _ in self.level_charts)
+
+    @property
+    def own_gravity(self) -> bool:
+        """True when each point was classified on the chart of its own gravity level (:func:`per_point_gravity`)."""
+        case = getattr(self.chart, "case", None)
+        return case is not None and per_point_gravity(case)
+
+    @property
+    def validity_rule(self) -> str:
+        """The rule that made each point valid or not, in one sentence (the one wording every view prints).
+
+        With the points on the charts of their own gravity levels the Bond number is reported but does not
+        decide validity (the buoyancy-inclusive lines account for gravity); otherwise it must be below
+        ``bond_max`` (Brauner 1990).
+        """
+        c = self.criteria
+        if self.own_gravity:
+            bond = (f"each point is classified on the chart of its own gravity level (the Bond number on "
+                    f"L = {self.length_scale * 1e3:.4g} mm is reported, not a condition)")
+        else:
+            bond = f"the Bond number on L = {self.length_scale * 1e3:.4g} mm is below {c.bond_max:g} (Brauner 1990)"
+        return (f"A point is valid when {bond} and the low-g time is at least {c.safety_factor:g} × the time the "
+                f"flow needs (capillary settling × {c.capillary_multiple:g} + transit over "
+                f"{self.observation_length:.4g} m; factors: common practice, no source).")
 
     @property
     def n_points(self) -> int:
@@ -614,6 +728,7 @@ class Agreement:
             "by_boundary": [b.to_dict() for b in self.by_boundary],
             "criteria": self.criteria.to_dict(), "regime_map": dict(self.regime_map),
             "length_scale_m": self.length_scale, "observation_length_m": self.observation_length,
+            "gravity_levels_m_s2": list(self.gravity_levels),
             "points": [p.to_dict() for p in self.points],
         }
 
@@ -718,39 +833,62 @@ def agreement(chart, points, *, regime_map: Mapping[str, str] | None = None,
     d = point_arrays(points)
     ql, qg = d["ql_m3_s"], d["qg_m3_s"]
     n = ql.size
-    regimes = tuple(chart.regime_names)
+    own = per_point_gravity(chart.case)
+    val = point_validity(chart.case, d, crit, chart=chart, own_gravity=own)
+    # one chart per gravity level (own gravity), else the chart passed in for every point
+    groups = _levels(val.g, chart.case.g) if own else [(float(chart.case.g), np.arange(n))]
+    level_charts = []
+    chart_of = np.zeros(n, dtype=int)
+    for k, (level, idx) in enumerate(groups):
+        level_charts.append((level, chart_at_gravity(chart, level) if own else chart))
+        chart_of[idx] = k
+    regimes = tuple(dict.fromkeys(r for _, ch in level_charts for r in ch.regime_names)) if level_charts \
+        else tuple(chart.regime_names)
     observed = map_regimes(d["observed_regime"], regime_map, regimes)
-    val = point_validity(chart.case, d, crit, chart=chart)
-    predicted = np.asarray(chart.classify(ql, qg)).astype(str).reshape(-1) if n else np.array([], dtype=str)
-    if n:
-        margin, _, _ = symmetric_margins(chart, ql, qg)
-        margin = np.asarray(margin, dtype=float).reshape(-1)
-    else:
-        margin = np.array([])
-    notes = _model_notes(chart, ql, qg) if n else []
-    fr = chart.case.flow_range
+    predicted = np.array([""] * n, dtype=object)
+    margin = np.full(n, np.nan)
+    notes: list = [[] for _ in range(n)]
+    for k, (_, ch) in enumerate(level_charts):
+        idx = np.flatnonzero(chart_of == k)
+        if not idx.size:
+            continue
+        predicted[idx] = np.asarray(ch.classify(ql[idx], qg[idx])).astype(str).reshape(-1)
+        m, _, _ = symmetric_margins(ch, ql[idx], qg[idx])
+        margin[idx] = np.asarray(m, dtype=float).reshape(-1)
+        for j, note in zip(idx.tolist(), _model_notes(ch, ql[idx], qg[idx])):
+            notes[j] = note
+    predicted = predicted.astype(str) if n else np.array([], dtype=str)
     checks = []
     for i in range(n):
+        level, ch = level_charts[chart_of[i]]
+        fr = ch.case.flow_range
         obs = observed[i]
-        comparable = bool(obs) and obs in regimes
+        comparable = bool(obs) and obs in ch.regime_names
         note = list(notes[i])
         if not obs:
             note.insert(0, "no observed regime")
-        elif not comparable:
+        elif obs not in regimes:
             note.insert(0, f"observed regime {obs!r} is not a regime of this chart (add it to the regime map)")
+        elif not comparable:
+            note.insert(0, f"observed regime {obs!r} is not a regime of the chart at its gravity level "
+                           f"({level:.4g} m/s^2)")
+        if own:
+            note.append(f"classified on the chart at its own gravity level, {level:.4g} m/s^2 "
+                        f"({level / _G0:.3g} g0)")
         if not (fr.ql_min <= ql[i] <= fr.ql_max and fr.qg_min <= qg[i] <= fr.qg_max):
             note.append("outside the chart range (the lines are extended)")
         agrees = (obs == predicted[i]) if comparable else None
         blame = (None, None, None, None)
         if agrees is False and ql[i] > 0 and qg[i] > 0:
-            blame = _blame(chart, float(ql[i]), float(qg[i]), obs)
+            blame = _blame(ch, float(ql[i]), float(qg[i]), obs)
         row = d["row"][i]
         checks.append(PointCheck(
             i, str(d["test_id"][i]), int(row) if np.isfinite(row) else None, float(ql[i]), float(qg[i]),
             str(d["observed_regime"][i]), obs, str(predicted[i]), str(d["platform"][i]),
             float(val.g[i]), str(val.g_from[i]), float(val.duration[i]), str(val.duration_from[i]), float(val.bond[i]),
             float(val.t_transit[i]), float(val.t_capillary[i]), float(val.t_migration[i]), float(val.t_required[i]),
-            bool(val.valid[i]), val.reasons[i], tuple(note), comparable, agrees, float(margin[i]), *blame))
+            bool(val.valid[i]), val.reasons[i], tuple(note), comparable, agrees, float(margin[i]), *blame,
+            chart_g=float(level)))
     valid = np.array([c.valid for c in checks], dtype=bool)
     obs_arr = np.array(observed, dtype=object)
     cm_all = confusion_matrix(obs_arr, predicted, regimes)
@@ -759,17 +897,19 @@ def agreement(chart, points, *, regime_map: Mapping[str, str] | None = None,
     for o in observed:
         if o and o not in regimes:
             unknown[o] = unknown.get(o, 0) + 1
-    groups: dict[str, list] = {}
+    by_name: dict[str, list] = {}
     labels: dict[str, str] = {}
     for c in checks:
         if c.agrees is False and c.boundary is not None:
-            groups.setdefault(c.boundary, []).append(
+            by_name.setdefault(c.boundary, []).append(
                 Disagreement(c.test_id, c.observed, c.predicted, c.valid, c.log_distance, bool(c.crossing_explains)))
-            labels[c.boundary] = c.boundary_label
-    order = [m.name for m, _ in chart.region_models]
+            labels[c.boundary] = c.boundary_label or c.boundary
+    order = list(dict.fromkeys(m.name for _, ch in level_charts for m, _ in ch.region_models))
     by_boundary = tuple(
-        BoundaryDisagreements(name, labels[name], tuple(sorted(groups[name], key=lambda p: (p.log_distance or 0.0))))
-        for name in sorted(groups, key=lambda k: order.index(k) if k in order else len(order)))
+        BoundaryDisagreements(name, labels[name], tuple(sorted(by_name[name], key=lambda p: (p.log_distance or 0.0))))
+        for name in sorted(by_name, key=lambda k: order.index(k) if k in order else len(order)))
     rmap = tuple(sorted((str(k), str(v)) for k, v in (regime_map or {}).items()))
+    used = tuple((lv, ch) for k, (lv, ch) in enumerate(level_charts) if (chart_of == k).any()) or \
+        ((float(chart.case.g), chart),)
     return Agreement(tuple(checks), regimes, tuple(unknown.items()), cm_valid, cm_all, cm_valid.fraction,
-                     cm_all.fraction, by_boundary, crit, rmap, val.length_scale, val.observation_length, chart)
+                     cm_all.fraction, by_boundary, crit, rmap, val.length_scale, val.observation_length, chart, used)

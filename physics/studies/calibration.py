@@ -74,7 +74,8 @@ from typing import Mapping
 
 import numpy as np
 
-from lowgmap.physics.studies.agreement import ValidityCriteria, agreement, map_regimes, point_arrays, point_validity
+from lowgmap.physics.studies.agreement import (ValidityCriteria, agreement, map_regimes, per_point_gravity, point_arrays,
+                                               point_validity)
 from lowgmap.physics.models.boundary import PowerLawBoundary, with_case_bands
 from lowgmap.physics.chart.composition import CHAIN
 
@@ -679,6 +680,10 @@ def _case_band_overrides(case, model_name):
 # =============================================================================================
 # common preparation
 
+#: Relative tolerance within which a test point's residual acceleration counts as the chart's own gravity
+#: level when the case states an orientation (a choice: equal values up to rounding of the unit conversion).
+GRAVITY_LEVEL_RTOL = 1e-9
+
 def _labelled(chart, points, regime_map, criteria, use, regimes=None):
     """(arrays, mask of the points used, observed regime index) for the fit."""
     if use not in ("valid", "all"):
@@ -686,9 +691,15 @@ def _labelled(chart, points, regime_map, criteria, use, regimes=None):
     d = point_arrays(points)
     regimes = tuple(regimes if regimes is not None else chart.regime_names)
     obs = map_regimes(d["observed_regime"], regime_map, regimes)
-    val = point_validity(chart.case, d, criteria, chart=chart)
+    own = per_point_gravity(chart.case)
+    val = point_validity(chart.case, d, criteria, chart=chart, own_gravity=own)
     with np.errstate(invalid="ignore"):
         flows = np.isfinite(d["ql_m3_s"]) & np.isfinite(d["qg_m3_s"]) & (d["ql_m3_s"] > 0) & (d["qg_m3_s"] > 0)
+        if own:
+            # buoyancy-inclusive chart: a point observed at another gravity level lies on another chart
+            # (agreement.chart_at_gravity), so only points at this chart's own level fit its constants
+            g_used = np.where(np.isfinite(val.g), val.g, chart.case.g)   # as agreement groups the levels
+            flows &= np.isclose(g_used, chart.case.g, rtol=GRAVITY_LEVEL_RTOL, atol=0.0)
     known = np.array([o in regimes for o in obs], dtype=bool) & flows
     mask = known & (val.valid if use == "valid" else True)
     idx = np.array([regimes.index(o) if o in regimes else -1 for o in obs], dtype=int)

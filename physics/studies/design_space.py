@@ -16,14 +16,17 @@ import itertools
 import math
 import threading
 from collections import OrderedDict
-from dataclasses import fields, replace
+from dataclasses import dataclass, fields, replace
 from typing import Mapping, Sequence
+
+import numpy as np
 
 from lowgmap.physics.case import ModelChoice, OperatingPoint
 from lowgmap.physics.validate import InputError, angle_deg_in_range, finite, positive
 
 __all__ = ["VARIABLES", "FLUID_KEYS", "MAX_DESIGNS", "MAX_VALUES", "grid", "zipped", "check_key", "variable_unit",
-           "check_flow_range", "fluid_from_spec", "default_fluid_spec", "model_choices", "apply_changes"]
+           "check_flow_range", "fluid_from_spec", "default_fluid_spec", "model_choices", "apply_changes",
+           "DesignMap", "adaptive_map"]
 
 #: Most designs of one sweep: the product of the value counts of a grid, the common length of paired values.
 MAX_DESIGNS = 100_000
@@ -416,3 +419,178 @@ def _with_constants(case, items: Mapping):
             if not hit:
                 raise ValueError(f"{key}: no model on this case's chart has a constant {const!r}")
     return case.with_(models=tuple(ModelChoice.of(n, p) for n, p in zip(names, params)))
+
+
+# =============================================================================================
+# Margin map over two inputs, refined near the zero-margin contour
+
+@dataclass(frozen=True)
+class DesignMap:
+    """Signed margins of designs over two inputs, refined where the margin changes sign.
+
+    Attributes
+    ----------
+    x_name, y_name : str   the two inputs (keys of :data:`VARIABLES` or ``section.<field>`` ...)
+    x, y : arrays          input values of every evaluated design [SI]
+    margin : array         signed symmetric margin at the operating point (fraction; negative outside the
+                           intended regime; NaN where the design failed)
+    regime : str           the intended regime the margins refer to
+    current : (float, float, float)   the base case's (x, y, margin): an evaluated design of the map
+    levels : array of int  refinement level of each design (0: the starting grid)
+    """
+
+    x_name: str
+    y_name: str
+    x: np.ndarray
+    y: np.ndarray
+    margin: np.ndarray
+    regime: str
+    current: tuple
+    levels: np.ndarray
+
+    def to_frame(self):
+        """The designs as a pandas DataFrame (x_name, y_name, margin, level)."""
+        import pandas as pd
+
+        return pd.DataFrame({self.x_name: self.x, self.y_name: self.y, "margin": self.margin, "level": self.levels})
+
+
+def _axis_nodes(lo: float, hi: float, n: int, log: bool, current: float | None) -> np.ndarray:
+    t = np.linspace(0.0, 1.0, n)
+    nodes = np.exp(np.log(lo) + t * (np.log(hi) - np.log(lo))) if log else lo + t * (hi - lo)
+    if current is not None and lo <= current <= hi:
+        i = int(np.argmin(np.abs(nodes - current)))
+        nodes[i] = current                          # the current design is a node of the map
+        nodes = np.unique(nodes)
+    return nodes
+
+
+def adaptive_map(base, x_name: str, x_range, y_name: str, y_range, *, n_max: int = 400, start: int = 9,
+                 regime: str | None = None, log_x: bool = False, log_y: bool = False, evaluate=None,
+                 **sweep_options) -> DesignMap:
+    r"""Margin map over two inputs: a coarse grid refined where the margin changes sign.
+
+    .. math:: m(x, y) = \pm\max\{m : [(1-m)Q_L, (1+m)Q_L] \times [(1-m)Q_G, (1+m)Q_G] \subset R\}
+
+    A ``start`` x ``start`` grid (with the base case's own values as nodes, so the current design is a
+    design of the map) is evaluated; then every cell whose corners do not all have the same sign of the
+    margin (or where one failed) is split in four, smallest level first within the remaining budget, until
+    no such cell is left or ``n_max`` designs are used. The zero contour (and the required-margin contour
+    when asked for) is then resolved to the final cell size instead of being interpolated across a line.
+
+    Parameters
+    ----------
+    base : Case
+    x_name, y_name : str   inputs (keys accepted by :func:`apply_changes`)
+    x_range, y_range : (float, float)   ranges [SI], low < high
+    n_max : int            most designs evaluated (default 400)
+    start : int            nodes a side of the starting grid (default 9)
+    regime : str, optional   intended regime (default: the case's, else the regime of the current design)
+    log_x, log_y : bool    geometric spacing (positive ranges only)
+    evaluate : callable, optional   ``evaluate(list of change dicts) -> array of signed margins``;
+        default: :func:`lowgmap.physics.studies.sweep.sweep` with ``sweep_options``
+    **sweep_options : passed to :func:`~lowgmap.physics.studies.sweep.sweep` (``fluid_spec``, ``client`` ...)
+
+    Returns
+    -------
+    DesignMap
+
+    Examples
+    --------
+    >>> from lowgmap.physics.examples import example_case
+    >>> case = example_case(point=(1e-5, 1e-6))
+    >>> fake = lambda designs: np.array([d["length"] - 1.0 for d in designs])   # zero contour at length 1
+    >>> m = adaptive_map(case, "length", (0.5, 2.0), "size", (0.005, 0.02), n_max=120, evaluate=fake)
+    >>> len(m.x) <= 120, m.current[:2] == (1.0, 0.01), int(m.levels.max()) > 0
+    (True, True, True)
+    """
+    from lowgmap.physics.studies.design import nominal_design_value
+
+    if not isinstance(n_max, int) or n_max < 4:
+        raise ValueError(f"n_max must be an integer >= 4, got {n_max!r}")
+    if not isinstance(start, int) or not 2 <= start <= 64:
+        raise ValueError(f"start must be an integer within [2, 64], got {start!r}")
+    ranges = []
+    for name, rng_, log in ((x_name, x_range, log_x), (y_name, y_range, log_y)):
+        lo, hi = (finite(name, v) for v in rng_)
+        if not lo < hi:
+            raise ValueError(f"{name}: range must be (low, high) with low < high, got ({lo:g}, {hi:g})")
+        if log and lo <= 0:
+            raise ValueError(f"{name}: a geometric range must be positive, got ({lo:g}, {hi:g})")
+        ranges.append((lo, hi))
+    xc, yc = nominal_design_value(base, x_name), nominal_design_value(base, y_name)
+    if regime is None:
+        regime = getattr(base, "intended_regime", "") or None
+    if evaluate is None:
+        from lowgmap.physics.studies.sweep import sweep
+
+        if regime is None:
+            from lowgmap.physics.chart.composition import build_chart
+
+            op = base.operating_point
+            if op is None:
+                raise ValueError("the case has no operating point: give one (the map measures its margin)")
+            regime = str(build_chart(base).classify(op.ql, op.qg))
+
+        def evaluate(designs):
+            df = sweep(base, designs, regime=regime, **sweep_options)
+            return df["margin"].to_numpy(dtype=float)
+
+    xs = _axis_nodes(*ranges[0], start, log_x, xc)
+    ys = _axis_nodes(*ranges[1], start, log_y, yc)
+    done: dict[tuple[float, float], tuple[float, int]] = {}
+
+    def run(points, level):
+        points = [p for p in dict.fromkeys(points) if p not in done][: max(n_max - len(done), 0)]
+        if not points:
+            return
+        vals = np.asarray(evaluate([{x_name: px, y_name: py} for px, py in points]), dtype=float)
+        for p, v in zip(points, vals):
+            done[p] = (float(v), level)
+
+    run([(float(a), float(b)) for b in ys for a in xs], 0)
+    cells = [((float(xs[i]), float(xs[i + 1])), (float(ys[j]), float(ys[j + 1])), 0)
+             for i in range(len(xs) - 1) for j in range(len(ys) - 1)]
+
+    def mid(a, b, log):
+        return float(math.sqrt(a * b)) if log else 0.5 * (a + b)
+
+    while len(done) < n_max:
+        flagged = []
+        for (x0, x1), (y0, y1), lev in cells:
+            corners = [done.get(p, (math.nan, 0))[0] for p in ((x0, y0), (x1, y0), (x0, y1), (x1, y1))]
+            signs = {(v > 0) for v in corners if not math.isnan(v)}
+            if len(signs) > 1 or (any(math.isnan(v) for v in corners) and signs):
+                flagged.append(((x0, x1), (y0, y1), lev))
+        if not flagged:
+            break
+        flagged.sort(key=lambda c: c[2])
+        new_cells, points = [], []
+        budget = n_max - len(done)
+        for (x0, x1), (y0, y1), lev in flagged:
+            xm, ym = mid(x0, x1, log_x), mid(y0, y1, log_y)
+            pts = [(xm, y0), (x0, ym), (xm, ym), (x1, ym), (xm, y1)]
+            fresh = [p for p in pts if p not in done and p not in points]
+            if len(fresh) > budget:
+                break
+            budget -= len(fresh)
+            points += fresh
+            new_cells.append(((x0, x1), (y0, y1), lev))
+        if not new_cells:
+            break
+        level = 1 + max(c[2] for c in new_cells)
+        run(points, level)
+        split = set(new_cells)
+        nxt = [c for c in cells if c not in split]
+        for (x0, x1), (y0, y1), lev in new_cells:
+            xm, ym = mid(x0, x1, log_x), mid(y0, y1, log_y)
+            nxt += [((x0, xm), (y0, ym), lev + 1), ((xm, x1), (y0, ym), lev + 1),
+                    ((x0, xm), (ym, y1), lev + 1), ((xm, x1), (ym, y1), lev + 1)]
+        cells = nxt
+    keys = list(done)
+    x = np.array([k[0] for k in keys])
+    y = np.array([k[1] for k in keys])
+    margin = np.array([done[k][0] for k in keys])
+    levels = np.array([done[k][1] for k in keys], dtype=int)
+    cur = (xc, yc, done[(xc, yc)][0]) if (xc, yc) in done else (xc, yc, math.nan)
+    return DesignMap(x_name, y_name, x, y, margin, regime or "", cur, levels)

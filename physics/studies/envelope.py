@@ -44,6 +44,7 @@ import numpy as np
 from lowgmap.physics.chart import lines as _lines
 from lowgmap.physics.chart import margins as _mg
 from lowgmap.physics.studies.design_space import check_flow_range
+from lowgmap.physics.surrogates import in_chart_solves
 
 __all__ = ["envelope_margin", "MarginBatch", "queue_point_margin", "queue_envelope_margin"]
 
@@ -173,6 +174,7 @@ def _rect_on(g, rect, r: int, batch: MarginBatch, finish) -> None:
     batch.add(lines, la, al, lb, be, done)
 
 
+@in_chart_solves
 def envelope_margin(chart, ql_range, qg_range, regime: str | None = None, *, grid_points: int = 9) -> dict:
     r"""Worst-case symmetric margin over an operating envelope (a rectangle of flow rates).
 

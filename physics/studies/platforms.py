@@ -1,8 +1,8 @@
 """Low-gravity test platforms: typical low-g time and residual acceleration, and capillary time scales.
 
 A built-in table :data:`PLATFORMS` gives, for each class of platform (short drop tower, drop tube,
-launched drop, parabolic flight, sounding rocket, orbital station), the low-gravity time of one
-experiment and the residual acceleration as ranges typical of the class. The figures are typical
+launched drop, parabolic flight, sounding rocket, orbital station, and the 1-g ground test), the
+low-gravity time of one experiment and the residual acceleration as ranges typical of the class. The figures are typical
 figures, entered from memory, not from a document in hand, and each row says so in ``source``. Rows
 describe classes of facility, never one facility (no facility names or heights): for a particular
 facility, name it in the test-point file and give each point its own residual acceleration and
@@ -13,7 +13,8 @@ Conventions
 - Accelerations are in m/s^2 (the table is stated in multiples of standard gravity
   g0 = 9.80665 m/s^2 and converted on import).
 - ``g_typical`` is the **upper end** of the stated range, so that a Bond number computed with it is
-  not underestimated (conservative for a "surface tension dominates" claim).
+  not underestimated (conservative for a "surface tension dominates" claim); for the ground test it is
+  standard gravity g0 (the test is not a low-gravity one, and its points are drawn on the 1-g chart).
 - ``duration_s`` is the low-g time used by default: the short end of the class's range (conservative
   for an "enough low-g time" check; for parabolic flight the usual longest parabola, so give each
   point's own duration); ``duration_max_s`` is the long end.
@@ -116,6 +117,13 @@ PLATFORMS: dict[str, Platform] = {p.name: p for p in (
        30 * 86400.0, math.inf, 1e-6, 1e-6,
        "continuous for months (30 days is used as a lower bound); ~1e-6 g is the quasi-steady level, "
        "vibration (g-jitter) is higher"),
+    Platform(name="ground test", aliases=("ground", "1 g", "laboratory", "ground loop"),
+             duration_s=30 * 86400.0, duration_max_s=math.inf, g_low=9.780, g_high=9.832, g_typical=_G0,
+             source="standard gravity g0 = 9.80665 m/s^2 (CGPM 1901, exact by definition); local gravity 9.780 "
+                    "(equator) to 9.832 m/s^2 (poles), from memory",
+             note="a ground test at 1 g: continuous (30 days is used as a lower bound); the residual acceleration "
+                  "used is g0, give the local value per point where known; its points belong on the chart of "
+                  "their own gravity level (a case with an orientation), not on a low-gravity chart"),
 )}
 
 

@@ -15,6 +15,7 @@ All flows are volumetric at local conditions [m^3/s].
 from __future__ import annotations
 
 import dataclasses
+import functools
 from dataclasses import dataclass
 
 from lowgmap.physics.chart.composition import Chart
@@ -40,12 +41,20 @@ class Study:
                                   (:func:`lowgmap.physics.chart.margins.envelope_check`)
     agreement : Agreement or None   test points against the chart
                                   (:func:`lowgmap.physics.studies.agreement.agreement`)
+    bands : tuple of Band or None   model-form band of every line (computed on first use, cached)
+    worst_case : WorstCaseMargins or None   nominal and worst-case margins of ``point`` over the
+                                  constants' bands (computed on first use, cached)
 
     Notes
     -----
     ``point`` may differ from ``case.operating_point`` after :meth:`with_point`: the study follows the
     point being examined, the case keeps the point written in the case file. The envelope check
     uses the rectangle's centre as its reference point, so it does not depend on ``point``.
+
+    The band results (:attr:`bands`, :attr:`worst_case`) are computed when a view first asks for
+    them and kept on the study (and per chart by :mod:`lowgmap.physics.chart.bands`), so the CLI, the
+    exports, the report and the dashboard read the same numbers. They cost little for the closed-tube
+    lines and tens of seconds for the corner family (bands and worst case each).
     """
 
     case: object
@@ -61,6 +70,38 @@ class Study:
         if self.point is None or not self.chart.regime_names:
             return None
         return str(self.chart.regime_at(*self.point))
+
+    @functools.cached_property
+    def has_bands(self) -> bool:
+        """True when some line of the chart has a constant with an uncertainty band of width > 0 (cheap)."""
+        from lowgmap.physics.chart.bands import chart_constant_bands
+
+        try:
+            per_line = chart_constant_bands(self.chart)
+        except ValueError:                       # a case band the models do not accept: no bands to show
+            return False
+        return any(b.high > b.low for bands in per_line.values() for b in bands)
+
+    @functools.cached_property
+    def bands(self):
+        """Band of every line of the chart (:func:`lowgmap.physics.chart.bands.chart_bands`), region lines
+        first; None when no line has a banded constant. Computed once, on first use."""
+        if not self.has_bands:
+            return None
+        from lowgmap.physics.chart.bands import chart_bands
+
+        return chart_bands(self.chart)
+
+    @functools.cached_property
+    def worst_case(self):
+        """Nominal and worst-case symmetric margins of the operating point over the bands of the constants
+        (:func:`lowgmap.physics.chart.bands.worst_case_margins`); None without margins or without banded
+        constants. Computed once, on first use."""
+        if self.margins is None or not self.has_bands:
+            return None
+        from lowgmap.physics.chart.bands import worst_case_margins
+
+        return worst_case_margins(self.chart, *self.point)
 
     def verdict(self, required_margin: float, intended_regime: str | None = None):
         """The verdict on the operating point, in words (:func:`lowgmap.physics.chart.margins.margin_verdict`).
@@ -140,6 +181,12 @@ def run_study(case, *, chart=None, points=None, regime_map=None, criteria=None, 
     >>> v = moved.verdict(0.3, "dispersed bubbles")
     >>> v.regime_status, v.margin_status
     ('NOT IN THE INTENDED REGIME', 'NOT MET')
+
+    The bands of the lines and the worst-case margin over them are computed on first use, then kept:
+
+    >>> wc = study.worst_case                                  # constants of the bounding lines over their bands
+    >>> round(wc.worst_case, 3), wc.limiting_boundary, wc.limiting_constant, wc is study.worst_case
+    (0.687, 'bubble_slug_dukler_1988', 'alpha_c', True)
     """
     if chart is None:
         chart = Chart.build(case)

@@ -3,8 +3,9 @@
 Starts `lowgmap serve` on a free port, then in Debian's Chromium:
 - the server's resident memory with 1 and with 10 open sessions (from /proc/<pid>/status);
 - the time from releasing a dragged operating point to the updated margin table (median of N drags);
-- the time from typing a flow rate (Enter) to the updated table.
-Prints medians; asserts nothing.
+- the time from typing a flow rate (Enter) to the updated table;
+- the size of the chart canvas and the page's scroll width at 1280x800 and 1600x1000.
+Prints medians and sizes; asserts nothing.
 """
 from __future__ import annotations
 
@@ -51,6 +52,19 @@ def main(n_drags: int = 15) -> None:
                 if i == 0:
                     one = rss_mb(proc.pid)
             ten = rss_mb(proc.pid)
+            sizes = []
+            for w, h in ((1280, 800), (1600, 1000)):
+                ctx = b.new_context(viewport={"width": w, "height": h})
+                sp = ctx.new_page()
+                sp.goto(url)
+                sp.locator(".margin-summary").first.wait_for(timeout=60_000)
+                boxes = [c.bounding_box() for c in sp.locator(".bk-Canvas").all()]
+                chart = max((bb for bb in boxes if bb), key=lambda bb: bb["width"] * bb["height"])
+                scroll = sp.evaluate("() => [document.scrollingElement.scrollWidth, "
+                                     "document.scrollingElement.clientWidth]")
+                sizes.append(f"{w}x{h}: chart {chart['width']:.0f}x{chart['height']:.0f} px, "
+                             f"scroll width {scroll[0]} of {scroll[1]} px")
+                ctx.close()
             pg = pages[0]
             release, typed = [], []
             for k in range(n_drags):
@@ -86,6 +100,8 @@ def main(n_drags: int = 15) -> None:
               f"(min {1e3 * min(release):.0f}, max {1e3 * max(release):.0f}, n={len(release)})")
         print(f"typed flow (Enter) -> updated margin table: median {1e3 * statistics.median(typed):.0f} ms "
               f"(n={len(typed)})")
+        for line in sizes:
+            print(f"page {line}")
     finally:
         proc.terminate()
         proc.wait(timeout=10)

@@ -8,9 +8,11 @@ Measured:
   target >= 1,000 designs/s;
 - corner case (sample_cases/wedge_separator.toml), in-process, after its tables are cached: a grid
   over residual acceleration and the injector width (inputs that leave the corner shape and the
-  conduit length alone); target >= 100 designs/s. The first chart of a corner shape builds the
-  open-channel tables (about 1.5 s) and each new conduit length a critical-flow table (about 0.3 s);
-  those one-off costs are measured separately;
+  conduit length alone); target >= 100 designs/s. The first chart of a corner shape takes its
+  open-channel tables from the shipped surrogates (about 0.1 s; 1.5 s with mesh solves) and each new
+  conduit length builds the corner family's critical-flow table (about 0.3-0.5 s while it runs 11 root
+  searches; one similarity-curve look-up once physics/models/corner.py uses
+  lowgmap.physics.models.open_channel.surrogate.critical_flow_rates); those one-off costs are measured separately;
 - the same sweeps on a local dask cluster of 2 worker processes (started before timing, warmed by
   one run so that every worker has its tables), to show the gain from workers.
 
@@ -143,7 +145,30 @@ def main(quick: bool = False) -> None:
                                    len(corner_designs), rep))
         show(f"corner, {len(corner_designs)} designs, in-process for comparison",
              *rate(lambda: sweep(wedge.case, corner_designs, regime=regime), len(corner_designs), rep))
+        chunk_overhead(client, tube.case, big[:2000], rep)
     print(f"\nload average at the end: {os.getloadavg()[0]:.2f}")
+
+
+def chunk_overhead(client, case, designs, rep: int) -> None:
+    """Per-chunk cost of the cluster: wall time of one sweep at several chunk sizes, fitted as
+    t = t_designs + n_chunks * t_chunk (least squares over the medians)."""
+    sizes = (1000, 250, 64, 16)
+    rows = []
+    for size in sizes:
+        times = []
+        for _ in range(rep):
+            t0 = time.perf_counter()
+            sweep(case, designs, client=client, chunk_size=size)
+            times.append(time.perf_counter() - t0)
+        n_chunks = -(-len(designs) // size)
+        rows.append((n_chunks, statistics.median(times)))
+        print(f"  tube, {len(designs)} designs in chunks of {size:5d} ({n_chunks:4d} chunks)   "
+              f"median {1e3 * rows[-1][1]:8.1f} ms")
+    n = np.array([r[0] for r in rows], dtype=float)
+    t = np.array([r[1] for r in rows])
+    slope, icpt = np.polyfit(n, t, 1)
+    print(f"  fitted per-chunk overhead {1e3 * slope:.2f} ms (2 workers in parallel: about twice that per "
+          f"worker), design work {1e3 * icpt:.0f} ms")
 
 
 if __name__ == "__main__":

@@ -15,6 +15,8 @@ Dreyer 2004; Haake et al. 2010; Klatte et al. 2008):
     \rho v \frac{\mathrm{d}v}{\mathrm{d}z} = -\frac{\mathrm{d}p}{\mathrm{d}z} - \frac{K \mu Q}{A^2},
     \qquad p - p_g = -\sigma\Bigl(\frac{1}{R_1} + \frac{1}{R_2}\Bigr), \qquad A = A(R_1),
 
+(plus :math:`-\rho g_a` on the right with an axial residual acceleration ``g_axial``, see
+:class:`~lowgmap.physics.models.open_channel.hydraulics.SteadyFlow`),
 with the inlet fed from a reservoir at total pressure :math:`p_0`,
 :math:`p(0) = p_0 - (1 + K_e)\,\rho v(0)^2/2`. :math:`K(R_1)` is the dimensionless viscous
 resistance of the cross-section, from the fully developed Stokes problem solved by
@@ -64,6 +66,9 @@ tables         cross-section Stokes resistance tables and the per-channel tables
                the cumulative integrals, with their caches
 hydraulics     the steady 1-D model: entrance loss and inlet state, :func:`speed_index`,
                choking length, :func:`critical_flow_curve` (Q_crit over lengths), :data:`LIMITS`
+surrogate      the wedge Stokes table over the half-angle and the critical-flow similarity curve
+               (:func:`~lowgmap.physics.models.open_channel.surrogate.critical_flow_rates`), see
+               :mod:`lowgmap.physics.surrogates` for the exact switch
 profile        the free-surface shape along the channel: :func:`surface_profile`, and
                :func:`critical_flow_rate` (the critical flow with its surface; also with
                streamwise curvature); :func:`choking_mechanism` (speed index 1 or
@@ -81,9 +86,11 @@ from lowgmap.physics.models.open_channel.geometry import (
 )
 from lowgmap.physics.models.open_channel.hydraulics import (
     LIMITS,
+    TRANSVERSE_BOND_LIMIT,
     CriticalFlowCurve,
     critical_flow_curve,
     speed_index,
+    transverse_bond_number,
 )
 from lowgmap.physics.models.open_channel.profile import (
     ChokingMechanism,
@@ -110,4 +117,6 @@ __all__ = [
     "critical_flow_curve",
     "choking_mechanism",
     "LIMITS",
+    "transverse_bond_number",
+    "TRANSVERSE_BOND_LIMIT",
 ]

@@ -25,8 +25,10 @@ channel's range gives NaN.
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 from abc import ABC, abstractmethod
+from functools import cached_property
 from dataclasses import dataclass
 from typing import ClassVar
 
@@ -327,7 +329,15 @@ class PinnedChannel(OpenChannel):
 
     @abstractmethod
     def normalized(self):
-        """The same shape scaled to length scale 1 (key of the Stokes resistance table)."""
+        """The same channel scaled to length scale 1 (contact angle kept)."""
+
+    def stokes_shape(self):
+        """The shape scaled to length scale 1 with contact angle 0: the key of the Stokes resistance table.
+
+        The cross-section Stokes problem at a given arc half-angle depends on the walls and the arc only;
+        the contact angle only decides where the pinned range ends, which the zero-angle table covers.
+        """
+        return dataclasses.replace(self.normalized(), contact_angle=0.0)
 
     def table_end(self, margin: float) -> float:
         """Arc half-angle [rad] where a resistance table stops: ``margin`` [rad] before the arc becomes
@@ -600,7 +610,7 @@ class WedgeChannel(PinnedChannel):
         """Surface radius R_t [m] below which the contact lines leave the plate edges."""
         return 1.0 / self.kappa_pinned
 
-    @property
+    @cached_property
     def area_factor(self) -> float:
         """Area factor F = A/R1^2 of the corner filament below :attr:`transition_radius` (dimensionless)."""
         return corner_area_factor(self.half_angle, self.contact_angle)
@@ -719,7 +729,7 @@ class CornerFilament(OpenChannel):
         """None: a corner has no size of its own."""
         return None
 
-    @property
+    @cached_property
     def area_factor(self) -> float:
         """F = A/R1^2 (dimensionless)."""
         return corner_area_factor(self.half_angle, self.contact_angle)

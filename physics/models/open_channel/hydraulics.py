@@ -40,7 +40,12 @@ from lowgmap.physics.models.open_channel.geometry import CornerFilament, OpenCha
 from lowgmap.physics.models.open_channel.tables import section_tables
 from lowgmap.physics.validate import finite, format_number, non_negative, positive
 
-__all__ = ["LIMITS", "SteadyFlow", "speed_index", "CriticalFlowCurve", "critical_flow_curve"]
+__all__ = ["LIMITS", "SteadyFlow", "speed_index", "CriticalFlowCurve", "critical_flow_curve",
+           "transverse_bond_number", "TRANSVERSE_BOND_LIMIT"]
+
+#: Largest transverse Bond number for which the section's free surfaces are taken as circular arcs
+#: (common practice, no source: gravity across the channel deforms the arcs by about Bo/10 of the width).
+TRANSVERSE_BOND_LIMIT = 0.1
 
 #: Values of ``limited_by`` of a critical flow and what they mean.
 LIMITS = {
@@ -54,6 +59,9 @@ LIMITS = {
     "depinning": "the free surface leaves the plate edges at the outlet: its contact lines slide toward the "
                  "apex, the flow area gives way faster and the speed index jumps past 1 there (wedge "
                  "channel with a contact angle > 0; the speed index on the pinned side stays below 1)",
+    "hydrostatic": "the hydrostatic pressure rise over the length (upward flow against the residual "
+                   "acceleration) exceeds what the free surface holds at its smallest radius: no steady flow "
+                   "reaches the outlet",
     "no_hold": "the free surface cannot curve into the liquid at the open-side edges (contact angle not "
                "below the angle between wall and open side; Concus–Finn for a wedge): no flow is held "
                "below the gas pressure, gas is drawn in at any flow",
@@ -76,6 +84,9 @@ class SteadyFlow:
     inlet_radius : float or None     surface radius at z = 0 [m] instead of a reservoir
     resistance : None, float or callable   viscous resistance model (see
         :func:`lowgmap.physics.models.open_channel.surface_profile`)
+    g_axial : float          component of the residual acceleration along the channel axis, against the
+        flow [m/s^2] (``g * orientation.axial_fraction``: > 0 upward flow, < 0 downward flow; default 0).
+        Adds the hydrostatic term :math:`-\rho g_a` to the momentum balance (see :meth:`z_of_kappa`)
 
     Attributes ``channel``, ``rho``, ``mu``, ``sigma``, ``K_e`` (checked values), ``k0`` (reservoir
     curvature :math:`-p_0/\sigma` [1/m]), ``kin_fixed`` (fixed inlet curvature or None) and ``tables``
@@ -90,7 +101,7 @@ class SteadyFlow:
     """
 
     def __init__(self, channel, rho, mu, sigma, K_e=0.0, inlet_pressure=None, inlet_radius=None,
-                 resistance=None):
+                 resistance=None, g_axial=0.0):
         if not isinstance(channel, OpenChannel):
             raise TypeError(f"channel must be an OpenChannel (ParallelPlates, RectangularGroove, WedgeChannel, "
                             f"CornerFilament), got {type(channel).__name__}")
@@ -121,8 +132,15 @@ class SteadyFlow:
         if isinstance(channel, CornerFilament) and self.kin_fixed is None and self.k0 == 0.0:
             raise ValueError("a CornerFilament has no size of its own: give inlet_radius, or an inlet_pressure "
                              "below the gas pressure (inlet_pressure < 0)")
-        self.tables = section_tables(channel, resistance) if self.mu > 0 else None
+        self.g_axial = finite("g_axial", g_axial, "m/s^2")
+        if self.mu > 0:
+            self.tables = section_tables(channel, resistance)
+        elif self.g_axial != 0.0:
+            self.tables = section_tables(channel, 1.0)      # area tables only: K is multiplied by mu = 0
+        else:
+            self.tables = None
         self._fold = None
+        self._zgrid = None
 
     # ---- inlet -------------------------------------------------------------------------------
     def Q_in(self, k):
@@ -193,9 +211,63 @@ class SteadyFlow:
         return kin, kend, float(L)
 
     def z_of_kappa(self, kin, k, Q):
-        """Distance from the inlet [m] at which the curvature has grown from kin to k (k may be an array)."""
-        d1, d2 = self.tables.dI(kin, k)
-        return self.sigma / (self.mu * Q) * (d1 - self.rho * Q * Q / self.sigma * d2)
+        r"""Distance from the inlet [m] at which the curvature has grown from kin to k (k may be an array).
+
+        .. math:: \frac{\mathrm{d}z}{\mathrm{d}\kappa} = \frac{\sigma A^2 (1 - S^2)}{K\mu Q + \rho g_a A^2}
+
+        Without gravity (g_a = 0) a difference of the cumulative integrals of the section tables; with
+        gravity a cumulative quadrature (inf where the denominator is not positive on the way: the
+        hydrostatic gain balances the viscous loss and the surface never reaches k).
+        """
+        if self.g_axial == 0.0:
+            d1, d2 = self.tables.dI(kin, k)
+            return self.sigma / (self.mu * Q) * (d1 - self.rho * Q * Q / self.sigma * d2)
+        k = np.asarray(k, dtype=float)
+        kk, zz = self._gravity_grid(float(kin), float(np.max(k)), float(Q))
+        out = np.interp(k, kk, zz)
+        return np.where(k > kk[-1] * (1 + 1e-12), np.inf, out)
+
+    #: Points of each piece (pinned part in beta, corner part in ln kappa) of the gravity quadrature.
+    _G_POINTS = 1025
+
+    def _gravity_grid(self, kin, kmax, Q):
+        """(kappa grid, z at each) from kin to at least kmax at flow Q (trapezoid; cached for the last call)."""
+        key = (kin, Q)
+        zg = self._zgrid
+        if zg is not None and zg[0] == key and zg[1][-1] >= kmax:
+            return zg[1], zg[2]
+        ch, tab = self.channel, self.tables
+        kt = tab.kt
+        kmax = max(kmax, kin)
+        pieces = []
+        if not isinstance(ch, CornerFilament) and kin < kt:
+            b = np.linspace(float(ch.arc_angle(kin)), float(ch.arc_angle(min(kmax, kt))), self._G_POINTS)
+            c = ch.half_chord
+            pieces.append((np.sin(b) / c, np.cos(b) / c, b))           # kappa, dkappa/dbeta, beta
+        if kmax > kt and (isinstance(ch, (CornerFilament, WedgeChannel))):
+            lo = max(kin, kt) if kt > 0 else kin
+            u = np.linspace(math.log(lo), math.log(kmax), self._G_POINTS)
+            kap = np.exp(u)
+            pieces.append((kap, kap, u))                               # dkappa/d(ln kappa) = kappa
+        z0, kk, zz = 0.0, [], []
+        for kap, jac, x in pieces:
+            A = ch.area_at(kap)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                S2 = self.rho * Q * Q * (-ch.dA_dkappa(kap)) / (self.sigma * A ** 3)
+                den = self.mu * Q * tab.K(kap) + self.rho * self.g_axial * A * A
+                f = self.sigma * A * A * (1.0 - S2) / den * jac
+            if np.any(den <= 0) or not np.all(np.isfinite(f)):
+                f = np.where((den <= 0) | ~np.isfinite(f), np.inf, f)
+            with np.errstate(invalid="ignore"):
+                seg = 0.5 * (f[1:] + f[:-1]) * np.diff(x)
+            z = z0 + np.concatenate([[0.0], np.cumsum(seg)])
+            kk.append(kap)
+            zz.append(z)
+            z0 = float(z[-1])
+        kk, zz = np.concatenate(kk), np.concatenate(zz)
+        zz = np.where(np.isnan(zz), np.inf, zz)
+        self._zgrid = (key, kk, zz)
+        return kk, zz
 
     def critical(self, length):
         """(Q_crit [m^3/s], limited_by) for an open length [m]: the largest Q with S < 1 up to the outlet."""
@@ -204,10 +276,14 @@ class SteadyFlow:
         if self.tables is not None:
             kin, kend, L_up = self.choke(Qup)
             if L_up < length:
-                f = lambda q: math.log(max(self.choke(q)[2], 1e-300 * length)) - math.log(length)
+                f = lambda q: math.log(min(max(self.choke(q)[2], 1e-300 * length), 1e300 * length)) - math.log(length)
                 q_lo = 0.5 * Qup
                 while f(q_lo) < 0:
                     q_lo *= 0.5
+                    if q_lo < 1e-12 * Qup:
+                        # even a vanishing flow chokes: the hydrostatic rise over the length exceeds what
+                        # the surface holds at its smallest radius (upward flow, g_axial > 0)
+                        return 0.0, "hydrostatic"
                 Q = brentq(f, q_lo, Qup, xtol=1e-14 * Qup, rtol=1e-12)
                 kin, kend, _ = self.choke(Q)
                 lim = "speed_index" if kend < self.channel.kappa_max * (1 - 1e-12) else "meniscus_limit"
@@ -286,14 +362,15 @@ class CriticalFlowCurve:
 
 def critical_flow_curve(channel: OpenChannel, lengths, rho: float, mu: float, sigma: float, *,
                         K_e: float = 0.0, inlet_pressure: float | None = None,
-                        inlet_radius: float | None = None, resistance=None) -> CriticalFlowCurve:
+                        inlet_radius: float | None = None, resistance=None,
+                        g_axial: float = 0.0) -> CriticalFlowCurve:
     r"""Critical flow rate over a set of channel lengths (for charts).
 
     .. math:: Q_\mathrm{crit}(l_i), \quad i = 1 \ldots n
 
     Parameters
     ----------
-    channel, rho, mu, sigma, K_e, inlet_pressure, inlet_radius, resistance
+    channel, rho, mu, sigma, K_e, inlet_pressure, inlet_radius, resistance, g_axial
         as in :func:`~lowgmap.physics.models.open_channel.profile.critical_flow_rate` (no streamwise
         curvature)
     lengths : array of float   open lengths l [m], each finite and > 0
@@ -321,7 +398,7 @@ def critical_flow_curve(channel: OpenChannel, lengths, rho: float, mu: float, si
     bad = ~np.isfinite(ls) | (ls <= 0)
     if np.any(bad):
         raise ValueError(f"lengths must be finite and > 0 [m], got {format_number(ls[bad][0])} m")
-    flow = SteadyFlow(channel, rho, mu, sigma, K_e, inlet_pressure, inlet_radius, resistance)
+    flow = SteadyFlow(channel, rho, mu, sigma, K_e, inlet_pressure, inlet_radius, resistance, g_axial)
     Q = np.empty(ls.size)
     lim = []
     for i, l in enumerate(ls):
@@ -330,3 +407,41 @@ def critical_flow_curve(channel: OpenChannel, lengths, rho: float, mu: float, si
     return CriticalFlowCurve(lengths=ls, Q_crit=Q, limited_by=tuple(lim))
 
 
+
+
+def transverse_bond_number(channel: OpenChannel, rho: float, sigma: float, g_transverse: float) -> float:
+    r"""Bond number of the residual acceleration across the channel: the validity limit of circular-arc sections.
+
+    .. math:: Bo_\perp = \frac{\rho\, |g_\perp|\, L^2}{\sigma}
+
+    Parameters
+    ----------
+    channel : OpenChannel   its length scale L (gap, groove width, wall length); a corner filament has none
+        (then the largest radius of the problem must be used by the caller) and gives NaN
+    rho : float             liquid density [kg/m^3] (minus the gas density for a dense gas)
+    sigma : float           surface tension [N/m]
+    g_transverse : float    component of the residual acceleration across the axis [m/s^2]
+        (``g * orientation.transverse_fraction``)
+
+    Returns
+    -------
+    float   Bo (dimensionless)
+
+    Notes
+    -----
+    The model takes each free surface as a circular arc in the section (uniform pressure over the
+    section). The transverse component of gravity adds a hydrostatic gradient across the section that
+    bends the arcs; the model holds while :math:`Bo_\perp` is well below 1 (:data:`TRANSVERSE_BOND_LIMIT`,
+    common practice, no source). The axial component enters the momentum balance itself (``g_axial``).
+
+    Examples
+    --------
+    >>> from lowgmap.physics.models.open_channel import ParallelPlates
+    >>> round(transverse_bond_number(ParallelPlates(0.005, 0.025), 1000.0, 0.07, 9.80665), 3)
+    3.502
+    """
+    rho = positive("rho", rho, "kg/m^3")
+    sigma = positive("sigma", sigma, "N/m")
+    g = finite("g_transverse", g_transverse, "m/s^2")
+    L = channel.length_scale
+    return math.nan if L is None else rho * abs(g) * L * L / sigma

@@ -76,7 +76,7 @@ class CriticalFlow:
     limited_by : key of :data:`~lowgmap.physics.models.open_channel.hydraulics.LIMITS` ("speed_index",
         "inlet", "meniscus_limit", "no_solution")
     outlet_speed_index : speed index at the outlet at Q_crit (1 when limited by the speed index)
-    profile : :class:`Profile` at Q_crit
+    profile : :class:`Profile` at Q_crit (None when no flow is held: ``limited_by`` "hydrostatic")
 
     With streamwise curvature the surface is flat at the outlet itself and ``outlet_speed_index``
     is the largest speed index along the channel (reached just upstream of the outlet).
@@ -90,7 +90,7 @@ class CriticalFlow:
     Q_crit: float
     limited_by: str
     outlet_speed_index: float
-    profile: Profile
+    profile: Profile | None
     mechanism: "ChokingMechanism | None" = None
 
 
@@ -231,7 +231,7 @@ def _critical_profile(flow: SteadyFlow, Q, length) -> Profile:
 def surface_profile(channel: OpenChannel, flow_rate: float, length: float, rho: float, mu: float,
                     sigma: float, *, K_e: float = 0.0, inlet_pressure: float | None = None,
                     inlet_radius: float | None = None, streamwise_curvature: bool = False,
-                    resistance=None, n: int = 201) -> Profile:
+                    resistance=None, n: int = 201, g_axial: float = 0.0) -> Profile:
     r"""Steady free-surface shape along an open channel carrying a liquid flow Q.
 
     .. math::
@@ -263,6 +263,9 @@ def surface_profile(channel: OpenChannel, flow_rate: float, length: float, rho: 
         is one number; for a WedgeChannel its value at the transition radius is used for the
         corner part)
     n : int                 number of points along z (default 201)
+    g_axial : float         component of the residual acceleration along the axis, against the flow
+        [m/s^2] (``g * orientation.axial_fraction``; > 0 upward flow), default 0: the hydrostatic term
+        :math:`-\rho g_a` of the momentum balance (not with ``streamwise_curvature``)
 
     Returns
     -------
@@ -291,15 +294,22 @@ def surface_profile(channel: OpenChannel, flow_rate: float, length: float, rho: 
     length = positive("length", length, "m")
     n = _check_n(n)
     if streamwise_curvature:
+        _no_gravity_with_curvature(g_axial)
         return _curved_profile(channel, Q, length, rho, mu, sigma, K_e, inlet_pressure, inlet_radius,
                                resistance, n)
-    flow = SteadyFlow(channel, rho, mu, sigma, K_e, inlet_pressure, inlet_radius, resistance)
+    flow = SteadyFlow(channel, rho, mu, sigma, K_e, inlet_pressure, inlet_radius, resistance, g_axial)
     kf, Qf = flow.fold()
     if Q > Qf * (1 + 1e-12):
         what = ("speed index 1 at the inlet radius" if flow.kin_fixed is not None
                 else "the largest flow the reservoir pushes through the entrance")
         raise ValueError(f"flow_rate must be <= {format_number(Qf)} m^3/s ({what}), got {format_number(Q)} m^3/s")
     return _steady_profile(flow, min(Q, Qf), length, n)
+
+
+def _no_gravity_with_curvature(g_axial):
+    if g_axial != 0.0:
+        raise ValueError(f"g_axial must be 0 with streamwise_curvature (gravity is in the model without "
+                         f"streamwise curvature only), got {format_number(g_axial)} m/s^2")
 
 
 def _check_n(n):
@@ -311,7 +321,7 @@ def _check_n(n):
 def critical_flow_rate(channel: OpenChannel, length: float, rho: float, mu: float, sigma: float, *,
                        K_e: float = 0.0, inlet_pressure: float | None = None,
                        inlet_radius: float | None = None, streamwise_curvature: bool = False,
-                       resistance=None) -> CriticalFlow:
+                       resistance=None, g_axial: float = 0.0) -> CriticalFlow:
     r"""Critical flow rate of an open capillary channel: the largest steady flow, S < 1 throughout.
 
     .. math::
@@ -324,7 +334,7 @@ def critical_flow_rate(channel: OpenChannel, length: float, rho: float, mu: floa
 
     Parameters
     ----------
-    channel, rho, mu, sigma, K_e, inlet_pressure, inlet_radius, streamwise_curvature, resistance
+    channel, rho, mu, sigma, K_e, inlet_pressure, inlet_radius, streamwise_curvature, resistance, g_axial
         as in :func:`surface_profile`
     length : float          length l of the open section [m], > 0
 
@@ -359,9 +369,13 @@ def critical_flow_rate(channel: OpenChannel, length: float, rho: float, mu: floa
     """
     length = positive("length", length, "m")
     if streamwise_curvature:
+        _no_gravity_with_curvature(g_axial)
         return _curved_critical(channel, length, rho, mu, sigma, K_e, inlet_pressure, inlet_radius, resistance)
-    flow = SteadyFlow(channel, rho, mu, sigma, K_e, inlet_pressure, inlet_radius, resistance)
+    flow = SteadyFlow(channel, rho, mu, sigma, K_e, inlet_pressure, inlet_radius, resistance, g_axial)
     Q, limited_by = flow.critical(length)
+    if Q == 0.0:                                        # hydrostatic: no flow is held over this length
+        return CriticalFlow(Q_crit=0.0, limited_by=limited_by, outlet_speed_index=math.nan, profile=None,
+                            mechanism=ChokingMechanism(limited_by, LIMITS[limited_by], math.nan, math.nan, math.nan))
     prof = _critical_profile(flow, Q, length)
     res = CriticalFlow(Q_crit=Q, limited_by=limited_by, outlet_speed_index=float(prof.speed_index[-1]),
                        profile=prof)

@@ -26,7 +26,7 @@ import numpy as np
 from scipy.interpolate import BarycentricInterpolator, CubicSpline
 from scipy.optimize import brentq
 
-from lowgmap.physics import cache
+from lowgmap.physics import cache, surrogates
 from lowgmap.physics.models.open_channel.geometry import (
     CornerFilament,
     OpenChannel,
@@ -36,17 +36,18 @@ from lowgmap.physics.models.open_channel.geometry import (
 )
 from lowgmap.physics.validate import positive
 
-__all__ = ["stokes_table", "corner_resistance", "SectionTables", "section_tables"]
+__all__ = ["stokes_table", "corner_resistance", "SectionTables", "section_tables", "build_stokes_table", "TABLE_NODES",
+           "TABLE_END_MARGIN"]
 
 #: Chebyshev nodes (in the arc half-angle) of the Stokes resistance tables. Largest interpolation
 #: error against direct solves (measured): 11 nodes 1e-3, 15 nodes 8e-5, 21 nodes 2e-6 for plates
 #: b/a = 1 (the two surfaces close in on each other); 21 are used (about 1 s per shape).
-_TABLE_NODES = 21
+TABLE_NODES = 21
 
 #: The resistance tables stop this far (in arc half-angle, rad) before an arc becomes tangent to
 #: a wall (a cusp the mesh cannot resolve) and before a surface touches a wall or another surface
 #: (liquid neck below 5 % of the half span). K is held constant over the last stretch.
-_TABLE_END_MARGIN = 0.05
+TABLE_END_MARGIN = 0.05
 
 #: Points of the fine arc-angle grid on which the cumulative integrals are tabulated.
 _GRID = 801
@@ -55,7 +56,6 @@ _GRID = 801
 # =============================================================================================
 # Stokes resistance tables
 # =============================================================================================
-@lru_cache(maxsize=64)
 def stokes_table(norm):
     r"""Viscous resistance of a pinned channel at Chebyshev nodes of its arc half-angle.
 
@@ -64,29 +64,47 @@ def stokes_table(norm):
 
     Parameters
     ----------
-    norm : PinnedChannel   the channel scaled to length scale 1 (:meth:`PinnedChannel.normalized`;
-        the table depends on the shape only, and the cache is keyed by it)
+    norm : PinnedChannel   the channel scaled to length scale 1 (:meth:`PinnedChannel.normalized`)
 
     Returns
     -------
-    (nodes, K) : two arrays   arc half-angles [rad] and K (dimensionless); the table stops 0.05 rad
-        before a cusp or a contact (:meth:`PinnedChannel.table_end`)
+    (nodes, K) : two arrays   arc half-angles [rad] and K (dimensionless). The table belongs to the shape
+        with contact angle 0 (:meth:`PinnedChannel.stokes_shape`: the Stokes problem at a given arc angle
+        does not depend on the contact angle) and stops 0.05 rad before a cusp or a contact
+        (:meth:`PinnedChannel.table_end`); a channel with a contact angle uses it up to its own end.
 
     Notes
     -----
-    One mesh solve per node (about 1 s per shape); cached in memory and on disk
-    (:mod:`lowgmap.physics.cache`, keyed by the shape, the node count and the lowgmap version).
+    A wedge channel with a half-angle inside
+    :data:`~lowgmap.physics.models.open_channel.surrogate.WEDGE_HALF_ANGLE_DEG`, and a groove or plates with
+    an aspect ratio inside :data:`~lowgmap.physics.models.open_channel.surrogate.RATIO_BOXES`, take their
+    table from the shipped surrogates (no mesh solve); other shapes, and every shape under
+    :func:`lowgmap.physics.surrogates.exact`, solve one mesh per node (about 1 s per shape), cached in
+    memory and on disk (:mod:`lowgmap.physics.cache`, keyed by the shape, the node count and the lowgmap
+    version).
     """
-    arrays = cache.cached_arrays("open_channel.stokes_table", (norm, _TABLE_NODES, _TABLE_END_MARGIN),
-                                 lambda: _build_stokes_table(norm))
+    return _stokes_table_of_shape(norm.stokes_shape(), surrogates.exact_requested())
+
+
+@lru_cache(maxsize=1024)
+def _stokes_table_of_shape(shape, exact: bool):
+    if not exact:
+        from lowgmap.physics.models.open_channel import surrogate
+
+        hit = (surrogate.wedge_stokes_table(shape.half_angle) if isinstance(shape, WedgeChannel)
+               else surrogate.ratio_stokes_table(shape))
+        if hit is not None:
+            return hit
+    arrays = cache.cached_arrays("open_channel.stokes_table.v2", (shape, TABLE_NODES, TABLE_END_MARGIN),
+                                 lambda: build_stokes_table(shape))
     return arrays["nodes"], arrays["K"]
 
 
-def _build_stokes_table(norm) -> dict:
+def build_stokes_table(norm) -> dict:
     # imported here: the mesh solver loads only when a table is built
     from lowgmap.physics.geometry.stokes import Domain, solve_poisson
-    beta_end = norm.table_end(_TABLE_END_MARGIN)
-    n = _TABLE_NODES
+    beta_end = norm.table_end(TABLE_END_MARGIN)
+    n = TABLE_NODES
     j = np.arange(n)
     nodes = 0.5 * beta_end * (1.0 - np.cos(np.pi * j / (n - 1)))
     K = np.empty(n)
@@ -97,19 +115,23 @@ def _build_stokes_table(norm) -> dict:
     return {"nodes": nodes, "K": K}
 
 
-@lru_cache(maxsize=64)
 def corner_resistance(alpha: float, theta: float) -> float:
     r"""Viscous resistance K of a corner filament (the same at every radius: the section is self-similar).
 
     .. math:: K = F(\alpha, \theta)\,\beta_c(\alpha, \theta)
 
     with F the area factor and :math:`\beta_c` the corner flow resistance with a shear-free surface
-    (:func:`lowgmap.physics.geometry.corner.flow_resistance`; outside its tabulated half-angles a
-    direct solve). alpha, theta in rad; cached.
+    (:func:`lowgmap.physics.geometry.corner.flow_resistance`, its shipped table; outside its tabulated
+    half-angles, and under :func:`lowgmap.physics.surrogates.exact`, a direct solve). alpha, theta in rad; cached.
     """
+    return _corner_resistance(float(alpha), float(theta), surrogates.exact_requested())
+
+
+@lru_cache(maxsize=1024)
+def _corner_resistance(alpha: float, theta: float, exact: bool) -> float:
     from lowgmap.physics.geometry import corner
     lo, hi = corner.TABLE_HALF_ANGLE_DEG
-    if lo <= math.degrees(alpha) <= hi:
+    if not exact and lo <= math.degrees(alpha) <= hi:
         beta = float(corner.flow_resistance(alpha, theta, "free"))
     else:
         beta = float(corner.flow_resistance_direct(alpha, theta, "free"))
@@ -189,7 +211,7 @@ class SectionTables:
             return np.asarray(self._Kfun(R), dtype=float) * np.ones_like(beta)
         nodes, Kn = stokes_table(ch.normalized())
         f = BarycentricInterpolator(nodes, Kn)
-        bend = nodes[-1]
+        bend = min(float(nodes[-1]), ch.table_end(TABLE_END_MARGIN))     # this contact angle's end
         out = f(np.minimum(beta, bend))
         if isinstance(ch, WedgeChannel) and ch.arc_angle_max > bend:
             # blend linearly to the corner-filament value at the transition (continuity)
@@ -263,20 +285,26 @@ class SectionTables:
                               xtol=1e-15 * k_hi, rtol=1e-13)
             if not isinstance(self.ch, WedgeChannel):
                 return float(self.kmax)                    # meniscus limit before S = 1
+        if not isinstance(self.ch, (CornerFilament, WedgeChannel)):
+            return float(self.kmax)                        # starts at the smallest radius with S < 1
         # corner-filament part: H = F^2 / (2 kappa^3). For a wedge with theta > 0 the speed index
         # jumps up where the contact lines leave the edges, so the choke may sit at kt itself.
         return max((self.F**2 / (2.0 * target)) ** (1.0 / 3.0), float(k_from), float(self.kt))
 
 
-@lru_cache(maxsize=64)
-def _section_tables_cached(channel, resistance):
+@lru_cache(maxsize=256)
+def _section_tables_cached(channel, resistance, exact):
     return SectionTables(channel, resistance)
 
 
 def section_tables(channel: OpenChannel, resistance) -> SectionTables:
-    """The :class:`SectionTables` of a channel and resistance model, from a cache when both are hashable."""
+    """The :class:`SectionTables` of a channel and resistance model, from a cache when both are hashable.
+
+    The cache holds 256 entries (a slider visits many values) and keeps surrogate-based and exact
+    tables apart (:func:`lowgmap.physics.surrogates.exact`).
+    """
     try:
-        return _section_tables_cached(channel, resistance)
+        return _section_tables_cached(channel, resistance, surrogates.exact_requested())
     except TypeError as e:
         if "unhashable" in str(e):
             return SectionTables(channel, resistance)
