@@ -305,3 +305,82 @@ def test_migration_time_scales_with_viscosity_in_the_viscous_limit():
     t1 = bb.migration_time(p, 0.005, mu=0.01, sigma=0.02, **kw)
     t2 = bb.migration_time(p, 0.005, mu=0.03, sigma=0.05, **kw)
     assert t2 / t1 == pytest.approx(3.0 * 0.02 / 0.05, rel=1e-10)
+
+
+# --- fast paths used by the chart lines (issue 17: chart frames under 50 ms) ----------------------------------
+
+def test_squeezing_volume_at_ratio_matches_the_squeezing_law():
+    # Garstecki et al. (2006) length law through both entry points: the fast one must give the same numbers,
+    # NaN included (bug caught: the fast path drifting from squeezing_volume, or dropping its NaN rule)
+    r = np.array([0.0, 1e-6, 0.37, 2.0, 1e4, -0.5, np.inf, np.nan])
+    fast = bb.squeezing_volume_at_ratio(r, 2.5e-4, 0.8)
+    slow = bb.squeezing_volume(1.0, r, 2.5e-4, a=0.8)
+    assert np.array_equal(fast, slow, equal_nan=True)
+    # hand computed: w = 1 mm, a = 1, r = 1 -> 2 mm^3
+    assert float(bb.squeezing_volume_at_ratio(1.0, 1e-3, 1.0)) == pytest.approx(2e-9, rel=1e-15)
+
+
+@pytest.mark.parametrize("block", [37, 16384])
+def test_drag_root_newton_agrees_with_a_bracketing_solve(block, monkeypatch):
+    # the root of a6 y^6 + a3 y^3 + a1 y = d, against scipy's brentq one entry at a time; entries that converge
+    # at different iterations (wide spread of coefficients) exercise the gathering of the entries still moving,
+    # and a small block size the solve in blocks with a short last one (bug caught: a gathered entry or a
+    # block written back to the wrong place, or not at all)
+    monkeypatch.setattr(bb, "_NEWTON_BLOCK", block)
+    from scipy.optimize import brentq
+
+    rng = np.random.default_rng(5)
+    n = 400
+    a6 = 10 ** rng.uniform(-4, 4, n) * (rng.random(n) < 0.8)
+    a3 = 10 ** rng.uniform(-2, 2, n)
+    a1 = 10 ** rng.uniform(-3, 3, n) * (rng.random(n) < 0.7)
+    d = 10 ** rng.uniform(-6, 2, n)
+    with np.errstate(all="ignore"):
+        y0 = np.minimum.reduce([np.where(a6 > 0, np.sqrt(np.cbrt(d / np.where(a6 > 0, a6, 1.0))), np.inf),
+                                np.cbrt(d / a3), np.where(a1 > 0, d / np.where(a1 > 0, a1, 1.0), np.inf)])
+    y = bb._newton_drag_root(y0, d, a6, a3, a1)
+    ref = np.array([brentq(lambda t, k=k: (a6[k] * t ** 3 + a3[k]) * t ** 3 + a1[k] * t - d[k], 0.0, 2.0 * y0[k],
+                           xtol=1e-300, rtol=1e-15) for k in range(n)])   # bracket [0, 2 y0]: P(2 y0) > d
+    assert np.allclose(y, ref, rtol=1e-13, atol=0.0)
+    # an entry without any drag term keeps its upper bound (inf) and the others are still solved
+    y_inf = bb._newton_drag_root(np.array([np.inf, np.cbrt(d[0] / a3[0])]), np.full(2, d[0]), np.zeros(2), np.array([0.0, a3[0]]),
+                                 np.zeros(2))
+    assert math.isinf(y_inf[0]) and y_inf[1] == pytest.approx(np.cbrt(d[0] / a3[0]), rel=1e-14)
+
+
+def test_migration_capillary_number_scalars_and_arrays_agree():
+    # element-wise law: a broadcast call gives, entry by entry, what the scalar calls give (bug caught: a
+    # scalar argument not broadcast over the others, e.g. the contact angle or the buoyancy)
+    taper = np.array([0.1, 0.3, 0.5])
+    hr = np.array([[0.5], [2.0]])
+    kw = dict(capillary_coefficient=2.0, hele_shaw_drag=12.0, film_drag=1.0, form_drag=1.0)
+    got = bb.migration_capillary_number(taper, 0.3, hr, 50.0, squeezed=0.7, buoyancy=0.01, **kw)
+    assert got.shape == (2, 3)
+    for i in range(2):
+        for j in range(3):
+            one = bb.migration_capillary_number(float(taper[j]), 0.3, float(hr[i, 0]), 50.0, squeezed=0.7,
+                                                buoyancy=0.01, **kw)
+            assert got[i, j] == pytest.approx(one, rel=1e-14)
+
+
+def test_migration_time_node_cache_follows_every_input():
+    # the quadrature nodes are kept between calls: a later call with other drag constants, another contact
+    # angle with buoyancy (it sets the node grading) or another fluid must give what a fresh call gives
+    # (bug caught: a cache key that misses one of them and serves stale nodes)
+    p = bb.taper_path(Groove(math.radians(12.0), 0.004))
+    sizes = np.array([0.0012, 0.002, 0.003])
+    base = dict(injection=0.3, rho=950.0, mu=5e-3, sigma=0.02, rho_gas=1.2)
+    calls = [dict(base, contact_angle=0.2, film_drag=1.0),
+             dict(base, contact_angle=0.2, film_drag=0.3, hele_shaw_drag=20.0),
+             dict(base, contact_angle=0.2, buoyancy_acceleration=-2.0),
+             dict(base, contact_angle=0.5, buoyancy_acceleration=-2.0),
+             dict(base, contact_angle=0.5, buoyancy_acceleration=-2.0, capillary_coefficient=3.0),
+             dict(base, contact_angle=0.5, mu=2e-3)]
+    warm = [bb.migration_time(p, sizes, **kw) for kw in calls]
+    fresh = []
+    for kw in calls:
+        bb._migration_nodes.cache_clear()
+        fresh.append(bb.migration_time(p, sizes, **kw))
+    for w, f in zip(warm, fresh):
+        assert np.array_equal(w, f, equal_nan=True)
+    assert not np.allclose(fresh[2], fresh[3])        # the contact angle matters with buoyancy (test can fail)

@@ -421,3 +421,47 @@ def test_coinciding_lines_are_reported_not_intersected():
     assert chart.intersections == ()
     assert any("coincide" in w and "same line again" in w for w in chart.warnings)
     assert [c.role for c in chart.boundaries] == ["regions", "comparison"]
+
+
+# --- display data of a chart (lowgmap.app.outputs.chartview; issue 17: chart frames under 50 ms) ------------------
+
+def test_region_labels_lie_inside_their_regions_and_units_convert_exactly():
+    # the label position is searched to 1 % of each region's smaller extent (cheaper than a fixed 1e-3
+    # decade): it must still lie inside its region, away from the edge (bug caught: a tolerance so coarse that
+    # the label lands on or outside the outline); flow units are one factor, the same as the unit library's
+    # conversion (bug caught: a factor for the wrong unit, or m^3/s -> mL/min inverted)
+    from lowgmap.app.files.casefile import load_case, sample_case_path
+    from lowgmap.app.files.units import convert
+    from lowgmap.app.outputs import chartview as cv
+    from shapely.geometry import Point, Polygon
+    from shapely.ops import polylabel
+
+    chart = Chart.build(load_case(sample_case_path("wedge_separator")).case)
+    view = cv.chart_view(chart)
+    assert len(view.regions) >= 4
+    for r in view.regions:
+        lx, ly = np.log10(r.x), np.log10(r.y)
+        px, py = math.log10(r.label_x), math.log10(r.label_y)
+        assert Path(np.column_stack([lx, ly])).contains_point((px, py)), r.name
+        # what shapely's polylabel promises (its documentation): the label's distance to the outline is within the
+        # tolerance of the largest one, here compared with a fine search (1e-3 decade, the former setting)
+        poly = Polygon(np.column_stack([lx, ly]))
+        best = poly.exterior.distance(polylabel(poly, tolerance=1e-3))
+        tol = max(1e-3, 1e-2 * min(np.ptp(lx), np.ptp(ly)))
+        assert poly.exterior.distance(Point(px, py)) >= best - tol - 1e-12, r.name
+    q = np.logspace(-10, -3, 50)
+    for unit in ("mL/min", "L/min", "m^3/s", "uL/s"):
+        np.testing.assert_allclose(cv._to_flow_unit(q, unit), convert(q, "flow", unit), rtol=1e-15, atol=0.0)
+    np.testing.assert_allclose(cv._to_flow_unit(1e-6, "mL/min"), 60.0, rtol=1e-15)   # 1 mL/s = 60 mL/min
+
+
+def test_regime_indices_of_names():
+    # index of each regime name in the chart's list, -1 when absent, any shape (bug caught: a comparison
+    # that misses a name or breaks on an empty or 2-d array)
+    from lowgmap.physics.chart.lines import regime_indices
+
+    names = ["a", "bb", "ccc"]
+    got = regime_indices(names, np.array([["ccc", ""], ["a", "bb"], ["x", "a"]]))
+    assert got.tolist() == [[2, -1], [0, 1], [-1, 0]]
+    assert regime_indices(names, np.array([], dtype=str)).size == 0
+    assert regime_indices(names, np.array(["bb", "a"], dtype=object)).tolist() == [1, 0]

@@ -392,3 +392,82 @@ def test_buoyant_charts_are_consistent(orientation, g, roll):
         inside = Path(np.column_stack([np.log10(r.polygon_ql), np.log10(r.polygon_qg)])).contains_points(pts)
         assert np.all(names[inside & ~near] == r.name)
     assert any("Buoyancy in the corner migration" in w for w in chart.warnings)
+
+
+# -- the open channel's critical flow with gravity (issue 18 item 3) -------------------------------------------
+def ing(case, **consts):
+    return np.asarray(cm.ingestion_liquid_flow(case, RATIOS, **consts), dtype=float)
+
+
+def test_axial_gravity_moves_the_ingestion_line_the_physical_way():
+    # catches the hydrostatic term of the open channel ignored, with the wrong sign (upward flow must lower the
+    # critical flow: the liquid climbs against g; downward flow raises it) or taken from the transverse share
+    # (horizontal flow has no axial share: exactly the low-gravity line)
+    base = ing(wedge_case(g=0.0))
+    for g in (1e-6 * G0, 0.01, 0.1):
+        up = ing(wedge_case(g=g, orientation=Orientation.vertical_up()))
+        down = ing(wedge_case(g=g, orientation=Orientation.vertical_down()))
+        assert np.all(up < base) and np.all(down > base), g
+    assert np.array_equal(ing(wedge_case(g=G0, orientation=Orientation.horizontal())), base)
+    assert np.array_equal(ing(wedge_case(g=G0)), base)                     # orientation unspecified
+    # monotonic in g along the axis, and with the axial share: 30 deg upward lies between horizontal and vertical
+    lines = [ing(wedge_case(g=g, orientation=Orientation.vertical_up())) for g in (0.001, 0.01, 0.1)]
+    assert np.all(lines[0] > lines[1]) and np.all(lines[1] > lines[2])
+    tilted = ing(wedge_case(g=0.1, orientation=Orientation.inclined(math.radians(30.0))))
+    assert np.all(tilted < base) and np.all(tilted > lines[2])
+    assert np.allclose(tilted, ing(wedge_case(g=0.05, orientation=Orientation.vertical_up())), rtol=1e-9)  # sin 30
+
+
+def test_ingestion_line_leaves_the_low_gravity_line_continuously():
+    # catches a jump between the low-gravity line (similarity surrogate) and a line with axial gravity (root
+    # search): at 1e-6 g0 the line equals the unspecified one within 1e-6 once the first-order hydrostatic term is
+    # removed (the mean of upward and downward flow), and that term is linear in g. The hydrostatic term itself
+    # is physical and larger than 1e-6 here: rho g l / (sigma/R) ~ 1e-4 at 1e-6 g0 for this 40 mm wedge
+    base = ing(wedge_case(g=0.0))
+    dev = {}
+    for g in (1e-6 * G0, 1e-5 * G0):
+        up = ing(wedge_case(g=g, orientation=Orientation.vertical_up()))
+        down = ing(wedge_case(g=g, orientation=Orientation.vertical_down()))
+        assert np.max(np.abs(0.5 * (up + down) / base - 1.0)) < 1e-6
+        dev[g] = up / base - 1.0
+    assert np.max(np.abs(dev[1e-6 * G0])) < 1e-4
+    np.testing.assert_allclose(dev[1e-5 * G0] / dev[1e-6 * G0], 10.0, rtol=1e-2)
+    # the liquid-only limit and what limits it follow the same path
+    tiny = wedge_case(g=1e-6 * G0, orientation=Orientation.vertical_up())
+    q, lim = get_model("open_channel_ingestion").critical_flow(tiny)
+    assert q == pytest.approx(cm.ingestion_liquid_flow(tiny, 1e-12), rel=1e-9)
+    assert lim == get_model("open_channel_ingestion").critical_flow(wedge_case(g=0.0))[1]
+
+
+def test_upward_flow_that_cannot_hold_the_liquid_draws_gas_in_everywhere():
+    # catches a hydrostatic limit (critical flow 0: the rise over the length exceeds what the surface holds at its
+    # smallest radius) turned into NaN or a crash instead of the gas-ingestion regime over the chart.
+    # Rectangular groove 4 x 2 mm, 0.5 m long: rho g l = 4.5 kPa at 1 g, the surface holds sigma/R of order 10 Pa
+    from lowgmap.physics.geometry.sections import Polygon
+    rect = Polygon([(0, 0), (0.004, 0), (0.004, 0.002), (0, 0.002)], open_edges=(2,))
+    case = Case(OIL, rect, Wetting(math.radians(30.0)), 0.5, G0, RANGE, orientation=Orientation.vertical_up())
+    assert get_model("open_channel_ingestion").critical_flow(case) == (0.0, "hydrostatic")
+    assert np.all(ing(case) == 0.0)
+    chart = build_chart(case, models=["open_channel_ingestion"])
+    assert [r.name for r in chart.regions] == [cm.INGESTION]
+    assert any(w.startswith("LIQUID NOT HELD") for w in chart.warnings)
+
+
+def test_transverse_bond_number_flags_the_ingestion_line():
+    # catches the circular-arc open-channel model drawn as valid where gravity across the channel shapes the free
+    # surface (Bo_perp > 0.1, common practice, no source), or the flag leaking into the low-gravity chart.
+    # Closed form: Bo_perp = (rho_L - rho_G) g cos(beta) L^2 / sigma, L the wall length of the wedge (40 mm)
+    o = Orientation.inclined(math.radians(30.0))
+    want = (OIL.rho_l - OIL.rho_g) * G0 * math.cos(math.radians(30.0)) * 0.04 ** 2 / OIL.sigma
+    assert cm.transverse_bond(wedge_case(g=G0, orientation=o)) == pytest.approx(want, rel=1e-12)
+    assert cm.transverse_bond(wedge_case(g=G0)) == 0.0                           # orientation unspecified
+    flagged, clean = (build_chart(wedge_case(g=g, orientation=Orientation.horizontal()),
+                                  models=["open_channel_ingestion"]) for g in (G0, 1e-6 * G0))
+    assert not flagged.boundaries[0].valid_mask.any()
+    assert any("Transverse Bond number" in w for w in flagged.warnings)
+    assert any("outside the validity range" in w and "transverse Bond" in w for w in flagged.warnings)
+    assert clean.boundaries[0].valid_mask.all() and flagged.boundaries[0].ql.size > 2
+    assert not any("Transverse Bond number" in w for w in clean.warnings)
+    # at 1e-6 g0 the number is 7e-4, far below the limit
+    assert cm.transverse_bond(clean.case) == pytest.approx(want / math.cos(math.radians(30.0)) * 1e-6, rel=1e-12)
+    assert np.array_equal(ing(clean.case), ing(wedge_case(g=0.0)))            # no axial share: the same line

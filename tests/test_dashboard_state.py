@@ -228,7 +228,7 @@ def test_required_margin_is_one_value_for_slider_box_table_exports_and_case_file
     assert point.required.value == 42.5                                   # the slider follows
     assert 'required_margin = "42.5 %"' in s.case_text()
     assert export._export_args()["settings"].required_margin == pytest.approx(0.425)
-    assert any(f"required ±{t} %" in table.pane.object for t in ("42", "43", "42.5"))   # as format_percent writes it
+    assert any(f"required ±{t} %" in table.pane.value for t in ("42", "43", "42.5"))   # as format_percent writes it
     with param.edit_constant(point.required):
         point.required.value_throttled = 20.0                              # the slider, released
     assert s.doc.settings.required_margin == pytest.approx(0.20) and point.required_box.value == "20"
@@ -247,7 +247,7 @@ def test_point_outside_the_chart_range_is_stated_in_words(doc):
     assert s.margins.outside_chart
     assert table.outside.visible
     assert ("The operating point lies outside the drawn chart range (Q_G above 100 L/min): margins are "
-            "computed on lines sampled around the point; widen the chart range to see it.") in table.outside.object
+            "computed on lines sampled around the point; widen the chart range to see it.") in table.outside.value
 
 
 # ------------------------------------------------------------------------------------- uploads
@@ -442,7 +442,7 @@ def test_intended_regime_select_reaches_the_verdict(doc):
     assert s.doc.settings.intended_regime == "annular (gas core)"
     v = s.verdict()
     assert (v.regime_status, v.margin_status) == ("NOT IN THE INTENDED REGIME", "NOT MET")
-    assert "class='status fail'>NOT IN THE INTENDED REGIME</span>" in verdict.pane.object
+    assert "class='status fail'>NOT IN THE INTENDED REGIME</span>" in verdict.pane.value
     point.intended.value = "none"
     assert s.doc.settings.intended_regime is None and s.verdict().regime_status == "no intended regime stated"
 
@@ -550,11 +550,12 @@ def test_slider_path_and_typed_path_give_the_same_case_and_the_same_numbers():
     assert slider.widget.start <= 6.0 <= slider.widget.end and slider.widget.value == pytest.approx(6.0)
     for x in (6.5, 7.25):                      # dragged: previews only, the case in effect is unchanged
         slider.widget.value = x
-        assert setup.fields["section.half_angle"].widget.value == slider.text_of(x)   # the field follows
         assert slid.live.text == slider.text_of(x) and slid.get("section.half_angle") == "6 deg"
+    assert setup.fields["section.half_angle"].widget.value == slider.text_of(6.5)   # the field follows (throttled)
     preview = slid.live
     _release(slider, 7.25)
     assert slid.live is None and slid.get("section.half_angle") == "7.25 deg"
+    assert setup.fields["section.half_angle"].widget.value == "7.25 deg"         # and shows the value released
 
     typed = _session(doc)
     typed_pane = ChartPane(typed)
@@ -634,23 +635,23 @@ def test_worst_case_and_bands_come_from_the_background_and_stale_results_are_dro
     s = _session(doc, runner)
     s.move_point(5e-5, 1e-5)                            # job 1: the move
     table = MarginTable(s)                              # job 2: the worst case of the study before the move
-    assert s.worst_case_state == "computing" and "computing worst case" in table.worst_notice.object
-    assert "worst-case" not in table.pane.object
+    assert s.worst_case_state == "computing" and "computing worst case" in table.worst_notice.value
+    assert "worst-case" not in table.pane.value
     runner.step()
     runner.step()                                       # a result for the old point: dropped, the new one next
     assert s.worst_case is None and s.worst_case_state == "computing" and len(runner.jobs) == 1
     runner.step()
     want = worst_case_margins(s.chart, 5e-5, 1e-5)
     assert s.worst_case_state == "ready" and not table.worst_notice.visible
-    assert f"data-worst-margin='{want.worst_case:.9g}'" in table.pane.object
+    assert f"data-worst-margin='{want.worst_case:.9g}'" in table.pane.value
     pane = ChartPane(s)
     s.show_bands = True
-    assert s.bands_state == "computing" and "computing bands" in pane.extras_notice.object
+    assert s.bands_state == "computing" and "computing bands" in pane.extras_notice.value
     runner.step()
     colours = {c for c in pane.src_valid.data["colour"]}
     assert s.bands_state == "ready" and pane.src_bands.data["xs"]
     assert set(pane.src_bands.data["colour"]) <= colours            # each band in its line's colour
-    assert BAND_KEY_TEXT in [item.label for item in pane.figs[True].legend.items]
+    assert BAND_KEY_TEXT in [item.label.value for item in pane.figs[True].legend.items if item.visible]
     s.show_bands = False
     assert pane.src_bands.data["xs"] == []
 

@@ -175,3 +175,29 @@ def test_segment_distance():
     d = segment_distance(np.array([0.0, 3.0, 6.0, 4.0]), np.array([5.0, 4.0, 8.0, -3.0]), 0.0, 0.0, 3.0, 4.0)
     np.testing.assert_allclose(d, [3.0, 0.0, 5.0, 5.0], rtol=1e-15)
     assert segment_distance(1.0, 1.0, 0.0, 0.0, 0.0, 0.0) == pytest.approx(math.sqrt(2.0), rel=1e-15)
+
+
+def test_new_samples_are_merged_in_order_with_their_values():
+    # closed form: y = log10(1 + 10^t) and its mirror as a parametric line, refined unevenly (dense at the
+    # bend). Every sample must sit in increasing t with its own coordinates f(t) and kind (bug caught: new
+    # samples inserted at the wrong place, or a coordinate array merged in another order than t)
+    f = lambda t: (np.log10(1.0 + 10.0 ** t), np.where(t > 2.5, np.nan, -t))  # noqa: E731
+    t, (a, b) = sample_line(f, -4.0, 4.0, tol=1e-6, n_start=9, jump_step=1e-9)
+    assert np.all(np.diff(t) > 0)
+    fa, fb = f(t)
+    np.testing.assert_array_equal(a, fa)
+    np.testing.assert_array_equal(np.isnan(b), np.isnan(fb))
+    np.testing.assert_array_equal(b[~np.isnan(b)], fb[~np.isnan(fb)])
+    assert 0.0 < t[np.isnan(b)].min() - t[~np.isnan(b)].max() <= 1e-9     # edge located to jump_step
+
+
+def test_midpoints_that_round_onto_an_end_keep_the_order():
+    # an interval a few ulp wide: its midpoint rounds onto an end. With no floor on the step, the sampler
+    # must still return samples in non-decreasing order with their own values (bug caught: the ordered
+    # insertion used where a midpoint is not strictly inside its interval)
+    t0 = 1.0
+    t1 = t0 + 6 * math.ulp(1.0)
+    f = lambda t: (np.where(t < t0 + 3.5 * math.ulp(1.0), 0.0, 1.0),)  # noqa: E731
+    t, (y,) = sample_line(f, t0, t1, tol=1e-3, n_start=2, min_step=0.0, jump_step=0.0, max_passes=10)
+    assert np.all(np.diff(t) >= 0) and t[0] == t0 and t[-1] == t1
+    np.testing.assert_array_equal(y, f(t)[0])

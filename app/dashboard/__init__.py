@@ -24,6 +24,14 @@ the side bar, the chart beside a narrow column with the verdict and the operatin
 table, the test points and the downloads below at full width. Every control has an accessible name
 (bokeh's checkbox, slider handles and spinner buttons draw none: the page gives them their widget's
 label). ``?sample=NAME`` in the address opens a bundled sample case.
+
+Live geometry: the geometry inputs and the gravity level have sliders beside their typed fields; while one
+is dragged the chart morphs (new data in the existing sources, prepared on a worker thread, the latest
+value only) and a label in the plot gives the operating point's regime and margin on the chart drawn; on
+release the value is applied as if typed (:mod:`lowgmap.app.dashboard.inputs`,
+:meth:`lowgmap.app.dashboard.state.Session.preview`). Above the chart: the bands of the lines and the
+full solves (exact) switches; the worst-case margin over the bands is computed in the background and
+shown under the margin table.
 """
 from __future__ import annotations
 
@@ -145,6 +153,7 @@ def create_app(case_path: str | Path | None = None):
     from lowgmap.app.dashboard.background import DocumentRunner, InlineRunner
     from lowgmap.app.dashboard.chartpane import ChartPane
     from lowgmap.app.dashboard.design_tab import DesignTab
+    from lowgmap.app.dashboard.gravity_tab import GravityTab
     from lowgmap.app.dashboard.inputs import SetupPanel
     from lowgmap.app.dashboard.panels import (ExportPanel, MarginTable, PointPanel, TestPointsPanel, VerdictPanel,
                                               Working)
@@ -194,7 +203,8 @@ def create_app(case_path: str | Path | None = None):
                pn.Column(export, width=260), sizing_mode="stretch_width"),
         name="Regime chart", sizing_mode="stretch_width")
     design = pn.Column(design_tab, name="Design map", sizing_mode="stretch_width")
-    main = pn.Column(caution, unexpected, pn.Tabs(chart_tab, design, sizing_mode="stretch_width",
+    gravity = pn.Column(GravityTab(session), name="Two gravity levels", sizing_mode="stretch_width")
+    main = pn.Column(caution, unexpected, pn.Tabs(chart_tab, design, gravity, sizing_mode="stretch_width",
                                                   css_classes=["main-tabs"]),
                      sizing_mode="stretch_width")
     template = pn.template.BootstrapTemplate(

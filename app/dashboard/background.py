@@ -14,7 +14,8 @@ state may be changed. Two runners:
 * :class:`DocumentRunner` runs it on the shared pool (:func:`worker_pool`) and calls ``done`` in
   a next-tick callback of the session's bokeh document (``Document.add_next_tick_callback``, the
   one document method bokeh allows from other threads; the callback runs with the document
-  locked). After :meth:`DocumentRunner.close` (the session was destroyed) results are dropped.
+  locked). After :meth:`DocumentRunner.close` (the session was destroyed) results are dropped and
+  jobs still waiting for a thread are not run.
 
 The pool is the only module-level object and holds no session data: a few threads shared by all
 sessions, so a session that closes leaves nothing behind but idle threads.
@@ -77,8 +78,13 @@ class DocumentRunner:
     def submit(self, work, done) -> None:
         if self.closed:
             return
-        future = worker_pool().submit(work)
+        future = worker_pool().submit(self._run, work)
         future.add_done_callback(partial(self._hand_back, done))
+
+    def _run(self, work):
+        if self.closed:   # the session ended while the job waited for a thread: nothing to compute for it
+            return None
+        return work()
 
     def _hand_back(self, done, future) -> None:
         doc = self.doc

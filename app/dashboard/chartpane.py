@@ -10,8 +10,11 @@ Live morph: a new chart (a new case, or the preview of a slider being dragged,
 the regions, the lines, the labels, the bands and the point; the key's entries are kept in a pool and
 changed in place; the glyphs are found once, when the figure is made. The drawing data of a preview
 are prepared on the worker thread (:meth:`ChartPane.frame_of` touches no bokeh model), so the event
-loop only hands them over. While a preview is shown, the chart title and a status line above the chart
-say which value is drawn, with the operating point's regime and margin on that chart.
+loop only hands them over. While a preview is shown, a label drawn in the plot says which value is
+drawn, with the operating point's regime and margin on that chart; it is a canvas annotation, so a new
+frame repaints the plot without laying out the page again (a changed title or text box would: tens of
+ms per frame in the browser). The status line above the chart changes only when the drag starts, is
+released or meets a value with no chart.
 
 Toggles above the chart: the bands of the lines (translucent, each in its line's colour, under the
 lines; off by default: for the corner family they take seconds, computed in the background with a
@@ -26,14 +29,15 @@ import numpy as np
 import panel as pn
 import param
 from bokeh.events import Pan, PanEnd, PanStart
-from bokeh.models import (ColumnDataSource, HoverTool, Legend, LegendItem, PointDrawTool, Range1d)
+from bokeh.core.properties import value
+from bokeh.models import (ColumnDataSource, HoverTool, Label, Legend, LegendItem, PointDrawTool, Range1d)
 from bokeh.plotting import figure
 
 from lowgmap.app.outputs.chartview import BAND_KEY_TEXT, chart_view, line_label_positions
 from lowgmap.app.outputs.styles import DISAGREE_COLOUR, OPERATING_POINT_COLOUR, platform_marker
 from lowgmap.app.files.units import convert
 
-__all__ = ["ChartPane", "BOKEH_HATCH", "CHART_HEIGHT", "live_html", "LIVE_CSS"]
+__all__ = ["ChartPane", "BOKEH_HATCH", "CHART_HEIGHT", "live_html", "live_label_text", "LIVE_CSS"]
 
 #: matplotlib hatch -> bokeh hatch pattern
 BOKEH_HATCH = {"": " ", "//": "/", "..": ".", "\\\\": "\\", "xx": "x", "++": "+", "--": "-", "oo": "o"}
@@ -84,17 +88,21 @@ class ChartPane(pn.viewable.Viewer):
         self._key_pool: dict = {True: [], False: []}
         self._showing_preview = False
         self._drawn_preview = -1
+        self._live_labels: dict = {}
         self.x_range = Range1d(1, 10)
         self.y_range = Range1d(1, 10)
         self.figs = {True: self._figure("log"), False: self._figure("linear")}
-        self.live_status = pn.pane.HTML("", visible=False, sizing_mode="stretch_width", stylesheets=[LIVE_CSS],
-                                        css_classes=["live-status-pane"], margin=(2, 10))
+        # texts that change with every frame are widgets: a widget sends only its changed property, while
+        # a pane update makes bokeh walk the whole document's model graph (tens of ms per update)
+        self.live_status = pn.widgets.StaticText(value="", visible=False, sizing_mode="stretch_width",
+                                                 stylesheets=[LIVE_CSS], css_classes=["live-status-pane"],
+                                                 margin=(2, 10))
         self.bands_toggle = pn.widgets.Checkbox(label="Show uncertainty bands of the lines", value=session.show_bands,
                                                 css_classes=["bands-toggle"])
         self.exact_toggle = pn.widgets.Checkbox(label="Full solves (exact, slower)", value=session.exact,
                                                 css_classes=["exact-toggle"])
-        self.extras_notice = pn.pane.HTML("", visible=False, stylesheets=[LIVE_CSS], css_classes=["bands-notice"],
-                                          margin=(2, 10))
+        self.extras_notice = pn.widgets.StaticText(value="", visible=False, stylesheets=[LIVE_CSS],
+                                                   css_classes=["bands-notice"], margin=(2, 10))
         self.bands_toggle.param.watch(lambda e: setattr(session, "show_bands", bool(e.new)), "value")
         self.exact_toggle.param.watch(self._exact_switched, "value")
         # the chart takes the width the point column leaves, and a height that fits a 800 px window
@@ -110,7 +118,7 @@ class ChartPane(pn.viewable.Viewer):
         session.param.watch(lambda *_: self._held(self.refresh_point), ["ql", "qg", "show_uncertainty"])
         session.param.watch(lambda *_: self._held(self._show_live), ["live"])
         session.param.watch(lambda *_: self._held(self._bands_changed), ["bands", "bands_state", "show_bands"])
-        session.param.watch(lambda *_: self._show_exact(), ["exact"])
+        session.param.watch(lambda *_: self._show_exact(), ["exact", "applied_counter"])
         self.param.watch(lambda *_: self._held(self._toggle_scale), ["log_axes"])
         self.src_point.on_change("data", self._on_point_released)
         self._toggle_scale()
@@ -130,7 +138,7 @@ class ChartPane(pn.viewable.Viewer):
         notice = "computing bands…" if s.show_bands and s.bands_state == "computing" else (
             "no line of this chart has a banded constant" if s.show_bands and s.bands_state == "none" else (
                 s.extras_problem if s.show_bands and s.bands_state == "failed" else ""))
-        self.extras_notice.object = f"<span class='extras-notice'>{html.escape(notice)}</span>" if notice else ""
+        self.extras_notice.value = f"<span class='extras-notice'>{html.escape(notice)}</span>" if notice else ""
         self.extras_notice.visible = bool(notice)
         if self.bands_toggle.value != s.show_bands:
             self.bands_toggle.value = s.show_bands
@@ -181,6 +189,11 @@ class ChartPane(pn.viewable.Viewer):
                                                              ("chart says", "@predicted"), ("platform", "@platform")]))
         point = fig.scatter("x", "y", source=self.src_point, marker="star", size=24, fill_color=OPERATING_POINT_COLOUR,
                             line_color="black", line_width=1.2, name="operating-point")
+        live = Label(x=8, y=8, x_units="screen", y_units="screen", text="", text_font_size="13px",
+                     text_font_style="bold", text_color="#1f3b57", background_fill_color="white",
+                     background_fill_alpha=0.9, border_line_color="#1f3b57", visible=False, name="live-label")
+        fig.add_layout(live)
+        self._live_labels[kind == "log"] = live
         # every glyph the updates touch, found once here (never searched for on an update)
         self._renderers[kind == "log"] = {r.name: r for r in fig.renderers if r.name} | {"bands": bands}
         draw = PointDrawTool(renderers=[point], add=False, drag=True, description="Drag the operating point")
@@ -330,11 +343,22 @@ class ChartPane(pn.viewable.Viewer):
             pool = self._key_pool[log]
             renderers = self._renderers[log]
             while len(pool) < len(spec):
-                pool.append(LegendItem(label="", renderers=[renderers["boundaries"]], index=0))
+                pool.append(LegendItem(label="", renderers=[renderers["boundaries"]], index=0, visible=False))
+            for item in pool[len(spec):]:   # unused entries are hidden, not removed (no new list of models)
+                if item.visible:
+                    item.visible = False
             for item, (label, rname, index) in zip(pool, spec):
-                item.update(label=label, renderers=[renderers[rname]], index=index)
-            if list(fig.legend.items) != pool[:len(spec)]:
-                fig.legend.items = pool[:len(spec)]
+                if not item.visible:
+                    item.visible = True
+                # only what changed: a new list of model references makes bokeh walk the whole document
+                if getattr(item.label, "value", None) != label:
+                    item.label = value(label)      # a text, not a column name
+                if item.index != index:
+                    item.index = index
+                if item.renderers[0] is not renderers[rname]:
+                    item.renderers = [renderers[rname]]
+            if len(fig.legend.items) != len(pool):
+                fig.legend.items = list(pool)
             ncols = 1 if len(spec) <= LEGEND_ONE_COLUMN else 2   # a long key in two columns
             if fig.legend.ncols != ncols:
                 fig.legend.ncols = ncols
@@ -347,25 +371,27 @@ class ChartPane(pn.viewable.Viewer):
             return
         live = s.live
         if live is None:
-            self.live_status.object = ""
-            self.live_status.visible = False
+            self.live_status.param.update(value="", visible=False)
+            for label in self._live_labels.values():
+                label.visible = False
             if self._showing_preview:
                 self._showing_preview = False
                 self.refresh_chart()
             return
         if live.chart is not None and live.display is not None and live.seq != self._drawn_preview:
             frame = dict(live.display)
-            frame["title"] = f"{live.doc.case.title} — {live.label} {live.text}"
             frame["bands"] = dict(xs=[], ys=[], colour=[], label=[])   # bands are those of the case in effect
             frame["key"] = [k for k in frame["key"] if k[1] != "bands"]
             self._apply_frame(frame)
             self._drawn_preview = live.seq
             self._showing_preview = True
             self.refresh_point()
-        self.live_status.object = live_html(live, s.doc.settings)
-        self.live_status.visible = True
-        if s.ql is not None:
-            self.readout = self._readout_text(s.ql, s.qg, moving=False)
+        text = live_label_text(live)
+        for label in self._live_labels.values():
+            label.update(text=text, visible=True)
+        status = live_html(live, s.doc.settings)
+        if self.live_status.value != status or not self.live_status.visible:
+            self.live_status.param.update(value=status, visible=True)
 
     def refresh_point(self):
         s = self.session
@@ -425,15 +451,11 @@ class ChartPane(pn.viewable.Viewer):
 
     def _readout_text(self, ql, qg, moving: bool) -> str:
         st = self.session.doc.settings
-        live = self.session.live
-        if not moving and live is not None and live.chart is not None:   # a slider being dragged
-            regime = live.regime or "no regime"
-            lead = f"operating point, {live.label} {live.text}"
-        else:
-            regime = self.session.regime_at(ql, qg) or "no regime"
-            lead = "moving" if moving else "operating point"
-        return (f"**{lead}:** Q_L = {convert(ql, 'flow', st.liquid_flow_unit):.4g} {st.liquid_flow_unit}, "
-                f"Q_G = {convert(qg, 'flow', st.gas_flow_unit):.4g} {st.gas_flow_unit} → **{regime}**")
+        regime = self.session.regime_at(ql, qg) or "no regime"
+        lead = "moving" if moving else "operating point"
+        return (f"<b>{html.escape(lead)}:</b> Q_L = {convert(ql, 'flow', st.liquid_flow_unit):.4g} "
+                f"{html.escape(st.liquid_flow_unit)}, Q_G = {convert(qg, 'flow', st.gas_flow_unit):.4g} "
+                f"{html.escape(st.gas_flow_unit)} → <b>{html.escape(regime)}</b>")
 
     # ----------------------------------------------------------------------------- events
     def _on_pan_start(self, event):
@@ -527,23 +549,33 @@ class ChartPane(pn.viewable.Viewer):
         return self._layout
 
 
-def live_html(live, settings=None) -> str:
-    """The status line of a live preview: the value drawn, the operating point's regime and margin on that chart."""
+def live_label_text(live) -> str:
+    """The label drawn in the plot during a preview: the value drawn, the operating point's regime and margin."""
     from lowgmap.app.formatting import format_percent
 
-    what = f"{html.escape(live.label)} {html.escape(live.text)}"
+    what = f"{live.label} {live.text}"
     if live.problem:
-        return f"<div class='live-status problem'>No chart for {what}: {html.escape(live.problem)}</div>"
+        return f"{what}: no chart"
     if live.chart is None:
-        return f"<div class='live-status'>Preview of {what}: computing…</div>"
-    regime = html.escape(live.regime or "no regime")
-    if live.margins is not None and live.margins.symmetric_margin is not None:
-        margin = f"symmetric margin <b class='live-margin'>±{format_percent(live.margins.symmetric_margin)}</b>"
-    else:
-        margin = "margin: computing…" if live.regime else "no margins"
-    tail = "applying…" if live.released else "release to apply"
-    return (f"<div class='live-status' data-seq='{live.seq}'>Preview of <b class='live-value'>{what}</b>: the "
-            f"operating point is in <b class='live-regime'>{regime}</b>, {margin} ({tail}).</div>")
+        return f"{what}: computing…"
+    if not live.regime:
+        return f"{what}: no regimes"
+    m = live.margins.symmetric_margin if live.margins is not None else None
+    margin = f"±{format_percent(m)}" if m is not None else "margin …"
+    return f"{what}: operating point in {live.regime}, {margin}"
+
+
+def live_html(live, settings=None) -> str:
+    """The status line above the chart during a preview; it changes only with the phase of the drag (dragging,
+    applying, a value with no chart), so it does not make the page lay out again at every frame."""
+    label = html.escape(live.label)
+    if live.problem:
+        return (f"<div class='live-status problem'>No chart for {label} {html.escape(live.text)}: "
+                f"{html.escape(live.problem)}</div>")
+    if live.released:
+        return f"<div class='live-status'>Applying {label} {html.escape(live.text)}…</div>"
+    return (f"<div class='live-status'>Preview while {label} is dragged: the chart, its regions and the label "
+            "in the plot follow the slider; release to apply.</div>")
 
 
 def _text_align(v, x: float) -> str:

@@ -24,7 +24,9 @@ window moves only when a typed value falls outside it. While a slider is dragged
 its value and the session previews the chart for it (:meth:`~lowgmap.app.dashboard.state.Session.preview`:
 coalesced, latest value wins, computed on a worker thread); on release the value is committed exactly
 as if it had been typed into the field (same text, same edit, same numbers). A typed value moves the
-slider.
+slider. During a drag the slider shows its value itself (formatted in the page, no server round trip)
+and the typed field follows at most every :data:`FIELD_FOLLOW_S` seconds (a changed text box makes the
+browser lay out the whole page again, tens of ms each), then exactly on release.
 
 Gravity level and orientation: a named level (orbit, lunar surface, Martian surface, ground), the
 typed residual acceleration and a log slider from 1e-6 g0 to 1 g0 all write ``conduit.residual_acceleration``;
@@ -36,6 +38,7 @@ from __future__ import annotations
 import html
 import math
 import re
+import time
 from dataclasses import dataclass
 from typing import Callable
 
@@ -71,6 +74,8 @@ ANGLE_LIMITS = {"half_angle": (0.5, 89.5), "contact_angle": (0.0, 180.0)}
 LENGTH_STEP, ANGLE_STEP, LOG_G_STEP = 0.001, 0.05, 0.01
 _QUANTITY = re.compile(r"\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*")
 _DEGREES = ("deg", "degree", "degrees", "°", "")
+#: While a slider is dragged, the typed field shows its value at most this often [s] (and on release).
+FIELD_FOLLOW_S = 0.4
 
 #: Style of the message line under a field.
 FIELD_CSS = """
@@ -257,15 +262,26 @@ class FieldSlider:
         self.key, self.kind, self.label = key, kind, label
         self.unit = "mm" if kind == "length" else "deg"
         step = LENGTH_STEP if kind == "length" else ANGLE_STEP
-        scale = " (log scale)" if kind == "length" else ""
-        self.widget = pn.widgets.FloatSlider(label=f"{label}{scale}, drag to explore", start=0.0, end=1.0,
-                                             step=step, value=0.5, show_value=False, sizing_mode="stretch_width",
+        scale = ", log scale" if kind == "length" else ""
+        self.widget = pn.widgets.FloatSlider(label=f"{label}{scale}", start=0.0, end=1.0,
+                                             step=step, value=0.5, show_value=True, format=self._formatter(),
+                                             sizing_mode="stretch_width",
                                              css_classes=["geometry-slider", f"slider-{_css_key(key)}"],
                                              margin=(0, 10, 6, 10))
+        self.shown_at = 0.0     # when the typed field last showed the dragged value (time.monotonic)
         self._pushing = False
         self._on_move, self._on_release = on_move, on_release
         self.widget.param.watch(self._moved, "value")
         self.widget.param.watch(self._released, "value_throttled")
+
+    def _formatter(self):
+        """The slider's own readout, written in the page as the field would hold the value."""
+        from bokeh.models import CustomJSTickFormatter
+
+        unit = self.unit.replace("\\", "").replace("'", "")
+        if self.kind == "length":
+            return CustomJSTickFormatter(code=f"return Number((10 ** tick).toPrecision(4)) + ' {unit}'")
+        return CustomJSTickFormatter(code="return Number(tick.toPrecision(4)) + ' deg'")
 
     def text_of(self, x: float) -> str:
         """The field text of slider position ``x``."""
@@ -297,7 +313,9 @@ class FieldSlider:
         start, end = w.start, w.end
         if self.kind == "length":
             if unit != self.unit or not start <= x <= end:
-                self.unit = unit
+                if unit != self.unit:
+                    self.unit = unit
+                    w.format = self._formatter()
                 start, end = round(x - 1.0, 3), round(x + 1.0, 3)
         else:
             lo, hi = ANGLE_LIMITS[self.kind]
@@ -387,6 +405,7 @@ class SetupPanel(pn.viewable.Viewer):
                                                      sizing_mode="stretch_width", css_classes=["gravity-slider"],
                                                      format="0.00")
         self._slider_pushing = False
+        self._gravity_shown_at = 0.0
         self.gravity_slider.param.watch(self._slid, "value_throttled")
         self.gravity_slider.param.watch(self._gravity_moved, "value")
         self._model_rows: dict[str, dict] = {}
@@ -491,7 +510,11 @@ class SetupPanel(pn.viewable.Viewer):
         spec = self.specs[key]
         if self.section_draft or self.fields[key].dirty:
             return
-        self.fields[key].show(text)
+        slider = self.sliders[key]
+        now = time.monotonic()
+        if now - slider.shown_at >= FIELD_FOLLOW_S:
+            slider.shown_at = now
+            self.fields[key].show(text)
         if text == str(self.session.get(spec.path)):
             self.session.cancel_preview()          # back at the value in effect: the chart in effect is drawn
             return
@@ -511,7 +534,10 @@ class SetupPanel(pn.viewable.Viewer):
             return
         text = f"{10.0 ** float(event.new):.3g} g0"
         key = "conduit.residual_acceleration"
-        self.fields[key].show(text)
+        now = time.monotonic()
+        if now - self._gravity_shown_at >= FIELD_FOLLOW_S:
+            self._gravity_shown_at = now
+            self.fields[key].show(text)
         if text == str(self.session.get(key)):
             self.session.cancel_preview()
             return

@@ -55,11 +55,11 @@ class Working(pn.viewable.Viewer):
     def __init__(self, css: str, **params):
         super().__init__(**params)
         self.spinner = pn.indicators.LoadingSpinner(value=False, size=18, visible=False, margin=(4, 6))
-        self.text = pn.pane.HTML("", visible=False, css_classes=[css], margin=(4, 0))
+        self.text = pn.widgets.StaticText(value="", visible=False, css_classes=[css], margin=(4, 0))
 
     def show(self, text: str) -> None:
-        self.text.object = f"<span>{html.escape(text)}</span>" if text else ""
-        self.spinner.value = self.spinner.visible = self.text.visible = bool(text)
+        self.text.param.update(value=f"<span>{html.escape(text)}</span>" if text else "", visible=bool(text))
+        self.spinner.value = self.spinner.visible = bool(text)
 
     def __panel__(self):
         return pn.Row(self.spinner, self.text, sizing_mode="stretch_width")
@@ -118,8 +118,9 @@ class PointPanel(pn.viewable.Viewer):
         self.ql_input, self.qg_input = self.ql_field.widget, self.qg_field.widget
         self.message = pn.pane.Alert("", alert_type="danger", visible=False, css_classes=["point-problem"],
                                      sizing_mode="stretch_width")
-        self.readout = pn.pane.Markdown(chart_pane.param.readout, css_classes=["point-readout"],
-                                        sizing_mode="stretch_width")
+        # a widget, not a pane: it changes with every frame of a drag (see ChartPane.live_status)
+        self.readout = pn.widgets.StaticText(value=chart_pane.param.readout, css_classes=["point-readout"],
+                                             sizing_mode="stretch_width")
         # one value, two views kept in step by the session: a slider and a typed box
         # (not panel's EditableFloatSlider: its browser-side link keeps every session's widgets alive)
         rm = round(100 * session.required_margin, 4)
@@ -357,8 +358,9 @@ class VerdictPanel(pn.viewable.Viewer):
     def __init__(self, session, **params):
         super().__init__(**params)
         self.session = session
-        self.pane = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["verdict-pane"],
-                                 stylesheets=[_NOTE_CSS])
+        # a widget, not an HTML pane: a pane update makes bokeh walk the whole document (tens of ms each)
+        self.pane = pn.widgets.StaticText(value="", sizing_mode="stretch_width", css_classes=["verdict-pane"],
+                                          stylesheets=[_NOTE_CSS])
         session.param.watch(lambda *_: self.refresh(), ["margins", "required_margin", "revision_counter"])
         self.refresh()
 
@@ -366,7 +368,7 @@ class VerdictPanel(pn.viewable.Viewer):
         s = self.session
         if s.closed:
             return
-        self.pane.object = verdict_html(s.margins, s.verdict(), s.doc)
+        self.pane.value = verdict_html(s.margins, s.verdict(), s.doc)
 
     def __panel__(self):
         return self.pane
@@ -429,12 +431,13 @@ class MarginTable(pn.viewable.Viewer):
     def __init__(self, session, **params):
         super().__init__(**params)
         self.session = session
-        self.pane = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["margin-pane"],
-                                 stylesheets=[MARGIN_CSS])
-        self.outside = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["outside-chart-pane"],
-                                    stylesheets=[_NOTE_CSS], visible=False)
-        self.worst_notice = pn.pane.HTML("", sizing_mode="stretch_width", css_classes=["worst-case-notice"],
-                                         visible=False, margin=(0, 10))
+        # widgets, not HTML panes: a pane update makes bokeh walk the whole document (tens of ms each)
+        self.pane = pn.widgets.StaticText(value="", sizing_mode="stretch_width", css_classes=["margin-pane"],
+                                          stylesheets=[MARGIN_CSS])
+        self.outside = pn.widgets.StaticText(value="", sizing_mode="stretch_width", css_classes=["outside-chart-pane"],
+                                             stylesheets=[_NOTE_CSS], visible=False)
+        self.worst_notice = pn.widgets.StaticText(value="", sizing_mode="stretch_width",
+                                                  css_classes=["worst-case-notice"], visible=False, margin=(0, 10))
         session.param.watch(lambda *_: self.refresh(), ["margins", "required_margin", "worst_case",
                                                         "worst_case_state"])
         session.want_worst_case()     # the worst case over the bands, computed in the background
@@ -445,17 +448,16 @@ class MarginTable(pn.viewable.Viewer):
         if s.closed:
             return
         wc = s.worst_case if s.worst_case_state == "ready" else None
-        self.pane.object = margin_table_html(s.margins, s.required_margin, wc)
+        self.pane.value = margin_table_html(s.margins, s.required_margin, wc)
         notice = ""
         if s.margins is not None and s.worst_case_state == "computing":
             notice = "computing worst case… (the margin to the near edge of each line's band, in the background)"
         elif s.worst_case_state == "failed":
             notice = s.extras_problem
-        self.worst_notice.object = f"<i>{html.escape(notice)}</i>" if notice else ""
-        self.worst_notice.visible = bool(notice)
+        self.worst_notice.param.update(value=f"<i>{html.escape(notice)}</i>" if notice else "", visible=bool(notice))
         words = outside_chart_words(s.margins, s.doc)
-        self.outside.object = f"<div class='outside-chart'>{html.escape(words)}</div>" if words else ""
-        self.outside.visible = bool(words)
+        self.outside.param.update(value=f"<div class='outside-chart'>{html.escape(words)}</div>" if words else "",
+                                  visible=bool(words))
 
     def __panel__(self):
         return pn.Column(pn.pane.Markdown("#### Margins to every boundary", margin=(0, 10)), self.outside, self.pane,

@@ -11,6 +11,8 @@ next, whatever its position in the chart's list of lines.
 """
 from __future__ import annotations
 
+import functools
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -136,18 +138,33 @@ class ChartView:
     bands: tuple = ()
 
 
+@functools.lru_cache(maxsize=64)
+def _flow_factor(unit: str) -> float | None:
+    """Display value of 1 m^3/s in ``unit`` (flow units are proportional: one factor, not a unit-library
+    conversion per array); None if the unit is not proportional (then :func:`convert` every time)."""
+    one, two = float(convert(1.0, "flow", unit)), float(convert(2.0, "flow", unit))
+    return one if math.isfinite(one) and abs(two - 2.0 * one) <= 1e-15 * abs(two) else None
+
+
+def _to_flow_unit(value, unit: str):
+    factor = _flow_factor(unit)
+    if factor is None:
+        return convert(value, "flow", unit)
+    return np.asarray(value, float) * factor
+
+
 def _axis_converters(chart, kind: str, ql_unit: str, qg_unit: str):
     ax = chart.axes(kind)
     if kind == "flow":
         def to_disp(ql, qg):
-            return convert(np.asarray(ql, float), "flow", ql_unit), convert(np.asarray(qg, float), "flow", qg_unit)
+            return _to_flow_unit(ql, ql_unit), _to_flow_unit(qg, qg_unit)
         xl = f"liquid flow rate Q_L [{ql_unit}]"
         yl = f"gas flow rate Q_G [{qg_unit}]"
         return to_disp, xl, yl, ql_unit, qg_unit
     if kind == "flow_ratio":
         def to_disp(ql, qg):
             x, y = ax.to_xy(ql, qg)
-            return convert(x, "flow", ql_unit), y
+            return _to_flow_unit(x, ql_unit), y
         return to_disp, f"liquid flow rate Q_L [{ql_unit}]", ax.y_label, ql_unit, ax.y_unit
     return ax.to_xy, ax.x_label, ax.y_label, ax.x_unit, ax.y_unit
 
@@ -229,8 +246,14 @@ def band_views(chart, bands, to_display) -> tuple[BandView, ...]:
     return tuple(out)
 
 
+#: Tolerance of the label position as a share of the region's smaller extent in log-log space (the
+#: pole-of-inaccessibility search costs grow as the tolerance shrinks; 1 % of the region moves a label by
+#: no more than a hundredth of the region and keeps it inside).
+_LABEL_TOL = 1e-2
+
+
 def _label_point(ql, qg) -> tuple[float, float]:
-    """A point well inside the polygon (pole of inaccessibility in log-log space)."""
+    """A point well inside the polygon (pole of inaccessibility in log-log space, to 1 % of its smaller extent)."""
     try:
         from shapely.ops import polylabel
         from shapely.geometry import Polygon
@@ -238,7 +261,11 @@ def _label_point(ql, qg) -> tuple[float, float]:
         poly = Polygon(np.column_stack([np.log10(ql), np.log10(qg)]))
         if not poly.is_valid:
             poly = poly.buffer(0)
-        p = polylabel(poly, tolerance=1e-3) if poly.geom_type == "Polygon" else poly.representative_point()
+        if poly.geom_type == "Polygon":
+            x0, y0, x1, y1 = poly.bounds
+            p = polylabel(poly, tolerance=max(1e-3, _LABEL_TOL * min(x1 - x0, y1 - y0)))
+        else:
+            p = poly.representative_point()
         return 10.0 ** p.x, 10.0 ** p.y
     except Exception:  # degenerate sliver: fall back to the vertex mean in log space
         return 10.0 ** float(np.mean(np.log10(ql))), 10.0 ** float(np.mean(np.log10(qg)))

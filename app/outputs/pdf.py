@@ -472,8 +472,10 @@ def review_pdf(pack, chart_png: bytes | None) -> bytes:
     -------
     bytes
     """
+    from lowgmap.app.outputs.render import RENDER_LOCK
+
     buf = io.BytesIO()
-    with plt.rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans"}):
+    with RENDER_LOCK, plt.rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans"}):
         with PdfPages(buf, metadata=pdf_metadata(pack)) as pdf:
             for fig in _figures(pack, chart_png):
                 try:

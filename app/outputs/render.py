@@ -25,6 +25,7 @@ import io
 import math
 import re
 import textwrap
+import threading
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -44,7 +45,7 @@ from lowgmap.app.files.atomic import write_atomic  # noqa: E402
 from lowgmap.app.outputs import styles  # noqa: E402
 from lowgmap.app.outputs.chartview import BAND_KEY_TEXT, ChartView  # noqa: E402
 
-__all__ = ["render_chart", "chart_figure", "figure_bytes", "typeset", "place_labels", "add_footer",
+__all__ = ["render_chart", "chart_figure", "figure_bytes", "typeset", "place_labels", "add_footer", "RENDER_LOCK",
            "LabelRequest", "Candidate", "FORMATS", "EXPORT_DPI", "RC", "BAND_ALPHA", "BAND_ALPHA_COMPARISON"]
 
 FORMATS = ("png", "svg", "pdf")
@@ -105,6 +106,12 @@ _PLAIN = [
     (re.compile(r"(?<=\S) x (?=\S)"), " × "),
     (re.compile(r" -> "), " → "),
 ]
+
+
+#: One figure is drawn or written at a time in this process: matplotlib's rc settings (used through
+#: ``rc_context``) are process-wide, so two threads drawing at once (dashboard sessions, the design and
+#: gravity tabs, exports) could see each other's settings. Re-entrant: a drawing may write a figure.
+RENDER_LOCK = threading.RLock()
 
 
 def typeset(text: str) -> str:
@@ -326,7 +333,7 @@ def figure_bytes(fig, fmt: str, *, dpi: int = EXPORT_DPI) -> bytes:
     if fmt not in FORMATS:
         raise ValueError(f"output format must be one of {', '.join(FORMATS)}, got {fmt!r}")
     buf = io.BytesIO()
-    with matplotlib.rc_context(RC):
+    with RENDER_LOCK, matplotlib.rc_context(RC):
         fig.savefig(buf, format=fmt, dpi=dpi, metadata=_METADATA[fmt])
     return buf.getvalue()
 
@@ -384,7 +391,7 @@ def chart_figure(view: ChartView, *, title: str = "", title_block=None, point_la
     ``boundary:<name>``, ``band:<name>``, ``label:region:<name>``, ``label:line:<name>``, ``label:callout``,
     ``label:count:<edge>``, ``key``.
     """
-    with matplotlib.rc_context(RC):
+    with RENDER_LOCK, matplotlib.rc_context(RC):
         return _ChartFigure(view, title, list(title_block or []), point_label, list(extra_points or []),
                             point_alert, list(notes or []), bool(bands)).build()
 

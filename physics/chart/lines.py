@@ -160,8 +160,11 @@ def piece_function(piece):
         t = np.atleast_1d(np.asarray(t, dtype=float))
         with np.errstate(all="ignore"):
             ql, qg = piece.func(t)
-            ql = np.broadcast_to(np.asarray(ql, dtype=float), t.shape)
-            qg = np.broadcast_to(np.asarray(qg, dtype=float), t.shape)
+            ql, qg = np.asarray(ql, dtype=float), np.asarray(qg, dtype=float)
+            if ql.shape != t.shape:
+                ql = np.broadcast_to(ql, t.shape)
+            if qg.shape != t.shape:
+                qg = np.broadcast_to(qg, t.shape)
             ok = np.isfinite(ql) & np.isfinite(qg) & (ql > 0) & (qg > 0)
             x = np.where(ok, np.log10(np.where(ok, ql, 1.0)), np.nan)
             y = np.where(ok, np.log10(np.where(ok, qg, 1.0)), np.nan)
@@ -525,9 +528,12 @@ def regime_indices(names, regimes):
     regimes = np.asarray(regimes)
     if regimes.size == 0:
         return np.empty(0, dtype=np.intp)
-    uniq, inv = np.unique(regimes, return_inverse=True)
-    lookup = {n: i for i, n in enumerate(names)}
-    return np.array([lookup.get(str(u), -1) for u in uniq], dtype=np.intp)[inv.ravel()].reshape(regimes.shape)
+    out = np.full(regimes.shape, -1, dtype=np.intp)
+    if regimes.dtype.kind not in "US":
+        regimes = regimes.astype(str)
+    for i, n in enumerate(names):                 # a few names: one comparison each (no sort of the strings)
+        out[regimes == n] = i
+    return out
 
 
 

@@ -65,6 +65,12 @@ def segment_distance(px, py, ax, ay, bx, by):
     return np.hypot(ax + w * dx - px, ay + w * dy - py)
 
 
+def _shaped(c, shape):
+    """``c`` as a float array of ``shape`` (broadcast only when it has another shape)."""
+    c = np.asarray(c, dtype=float)
+    return c if c.shape == shape else np.broadcast_to(c, shape)
+
+
 def _kind(coords) -> np.ndarray:
     """0 where every coordinate is finite; else +1 (+inf), -1 (-inf) or 2 (NaN) of the first bad one."""
     kind = np.zeros(coords[0].shape, dtype=np.int8)
@@ -76,7 +82,7 @@ def _kind(coords) -> np.ndarray:
 
 def _evaluate(f, t, n_coords=None):
     out = f(t)
-    coords = tuple(np.broadcast_to(np.asarray(c, dtype=float), t.shape) for c in out)
+    coords = tuple(_shaped(c, t.shape) for c in out)
     if n_coords is not None and len(coords) != n_coords:
         raise ValueError(f"the line function must return {n_coords} coordinate arrays, got {len(coords)}")
     return coords
@@ -166,18 +172,23 @@ def sample_line(f, t0: float, t1: float, *, tol: float, n_start: int = 33, break
     done = np.zeros(t.size, dtype=bool)          # done[i]: interval (i, i+1) needs no more work
     done[-1] = True                              # (no interval starts at the last sample)
     for _ in range(int(max_passes)):
-        dt = np.diff(t)
-        both = (kind[:-1] == 0) & (kind[1:] == 0)
-        change = kind[:-1] != kind[1:]
+        # only the intervals still open are tested (the others are never tested again)
+        cand = np.flatnonzero(~done[:-1])
+        ka, kb = kind[cand], kind[cand + 1]
+        dt = t[cand + 1] - t[cand]
+        both = (ka == 0) & (kb == 0)
+        change = ka != kb
         smooth = both & (dt > min_step)
         if window is not None and not window_middle:
-            far = _beyond(coords, window)
-            smooth &= ~np.any(far[:, :-1] & far[:, 1:], axis=0)
-        work = ~done[:-1] & (smooth | (change & (dt > jump)))
-        done[:-1] |= ~work
+            far_a = _beyond(tuple(c[cand] for c in coords), window)
+            far_b = _beyond(tuple(c[cand + 1] for c in coords), window)
+            smooth &= ~np.any(far_a & far_b, axis=0)
+        work = smooth | (change & (dt > jump))
+        done[cand[~work]] = True
         if not work.any() or t.size > max_points:
             break
-        idx = np.nonzero(work)[0]
+        idx = cand[work]
+        both, change = both[work], change[work]
         tm = 0.5 * (t[idx] + t[idx + 1])
         cm = _evaluate(f, tm, k)
         km = _kind(cm)
@@ -192,16 +203,28 @@ def sample_line(f, t0: float, t1: float, *, tol: float, n_start: int = 33, break
                 dev = np.hypot(cm[0] - 0.5 * (a[0] + b[0]), cm[1] - 0.5 * (a[1] + b[1]))
             else:
                 dev = np.sqrt(sum((c - 0.5 * (p + q)) ** 2 for c, p, q in zip(cm, a, b)))
-            split = change[idx] | (both[idx] & ((km != 0) | (dev > tol)))
+            split = change | (both & ((km != 0) | (dev > tol)))
         if window is not None and window_middle:
             fa, fb, fm = _beyond(a, window), _beyond(b, window), _beyond(cm, window)
-            split &= ~(both[idx] & np.any(fa & fb & fm, axis=0))
+            split &= ~(both & np.any(fa & fb & fm, axis=0))
         done[idx[~split]] = True
         s = idx[split]
         if s.size == 0:
             continue
         done[s] = False
-        t = np.concatenate([t, tm[split]])
+        tn = tm[split]
+        if np.all((tn > t[s]) & (tn < t[s + 1])):
+            # each new sample lies strictly inside its interval: insert it after the interval's start
+            # (the order a stable sort gives, without sorting)
+            at = s + np.arange(1, s.size + 1)            # positions of the new samples in the merged arrays
+            old = np.ones(t.size + s.size, dtype=bool)
+            old[at] = False
+            t = _merged(t, tn, at, old)
+            coords = tuple(_merged(c, m[split], at, old) for c, m in zip(coords, cm))
+            kind = _merged(kind, km[split], at, old)
+            done = _merged(done, np.zeros(s.size, dtype=bool), at, old)
+            continue
+        t = np.concatenate([t, tn])
         coords = tuple(np.concatenate([c, m[split]]) for c, m in zip(coords, cm))
         kind = np.concatenate([kind, km[split]])
         done = np.concatenate([done, np.zeros(s.size, dtype=bool)])
@@ -209,6 +232,14 @@ def sample_line(f, t0: float, t1: float, *, tol: float, n_start: int = 33, break
         t, kind, done = t[order], kind[order], done[order]
         coords = tuple(c[order] for c in coords)
     return t, coords
+
+
+def _merged(a, b, at, old):
+    """``a`` with the values ``b`` inserted at the positions ``at`` of the result (``old``: where ``a`` goes)."""
+    out = np.empty(old.size, dtype=a.dtype)
+    out[old] = a
+    out[at] = b
+    return out
 
 
 def mask_runs(mask) -> list[tuple[int, int]]:

@@ -28,6 +28,7 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -36,7 +37,7 @@ from lowgmap.physics.validate import in_range, positive
 __all__ = [
     "BRETHERTON_COEFFICIENT", "AQ_COEFFICIENT", "AQ_DENOMINATOR",
     "bretherton_film", "aussillous_quere_film",
-    "squeezing_length", "squeezing_volume", "sphere_volume", "equivalent_diameter", "bubble_frequency",
+    "squeezing_length", "squeezing_volume", "squeezing_volume_at_ratio", "sphere_volume", "equivalent_diameter", "bubble_frequency",
     "bubble_spacing", "merging_ratio", "merged_volume",
     "homogeneous_void_fraction", "mixture_density", "residence_time",
     "squeezed_fraction", "migration_capillary_number", "migration_speed",
@@ -218,6 +219,44 @@ def squeezing_volume(ql, qg, width, height=None, a=1.0):
     w = positive("width", width, "m")
     hc = w if height is None else positive("height", height, "m")
     return _out(w * w * hc * _arr(squeezing_length(ql, qg, a)))
+
+
+def squeezing_volume_at_ratio(ratio, width, a=1.0):
+    r"""Bubble volume from the squeezing law at flow ratios r = Q_G/Q_L, for the chart lines.
+
+    .. math:: V = w^3 (1 + a\, r)
+
+    The same numbers as ``squeezing_volume(1.0, ratio, width, a=a)`` (a square injector), for callers that
+    evaluate the law thousands of times with constants they have already checked: ``width`` and ``a`` are not
+    checked again here.
+
+    Parameters
+    ----------
+    ratio : float or array   r = Q_G/Q_L [-]
+    width : float            injector channel width w [m], > 0 (not checked)
+    a : float                squeezing coefficient [-], >= 0 (not checked)
+
+    Returns
+    -------
+    array   bubble volume V [m^3] (NaN where r is not finite and >= 0)
+
+    References
+    ----------
+    Garstecki et al. (2006), Lab Chip 6:437-446 (length law).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> r = np.array([0.0, 0.5, 2.0, -1.0])
+    >>> v = squeezing_volume_at_ratio(r, 1e-3, 0.7)
+    >>> bool(np.array_equal(v, squeezing_volume(1.0, r, 1e-3, a=0.7), equal_nan=True))
+    True
+    """
+    r = np.asarray(ratio, dtype=float)
+    w3 = width * width * width
+    with np.errstate(invalid="ignore"):
+        ok = np.isfinite(r) & (r >= 0)
+        return np.where(ok, w3 * (1.0 + a * r), np.nan)
 
 
 def sphere_volume(diameter):
@@ -608,47 +647,114 @@ def migration_capillary_number(taper, contact_angle=0.0, gap_over_radius=0.0, la
     c_d = in_range("form_drag", form_drag, 0.0, math.inf)
     if c_hs == 0 and c_f == 0 and c_d == 0:
         raise ValueError("at least one of hele_shaw_drag, film_drag, form_drag must be > 0")
-    taper, theta, hr, la, phi, bo = np.broadcast_arrays(_arr(taper), _arr(contact_angle), _arr(gap_over_radius),
-                                                        _arr(laplace_gap), _arr(squeezed), _arr(buoyancy))
+    # element-wise arithmetic on the arguments as given (a scalar stays a scalar until it meets an array)
+    taper, theta, hr, la, phi, bo = (_arr(v) for v in (taper, contact_angle, gap_over_radius, laplace_gap, squeezed,
+                                                       buoyancy))
+    shape = np.broadcast_shapes(taper.shape, theta.shape, hr.shape, la.shape, phi.shape, bo.shape)
     with np.errstate(invalid="ignore"):
         phi = np.where(np.isfinite(phi), np.clip(phi, 0.0, 1.0), np.nan)
     drive = c_cap * np.cos(theta) * taper * phi
     if np.any(bo != 0.0):
         drive = drive + bo
+    if drive.shape != shape:
+        drive = np.broadcast_to(drive, shape)
     k6 = (c_d / math.pi) * hr * la
     k3 = c_hs + c_f * 4.0 * AQ_DENOMINATOR / AQ_COEFFICIENT * phi
     k1 = c_f * 4.0 / AQ_COEFFICIENT * phi
-    pos = np.isfinite(drive) & (drive > 0)
-    shape = drive.shape
-    sel = np.flatnonzero(pos)                       # only points with a drive move: solve there
-    d = drive.ravel()[sel]
-    a6, a3, a1 = (np.broadcast_to(k, shape).ravel()[sel] for k in (k6, k3, k1))
+    with np.errstate(invalid="ignore"):
+        pos = np.isfinite(drive) & (drive > 0)
+    if pos.all():                                   # only points with a drive move: solve there
+        sel = slice(None)
+        d = drive.ravel()
+        a6, a3, a1 = (np.broadcast_to(k, shape).ravel() for k in (k6, k3, k1))
+    else:
+        sel = np.flatnonzero(pos)
+        d = drive.ravel()[sel]
+        a6, a3, a1 = (np.broadcast_to(k, shape).ravel()[sel] for k in (k6, k3, k1))
     big = np.inf
     with np.errstate(all="ignore"):
+        # upper bounds: the root of each drag term alone (only where that term is present)
         y = np.full(d.shape, big)
-        y = np.minimum(y, np.where(a6 > 0, np.sqrt(np.cbrt(d / np.where(a6 > 0, a6, 1.0))), big))
-        y = np.minimum(y, np.where(a3 > 0, np.cbrt(d / np.where(a3 > 0, a3, 1.0)), big))
-        y = np.minimum(y, np.where(a1 > 0, d / np.where(a1 > 0, a1, 1.0), big))
+        if np.all(a6 > 0):
+            y = np.minimum(y, np.sqrt(np.cbrt(d / a6)))
+        else:
+            y = np.minimum(y, np.where(a6 > 0, np.sqrt(np.cbrt(d / np.where(a6 > 0, a6, 1.0))), big))
+        if np.all(a3 > 0):
+            y = np.minimum(y, np.cbrt(d / a3))
+        else:
+            y = np.minimum(y, np.where(a3 > 0, np.cbrt(d / np.where(a3 > 0, a3, 1.0)), big))
+        if np.all(a1 > 0):
+            y = np.minimum(y, d / a1)
+        else:
+            y = np.minimum(y, np.where(a1 > 0, d / np.where(a1 > 0, a1, 1.0), big))
         # Newton from above on a convex increasing function: monotone convergence, y > 0 and P'(y) > 0
         # all the way (an entry with no drag term at all keeps y = inf)
-        fin = np.isfinite(y)
-        if not fin.all():
-            keep, sel_y = y, np.flatnonzero(fin)
-            y, d, a6, a3, a1 = y[sel_y], d[sel_y], a6[sel_y], a3[sel_y], a1[sel_y]
-        for _ in range(60):
-            y2 = y * y
-            y3 = y2 * y
-            step = ((a6 * y3 + a3) * y3 + a1 * y - d) / ((6.0 * a6 * y3 + 3.0 * a3) * y2 + a1)
-            y = y - step
-            if np.all(np.abs(step) <= 1e-14 * y):
-                break
-        if not fin.all():
-            keep[sel_y] = y
-            y = keep
+        y = _newton_drag_root(y, d, a6, a3, a1)
         out = np.zeros(drive.size)
         out[sel] = y * y * y
     out = np.where(np.isfinite(drive), out.reshape(shape), np.nan)
     return _out(out)
+
+
+#: Entries solved together by :func:`_newton_drag_root`: a block's working arrays stay in the processor's
+#: cache (a migration table solves about 10^5 entries at once; streaming them all through memory on each
+#: iteration costs about twice as much).
+_NEWTON_BLOCK = 16384
+
+
+def _newton_drag_root(y, d, a6, a3, a1, max_iter=60):
+    """Root y > 0 of a6 y^6 + a3 y^3 + a1 y = d by Newton from the upper bounds y (entries with y = inf kept).
+
+    Each entry stops once its step is within 1e-14 of y (convergence is monotone from above); the entries
+    still moving are gathered so that the last iterations cost only what they change. Solved in blocks of
+    :data:`_NEWTON_BLOCK` entries (1-d arrays of equal size).
+    """
+    y = np.array(y, dtype=float)
+    if y.size <= _NEWTON_BLOCK:
+        return _newton_block(y, d, a6, a3, a1, max_iter)
+    for start in range(0, y.size, _NEWTON_BLOCK):
+        part = slice(start, start + _NEWTON_BLOCK)
+        y[part] = _newton_block(y[part].copy(), d[part], a6[part], a3[part], a1[part], max_iter)
+    return y
+
+
+def _newton_block(y, d, a6, a3, a1, max_iter):
+    act = np.flatnonzero(np.isfinite(y))
+    if act.size == y.size:
+        act = slice(None)
+    ya, da, b6, b3, b1 = y[act], d[act], a6[act], a3[act], a1[act]
+    b6x6, b3x3 = 6.0 * b6, 3.0 * b3
+    # step = ((a6 y^3 + a3) y^3 + a1 y - d) / ((6 a6 y^3 + 3 a3) y^2 + a1), in place (the same operations in
+    # the same order: large temporaries cost more than the arithmetic)
+    y2, y3, num, den = (np.empty_like(ya) for _ in range(4))
+    for _ in range(max_iter):
+        np.multiply(ya, ya, out=y2)
+        np.multiply(y2, ya, out=y3)
+        np.multiply(b6, y3, out=num)
+        num += b3
+        num *= y3
+        np.multiply(b1, ya, out=den)
+        num += den
+        num -= da
+        np.multiply(b6x6, y3, out=den)
+        den += b3x3
+        den *= y2
+        den += b1
+        num /= den                                  # the step
+        ya -= num
+        np.abs(num, out=num)
+        np.multiply(ya, 1e-14, out=den)
+        moving = ~(num <= den)
+        n_moving = int(np.count_nonzero(moving))
+        if n_moving == 0:
+            break
+        if 2 * n_moving < ya.size:                  # gather the entries still moving
+            y[act] = ya
+            act = (np.arange(y.size) if isinstance(act, slice) else act)[moving]
+            ya, da, b6, b3, b1, b6x6, b3x3 = (v[moving] for v in (ya, da, b6, b3, b1, b6x6, b3x3))
+            y2, y3, num, den = (np.empty_like(ya) for _ in range(4))
+    y[act] = ya
+    return y
 
 
 def migration_speed(sigma, mu, ca):
@@ -745,18 +851,7 @@ class TaperPath:
         """
         d = np.atleast_1d(_arr(diameter))
         s_inj = float(injection) * self.length
-        ss, hh, oo, end = self._sub(s_inj)
-        touch0 = 0.5 * d >= oo[0]
-        # first s where the open distance falls to d/2 (running minimum, reversed to increasing)
-        om = np.minimum.accumulate(oo) - 1e-15 * self.length * np.arange(len(oo))
-        s_touch = np.interp(0.5 * d, om[::-1], ss[::-1])
-        s_touch = np.where(0.5 * d >= om[-1], s_touch, np.inf)
-        hs, sh = hh[:end], ss[:end]
-        hs = hs + 1e-15 * self.length * np.arange(len(hs))
-        s_stop = np.interp(d / confinement_ratio, hs, sh)
-        confined = d > confinement_ratio * hh[0]
-        reaches = touch0 | (confined & (s_touch <= s_stop * (1.0 + 1e-12)))
-        return reaches, np.where(touch0, s_inj, s_touch), touch0
+        return _travel(_travel_setup(self, s_inj), d, float(confinement_ratio), s_inj)
 
     def reach_diameter(self, injection=0.5, confinement_ratio=1.0) -> float:
         r"""Smallest bubble diameter that is pushed all the way to the open side [m].
@@ -781,15 +876,44 @@ class TaperPath:
 
 
 @functools.lru_cache(maxsize=256)
+def _travel_setup(path, s_inj):
+    """The path from s_inj on, as :meth:`TaperPath.travel` reads it (kept per path and injection point: the
+    reach diameter's bisection and every migration table ask for it again)."""
+    ss, hh, oo, end = path._sub(s_inj)
+    # first s where the open distance falls to d/2 (running minimum, reversed to increasing)
+    om = np.minimum.accumulate(oo) - 1e-15 * path.length * np.arange(len(oo))
+    hs, sh = hh[:end], ss[:end]
+    hs = hs + 1e-15 * path.length * np.arange(len(hs))
+    out = (oo[0], om[::-1].copy(), ss[::-1].copy(), om[-1], hs, sh, hh[0])
+    for a in out:
+        if isinstance(a, np.ndarray):
+            a.flags.writeable = False
+    return out
+
+
+def _travel(setup, d, confinement_ratio, s_inj):
+    """(reaches, s_touch, touches_at_injection) of bubbles d (1-d array) from :func:`_travel_setup`."""
+    oo0, om_r, ss_r, om_end, hs, sh, hh0 = setup
+    touch0 = 0.5 * d >= oo0
+    s_touch = np.interp(0.5 * d, om_r, ss_r)
+    s_touch = np.where(0.5 * d >= om_end, s_touch, np.inf)
+    s_stop = np.interp(d / confinement_ratio, hs, sh)
+    confined = d > confinement_ratio * hh0
+    reaches = touch0 | (confined & (s_touch <= s_stop * (1.0 + 1e-12)))
+    return reaches, np.where(touch0, s_inj, s_touch), touch0
+
+
+@functools.lru_cache(maxsize=256)
 def _reach_diameter(path, injection, k_c):
     s_inj = injection * path.length
     hi = 2.0 * float(np.interp(s_inj, path.s, path.open_distance))
     if hi <= 0:
         return 0.0
     lo = 0.0
+    setup = _travel_setup(path, float(injection) * path.length)
     for _ in range(80):
         mid = 0.5 * (lo + hi)
-        if bool(path.travel(mid, injection, k_c)[0][0]):
+        if bool(_travel(setup, np.array([mid]), k_c, s_inj)[0][0]):
             hi = mid
         else:
             lo = mid
@@ -1000,12 +1124,99 @@ def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_rati
     k_c = positive("confinement_ratio", confinement_ratio)
     bond_per_h2 = _buoyancy_factor(rho, rho_gas, sigma, buoyancy_acceleration)
     axial_per_h2 = _buoyancy_factor(rho, rho_gas, sigma, axial_acceleration) if with_drift else 0.0
+    # the nodes and the gap along them depend on the drag constants only through the drive-doubling
+    # distance with buoyancy: kept per path, diameters and fluid (the band searches vary the constants)
+    drive_key = (float(contact_angle), float(capillary_coefficient)) if bond_per_h2 != 0.0 else None
+    nodes = _migration_nodes(path, d.tobytes(), float(injection), k_c, float(rho), float(mu), float(sigma),
+                             bond_per_h2, drive_key)
+    t = nodes.t0.copy()
+    drift = nodes.drift0.copy()
+    if nodes.go.size:
+        res = nodes.res0.copy()
+        res_q = nodes.res_q0.copy()
+        ok = nodes.ok
+        if ok.any():
+            drifts = with_drift and axial_per_h2 != 0.0
+            f = np.empty(nodes.hj.shape)
+            fz = np.empty(nodes.hj.shape) if drifts else np.empty(0)
+            rows = max(1, _NEWTON_BLOCK // _MIG_NODES)     # a few bubbles at a time: the arrays stay in cache
+            for r0 in range(0, f.shape[0], rows):
+                b = slice(r0, r0 + rows)
+                hj = nodes.hj[b]
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    ca = migration_capillary_number(nodes.hpj[b], contact_angle, nodes.hr[b], nodes.la[b],
+                                                    capillary_coefficient=capillary_coefficient,
+                                                    hele_shaw_drag=hele_shaw_drag, film_drag=film_drag,
+                                                    form_drag=form_drag, squeezed=nodes.phi[b],
+                                                    buoyancy=bond_per_h2 * hj ** 2 if bond_per_h2 != 0.0 else 0.0)
+                    f[b] = np.where(ca > 0, mu / (sigma * np.where(ca > 0, ca, 1.0)), np.inf) * nodes.x_shift[b]
+                    if drifts:
+                        bz = axial_per_h2 * hj ** 2
+                        ca_z = migration_capillary_number(0.0, 0.0, nodes.hr[b], nodes.la[b],
+                                                          capillary_coefficient=0.0, hele_shaw_drag=hele_shaw_drag,
+                                                          film_drag=film_drag, form_drag=form_drag,
+                                                          squeezed=nodes.phi[b], buoyancy=np.abs(bz))
+                        fz[b] = np.sign(bz) * ca_z * (sigma / mu) * f[b]          # U_z / U ds/du
+            wts = _SIMPSON_WEIGHTS
+            span = nodes.span
+            with np.errstate(invalid="ignore"):
+                res[ok] = (f @ wts) * span / (3.0 * (_MIG_NODES - 1))
+                if with_drift:
+                    if axial_per_h2 != 0.0:
+                        res_q[ok] = (fz @ wts) * span / (3.0 * (_MIG_NODES - 1)) / res[ok]
+                    else:
+                        res_q[ok] = 0.0
+        t[nodes.go] = res
+        drift[nodes.go] = res_q
+    if with_drift:
+        drift = np.where(np.isfinite(t), drift, np.nan)
+        return (float(t[0]), float(drift[0])) if scalar else (t, drift)
+    return float(t[0]) if scalar else t
+
+
+_SIMPSON_WEIGHTS = np.ones(_MIG_NODES)
+_SIMPSON_WEIGHTS[1:-1:2], _SIMPSON_WEIGHTS[2:-1:2] = 4.0, 2.0
+_SIMPSON_WEIGHTS.flags.writeable = False
+
+
+@dataclass(frozen=True, eq=False)
+class _MigrationNodes:
+    """Quadrature nodes of :func:`migration_time` for a set of bubbles, and the gap there (read-only).
+
+    ``t0``, ``drift0``: the results known without a solve (touching at injection, not reaching);
+    ``go``: bubbles that migrate; ``res0``, ``res_q0``: their results where the quadrature is not used;
+    ``ok``: which of them the quadrature serves, with per node: ``x_shift`` = x + x0, gap ``hj``, taper ``hpj``,
+    ``hr`` = pi a h^2 / V (a the footprint radius, V the volume), ``la`` = La_h, ``phi``; ``span`` per bubble.
+    The fields after ``go`` are arrays, None when no bubble migrates (typed ``Any`` for that reason).
+    """
+
+    t0: np.ndarray
+    drift0: np.ndarray
+    go: np.ndarray
+    res0: Any = None
+    res_q0: Any = None
+    ok: Any = None
+    x_shift: Any = None
+    hj: Any = None
+    hpj: Any = None
+    hr: Any = None
+    la: Any = None
+    phi: Any = None
+    span: Any = None
+
+
+@functools.lru_cache(maxsize=4)
+def _migration_nodes(path, d_bytes, injection, k_c, rho, mu, sigma, bond_per_h2, drive_key):
+    """The nodes of :func:`migration_time` (see :class:`_MigrationNodes`); ``drive_key``: (contact angle, c_cap)
+    with buoyancy (they set the drive-doubling distance), else None. A few entries: each holds some MB."""
+    d = np.frombuffer(d_bytes, dtype=float)
     reaches, s_touch, touch0 = path.travel(d, injection, k_c)
     s_inj = float(injection) * path.length
     s, h, taper = path.s, path.gap, path.taper
     t = np.where(touch0, 0.0, np.where(reaches, np.inf, np.nan))
     drift = np.where(touch0, 0.0, np.nan)
     go = np.nonzero(reaches & ~touch0 & np.isfinite(s_touch) & np.isfinite(d) & (d > 0))[0]
+    fields = {}
     if go.size:
         dd, st = d[go], np.minimum(s_touch[go], s[-1])
         X = np.maximum(st - s_inj, 0.0)
@@ -1014,12 +1225,11 @@ def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_rati
         with np.errstate(divide="ignore", invalid="ignore"):
             x0 = np.where(slope > 0, delta_end / np.where(slope > 0, slope, 1.0), np.inf)
         if bond_per_h2 != 0.0:
-            x0 = np.minimum(x0, _drive_doubling(path, dd, st, X, k_c, contact_angle, capillary_coefficient,
-                                                bond_per_h2))
+            theta, c_cap = drive_key
+            x0 = np.minimum(x0, _drive_doubling(path, dd, st, X, k_c, theta, c_cap, bond_per_h2))
         x0 = np.minimum(x0, 10.0 * np.maximum(X, 1e-300))       # far from the line: nearly uniform nodes
         ok = (delta_end > 0) & (X > 0) & (x0 > 0)
-        res = np.where(X > 0, np.inf, 0.0)
-        res_q = np.where(X > 0, np.nan, 0.0)
+        fields.update(res0=np.where(X > 0, np.inf, 0.0), res_q0=np.where(X > 0, np.nan, 0.0), ok=ok)
         if ok.any():
             x0k, Xk, stk, dk = x0[ok, None], X[ok, None], st[ok, None], dd[ok, None]
             w = np.linspace(0.0, 1.0, _MIG_NODES)[None, :]
@@ -1032,34 +1242,15 @@ def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_rati
             with np.errstate(divide="ignore", invalid="ignore"):
                 a = np.maximum(0.5 * dk, np.sqrt(V / (math.pi * hj)))
                 phi = squeezed_fraction(dk, hj, k_c)
-                ca = migration_capillary_number(hpj, contact_angle, math.pi * a * hj ** 2 / V,
-                                                rho * sigma * hj / mu ** 2, capillary_coefficient=capillary_coefficient,
-                                                hele_shaw_drag=hele_shaw_drag, film_drag=film_drag,
-                                                form_drag=form_drag, squeezed=phi,
-                                                buoyancy=bond_per_h2 * hj ** 2 if bond_per_h2 != 0.0 else 0.0)
-                f = np.where(ca > 0, mu / (sigma * np.where(ca > 0, ca, 1.0)), np.inf) * (x + x0k)
-                if with_drift and axial_per_h2 != 0.0:
-                    bz = axial_per_h2 * hj ** 2
-                    ca_z = migration_capillary_number(0.0, 0.0, math.pi * a * hj ** 2 / V, rho * sigma * hj / mu ** 2,
-                                                      capillary_coefficient=0.0, hele_shaw_drag=hele_shaw_drag,
-                                                      film_drag=film_drag, form_drag=form_drag, squeezed=phi,
-                                                      buoyancy=np.abs(bz))
-                    fz = np.sign(bz) * ca_z * (sigma / mu) * f          # U_z / U ds/du
-            wts = np.ones(_MIG_NODES)
-            wts[1:-1:2], wts[2:-1:2] = 4.0, 2.0
-            with np.errstate(invalid="ignore"):
-                res[ok] = (f @ wts) * span[:, 0] / (3.0 * (_MIG_NODES - 1))
-                if with_drift:
-                    if axial_per_h2 != 0.0:
-                        res_q[ok] = (fz @ wts) * span[:, 0] / (3.0 * (_MIG_NODES - 1)) / res[ok]
-                    else:
-                        res_q[ok] = 0.0
-        t[go] = res
-        drift[go] = res_q
-    if with_drift:
-        drift = np.where(np.isfinite(t), drift, np.nan)
-        return (float(t[0]), float(drift[0])) if scalar else (t, drift)
-    return float(t[0]) if scalar else t
+                hr = math.pi * a * hj ** 2 / V
+                la = rho * sigma * hj / mu ** 2
+            fields.update(x_shift=x + x0k, hj=hj, hpj=hpj, hr=hr, la=la, phi=np.asarray(phi, dtype=float),
+                          span=span[:, 0])
+    out = _MigrationNodes(t, drift, go, **fields)
+    for v in vars(out).values():
+        if isinstance(v, np.ndarray):
+            v.flags.writeable = False
+    return out
 
 
 def _buoyancy_factor(rho, rho_gas, sigma, acceleration) -> float:

@@ -436,13 +436,19 @@ def _sizes(geom, r, c):
         V_b = math.pi * d_b ** 3 / 6.0
     else:
         w = c["injector_width_ratio"] * S
-        V_b = np.asarray(bb.squeezing_volume(1.0, r, w, a=c["squeeze_a"]), dtype=float)   # w^3 (1 + a r)
+        if not (0.0 < w < math.inf and 0.0 <= c["squeeze_a"] < math.inf):   # checked constants; else say which
+            bb.squeezing_volume(1.0, 1.0, w, a=c["squeeze_a"])
+        V_b = bb.squeezing_volume_at_ratio(r, w, c["squeeze_a"])     # w^3 (1 + a r)
         d_b = np.cbrt(6.0 * V_b / math.pi)
     ell = np.maximum(d_b, V_b / A)                    # streamwise bubble length: a sphere, or a plug
     with np.errstate(divide="ignore", invalid="ignore"):
         N = c["merge_length_ratio"] * ell * A * r / (V_b * (1.0 + r))        # k_m l_b / lambda
-    V_eff = V_b * np.maximum(1.0, np.nan_to_num(N, nan=1.0))
+    # max(1, N) with N = NaN counted as 1 and +inf as the largest float (as numpy's nan_to_num does)
+    V_eff = V_b * np.minimum(np.fmax(1.0, N), _FLOAT_MAX)
     return V_b, d_b, N, V_eff, np.cbrt(6.0 * V_eff / math.pi)
+
+
+_FLOAT_MAX = float(np.finfo(float).max)
 
 
 def bubble_state(case, ql, qg, **consts):
@@ -741,11 +747,11 @@ def transverse_bond(case) -> float:
 _REACH_RESOLUTION = 1e-9
 
 
-def _t_mig(case, geom, d, c):
-    """Migration time [s] of bubbles of diameter d: NaN if they do not reach, 0 if they touch at once, inf if
+def _t_mig(case, geom, d, c, tab=None):
+    """Migration time [s] of bubbles of diameter d (``tab``: the case's migration table, if the caller has it): NaN if they do not reach, 0 if they touch at once, inf if
     buoyancy stalls them; for d within _REACH_RESOLUTION of the smallest arriving size (the reach or the stall
     diameter), the time at that margin (the exact time diverges there)."""
-    z, lt, d_low, d_touch, interp, _ = _table_for(case, geom, c)
+    z, lt, d_low, d_touch, interp, _ = _table_for(case, geom, c) if tab is None else tab
     d_reach = geom.path.reach_diameter(float(c["injection_position"]), float(c["confinement_ratio"]))
     d0 = np.asarray(d, dtype=float)
     d = np.where(d0 >= d_low * (1.0 - 1e-12), np.maximum(d0, d_low * (1.0 + _REACH_RESOLUTION)), d0)
@@ -755,13 +761,16 @@ def _t_mig(case, geom, d, c):
         w = d - d_low
         with np.errstate(all="ignore"):
             zz = np.log(w) - np.log(W - w)
-        inside = np.isfinite(zz)
+            inside = np.isfinite(zz)
+            below, above = zz < z[0], zz > z[-1]
         zc = np.clip(np.where(inside, zz, 0.0), z[0], z[-1])
         val = interp(zc)
-        lo_slope = (lt[1] - lt[0]) / (z[1] - z[0])
-        hi_slope = (lt[-1] - lt[-2]) / (z[-1] - z[-2])
-        val = np.where(zz < z[0], lt[0] + lo_slope * (zz - z[0]), val)
-        val = np.where(zz > z[-1], lt[-1] + hi_slope * (zz - z[-1]), val)
+        if below.any():
+            lo_slope = (lt[1] - lt[0]) / (z[1] - z[0])
+            val = np.where(below, lt[0] + lo_slope * (zz - z[0]), val)
+        if above.any():
+            hi_slope = (lt[-1] - lt[-2]) / (z[-1] - z[-2])
+            val = np.where(above, lt[-1] + hi_slope * (zz - z[-1]), val)
         with np.errstate(over="ignore"):
             out = np.where(inside, np.exp(val), out)
         out = np.where(w <= 0, np.inf, out)
@@ -769,9 +778,9 @@ def _t_mig(case, geom, d, c):
     return np.where(d0 >= d_reach * (1.0 - 1e-12), out, np.nan)
 
 
-def _drift(case, geom, d, c):
+def _drift(case, geom, d, c, tab=None):
     """Mean axial drift speed of bubbles of diameter d during their migration [m/s]; None without axial buoyancy."""
-    z, lt, d_low, d_touch, interp, drift = _table_for(case, geom, c)
+    z, lt, d_low, d_touch, interp, drift = _table_for(case, geom, c) if tab is None else tab
     if drift is None:
         return None
     d = np.asarray(d, dtype=float)
@@ -817,8 +826,9 @@ def separation_liquid_flow(case, ratio, **consts):
 
 def _sep_ql(case, geom, r, c):
     *_, d_eff = _sizes(geom, r, c)
-    t = _t_mig(case, geom, d_eff, c)
-    q = _drift(case, geom, d_eff, c)
+    tab = _table_for(case, geom, c)
+    t = _t_mig(case, geom, d_eff, c, tab)
+    q = _drift(case, geom, d_eff, c, tab)
     with np.errstate(divide="ignore", invalid="ignore"):
         if q is None:
             return case.length * geom.area / (c["safety_factor"] * t * (1.0 + r))
@@ -880,17 +890,17 @@ def _qcrit_table(channel, length, rho_l, rho_g, mu, sigma, K_e, full, g_ax=0.0, 
     for a in (lr, q):
         a.flags.writeable = False
     fn = None
-    if full and np.all(q > 0):
-        log_interp = PchipInterpolator(lr, np.log(q), extrapolate=True)
-
-        def fn(x):
-            return np.exp(log_interp(x))
-    elif full:
-        interp = PchipInterpolator(lr, q, extrapolate=True)       # monotone: stays >= 0 between the nodes
-
-        def fn(x):
-            return np.maximum(interp(x), 0.0)
+    if full:
+        positive = bool(np.all(q > 0))
+        # monotone cubic: in log-log, or on Q itself (stays >= 0 between the nodes) when some Q_crit are 0
+        interp = PchipInterpolator(lr, np.log(q) if positive else q, extrapolate=True)
+        fn = functools.partial(_from_table, interp, positive)
     return lr, q, fn, tuple(str(x) for x in arrays["limited_by"])
+
+
+def _from_table(interp, logarithmic, log_rho):
+    out = interp(log_rho)
+    return np.exp(out) if logarithmic else np.maximum(out, 0.0)
 
 
 def _case_table(case, channel, c, g_ax):
@@ -903,11 +913,12 @@ def _q_crit(case, rho_m, c):
     """Critical flow rate [m^3/s] of the case's open channel at the mixture densities rho_m [kg/m^3], clipped to
     [max(rho_G, 1e-6 rho_L), rho_L].
 
-    Without axial gravity: the similarity curve (:func:`~lowgmap.physics.models.open_channel.surrogate.critical_flow_rates`),
-    or under the exact switch the root search tabulated over the density. With axial gravity g_a (the similarity
-    does not hold: gravity adds a group) the similarity value times the ratio Q_crit(g_a)/Q_crit(0) of two root
-    searches tabulated at the same densities: the ratio is smooth in the density and tends to 1 as g_a -> 0, so
-    the line moves continuously away from the low-gravity line, and the interpolation error of the tables cancels.
+    Without axial gravity: the similarity curve
+    (:func:`~lowgmap.physics.models.open_channel.surrogate.critical_flow_rates`), or under the exact switch the
+    root search tabulated over the density. With axial gravity g_a (the similarity does not hold: gravity adds a
+    group) the similarity value times the ratio Q_crit(g_a)/Q_crit(0) of two root searches tabulated at the same
+    densities: the ratio is smooth in the density and tends to 1 as g_a -> 0, so the line leaves the low-gravity
+    line continuously, and the interpolation error of the tables cancels in it.
     """
     f = case.fluid
     ch = open_channel_of(case.section, case.wetting.contact_angle)
@@ -921,10 +932,37 @@ def _q_crit(case, rho_m, c):
     ok = np.isfinite(rho_m)
     if ok.any():
         rho = np.clip(rho_m[ok], max(f.rho_g, 1e-6 * f.rho_l), f.rho_l)
-        out[ok], _ = critical_flow_rates(ch, float(case.length), rho, f.mu_l, f.sigma, K_e=float(c["entrance_loss"]))
+        K_e = float(c["entrance_loss"])
+        cur = _similarity_of(ch, K_e)
+        if cur is None:
+            out[ok], _ = critical_flow_rates(ch, float(case.length), rho, f.mu_l, f.sigma, K_e=K_e)
+        else:
+            out[ok] = _from_similarity(cur, ch.length_scale, float(case.length), rho, float(f.mu_l), float(f.sigma))
     if g_ax == 0.0:
         return out
     return out * _gravity_ratio(_case_table(case, ch, c, g_ax), _case_table(case, ch, c, 0.0), rho_m)
+
+
+@functools.lru_cache(maxsize=256)
+def _similarity_of(channel, K_e):
+    """The similarity curve of the channel's shape and entrance loss (cached per channel: a line is evaluated
+    many times per chart), or None where it does not apply (not monotone in the length: the root search of
+    :func:`~lowgmap.physics.models.open_channel.surrogate.critical_flow_rates` then)."""
+    from lowgmap.physics.models.open_channel.surrogate import similarity_curve
+
+    try:
+        return similarity_curve(channel, K_e)
+    except RuntimeError:
+        return None
+
+
+def _from_similarity(cur, L, length, rho, mu, sigma):
+    """Q_crit = sqrt(sigma L^3/rho) F(mu l/(L sqrt(rho sigma L))) [m^3/s] at the densities rho (validated inputs):
+    the same arithmetic as :func:`~lowgmap.physics.models.open_channel.surrogate.critical_flow_rates`, without its
+    per-call checks and without the limiting mechanism, which the lines do not use."""
+    scale = np.sqrt(sigma * L ** 3 / rho)
+    lam = mu * length / (L * np.sqrt(rho * sigma * L))
+    return scale * cur.F(lam)
 
 
 def _tabulated(table, rho_m):
@@ -1037,10 +1075,14 @@ def _rule(values):
     else:
         fast = np.full(shape, False)
     sep = conf & fast
-    out = np.where(merge, np.where(sep, MERGING_SEPARATED, MERGING_CARRIED),
-                   np.where(sep, ISOLATED_SEPARATED, ISOLATED_CARRIED))
-    out = np.where(blow, BLOW_THROUGH, out)
-    return np.where(ingest, INGESTION, out)
+    # codes into _RULE_NAMES (integer choices, then one look-up: cheaper than choosing among strings)
+    code = np.where(merge, np.where(sep, 2, 3), np.where(sep, 1, 0))
+    code = np.where(ingest, 5, np.where(blow, 4, code))
+    return _RULE_NAMES[np.atleast_1d(code)].reshape(code.shape)
+
+
+_RULE_NAMES = np.array([ISOLATED_CARRIED, ISOLATED_SEPARATED, MERGING_SEPARATED, MERGING_CARRIED, BLOW_THROUGH,
+                        INGESTION])
 
 
 def _notes(case, region_models):
@@ -1161,15 +1203,16 @@ SCHEME = PartitionScheme(
 def _roots(fun, lo, hi, n=241):
     """All sign changes of fun on [lo, hi] (log10 r), located by brentq; (root, rising) pairs."""
     x = np.linspace(lo, hi, n)
-    y = fun(x)
+    y = np.asarray(fun(x), dtype=float)
+    a, b = y[:-1], y[1:]
+    with np.errstate(invalid="ignore", over="ignore"):
+        hit = np.isfinite(a) & np.isfinite(b) & ((a == 0.0) | (a * b < 0))     # the intervals worth a look
     out = []
-    for i in range(n - 1):
+    for i in np.flatnonzero(hit).tolist():
         a, b = y[i], y[i + 1]
-        if not (np.isfinite(a) and np.isfinite(b)):
-            continue
         if a == 0.0:
             out.append((float(x[i]), b > 0))
-        elif a * b < 0:
+        else:
             xr = brentq(lambda t: float(fun(np.array([t]))[0]), x[i], x[i + 1], xtol=1e-14, rtol=1e-13)
             out.append((xr, b > a))
     return out
@@ -1454,8 +1497,9 @@ class CornerSeparation(_CornerModel):
         geom = corner_geometry(case)
         ql, qg, r = _ratio(ql, qg)
         *_, d_eff = _sizes(geom, r, c)
-        t = _t_mig(case, geom, d_eff, c)
-        q = _drift(case, geom, d_eff, c)
+        tab = _table_for(case, geom, c)
+        t = _t_mig(case, geom, d_eff, c, tab)
+        q = _drift(case, geom, d_eff, c, tab)
         with np.errstate(divide="ignore", invalid="ignore"):
             if q is None:
                 out = np.log(np.maximum(c["safety_factor"] * t, 1e-300) * (ql + qg) / (case.length * geom.area))

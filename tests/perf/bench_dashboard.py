@@ -66,6 +66,7 @@ def main(n_drags: int = 15) -> None:
                              f"scroll width {scroll[0]} of {scroll[1]} px")
                 ctx.close()
             pg = pages[0]
+            pg.bring_to_front()   # a page behind others gets no animation frames (the waits poll on them)
             release, typed = [], []
             for k in range(n_drags):
                 info = pg.evaluate(_POINT_JS)
@@ -82,7 +83,7 @@ def main(n_drags: int = 15) -> None:
                     "(old) => { const els = []; const walk = (r) => { r.querySelectorAll('*').forEach(e => { "
                     "if (e.classList && e.classList.contains('margin-summary')) els.push(e); "
                     "if (e.shadowRoot) walk(e.shadowRoot); }); }; walk(document); "
-                    "return els.length && els[0].dataset.ql !== old; }", arg=old, polling="raf")
+                    "return els.length && els[0].dataset.ql !== old; }", arg=old, polling=20)   # a timer: a page behind others gets no animation frames
                 release.append(time.perf_counter() - t0)
             field = pg.locator(".ql-input input").first
             for k in range(n_drags):

@@ -11,9 +11,6 @@ load on a shared machine), then ``revisit`` frames go back over values seen more
 
 Options:
   --exact            full solves (``build_chart(..., exact=True)``): the path before the surrogates
-  --proposed-corner  also swap the corner family's critical-flow table for the similarity curve, as
-                     proposed for physics/models/corner.py (``_qcrit_table``); see
-                     :func:`proposed_qcrit_table`
   --steps N          new values per input (default 12)
   --case NAME        only this sample case
 
@@ -31,7 +28,6 @@ os.environ["LOWGMAP_CACHE_DIR"] = tempfile.mkdtemp(prefix="lowgmap-bench-geometr
 
 import argparse  # noqa: E402
 import dataclasses  # noqa: E402
-import functools  # noqa: E402
 import math  # noqa: E402
 import statistics  # noqa: E402
 import sys  # noqa: E402
@@ -42,11 +38,9 @@ ROOT = Path(__file__).resolve().parents[2]
 if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
-import numpy as np  # noqa: E402
 
 from lowgmap.app.files.casefile import load_case, sample_case_path  # noqa: E402
 from lowgmap.app.outputs.chartview import chart_view  # noqa: E402
-from lowgmap.physics import surrogates  # noqa: E402
 from lowgmap.physics.chart.composition import build_chart  # noqa: E402
 from lowgmap.physics.chart.margins import point_margins  # noqa: E402
 from lowgmap.physics.studies.design_space import apply_changes  # noqa: E402
@@ -89,57 +83,15 @@ def frame(case, exact: bool):
     return ch
 
 
-def proposed_qcrit_table(channel, length, rho_l, rho_g, mu, sigma, K_e, full):
-    """The critical-flow table of physics/models/corner.py from the similarity curve (proposed change).
-
-    Same return value as ``corner._qcrit_table``: (ln rho, ln Q_crit, PCHIP or None, limited_by).
-    """
-
-    from lowgmap.physics.models.open_channel.surrogate import similarity_applies
-
-    if not similarity_applies(channel):
-        return _original_qcrit_table(channel, length, rho_l, rho_g, mu, sigma, K_e, full)
-    return _proposed_cached(channel, length, rho_l, rho_g, mu, sigma, K_e, full, surrogates.exact_requested())
-
-
-@functools.lru_cache(maxsize=1024)
-def _proposed_cached(channel, length, rho_l, rho_g, mu, sigma, K_e, full, exact):
-    from scipy.interpolate import PchipInterpolator
-
-    from lowgmap.physics.models import corner
-    from lowgmap.physics.models.open_channel.surrogate import critical_flow_rates
-
-    rhos = np.geomspace(max(rho_g, 1e-6 * rho_l), rho_l, corner._N_RHO) if full else np.array([rho_l])
-    q, lim = critical_flow_rates(channel, length, rhos, mu, sigma, K_e=K_e)
-    lr, lq = np.log(rhos), np.log(np.atleast_1d(q))
-    interp = PchipInterpolator(lr, lq, extrapolate=True) if full else None
-    return lr, lq, interp, tuple(str(x) for x in np.atleast_1d(lim))
-
-
-_original_qcrit_table = None
-
-
-def use_proposed_corner():
-    global _original_qcrit_table
-    from lowgmap.physics.models import corner
-
-    _original_qcrit_table = corner._qcrit_table
-    corner._qcrit_table = proposed_qcrit_table
-
-
 def main(argv=None):
     p = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     p.add_argument("--exact", action="store_true")
-    p.add_argument("--proposed-corner", action="store_true")
     p.add_argument("--steps", type=int, default=12)
     p.add_argument("--revisit", type=int, default=0, help="values to visit before revisiting (e.g. 80)")
     p.add_argument("--case", default=None)
     a = p.parse_args(argv)
-    if a.proposed_corner:
-        use_proposed_corner()
     mode = "exact (full solves)" if a.exact else "surrogates"
-    print(f"chart rebuild + margins + display data per new geometry value, {mode}"
-          f"{', proposed corner.py critical-flow table' if a.proposed_corner else ''}; target <= 50 ms median")
+    print(f"chart rebuild + margins + display data per new geometry value, {mode}; target <= 50 ms median")
     for name in (a.case,) if a.case else CASES:
         case = load_case(sample_case_path(name)).case
         frame(case, a.exact)                                  # first chart: imports, fluid, shape tables
