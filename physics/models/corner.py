@@ -937,7 +937,7 @@ def _q_crit(case, rho_m, c):
         if cur is None:
             out[ok], _ = critical_flow_rates(ch, float(case.length), rho, f.mu_l, f.sigma, K_e=K_e)
         else:
-            out[ok] = _from_similarity(cur, ch.length_scale, float(case.length), rho, float(f.mu_l), float(f.sigma))
+            out[ok] = cur.q_crit(ch.length_scale, float(case.length), rho, float(f.mu_l), float(f.sigma))
     if g_ax == 0.0:
         return out
     return out * _gravity_ratio(_case_table(case, ch, c, g_ax), _case_table(case, ch, c, 0.0), rho_m)
@@ -954,15 +954,6 @@ def _similarity_of(channel, K_e):
         return similarity_curve(channel, K_e)
     except RuntimeError:
         return None
-
-
-def _from_similarity(cur, L, length, rho, mu, sigma):
-    """Q_crit = sqrt(sigma L^3/rho) F(mu l/(L sqrt(rho sigma L))) [m^3/s] at the densities rho (validated inputs):
-    the same arithmetic as :func:`~lowgmap.physics.models.open_channel.surrogate.critical_flow_rates`, without its
-    per-call checks and without the limiting mechanism, which the lines do not use."""
-    scale = np.sqrt(sigma * L ** 3 / rho)
-    lam = mu * length / (L * np.sqrt(rho * sigma * L))
-    return scale * cur.F(lam)
 
 
 def _tabulated(table, rho_m):

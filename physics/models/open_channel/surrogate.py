@@ -351,6 +351,18 @@ class SimilarityCurve:
         q = np.exp(self._log_f(x))
         return np.where(lam <= self.lam_up, self.q_up, np.minimum(q, self.q_up))
 
+    @staticmethod
+    def group(L, length, rho, mu, sigma):
+        r"""(scale, Λ): :math:`\sqrt{\sigma L^3/\rho}` [m^3/s] and :math:`\Lambda = \mu l/(L\sqrt{\rho\sigma L})`
+        for the length scale ``L`` and open length ``length`` (arrays broadcast; inputs not checked)."""
+        return np.sqrt(sigma * L ** 3 / rho), mu * length / (L * np.sqrt(rho * sigma * L))
+
+    def q_crit(self, L, length, rho, mu, sigma):
+        """Critical flow rate [m^3/s] = scale F(Λ) (:meth:`group`), for already checked inputs (the fast path
+        of the corner family's ingestion line; :func:`critical_flow_rates` checks and adds the mechanism)."""
+        scale, lam = self.group(L, length, rho, mu, sigma)
+        return scale * self.F(lam)
+
     def limited_by(self, lam):
         """What limits the critical flow at Λ (array of :data:`LIMITS` keys)."""
         lam = np.asarray(lam, dtype=float)
@@ -563,7 +575,6 @@ def critical_flow_rates(channel, length, rho, mu, sigma, *, K_e: float = 0.0, g_
         raise ValueError(f"mu must be finite and >= 0 Pa s, got {format_number(float(m[bad].flat[0]))} Pa s")
     K_e = non_negative("K_e", K_e)
     L = channel.length_scale
-    scale = np.sqrt(s * L ** 3 / r)
     g_axial = float(g_axial)
     cur = None
     if not surrogates.exact_requested() and g_axial == 0.0:
@@ -580,7 +591,7 @@ def critical_flow_rates(channel, length, rho, mu, sigma, *, K_e: float = 0.0, g_
             flow = SteadyFlow(channel, float(r[idx]), float(m[idx]), float(s[idx]), K_e, g_axial=g_axial)
             q[idx], lim[idx] = flow.critical(float(l[idx]))
         return _out(q), _out(lim)
-    lam = m * l / (L * np.sqrt(r * s * L))
+    scale, lam = cur.group(L, l, r, m, s)
     return _out(scale * cur.F(lam)), _out(cur.limited_by(lam))
 
 
