@@ -27,6 +27,7 @@ ever loaded from the cache.
 """
 from __future__ import annotations
 
+import functools
 import hashlib
 import io
 import os
@@ -48,7 +49,9 @@ SUFFIX = ".npz"
 _DIGEST = "__sha256__"
 
 
+@functools.lru_cache(maxsize=1)
 def _version() -> str:
+    """The installed version of lowgmap (read once per process: reading package metadata costs milliseconds)."""
     from importlib.metadata import PackageNotFoundError, version
 
     try:

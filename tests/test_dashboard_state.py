@@ -567,15 +567,26 @@ def test_slider_path_and_typed_path_give_the_same_case_and_the_same_numbers():
     assert (a.regime, a.limiting_boundary) == (b.regime, b.limiting_boundary)
     assert a.symmetric_margin == pytest.approx(b.symmetric_margin, rel=1e-12)
     assert _shown(pane) == _shown(typed_pane)
-    # the preview of the released value showed the numbers that are now in effect
-    assert preview.regime == a.regime and preview.margins.symmetric_margin == pytest.approx(a.symmetric_margin,
-                                                                                         rel=1e-12)
+    # the preview of the released value showed the numbers now in effect, to the preview's stated resolution
+    # (PREVIEW_CAVEAT: within 5e-5), and was marked as a preview; the chart in effect is a full-resolution one
+    from lowgmap.physics.chart.margins import PREVIEW_CAVEAT
+
+    assert preview.chart.preview and not slid.chart.preview and PREVIEW_CAVEAT not in slid.margins.caveats
+    assert preview.regime == a.regime and abs(preview.margins.symmetric_margin - a.symmetric_margin) <= 5e-5
+    assert preview.margins.caveats[0] == PREVIEW_CAVEAT
+    from lowgmap.app.dashboard.chartpane import live_label_text
+    from lowgmap.app.formatting import format_percent
+
+    # the label drawn during the drag names the value, the regime and the margin, marked as a preview
+    assert live_label_text(preview) == (f"{preview.label} {preview.text}: operating point in {preview.regime}, "
+                                        f"±{format_percent(preview.margins.symmetric_margin)} (preview)")
 
 
 def test_previews_are_coalesced_the_latest_value_wins_and_stale_ones_are_dropped(doc):
     # Catches: previews queued one per mouse event (the chart lagging seconds behind the slider), a stale
-    # result drawn after a newer one or after the release, margins computed for values already passed, and a
-    # preview left on screen after its value was applied.
+    # result drawn after a newer one or after the release, margins lagging behind the chart drawn, a
+    # preview left on screen after its value was applied, and a preview-resolution chart kept as the chart in
+    # effect when the released value is applied.
     runner = StepRunner()
     s = _session(doc, runner)
     before = s.chart
@@ -587,12 +598,12 @@ def test_previews_are_coalesced_the_latest_value_wins_and_stale_ones_are_dropped
     ask(15)
     assert len(runner.jobs) == 1                       # one preview job at a time, the rest waits as one value
     runner.step()
-    assert s.live.text == "13 mm" and s.live.margins is None and s.get("section.diameter") == "12.7 mm"
+    assert s.live.text == "13 mm" and s.get("section.diameter") == "12.7 mm"
+    assert abs(s.live.margins.ql - s.ql) == 0.0 and s.live.margins.regime == s.live.regime   # in the same job
     assert len(runner.jobs) == 1                       # next: the chart of 15 mm (14 mm was dropped)
     runner.step()
     assert s.live.text == "15 mm" and abs(s.live.chart.case.section.diameter - 0.015) < 1e-12
-    runner.step()                                      # its margins follow
-    assert s.live.margins.symmetric_margin == pytest.approx(
+    assert s.live.chart.preview and s.live.margins.symmetric_margin == pytest.approx(
         point_margins(s.live.chart, s.ql, s.qg).symmetric_margin, rel=1e-12)
     ask(16)
     s.end_preview()                                    # released at 15 mm: the 16 mm job is dropped
@@ -603,7 +614,8 @@ def test_previews_are_coalesced_the_latest_value_wins_and_stale_ones_are_dropped
     preview_chart = s.live.chart
     runner.step()
     assert s.live is None and s.get("section.diameter") == "15 mm"
-    assert s.chart is preview_chart                    # the chart of exactly this case is reused, not rebuilt
+    assert s.chart is not preview_chart and not s.chart.preview      # built again at full resolution
+    assert s.chart.case == preview_chart.case
 
 
 def test_full_solves_switch_rebuilds_the_chart_and_stays_for_later_edits(doc):

@@ -409,3 +409,25 @@ def test_bad_arguments(kwargs, text):
 def test_vapour_model_for_table_liquid_rejected():
     with pytest.raises(ValueError, match="gas_model='vapour'.*'perfluorohexane' is a table liquid"):
         make_fluid_pair("perfluorohexane", 300.0, gas_model="vapour")
+
+
+def test_a_pair_built_again_in_the_same_process_is_not_read_from_disk_and_is_the_same(monkeypatch):
+    # Catches: the in-process memo of fluid pairs keyed too loosely (another temperature or gas returning the
+    # first pair: wrong properties on every later chart) or not used at all (every dashboard frame reading the
+    # persistent cache from disk).
+    from lowgmap.physics import cache
+    from lowgmap.physics.properties import fluids
+
+    first = fluids.make_fluid_pair("water", 293.15, 101325.0, gas="air")
+
+    def no_disk(*args, **kwargs):
+        raise AssertionError("read from the persistent cache")
+    monkeypatch.setattr(cache, "load", no_disk)
+    again = fluids.make_fluid_pair("water", 293.15, 101325.0, gas="air")
+    assert again == first
+    monkeypatch.undo()
+    warmer = fluids.make_fluid_pair("water", 313.15, 101325.0, gas="air")
+    # IAPWS water: density falls from 998.2 to 992.2 kg/m^3 between 20 and 40 degC (from memory)
+    assert warmer.rho_l < first.rho_l - 5.0
+    helium = fluids.make_fluid_pair("water", 293.15, 101325.0, gas="helium")
+    assert helium.rho_g < 0.2 * first.rho_g

@@ -550,7 +550,8 @@ class ChartPane(pn.viewable.Viewer):
 
 
 def live_label_text(live) -> str:
-    """The label drawn in the plot during a preview: the value drawn, the operating point's regime and margin."""
+    """The label drawn in the plot during a preview: the value drawn, the operating point's regime and its margin
+    at preview resolution (marked so: the value released is computed at full resolution)."""
     from lowgmap.app.formatting import format_percent
 
     what = f"{live.label} {live.text}"
@@ -561,7 +562,7 @@ def live_label_text(live) -> str:
     if not live.regime:
         return f"{what}: no regimes"
     m = live.margins.symmetric_margin if live.margins is not None else None
-    margin = f"±{format_percent(m)}" if m is not None else "margin …"
+    margin = f"±{format_percent(m)} (preview)" if m is not None else "margin not available"
     return f"{what}: operating point in {live.regime}, {margin}"
 
 

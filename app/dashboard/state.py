@@ -35,11 +35,14 @@ While a slider moves, :meth:`Session.preview` asks for the chart of the case wit
 outside the queue and without changing the case in effect. Previews are coalesced: one job at a time
 per session, and while it runs only the latest value waits (older ones are dropped, never queued).
 Each preview is published as :attr:`Session.live` (a :class:`Preview`: the case, its chart, the regime
-of the operating point and, in a second, cheaper-to-skip step, its margins, which are left out while a
-newer value waits). On release the value becomes an ordinary edit, exactly as if it had been typed
-(:meth:`Session.end_preview`, then :meth:`Session.edit`); previews still running are dropped, and
-:attr:`Session.live` is cleared once the edit is applied. A chart built by a preview for exactly the
-released case is reused by the edit (same case, same build, same numbers).
+of the operating point and its margins, computed in the same job). A preview's chart is built at preview
+resolution (``Chart.build(..., preview=True)``: the same physics and surrogates, the lines sampled more
+coarsely, its margins within about 5e-5 of the final ones and carrying a caveat that says so), so that the
+chart, the regime and the margin follow the slider together. On release the value becomes an ordinary
+edit, exactly as if it had been typed (:meth:`Session.end_preview`, then :meth:`Session.edit`): the chart
+of the released value is built at full resolution and is the one every view reads; previews still running
+are dropped, and :attr:`Session.live` is cleared once the edit is applied. A preview's chart is never
+reused by the edit.
 
 Full solves and bands
 ---------------------
@@ -66,7 +69,7 @@ import tomlkit
 from lowgmap.physics.chart.composition import Chart
 from lowgmap.physics.studies.study import Study, run_study
 
-from lowgmap.app.files.casefile import CaseDocument, CaseFileError, dumps_case, loads_case
+from lowgmap.app.files.casefile import CaseDocument, CaseFileError, build_case, dumps_case, loads_case
 from lowgmap.app.files.units import UnitError, convert, parse_flow
 
 __all__ = ["Session", "Edit", "Preview", "CompareSettings", "GROUPS", "group_of", "build_chart", "live_sessions"]
@@ -129,8 +132,8 @@ class Preview:
     doc : CaseDocument or None   the case with that value (None when it is not a valid case)
     chart : Chart or None        its chart
     regime : str or None         regime of the operating point on that chart
-    margins : PointMargins or None   margins of the operating point (None until computed: they follow
-                                 the chart at a lower rate and are skipped while a newer value waits)
+    margins : PointMargins or None   margins of the operating point at preview resolution (None without an
+                                 operating point or when they cannot be computed)
     display : object             what the view asked to have prepared off the event loop (its drawing data)
     problem : str                why there is no chart for this value ('' when there is one)
     released : bool              the slider was released: the value is being applied as an edit
@@ -228,7 +231,6 @@ class _Snapshot:
     base_dir: Any
     compare: "CompareSettings"
     exact: bool = False
-    spare_charts: tuple = ()
 
 
 @dataclass
@@ -303,6 +305,7 @@ class Session(param.Parameterized):
         self._preview_dropped = 0       # previews up to this number are stale (released)
         self._preview_want = None       # the latest value waiting for the preview job
         self._preview_busy = False
+        self._plain_memo: dict = {}     # the case data as plain objects, for the preview jobs (see _preview_work)
         self._previewing = False        # a slider is being dragged
         self._extras_busy = False
         self._want_worst = False
@@ -373,10 +376,8 @@ class Session(param.Parameterized):
         batch = list(self._queue.values())
         self._in_flight = dict(self._queue)
         self._queue = {}
-        live = self.live
-        spare = (live.chart,) if live is not None and live.chart is not None else ()
         snap = _Snapshot(self.data, self.doc, self.study, (self.ql, self.qg), self.test_points,
-                         self.source_name, self.base_dir, self.compare, self.exact, spare)
+                         self.source_name, self.base_dir, self.compare, self.exact)
         self.activity = _activity_words(batch)
         self.busy = True
         self.runner.submit(lambda: _work_off(snap, batch), self._finished)
@@ -488,8 +489,8 @@ class Session(param.Parameterized):
 
         Coalesced: at most one preview job runs; a request made meanwhile replaces any older waiting
         one, so the latest value is always drawn next and stale ones are dropped. The result is
-        published as :attr:`live`; its margins follow in a second job, skipped while a newer value
-        waits. ``display(doc, chart)``, when given, is run on the worker too and its result kept as
+        published as :attr:`live`, with the margins of the operating point computed in the same job (both at
+        preview resolution). ``display(doc, chart)``, when given, is run on the worker too and its result kept as
         ``Preview.display`` (e.g. a view's drawing data). ``text``: the value as written in the field.
         """
         if self._closed:
@@ -520,32 +521,21 @@ class Session(param.Parameterized):
         if want is not None:
             self._preview_want = None
             self._preview_busy = True
-            args = (self.data, self.source_name, self.base_dir, (self.ql, self.qg), self.exact)
+            args = (self.data, self.source_name, self.base_dir, (self.ql, self.qg), self.exact, self._plain_memo)
             self.runner.submit(lambda: _preview_work(want, *args),
-                               lambda result, error: self._preview_done(want, "chart", result, error))
-            return
-        live = self.live
-        if (live is not None and live.chart is not None and live.margins is None and not live.released
-                and live.seq > self._preview_dropped and self.ql is not None and live.chart.regime_names):
-            self._preview_busy = True
-            point = (self.ql, self.qg)
-            self.runner.submit(lambda: _preview_margins(live.chart, point),
-                               lambda result, error: self._preview_done(live, "margins", result, error))
+                               lambda result, error: self._preview_done(want, result, error))
 
-    def _preview_done(self, req: "Preview", stage: str, result, error) -> None:
+    def _preview_done(self, req: "Preview", result, error) -> None:
         self._preview_busy = False
         if self._closed or self.runner is None:
             return
         if req.seq > self._preview_dropped:            # not released since it was asked for
-            if stage == "chart":
-                if error is not None:
-                    old = self.live
-                    self.live = dataclasses.replace(req, doc=None, display=old.display if old else None,
-                                                    chart=None, problem=_preview_problem(req, error))
-                else:
-                    self.live = result
-            elif error is None and self.live is not None and self.live.seq == req.seq:
-                self.live = dataclasses.replace(self.live, margins=result)
+            if error is not None:
+                old = self.live
+                self.live = dataclasses.replace(req, doc=None, display=old.display if old else None,
+                                                chart=None, problem=_preview_problem(req, error))
+            else:
+                self.live = result
         self._preview_kick()
 
     # ------------------------------------------------------------------------------- full solves, bands
@@ -716,24 +706,35 @@ class Session(param.Parameterized):
 
 
 # ===================================================================================== the work
-def _preview_work(req: Preview, data, source, base_dir, point, exact: bool) -> Preview:
-    """The chart of the case with a slider's value (worker thread; touches nothing shared)."""
-    trial = copy.deepcopy(data)
-    for path, value in req.changes.items():
-        _set_path(trial, path, value)
-    new = loads_case(dumps_case(trial), source=source, base_dir=base_dir)
-    chart = Chart.build(new.case, exact=exact)
-    regime = None
-    if point[0] is not None and chart.regime_names:
-        regime = str(chart.regime_at(*point))
-    display = req.display(new, chart) if req.display is not None else None
-    return dataclasses.replace(req, doc=new, chart=chart, regime=regime, display=display)
-
-
-def _preview_margins(chart, point):
+def _preview_work(req: Preview, data, source, base_dir, point, exact: bool, memo: dict | None = None) -> Preview:
+    """The chart of the case with a slider's value and the operating point's regime and margins, at preview
+    resolution (worker thread; touches nothing shared). The case is validated by the same builder as a
+    loaded file (:func:`build_case`, without writing and parsing the text: the released value goes through
+    the edit path, which does). ``memo``: the session's {"data": ..., "plain": ...} holder of the case data as
+    plain Python objects (unwrapping the case-file document costs far more than copying plain data; one
+    preview job runs at a time, so the holder is not shared between threads)."""
     from lowgmap.physics.chart.margins import point_margins
 
-    return point_margins(chart, *point)
+    if memo is not None:
+        if memo.get("data") is not data:
+            memo["plain"] = data.unwrap() if hasattr(data, "unwrap") else copy.deepcopy(data)
+            memo["data"] = data
+        trial = copy.deepcopy(memo["plain"])
+    else:
+        trial = copy.deepcopy(data)
+    for path, value in req.changes.items():
+        _set_path(trial, path, value)
+    new = build_case(trial, source=source, base_dir=base_dir)
+    chart = Chart.build(new.case, exact=exact, preview=True)
+    regime = margins = None
+    if point[0] is not None and chart.regime_names:
+        regime = str(chart.regime_at(*point))
+        try:
+            margins = point_margins(chart, *point)
+        except _BUILD_ERRORS:
+            margins = None                  # the label then says the margin is not available
+    display = req.display(new, chart) if req.display is not None else None
+    return dataclasses.replace(req, doc=new, chart=chart, regime=regime, margins=margins, display=display)
 
 
 def _preview_problem(req: Preview, error) -> str:
@@ -767,7 +768,7 @@ def _set_path(data, path: str, value) -> None:
     node = data
     for p in parents:
         if p not in node:
-            node[p] = tomlkit.table()
+            node[p] = tomlkit.table() if hasattr(node, "unwrap") else {}      # a document, or plain data
         node = node[p]
     if value is None:
         if key in node:
@@ -896,9 +897,6 @@ def _run(snap: _Snapshot, batch: list[Edit], strict: bool) -> _Outcome:
     def chart_of(d):
         if getattr(chart, "exact", False) == exact and (chart.case is d.case or _same_case(chart.case, d.case)):
             return chart
-        for spare in snap.spare_charts:   # a preview's chart of exactly this case (a released slider)
-            if getattr(spare, "exact", False) == exact and _same_case(spare.case, d.case):
-                return spare
         try:
             return _build(d.case, exact)
         except _BUILD_ERRORS as exc:

@@ -113,6 +113,9 @@ _SCHEME_TOL = 2e-4     # chord deviation allowed on partition charts, fraction o
 _SCHEME_N0 = 33        # initial samples of a line piece
 _SCHEME_DEPTH = 22     # refinement passes of a line piece
 _SCHEME_MAX = 6000     # cap on samples per piece
+#: Chord tolerances of a preview chart (``Chart.build(..., preview=True)``) are this many times the usual ones:
+#: 2e-3 of the chart box on partition charts, about one pixel of a 600-pixel plot.
+PREVIEW_FACTOR = 10.0
 _OFFSET = 1e-6         # side-probe distance for "does this line separate two regimes" (box units)
 
 
@@ -317,6 +320,10 @@ class Chart:
         chosen models belong to a :class:`PartitionScheme`)
     exact : bool   built with the full solves instead of the surrogates (:mod:`lowgmap.physics.surrogates`);
         later evaluations of its models (margins, classification) use the same (:meth:`solves`)
+    preview : bool   built at preview resolution for a slider being dragged (:meth:`build` with
+        ``preview=True``): the lines of a partition chart drawn to :data:`PREVIEW_FACTOR` times the usual chord
+        tolerance and their crossings left where the chords cross; its margins are computed at preview resolution too
+        (:data:`lowgmap.physics.chart.lines.PREVIEW_TOL`) and say so. Never the basis of a verdict.
     """
 
     case: object
@@ -329,6 +336,7 @@ class Chart:
     comparison_models: tuple
     scheme: RegimeScheme = None
     exact: bool = False
+    preview: bool = False
 
     def __post_init__(self):
         if self.scheme is None:
@@ -342,7 +350,7 @@ class Chart:
 
     # ----------------------------------------------------------------------------------------
     @classmethod
-    def build(cls, case, models=None, *, exact: bool = False) -> "Chart":
+    def build(cls, case, models=None, *, exact: bool = False, preview: bool = False) -> "Chart":
         """Compose the chart of ``case``.
 
         Parameters
@@ -361,6 +369,10 @@ class Chart:
             :mod:`lowgmap.physics.surrogates` (open-channel Stokes resistance over the half-angle,
             critical-flow similarity curve), for this chart and every later evaluation of its models
             (margins, classification). Also True inside ``with lowgmap.physics.surrogates.exact():``.
+        preview : bool, optional
+            True: preview resolution, for the frames drawn while a slider is dragged (see the class
+            attribute ``preview``); the physics, the models and the surrogates are the same, only the
+            sampling of the lines is coarser. The chart of the value released is built without it.
 
         Returns
         -------
@@ -389,12 +401,13 @@ class Chart:
         """
         exact = bool(exact) or surrogates.exact_requested()
         with surrogates.exact(exact):
-            chart = cls._build(case, models)
+            chart = cls._build(case, models, bool(preview))
         object.__setattr__(chart, "exact", exact)
+        object.__setattr__(chart, "preview", bool(preview))
         return chart
 
     @classmethod
-    def _build(cls, case, models) -> "Chart":
+    def _build(cls, case, models, preview: bool = False) -> "Chart":
         fr = case.flow_range
         x0, x1 = math.log10(fr.ql_min), math.log10(fr.ql_max)
         ylo, yhi = math.log10(fr.qg_min), math.log10(fr.qg_max)
@@ -417,7 +430,7 @@ class Chart:
                        if isinstance(getattr(m, "scheme", None), RegimeScheme)
                        and getattr(m, "scheme") is not CHAIN), None)
         if scheme is not None:
-            return cls._build_scheme(case, chosen, scheme, warnings)
+            return cls._build_scheme(case, chosen, scheme, warnings, preview)
         if not chosen:
             why = ""
             if getattr(case.section, "is_open", False) and (
@@ -435,7 +448,7 @@ class Chart:
             regime_names = tuple([ordered[0][0].regime_below] + [m.regime_above for m, _ in ordered[:n_reg]])
 
         # sample every line over the liquid range ----------------------------------------
-        tol = _TOL * (yhi - ylo)
+        tol = _TOL * (yhi - ylo)               # (sequence-rule charts are cheap: a preview samples them as usual)
         fns, samples = [], []
         for model, consts in ordered:
             f = _log_curve(model, case, consts)
@@ -522,7 +535,7 @@ class Chart:
                    tuple((m, tuple(sorted(c.items()))) for m, c in ordered[n_reg:]))
 
     @classmethod
-    def _build_scheme(cls, case, chosen, scheme: RegimeScheme, warnings: list) -> "Chart":
+    def _build_scheme(cls, case, chosen, scheme: RegimeScheme, warnings: list, preview: bool = False) -> "Chart":
         """Chart of models that belong to a :class:`PartitionScheme` (see the module notes)."""
         fr = case.flow_range
         box = (math.log10(fr.ql_min), math.log10(fr.ql_max), math.log10(fr.qg_min), math.log10(fr.qg_max))
@@ -544,7 +557,7 @@ class Chart:
             runs = []
             for piece in _model_pieces(model, case, consts, box):
                 f = _piece_uv(piece, box)
-                t, u, v = _sample_piece(f, piece, _SCHEME_TOL)
+                t, u, v = _sample_piece(f, piece, _SCHEME_TOL * (PREVIEW_FACTOR if preview else 1.0))
                 runs += _clip_runs(f, t, u, v)
             lines.append(runs)
 
@@ -557,7 +570,8 @@ class Chart:
                         warnings.append(f"{ordered[i][0].label} and {ordered[j][0].label} coincide over part "
                                         f"of this chart.")
                         continue
-                    pt = _refine_crossing(lines[i], ordered[j], case, box, p_u, p_v)
+                    # a preview leaves the crossing where the chords cross (within its coarser tolerance)
+                    pt = _refine_crossing(lines[i], None if preview else ordered[j], case, box, p_u, p_v)
                     _refine_crossing(lines[j], None, case, box, *pt)
                     ql, qg = _uv_to_flow(np.array([pt[0]]), np.array([pt[1]]), box)
                     intersections.append(Intersection(ordered[i][0].name, ordered[j][0].name,
@@ -1030,7 +1044,7 @@ def _runs_to_flow(runs, box):
     return ql, qg
 
 
-def build_chart(case, models=None, *, exact: bool = False) -> Chart:
+def build_chart(case, models=None, *, exact: bool = False, preview: bool = False) -> Chart:
     """Compose the regime chart of ``case`` (the same as :meth:`Chart.build`).
 
     Parameters
@@ -1039,9 +1053,10 @@ def build_chart(case, models=None, *, exact: bool = False) -> Chart:
     models : sequence, optional   boundary models (see :meth:`Chart.build`); default: the case's or the
                                   section's default set
     exact : bool, optional        full solves instead of the surrogates (see :meth:`Chart.build`)
+    preview : bool, optional      preview resolution for a slider being dragged (see :meth:`Chart.build`)
 
     Returns
     -------
     Chart
     """
-    return Chart.build(case, models, exact=exact)
+    return Chart.build(case, models, exact=exact, preview=preview)

@@ -72,8 +72,12 @@ _MIN_DX = 1e-9                                # narrowest cell refined for curva
 _DEPTH = 60                                   # refinement passes
 _MAX_SAMPLES = 20000                          # cap on samples per line piece
 _FAR = 8.0                                    # decades beyond the coverage where open columns are closed
-_PROBE = 1e-6                                 # side-probe distance from a chord [decade]
+_PROBE = 1e-6                                 # side-probe distance from a chord [decade] (at least 10 tol)
 _GAP_N = 25                                   # grid of the evaluation probe: _GAP_N x _GAP_N points
+#: Chord tolerance of the lines of a preview chart (``Chart.build(..., preview=True)``) [decade]: the margins
+#: of a preview are then within about ln(10) x 1e-5 x (1 + m) <= 5e-5 of the released value (as a fraction).
+PREVIEW_TOL = 1e-5
+_PREVIEW_N_START = 17
 
 #: Errors a model may raise where it cannot be evaluated (outside its domain, overflow); a line
 #: that raises one of these is reported as not evaluable instead of stopping the margins.
@@ -417,8 +421,9 @@ def make_geometry(chart, case, lines, n_region, cov, *, tol=_TOL, wall_dx=_WALL_
             dx, dy = xb - xa, yb - ya
             nrm = np.hypot(dx, dy)
             nx, ny = -dy / nrm, dx / nrm
-            px = np.concatenate([mx + _PROBE * nx, mx - _PROBE * nx])
-            py = np.concatenate([my + _PROBE * ny, my - _PROBE * ny])
+            probe = max(_PROBE, 10.0 * tol)             # beyond the chord's own distance from the line
+            px = np.concatenate([mx + probe * nx, mx - probe * nx])
+            py = np.concatenate([my + probe * ny, my - probe * ny])
             sides = regime_indices(names, np.asarray(chart.classify(10.0 ** px, 10.0 ** py)))
             half = reg.sum()
             left[reg], right[reg] = sides[:half], sides[half:]
@@ -487,8 +492,9 @@ class ChartGeometry:
                 return g
             if g is not None:
                 cov = (min(cov[0], g.cov[0]), max(cov[1], g.cov[1]), min(cov[2], g.cov[2]), max(cov[3], g.cov[3]))
+            fine = {} if not getattr(chart, "preview", False) else {"tol": PREVIEW_TOL, "n_start": _PREVIEW_N_START}
             new = make_geometry(chart, chart.case, [(m, c) for m, c, _ in self.lines], len(chart.region_models), cov,
-                                keep_going=keep_going)
+                                keep_going=keep_going, **fine)
             if not new.failed:
                 self.geom = new
             return new

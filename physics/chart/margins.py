@@ -101,7 +101,7 @@ __all__ = ["MAX_MARGIN", "DIRECTIONS", "BoundaryMargin", "PointMargins", "point_
            "CornerCheck", "EnvelopeLine", "EnvelopeCheck", "envelope_check", "RobustPoint", "robust_point",
            "Verdict", "margin_verdict", "REGIME_STATUSES", "MARGIN_STATUSES",
            "regime_index", "box_margin_on_segments", "regime_margins", "resolve_deferred",
-           "uncached_regime_margins", "check_point"]
+           "uncached_regime_margins", "check_point", "PREVIEW_CAVEAT"]
 
 #: The four axis directions of :attr:`PointMargins.limits`.
 DIRECTIONS = ("ql_up", "ql_down", "qg_up", "qg_down")
@@ -111,6 +111,10 @@ _BEYOND = 1e-6                                # gaps are probed over the ±m (1 
 
 #: The words of :attr:`Verdict.regime_status`: in it, not in it, none stated.
 REGIME_STATUSES = ("in the intended regime", "NOT IN THE INTENDED REGIME", "no intended regime stated")
+#: Caveat of the margins of a preview chart (``Chart.build(..., preview=True)``, a slider being dragged).
+PREVIEW_CAVEAT = ("Preview while a value is being dragged: the lines were sampled to 1e-5 decade, so this margin "
+                  "is within about 5e-5 of the value computed once the value is released (to 1e-7 decade); "
+                  "the released value is the one to use.")
 #: The words of :attr:`Verdict.margin_status`.
 MARGIN_STATUSES = ("met", "NOT MET", "not established")
 
@@ -850,6 +854,8 @@ def point_margins(chart, ql: float, qg: float) -> PointMargins:
     determined, more, caveats = _point_evidence(chart, holder.lines, g, regime, r, x0, y0, m_reg, g_point,
                                                 touch_at)
     reasons += more
+    if getattr(chart, "preview", False):
+        caveats.insert(0, PREVIEW_CAVEAT)
     outside, note = _outside_chart(chart, ql, ql, qg, qg,
                                    f"The point (Q_L {_q(ql)} m³/s, Q_G {_q(qg)} m³/s)")
     return PointMargins(ql, qg, regime, tuple(out), m_reg, lim,

@@ -431,17 +431,23 @@ def _sizes(geom, r, c):
     """(V_b, d_b, N, V_eff, d_eff) at flow ratios r for constants c (N = k_m l_b / lambda)."""
     S, A = geom.depth, geom.area
     r = np.asarray(r, dtype=float)
-    if c["bubble_diameter_ratio"] > 0:
-        d_b = np.full(r.shape, c["bubble_diameter_ratio"] * S)
-        V_b = math.pi * d_b ** 3 / 6.0
-    else:
-        w = c["injector_width_ratio"] * S
-        if not (0.0 < w < math.inf and 0.0 <= c["squeeze_a"] < math.inf):   # checked constants; else say which
-            bb.squeezing_volume(1.0, 1.0, w, a=c["squeeze_a"])
-        V_b = bb.squeezing_volume_at_ratio(r, w, c["squeeze_a"])     # w^3 (1 + a r)
-        d_b = np.cbrt(6.0 * V_b / math.pi)
-    ell = np.maximum(d_b, V_b / A)                    # streamwise bubble length: a sphere, or a plug
     with np.errstate(divide="ignore", invalid="ignore"):
+        if c["bubble_diameter_ratio"] > 0:
+            d_b = np.full(r.shape, c["bubble_diameter_ratio"] * S)
+            V_b = math.pi * d_b ** 3 / 6.0
+        else:
+            w = c["injector_width_ratio"] * S
+            a = c["squeeze_a"]
+            if not (0.0 < w < math.inf and 0.0 <= a < math.inf):   # checked constants; else say which
+                bb.squeezing_volume(1.0, 1.0, w, a=a)
+            # w^3 (1 + a r), NaN where r is not finite and >= 0 (bubbles.squeezing_volume_at_ratio, inlined: the
+            # lines call this thousands of times per chart)
+            V_b = w * w * w * (1.0 + a * r)
+            bad = ~(r >= 0) | (r == math.inf)
+            if bad.any():
+                V_b = np.where(bad, np.nan, V_b)
+            d_b = np.cbrt(6.0 * V_b / math.pi)
+        ell = np.maximum(d_b, V_b / A)                    # streamwise bubble length: a sphere, or a plug
         N = c["merge_length_ratio"] * ell * A * r / (V_b * (1.0 + r))        # k_m l_b / lambda
     # max(1, N) with N = NaN counted as 1 and +inf as the largest float (as numpy's nan_to_num does)
     V_eff = V_b * np.minimum(np.fmax(1.0, N), _FLOAT_MAX)

@@ -19,10 +19,12 @@ override is written into the source strings.
 """
 from __future__ import annotations
 
+import collections
 import csv
 import difflib
 import functools
 import math
+import threading
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Mapping
@@ -754,21 +756,47 @@ def make_fluid_pair(liquid: str, temperature: float, pressure: float | None = No
     except (TypeError, ValueError):       # inputs the checks below will refuse with a proper message
         key = None
     if key is not None:
+        with _PAIRS_LOCK:
+            kept = _PAIRS.get(key)
+            if kept is not None:
+                _PAIRS.move_to_end(key)
+                return kept
         hit = cache.load("fluids.pair", key)
+        fp = None
         if hit is not None:
             try:
-                return _pair_from_arrays(hit)
+                fp = _pair_from_arrays(hit)
             except (KeyError, ValueError, TypeError):
                 pass                      # an entry of another layout: rebuild it
+        if fp is not None:
+            _keep_pair(key, fp)
+            return fp
     fp = _make_fluid_pair(liquid, temperature, pressure, gas=gas, gas_model=gas_model,
                           liquid_source=liquid_source, overrides=overrides)
     if key is not None:
         cache.store("fluids.pair", key, _pair_to_arrays(fp))
+        _keep_pair(key, fp)
     return fp
 
 
+#: Fluid pairs built in this process, by cache key (a dashboard builds the same pair for every edit and every
+#: frame of a dragged slider; reading it from the persistent cache each time costs a file read).
+_PAIRS: "collections.OrderedDict[str, FluidPair]" = collections.OrderedDict()
+_PAIRS_LOCK = threading.Lock()
+_PAIRS_KEPT = 256
+
+
+def _keep_pair(key: str, fp: FluidPair) -> None:
+    with _PAIRS_LOCK:
+        _PAIRS[key] = fp
+        _PAIRS.move_to_end(key)
+        while len(_PAIRS) > _PAIRS_KEPT:
+            _PAIRS.popitem(last=False)
+
+
+@functools.lru_cache(maxsize=1)
 def _library_version() -> str:
-    """Version of the property library, read without importing it (importing it takes seconds)."""
+    """Version of the property library, read without importing it (importing it takes seconds; read once)."""
     from importlib.metadata import PackageNotFoundError, version
 
     try:
