@@ -476,3 +476,52 @@ def test_similar_cases_give_similar_lines(s, u_sl):
         a = model.qg_of_ql(base.with_(orientation=HORIZONTAL), q)
         b = model.qg_of_ql(scaled.with_(orientation=HORIZONTAL), q * s)
         assert (np.isnan(a) and np.isnan(b)) or b == pytest.approx(a * s, rel=1e-7)
+
+
+def test_stratified_line_inverse_lands_on_the_explicit_curve_on_both_sides_of_the_gas_friction_switch():
+    # Catches: a root search of qg_of_ql that stops early or on the wrong bracket (the line drawn off the
+    # curve of Taitel & Dukler 1976 that the model defines explicitly in the level h), levels on both sides of
+    # the gas laminar/turbulent switch swapped, or a search left running on rows that have no crossing.
+    # Reference: the model's own explicit parametrisation curve(h) (the same equations, no root search).
+    d = 0.0254
+    horizontal = Orientation.horizontal()
+    case = make_case(d, g=LUNAR_SURFACE_GRAVITY, orientation=horizontal)
+    m = tg.STRATIFIED_TAITEL_DUKLER_1976
+    f = case.fluid
+    ends = tg._gas_switch_levels(f.rho_g, f.mu_g, f.rho_l - f.rho_g, d, case.g, 0.0, 2000.0)
+    assert ends is not None and 0.0 < ends[1] - ends[0] < 1e-15   # two adjacent levels
+    h = np.concatenate([np.linspace(0.05, 0.95, 37), ends])
+    u_sl, u_sg = m.curve(case, h)
+    a = area(d)
+    ok = np.isfinite(u_sl) & np.isfinite(u_sg)
+    got = np.asarray(m.qg_of_ql(case, u_sl[ok] * a)) / a
+    # where several levels give one liquid flow the lowest level (largest gas flow) is the line: never below
+    assert np.all(got >= u_sg[ok] * (1.0 - 1e-9))
+    on = np.abs(got / u_sg[ok] - 1.0) < 1e-9
+    # levels on the first rising run of U_SL(h) are the lowest level of their liquid flow: exactly on the curve
+    rising = np.concatenate([[True], np.cumprod(np.diff(u_sl[ok][:37]) > 0).astype(bool)])
+    assert rising.sum() >= 10 and np.all(on[:37][rising])
+    # the gas Reynolds number is re_laminar between the two switch levels
+    re = f.rho_g * np.asarray(m.curve(case, ends)[1]) * d / f.mu_g
+    assert re[0] >= 2000.0 > re[1]
+
+
+def test_dispersed_bubble_limit_inverse_lands_on_the_explicit_curve():
+    # Catches: the false-position search of the dispersed-bubble gas flow stopping off the curve of Taitel,
+    # Bornea & Dukler (1980) (explicit in the gas fraction: dispersed_bubble_curve), e.g. a sign slip in the
+    # bracket or an absolute tolerance that loses small gas fractions.
+    d = 0.06
+    case = make_case(d, g=G0, orientation=UP)
+    model = next(mm for mm, _ in Chart.build(case).region_models + Chart.build(case).comparison_models
+                 if hasattr(mm, "_dispersed_gas_velocity"))
+    lam = np.array([1e-6, 1e-4, 0.01, 0.1, 0.3, 0.5])
+    u_sl, _ = tg.dispersed_bubble_curve(lam, G0, SIGMA, RHO_L, RHO_G, MU_L, d)
+    u_sg = np.asarray(model._dispersed_gas_velocity(case, np.asarray(u_sl), 0.52))
+    fin = np.isfinite(u_sg)
+    assert fin.sum() >= 4
+    # the first gas fraction where the condition fails: on the curve, and never beyond the one we started from
+    lam1 = u_sg[fin] / (u_sg[fin] + np.asarray(u_sl)[fin])
+    back, _ = tg.dispersed_bubble_curve(lam1, G0, SIGMA, RHO_L, RHO_G, MU_L, d)
+    assert np.allclose(back, np.asarray(u_sl)[fin], rtol=1e-9)
+    assert np.all(lam1 <= lam[fin] * (1.0 + 1e-9))
+    assert np.allclose(lam1[:3], lam[:3], rtol=1e-9)       # small fractions: the rising part of the curve

@@ -873,13 +873,15 @@ class TaitelBubbleSlug(_GravityTube):
         fails = vals <= 0
         any_fail = fails.any(axis=1)
         k = np.argmax(fails, axis=1)
-        lo, hi = lam[np.maximum(k - 1, 0)], lam[k]
-        for _ in range(50):
-            mid = 0.5 * (lo + hi)
-            good = excess(mid, us) > 0
-            lo = np.where(good, mid, lo)
-            hi = np.where(good, hi, mid)
-        lam1 = 0.5 * (lo + hi)
+        rows = np.arange(k.size)
+        km = np.maximum(k - 1, 0)
+        lo, hi = lam[km], lam[k]
+        # the first crossing, from the grid bracket: -excess goes from < 0 (dispersed) to >= 0 (fails); Illinois
+        # false position converges in a few steps where bisection took 50 (this line is sampled thousands of
+        # times per chart)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            lam1 = _illinois(lambda x, idx: -excess(x, us[idx]), lo, hi, -vals[rows, km], -vals[rows, k],
+                             iterations=60, xtol=0.0, rtol=1e-15)
         u_sg = np.where(any_fail, lam1 / (1.0 - lam1) * us, np.inf)
         out[ok] = np.where(vals[:, 0] > 0, u_sg, np.nan)
         return out
@@ -1093,11 +1095,20 @@ class TaitelDuklerStratified(_TaitelDuklerLine):
         g = case.g
         drho = f.rho_l - f.rho_g
         h = np.asarray(h, dtype=float)
-        u_sg = kelvin_helmholtz_froude(h) * np.sqrt(drho * d * g * math.cos(beta) / f.rho_g)
+        # the geometry once for the three uses below (the same expressions as kelvin_helmholtz_froude and
+        # stratified_balance_terms, in the same order: this runs inside root searches, dozens of times a line)
+        a_l, a_g, s_l, s_g, s_i = stratified_geometry(h)
+        with np.errstate(divide="ignore"):
+            froude = (1.0 - h) * a_g ** 1.5 / ((math.pi / 4.0) * np.sqrt(s_i))
+        u_sg = froude * np.sqrt(drho * d * g * math.cos(beta) / f.rho_g)
         p_g, m = _superficial_gradient(f.rho_g, f.mu_g, u_sg, d, re_laminar)
+        a = math.pi / 4.0
+        u_l, u_g = a / a_l, a / a_g
+        d_l, d_g = 4.0 * a_l / s_l, 4.0 * a_g / (s_g + s_i)
+        big_g = (u_g * d_g) ** (-np.asarray(m, dtype=float)) * u_g ** 2 * (s_g / a_g + s_i / a_l + s_i / a_g)
         outs = []
         for n, c in ((1.0, 16.0), (0.2, 0.046)):
-            big_l, big_g = stratified_balance_terms(h, n, m)
+            big_l = (u_l * d_l) ** (-n) * u_l ** 2 * s_l / a_l
             with np.errstate(invalid="ignore", divide="ignore"):
                 p_l = (p_g * big_g - 4.0 * drho * g * math.sin(beta)) / big_l
                 u = np.power(np.where(p_l > 0, p_l, np.nan) * d * (d * f.rho_l / f.mu_l) ** n / (2.0 * c * f.rho_l),
@@ -1122,10 +1133,10 @@ class TaitelDuklerStratified(_TaitelDuklerLine):
         laminar = f.rho_l * u_t * d / f.mu_l < c["re_laminar"]
         hg, tab_lam, tab_turb = self._table(case, c["re_laminar"])
 
-        def resid(h, target, lam):
+        def resid(h, idx):
             u_lam, u_turb, _ = self._curve_both(case, h, c["re_laminar"])
             with np.errstate(invalid="ignore", divide="ignore"):
-                return np.log(np.where(lam, u_lam, u_turb)) - np.log(target)
+                return np.log(np.where(laminar[idx], u_lam, u_turb)) - np.log(u_t[idx])
 
         with np.errstate(invalid="ignore", divide="ignore"):
             r = np.where(laminar[:, None], tab_lam[None, :], tab_turb[None, :]) - np.log(u_t)[:, None]
@@ -1133,21 +1144,27 @@ class TaitelDuklerStratified(_TaitelDuklerLine):
         has = change.any(axis=1) & np.isfinite(u_t)
         k = np.argmax(change, axis=1)
         k1 = np.minimum(k + 1, hg.size - 1)
-        rows = np.arange(k.size)
-        h = _illinois(lambda x: resid(x, u_t, laminar), hg[k], hg[k1], r[rows, k], r[rows, k1])
-        _, _, u_sg = self._curve_both(case, h, c["re_laminar"])
-        out = np.where(has, np.asarray(u_sg) * area, np.nan).reshape(shape)
-        return _out(out)
+        rows = np.flatnonzero(has)              # only the levels with a crossing are searched
+        out = np.full(k.size, np.nan)
+        if rows.size:
+            h = _illinois(lambda x, idx: resid(x, rows[idx]), hg[k[rows]], hg[k1[rows]], r[rows, k[rows]],
+                          r[rows, k1[rows]])
+            _, _, u_sg = self._curve_both(case, h, c["re_laminar"])
+            out[rows] = np.asarray(u_sg) * area
+        return _out(out.reshape(shape))
 
 
 _TABLES: dict = {}
 
 
-def _illinois(func, a, b, fa, fb, iterations=40, xtol=1e-14):
+def _illinois(func, a, b, fa, fb, iterations=40, xtol=1e-14, rtol=0.0):
     """Roots of ``func`` in the brackets [a, b] (fa < 0 <= fb), vectorised (Illinois false position).
 
-    Converges superlinearly where func is smooth; where it jumps inside the bracket (a friction-law
-    switch) the result is the location of the jump.
+    ``func(x, idx)`` evaluates the entries ``idx`` (indices into the brackets) at ``x``. Converges
+    superlinearly where func is smooth; where it jumps inside the bracket (a friction-law switch) the
+    result is the location of the jump. Each entry stops once its bracket is within
+    ``xtol + rtol * max(|a|, |b|)`` (or a value is exactly 0); only the entries still open are evaluated, so one slow entry does not make
+    the others pay for its iterations.
     """
     a, b = np.array(a, dtype=float), np.array(b, dtype=float)
     fa, fb = np.array(fa, dtype=float), np.array(fb, dtype=float)
@@ -1155,22 +1172,36 @@ def _illinois(func, a, b, fa, fb, iterations=40, xtol=1e-14):
     a, b = np.where(ok, a, 0.5), np.where(ok, b, 0.5)
     fa, fb = np.where(ok, fa, -1.0), np.where(ok, fb, 1.0)
     side = np.zeros(a.shape, dtype=int)
-    for _ in range(iterations):
-        if np.all(np.abs(b - a) <= xtol):
+    def still_open(idx):
+        return idx[np.abs(b[idx] - a[idx]) > xtol + rtol * np.maximum(np.abs(a[idx]), np.abs(b[idx]))]
+
+    act = still_open(np.arange(a.size))
+    width = np.abs(b - a)                  # bracket width two steps back: an entry whose bracket has not halved
+    for it in range(iterations):           # since then takes a bisection step (a steep end stalls false position)
+        if act.size == 0:
             break
+        A, B, FA, FB, S = a[act], b[act], fa[act], fb[act], side[act]
         with np.errstate(invalid="ignore", divide="ignore"):
-            c = b - fb * (b - a) / (fb - fa)
-        bad = ~np.isfinite(c) | (c <= np.minimum(a, b)) | (c >= np.maximum(a, b))
-        c = np.where(bad, 0.5 * (a + b), c)
-        fc = np.asarray(func(c), dtype=float)
+            c = B - FB * (B - A) / (FB - FA)
+        bad = ~np.isfinite(c) | (c <= np.minimum(A, B)) | (c >= np.maximum(A, B))
+        if it % 2 == 1:
+            w = np.abs(B - A)
+            bad |= w > 0.5 * width[act]
+            width[act] = w
+        c = np.where(bad, 0.5 * (A + B), c)
+        fc = np.asarray(func(c, act), dtype=float)
         fc = np.where(np.isfinite(fc), fc, 1.0)
         neg = fc < 0
         # keep the bracket [a (negative side), b (non-negative side)]; halve the stale end's value (Illinois)
-        fb = np.where(neg & (side == -1), 0.5 * fb, fb)
-        fa = np.where(~neg & (side == 1), 0.5 * fa, fa)
-        side = np.where(neg, -1, 1)
-        a, fa = np.where(neg, c, a), np.where(neg, fc, fa)
-        b, fb = np.where(neg, b, c), np.where(neg, fb, fc)
+        FB = np.where(neg & (S == -1), 0.5 * FB, FB)
+        FA = np.where(~neg & (S == 1), 0.5 * FA, FA)
+        side[act] = np.where(neg, -1, 1)
+        a[act], fa[act] = np.where(neg, c, A), np.where(neg, fc, FA)
+        b[act], fb[act] = np.where(neg, B, c), np.where(neg, FB, fc)
+        hit = fc == 0.0
+        if hit.any():                      # exactly on the root: the bracket closes on it
+            a[act[hit]] = b[act[hit]] = c[hit]
+        act = still_open(act)
     return 0.5 * (a + b)
 
 
@@ -1180,6 +1211,11 @@ def _stratified_table(model, rho_l, mu_l, rho_g, mu_g, d, g, beta, re_laminar, c
     hit = _TABLES.get(key)
     if hit is None:
         hg = _h_grid(240)
+        # the gas friction law switches (a jump of the line in h) between two adjacent levels: both are grid
+        # levels, so a root search bracketing the jump starts (and ends) on it instead of halving toward it
+        ends = _gas_switch_levels(rho_g, mu_g, rho_l - rho_g, d, g, beta, re_laminar)
+        if ends is not None:
+            hg = np.unique(np.concatenate([hg, ends]))
         u_lam, u_turb, _ = model._curve_both(case, hg, re_laminar)
         with np.errstate(divide="ignore", invalid="ignore"):
             hit = (hg, np.log(u_lam), np.log(u_turb))
@@ -1187,6 +1223,35 @@ def _stratified_table(model, rho_l, mu_l, rho_g, mu_g, d, g, beta, re_laminar, c
             _TABLES.clear()
         _TABLES[key] = hit
     return hit
+
+
+def _gas_switch_levels(rho_g, mu_g, drho, d, g, beta, re_laminar):
+    """The two adjacent levels (floats) between which the gas Reynolds number on the stratified line falls below
+    ``re_laminar`` (turbulent at the first, laminar at the second), or None when it does not in (_H_MIN, _H_MAX).
+
+    On the line U_SG = F(h) sqrt(drho D g cos(beta)/rho_G) with F (:func:`kelvin_helmholtz_froude`) falling as h
+    grows, so Re_G falls with h; bisection on the floats to adjacent values.
+    """
+    scale = rho_g * d / mu_g * math.sqrt(max(drho * d * g * math.cos(beta), 0.0) / rho_g)
+
+    def turbulent(h):
+        c = 2.0 * h - 1.0
+        sq = math.sqrt(max(1.0 - c * c, 0.0))
+        a_g = 0.25 * (math.acos(min(max(c, -1.0), 1.0)) - c * sq)
+        return sq > 0 and scale * (1.0 - h) * a_g ** 1.5 / ((math.pi / 4.0) * math.sqrt(sq)) >= re_laminar
+
+    lo, hi = _H_MIN, _H_MAX
+    if not (scale > 0 and turbulent(lo) and not turbulent(hi)):
+        return None
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        if mid <= lo or mid >= hi:
+            break
+        if turbulent(mid):
+            lo = mid
+        else:
+            hi = mid
+    return np.array([lo, hi])
 
 
 class TaitelDuklerIntermittentAnnular(_TaitelDuklerLine):
