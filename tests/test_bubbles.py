@@ -289,7 +289,7 @@ def test_migration_time_against_independent_path_quadrature_with_form_drag():
     got = bb.migration_time(p, sizes, injection=0.2, rho=rho, mu=mu, sigma=sigma, contact_angle=theta, **consts)
     args = (S, a, 0.2 * S, rho, mu, sigma, theta, 2.0, 12.0, 1.0, 1.0)
     ref = np.array([_independent_migration_time(d, *args) for d in sizes])
-    assert np.allclose(got, ref, rtol=2e-6, atol=0.0)         # Simpson on 401 graded nodes vs adaptive quad
+    assert np.allclose(got, ref, rtol=2e-6, atol=0.0)         # Gauss-Legendre, 96 graded nodes vs adaptive quad
     # the check can fail on the bugs it targets: form drag matters here, and a radius/diameter mix-up in the
     # form drag (or in the footprint) moves the time far beyond the tolerance
     no_form = np.array([_independent_migration_time(d, *args[:-1], 0.0) for d in sizes])
@@ -384,3 +384,33 @@ def test_migration_time_node_cache_follows_every_input():
     for w, f in zip(warm, fresh):
         assert np.array_equal(w, f, equal_nan=True)
     assert not np.allclose(fresh[2], fresh[3])        # the contact angle matters with buoyancy (test can fail)
+
+
+def test_migration_quadrature_rule_against_a_fine_simpson_rule_on_a_sample_path(monkeypatch):
+    # Catches: Gauss-Legendre nodes mapped onto [0, 1] wrongly or weights not summing to the interval (times off
+    # by a constant factor), or a node count too small for the kinked integrand of a real case. Reference:
+    # Simpson's rule on 6401 nodes of the same integrand (an independent rule, [calc]); the table built from the
+    # times promises 1e-5 (theory manual).
+    from lowgmap.app.files.casefile import load_case, sample_case_path
+    from lowgmap.physics.models import corner as cm
+
+    x, w = bb._quadrature("gauss", bb._MIG_NODES)
+    assert w.sum() == pytest.approx(1.0, rel=1e-14) and 0.0 < x.min() < x.max() < 1.0
+    assert float(w @ x ** 5) == pytest.approx(1.0 / 6.0, rel=1e-13)        # exact for polynomials
+    case = load_case(sample_case_path("wedge_separator")).case
+    geom = cm._usable_geometry(case)
+    c = cm.CORNER_SEPARATION.resolve_constants(dict(case.models[1].param_dict))
+    f = case.fluid
+    d_reach = geom.path.reach_diameter(c["injection_position"], c["confinement_ratio"])
+    d = d_reach * np.array([1.0 + 1e-6, 1.001, 1.05, 1.3, 1.8])
+    kw = dict(injection=c["injection_position"], confinement_ratio=c["confinement_ratio"], rho=f.rho_l, mu=f.mu_l,
+              sigma=f.sigma, contact_angle=geom.contact_angle, capillary_coefficient=c["capillary_coefficient"],
+              hele_shaw_drag=c["hele_shaw_drag"], film_drag=c["film_drag"], form_drag=c["form_drag"])
+    got = bb.migration_time(geom.path, d, **kw)
+    nodes, weights = bb._quadrature("simpson", 6401)
+    monkeypatch.setattr(bb, "_QUAD_NODES", nodes)
+    monkeypatch.setattr(bb, "_QUAD_WEIGHTS", weights)
+    bb._migration_nodes.cache_clear()
+    ref = bb.migration_time(geom.path, d, **kw)
+    bb._migration_nodes.cache_clear()
+    assert np.all(np.isfinite(ref)) and np.allclose(got, ref, rtol=1e-5, atol=0.0)

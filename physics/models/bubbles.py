@@ -1029,9 +1029,12 @@ def _taper_path(section, n, theta=None):
     return TaperPath(int(i), float(alpha), float(S), float(section.area), *ro)
 
 
-#: Nodes of the migration-time quadrature per bubble (odd: Simpson's rule), uniform in ln(x + x0) with
-#: x the distance before the touching point and x0 the distance over which the confinement margin doubles.
-_MIG_NODES = 401
+#: Nodes of the migration-time quadrature per bubble: Gauss-Legendre in u = ln(1 + x/x0), x the distance before
+#: the touching point and x0 the distance over which the confinement margin doubles ("simpson" with an odd
+#: number of nodes is the rule used before: 401 nodes, four times the cost for the same accuracy, see
+#: migration_time).
+_MIG_NODES = 96
+_MIG_RULE = "gauss"
 
 
 def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_ratio=1.0, rho, mu, sigma,
@@ -1089,9 +1092,10 @@ def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_rati
     with Hele-Shaw drag (c_HS > 0) :math:`U \propto \phi \propto \delta` there, so
     :math:`t_\mathrm{mig} \simeq \frac{c_\mathrm{HS}\mu d}{3\sigma c_\mathrm{cap}\cos\theta\, k_c h'^2}
     \ln\frac{1}{\delta_\mathrm{end}} + O(1)` diverges logarithmically as d -> d_reach (theory manual).
-    Quadrature: Simpson's rule on 401 nodes uniform in :math:`\ln(x + x_0)`, x the distance before the
-    touching point and :math:`x_0 = \delta_\mathrm{end}/(k_c h')` (exact up to about 1e-6 for a
-    straight wedge); the gap and its taper are interpolated on the path. With buoyancy the nodes also
+    Quadrature: Gauss-Legendre on 96 nodes in :math:`u = \ln(1 + x/x_0)`, x the distance before the
+    touching point and :math:`x_0 = \delta_\mathrm{end}/(k_c h')` (measured against the closed form of
+    the Hele-Shaw-only wedge: 5e-13; against an adaptive quadrature of the force balance with form drag,
+    whose footprint radius has a kink: 1.1e-6); the gap and its taper are interpolated on the path. With buoyancy the nodes also
     crowd over the distance in which the net drive at the touching point doubles, so the time stays
     accurate as it diverges at the stall diameter.
 
@@ -1139,7 +1143,7 @@ def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_rati
             drifts = with_drift and axial_per_h2 != 0.0
             f = np.empty(nodes.hj.shape)
             fz = np.empty(nodes.hj.shape) if drifts else np.empty(0)
-            rows = max(1, _NEWTON_BLOCK // _MIG_NODES)     # a few bubbles at a time: the arrays stay in cache
+            rows = max(1, _NEWTON_BLOCK // _QUAD_NODES.size)     # a few bubbles at a time: the arrays stay in cache
             for r0 in range(0, f.shape[0], rows):
                 b = slice(r0, r0 + rows)
                 hj = nodes.hj[b]
@@ -1157,13 +1161,13 @@ def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_rati
                                                           film_drag=film_drag, form_drag=form_drag,
                                                           squeezed=nodes.phi[b], buoyancy=np.abs(bz))
                         fz[b] = np.sign(bz) * ca_z * (sigma / mu) * f[b]          # U_z / U ds/du
-            wts = _SIMPSON_WEIGHTS
+            wts = _QUAD_WEIGHTS
             span = nodes.span
             with np.errstate(invalid="ignore"):
-                res[ok] = (f @ wts) * span / (3.0 * (_MIG_NODES - 1))
+                res[ok] = (f @ wts) * span
                 if with_drift:
                     if axial_per_h2 != 0.0:
-                        res_q[ok] = (fz @ wts) * span / (3.0 * (_MIG_NODES - 1)) / res[ok]
+                        res_q[ok] = (fz @ wts) * span / res[ok]
                     else:
                         res_q[ok] = 0.0
         t[nodes.go] = res
@@ -1174,9 +1178,19 @@ def migration_time(path: TaperPath, diameter, *, injection=0.5, confinement_rati
     return float(t[0]) if scalar else t
 
 
-_SIMPSON_WEIGHTS = np.ones(_MIG_NODES)
-_SIMPSON_WEIGHTS[1:-1:2], _SIMPSON_WEIGHTS[2:-1:2] = 4.0, 2.0
-_SIMPSON_WEIGHTS.flags.writeable = False
+def _quadrature(rule: str, n: int):
+    """(nodes on [0, 1], weights summing to 1) of the migration-time quadrature."""
+    if rule == "simpson":
+        w = np.ones(n)
+        w[1:-1:2], w[2:-1:2] = 4.0, 2.0
+        return np.linspace(0.0, 1.0, n), w / (3.0 * (n - 1))
+    x, w = np.polynomial.legendre.leggauss(n)
+    return 0.5 * (x + 1.0), 0.5 * w
+
+
+_QUAD_NODES, _QUAD_WEIGHTS = _quadrature(_MIG_RULE, _MIG_NODES)
+for _a in (_QUAD_NODES, _QUAD_WEIGHTS):
+    _a.flags.writeable = False
 
 
 @dataclass(frozen=True, eq=False)
@@ -1232,7 +1246,7 @@ def _migration_nodes(path, d_bytes, injection, k_c, rho, mu, sigma, bond_per_h2,
         fields.update(res0=np.where(X > 0, np.inf, 0.0), res_q0=np.where(X > 0, np.nan, 0.0), ok=ok)
         if ok.any():
             x0k, Xk, stk, dk = x0[ok, None], X[ok, None], st[ok, None], dd[ok, None]
-            w = np.linspace(0.0, 1.0, _MIG_NODES)[None, :]
+            w = _QUAD_NODES[None, :]
             span = np.log1p(Xk / x0k)                         # u = ln(1 + x/x0) from 0 to span
             x = x0k * np.expm1(w * span)
             sj = stk - x

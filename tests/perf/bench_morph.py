@@ -37,14 +37,15 @@ CASES = (("wedge_separator", "slider-section-half-angle", "Corner half-angle"),
 # JavaScript: count the changes of the label drawn in the visible plot during a preview, on every animation frame.
 _COUNT_JS = """
 () => {
-  function text() {
-    for (const doc of Bokeh.documents) {
-      for (const m of doc._all_models.values()) {
-        if (m.type === 'Label' && m.name === 'live-label' && m.visible) {
-          return m.text;
-        }
-      }
+  // the live-label models are looked up once (walking every model on every frame would itself slow the page)
+  const labels = [];
+  for (const doc of Bokeh.documents) {
+    for (const m of doc._all_models.values()) {
+      if (m.type === 'Label' && m.name === 'live-label') labels.push(m);
     }
+  }
+  function text() {
+    for (const m of labels) { if (m.visible) return m.text; }
     return '';
   }
   window._morph = {changes: [], last: text(), run: true};
