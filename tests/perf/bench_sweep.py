@@ -123,6 +123,31 @@ def main(quick: bool = False) -> None:
     show("reference path, Chart.build per design (method='full')",
          *rate(lambda: sweep(wedge.case, few, regime=regime, method="full"), len(few), rep))
 
+    # geometry: every design a new corner shape or length (its tables and quadratures computed afresh)
+    geo = grid({"half_angle": np.radians(np.linspace(4.0, 8.0, 10)).tolist(),
+                "length": np.linspace(0.03, 0.06, 10).tolist()})
+    t0, c0 = time.perf_counter(), time.process_time()
+    sweep(wedge.case, geo, regime=regime)
+    wall, cpu = time.perf_counter() - t0, time.process_time() - c0
+    print(f"  {'geometry grid (half-angle x length), first pass (nothing cached)':56s} "
+          f"{len(geo) / wall:8.0f} designs/s {'':>16s} {len(geo) / cpu:8.0f} /CPU-s  target >= 1000")
+    show("geometry grid again (tables cached)",
+         *rate(lambda: sweep(wedge.case, geo, regime=regime), len(geo), rep), target="target >= 1000")
+
+    print("\nDashboard design map (adaptive, up to 400 designs), corner case, half-angle x conduit length")
+    from lowgmap.physics.studies.design_space import adaptive_map
+
+    times, cpus, used = [], [], 0
+    for k in range(1 if quick else 3):
+        t0, c0 = time.perf_counter(), time.process_time()
+        dm = adaptive_map(wedge.case, "half_angle", (np.radians(3.0 + 0.01 * k), np.radians(10.0)), "length",
+                          (0.02, 0.08), n_max=400, regime=regime)
+        times.append(time.perf_counter() - t0)
+        cpus.append(time.process_time() - c0)
+        used = len(dm.to_frame())
+    print(f"  {used} designs: median {statistics.median(times):.2f} s wall, {statistics.median(cpus):.2f} s CPU "
+          f"(target <= 2 s)")
+
     try:
         from distributed import Client, LocalCluster
     except ImportError:
