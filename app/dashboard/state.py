@@ -728,11 +728,11 @@ def _preview_work(req: Preview, data, source, base_dir, point, exact: bool, memo
     chart = Chart.build(new.case, exact=exact, preview=True)
     regime = margins = None
     if point[0] is not None and chart.regime_names:
-        regime = str(chart.regime_at(*point))
         try:
             margins = point_margins(chart, *point)
-        except _BUILD_ERRORS:
-            margins = None                  # the label then says the margin is not available
+            regime = margins.regime
+        except _BUILD_ERRORS:               # the label then says the margin is not available
+            regime = str(chart.regime_at(*point))
     display = req.display(new, chart) if req.display is not None else None
     return dataclasses.replace(req, doc=new, chart=chart, regime=regime, margins=margins, display=display)
 

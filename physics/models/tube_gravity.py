@@ -533,13 +533,23 @@ def stratified_balance_terms(h, n=0.2, m=0.2):
     >>> round(float(np.sqrt(G / L)), 3)
     1.584
     """
-    a_l, a_g, s_l, s_g, s_i = stratified_geometry(h)
-    a = math.pi / 4.0
-    u_l, u_g = a / a_l, a / a_g
-    d_l, d_g = 4.0 * a_l / s_l, 4.0 * a_g / (s_g + s_i)
-    big_l = (u_l * d_l) ** (-np.asarray(n, dtype=float)) * u_l ** 2 * s_l / a_l
-    big_g = (u_g * d_g) ** (-np.asarray(m, dtype=float)) * u_g ** 2 * (s_g / a_g + s_i / a_l + s_i / a_g)
-    return big_l, big_g
+    geom = stratified_geometry(h)
+    return _liquid_term(geom, n), _gas_term(geom, m)
+
+
+def _liquid_term(geom, n):
+    """The liquid term L of :func:`stratified_balance_terms` from the geometry of :func:`stratified_geometry`."""
+    a_l, _, s_l, _, _ = geom
+    u_l = (math.pi / 4.0) / a_l
+    return (u_l * (4.0 * a_l / s_l)) ** (-np.asarray(n, dtype=float)) * u_l ** 2 * s_l / a_l
+
+
+def _gas_term(geom, m):
+    """The gas term G of :func:`stratified_balance_terms` from the geometry of :func:`stratified_geometry`."""
+    a_l, a_g, _, s_g, s_i = geom
+    u_g = (math.pi / 4.0) / a_g
+    return (u_g * (4.0 * a_g / (s_g + s_i))) ** (-np.asarray(m, dtype=float)) * u_g ** 2 * (s_g / a_g + s_i / a_l
+                                                                                          + s_i / a_g)
 
 
 _H_MIN, _H_MAX = 1e-4, 1.0 - 1e-4
@@ -629,9 +639,14 @@ def kelvin_helmholtz_froude(h):
     >>> round(kelvin_helmholtz_froude(0.5), 4)           # [calc]: 0.5 (pi/8)^1.5 / (pi/4)
     0.1567
     """
-    _, a_g, _, _, s_i = stratified_geometry(h)
+    return _out(_froude(np.asarray(h, dtype=float), stratified_geometry(h)))
+
+
+def _froude(h, geom):
+    """:func:`kelvin_helmholtz_froude` at levels h (array) from their geometry (:func:`stratified_geometry`)."""
+    _, a_g, _, _, s_i = geom
     with np.errstate(divide="ignore"):
-        return _out((1.0 - np.asarray(h, dtype=float)) * a_g ** 1.5 / ((math.pi / 4.0) * np.sqrt(s_i)))
+        return (1.0 - h) * a_g ** 1.5 / ((math.pi / 4.0) * np.sqrt(s_i))
 
 
 def _friction(re, re_laminar):
@@ -1095,20 +1110,14 @@ class TaitelDuklerStratified(_TaitelDuklerLine):
         g = case.g
         drho = f.rho_l - f.rho_g
         h = np.asarray(h, dtype=float)
-        # the geometry once for the three uses below (the same expressions as kelvin_helmholtz_froude and
-        # stratified_balance_terms, in the same order: this runs inside root searches, dozens of times a line)
-        a_l, a_g, s_l, s_g, s_i = stratified_geometry(h)
-        with np.errstate(divide="ignore"):
-            froude = (1.0 - h) * a_g ** 1.5 / ((math.pi / 4.0) * np.sqrt(s_i))
-        u_sg = froude * np.sqrt(drho * d * g * math.cos(beta) / f.rho_g)
+        # the geometry once for its three uses (this runs inside root searches, dozens of times a line)
+        geom = stratified_geometry(h)
+        u_sg = _froude(h, geom) * np.sqrt(drho * d * g * math.cos(beta) / f.rho_g)
         p_g, m = _superficial_gradient(f.rho_g, f.mu_g, u_sg, d, re_laminar)
-        a = math.pi / 4.0
-        u_l, u_g = a / a_l, a / a_g
-        d_l, d_g = 4.0 * a_l / s_l, 4.0 * a_g / (s_g + s_i)
-        big_g = (u_g * d_g) ** (-np.asarray(m, dtype=float)) * u_g ** 2 * (s_g / a_g + s_i / a_l + s_i / a_g)
+        big_g = _gas_term(geom, m)
         outs = []
         for n, c in ((1.0, 16.0), (0.2, 0.046)):
-            big_l = (u_l * d_l) ** (-n) * u_l ** 2 * s_l / a_l
+            big_l = _liquid_term(geom, n)
             with np.errstate(invalid="ignore", divide="ignore"):
                 p_l = (p_g * big_g - 4.0 * drho * g * math.sin(beta)) / big_l
                 u = np.power(np.where(p_l > 0, p_l, np.nan) * d * (d * f.rho_l / f.mu_l) ** n / (2.0 * c * f.rho_l),
