@@ -578,8 +578,8 @@ def test_slider_path_and_typed_path_give_the_same_case_and_the_same_numbers():
     from lowgmap.app.formatting import format_percent
 
     # the label drawn during the drag names the value, the regime and the margin, marked as a preview
-    assert live_label_text(preview) == (f"{preview.label} {preview.text}: operating point in {preview.regime}, "
-                                        f"±{format_percent(preview.margins.symmetric_margin)} (preview)")
+    assert live_label_text(preview) == (f"{preview.label} {preview.text} (preview)\noperating point in "
+                                        f"{preview.regime}, ±{format_percent(preview.margins.symmetric_margin)}")
 
 
 def test_previews_are_coalesced_the_latest_value_wins_and_stale_ones_are_dropped(doc):

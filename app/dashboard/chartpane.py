@@ -562,8 +562,9 @@ def live_label_text(live) -> str:
     if not live.regime:
         return f"{what}: no regimes"
     m = live.margins.symmetric_margin if live.margins is not None else None
-    margin = f"±{format_percent(m)} (preview)" if m is not None else "margin not available"
-    return f"{what}: operating point in {live.regime}, {margin}"
+    margin = f"±{format_percent(m)}" if m is not None else "margin not available"
+    # two lines, so that the longest regime names fit a 600-pixel plot
+    return f"{what} (preview)\noperating point in {live.regime}, {margin}"
 
 
 def live_html(live, settings=None) -> str:
