@@ -255,8 +255,9 @@ def squeezing_volume_at_ratio(ratio, width, a=1.0):
     r = np.asarray(ratio, dtype=float)
     w3 = width * width * width
     with np.errstate(invalid="ignore"):
-        ok = np.isfinite(r) & (r >= 0)
-        return np.where(ok, w3 * (1.0 + a * r), np.nan)
+        v = w3 * (1.0 + a * r)
+        bad = ~(r >= 0) | (r == math.inf)          # not finite and >= 0 (the chart lines call this thousands of
+        return np.where(bad, np.nan, v) if bad.any() else np.asarray(v)    # times per chart: no copy if all good
 
 
 def sphere_volume(diameter):

@@ -440,12 +440,7 @@ def _sizes(geom, r, c):
             a = c["squeeze_a"]
             if not (0.0 < w < math.inf and 0.0 <= a < math.inf):   # checked constants; else say which
                 bb.squeezing_volume(1.0, 1.0, w, a=a)
-            # w^3 (1 + a r), NaN where r is not finite and >= 0 (bubbles.squeezing_volume_at_ratio, inlined: the
-            # lines call this thousands of times per chart)
-            V_b = w * w * w * (1.0 + a * r)
-            bad = ~(r >= 0) | (r == math.inf)
-            if bad.any():
-                V_b = np.where(bad, np.nan, V_b)
+            V_b = bb.squeezing_volume_at_ratio(r, w, a)     # w^3 (1 + a r)
             d_b = np.cbrt(6.0 * V_b / math.pi)
         ell = np.maximum(d_b, V_b / A)                    # streamwise bubble length: a sphere, or a plug
         N = c["merge_length_ratio"] * ell * A * r / (V_b * (1.0 + r))        # k_m l_b / lambda
