@@ -683,3 +683,80 @@ def test_a_new_chart_changes_the_data_of_the_same_sources_and_key_items(doc):
     assert pane.src_valid.data != old
     assert list(fig.renderers) == renderers and [r.data_source for r in fig.renderers] == sources
     assert all(a is b for a, b in zip(fig.legend.items, items))
+
+
+def test_the_key_draws_from_sources_that_a_new_chart_leaves_alone_with_each_lines_style(doc):
+    # Catches: key entries that refer to the glyphs whose data every frame replaces (bokeh's key then rebuilds
+    # its entries and the page lays the plot out again on every frame of a drag), and a key entry drawn from
+    # the wrong row of its own source (an index kept from the glyph's source: the wrong colour in the key).
+    from lowgmap.app.dashboard.chartpane import ChartPane
+
+    s = _session(doc)
+    pane = ChartPane(s)
+    fig = pane.figs[True]
+    changing = {id(pane.src_valid), id(pane.src_invalid), id(pane.src_bands), id(pane.src_regions)}
+    shown = [item for item in fig.legend.items if item.visible]
+    assert shown
+    for item in shown:
+        (r,) = item.renderers
+        assert id(r.data_source) not in changing
+        assert r.name.startswith("key: ")
+    key_src = pane.src_key["boundaries"]
+    before = {k: list(v) for k, v in key_src.data.items()}
+    s.edit({"section.diameter": "6 mm"}, key="section.diameter", label="Diameter")   # same lines, new data
+    assert {k: list(v) for k, v in key_src.data.items()} == before
+    valid = pane.src_valid.data
+    for item in fig.legend.items:
+        if item.visible and item.renderers[0].name == "key: boundaries":
+            row = item.index
+            label = item.label.value
+            i = valid["label"].index(label.removesuffix(" (comparison)"))
+            assert key_src.data["colour"][row] == valid["colour"][i]
+            assert key_src.data["dash"][row] == valid["dash"][i]
+
+
+def test_the_hidden_axes_figure_draws_from_empty_stand_ins_and_switching_scale_swaps_them(doc):
+    # Catches: the hidden figure (log or linear axes) sharing the sources of the shown one: the page then lays
+    # it out again on every frame of a drag; and a switch of scale that leaves the shown figure on empty sources.
+    from lowgmap.app.dashboard.chartpane import ChartPane
+
+    s = _session(doc)
+    pane = ChartPane(s)
+    shown, hidden = pane.figs[pane.log_axes], pane.figs[not pane.log_axes]
+    by_name = lambda fig: {r.name: r.data_source for r in fig.renderers if r.name}   # noqa: E731
+    assert by_name(shown)["boundaries"] is pane.src_valid and by_name(shown)["regions"] is pane.src_regions
+    assert by_name(hidden)["boundaries"] is not pane.src_valid
+    assert all(not any(len(v) for v in src.data.values())
+               for name, src in by_name(hidden).items() if not name.startswith("key: "))
+    assert pane.src_valid.data["xs"]
+    pane.log_axes = not pane.log_axes
+    assert by_name(hidden)["boundaries"] is pane.src_valid and hidden.visible and not shown.visible
+    assert by_name(shown)["boundaries"] is not pane.src_valid
+    assert pane.src_valid.data["xs"]
+
+
+def test_slider_moves_skip_only_the_theme_lookup_not_a_property():
+    # Catches: the fast path of a dragged slider's value dropping or renaming what panel would send to the
+    # page (the page's slider would then not follow a value set on the server).
+    import panel as pn
+
+    from lowgmap.app.dashboard.inputs import LiveSlider
+
+    w = LiveSlider(start=0.0, end=10.0, step=0.1, value=1.0)
+    model = w.get_root()
+    ev = param.parameterized.Event(what="value", name="value", obj=w, cls=type(w), old=1.0, new=2.5, type="changed")
+    fast = w._update_properties(ev, doc=model.document)
+    slow = pn.widgets.FloatSlider._update_properties(w, ev, doc=model.document)
+    assert fast == slow and fast
+    w.value = 3.5
+    assert model.value == 3.5
+
+
+def test_the_page_has_no_page_wide_busy_spinner():
+    # Catches: panel's page-wide busy spinner back in the page: it flips around every event from the page
+    # (about 20 a second during a drag), costing the server a theme lookup and the page a relayout each time.
+    from lowgmap.app.dashboard import create_app
+
+    page = create_app(sample_case_path("condensate_line"))
+    assert page.busy_indicator is None
+    page.lowgmap_session.close()

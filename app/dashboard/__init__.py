@@ -209,7 +209,11 @@ def create_app(case_path: str | Path | None = None):
                      sizing_mode="stretch_width")
     template = pn.template.BootstrapTemplate(
         title=f"lowgmap {__version__} — low-gravity regime charts", sidebar=[invented, setup], main=[main],
-        sidebar_width=300, header_background="#1f3b57")
+        sidebar_width=300, header_background="#1f3b57",
+        # no page-wide busy spinner: panel flips it around every event from the page (a dragged slider sends
+        # about 20 a second), each flip costing the server about 8 ms and the page a relayout of its header;
+        # the "working" line under the chart says when edits are being worked on
+        busy_indicator=None)
     template.lowgmap_session = session  # for tests and debugging: the session's state object
 
     if bokeh_doc is not None:

@@ -51,6 +51,15 @@ LEGEND_ONE_COLUMN = 8
 #: Height of the chart with its key [px]: it fits an 800 px window below the header, caution line and tabs.
 CHART_HEIGHT = 620
 
+#: Coordinates of each glyph that has entries in the key, and the columns that style each entry (copied from
+#: the glyph's source into the key's own source, :meth:`ChartPane._keyed`).
+_KEY_COORDS = {"boundaries": ("xs", "ys"), "boundaries-outside-validity": ("xs", "ys"), "bands": ("xs", "ys"),
+               "uncertainty-box": ("left", "right", "bottom", "top"), "uncertainty-frame": ("x", "y"),
+               "test-points": ("x", "y")}
+_KEY_STYLES = {"boundaries": ("colour", "dash", "width"), "boundaries-outside-validity": ("colour", "width"),
+               "bands": ("colour",), "uncertainty-box": (), "uncertainty-frame": (),
+               "test-points": ("marker", "fill", "line", "width")}
+
 LIVE_CSS = """
 .live-status {background: #e8f1fa; border: 1px solid #1f3b57; color: #1f3b57; padding: 3px 8px;
               border-radius: 4px; font-size: 13px;}
@@ -81,6 +90,9 @@ class ChartPane(pn.viewable.Viewer):
         self.src_bands = ColumnDataSource(dict(xs=[], ys=[], colour=[], label=[]))
         self.src_tests = ColumnDataSource(dict(x=[], y=[], observed=[], predicted=[], platform=[], test_id=[],
                                                marker=[], fill=[], line=[], width=[], agree=[]))
+        #: the sources of the key's twin glyphs (see :meth:`_keyed`): one row per key entry, styles only
+        self.src_key = {name: ColumnDataSource({c: [] for c in coords + _KEY_STYLES[name]})
+                        for name, coords in _KEY_COORDS.items()}
         self._line_items: list = []
         self._test_items: list = []
         self._key_shown: list | None = None
@@ -92,6 +104,11 @@ class ChartPane(pn.viewable.Viewer):
         self.x_range = Range1d(1, 10)
         self.y_range = Range1d(1, 10)
         self.figs = {True: self._figure("log"), False: self._figure("linear")}
+        # the sources every update changes, by glyph name, and an empty stand-in of each for the hidden figure
+        self._shared_source = {r.name: r.data_source for r in self.figs[True].renderers
+                               if r.name and not r.name.startswith("key: ")}
+        self._stand_in = {name: ColumnDataSource({c: [] for c in src.data})
+                          for name, src in self._shared_source.items()}
         # texts that change with every frame are widgets: a widget sends only its changed property, while
         # a pane update makes bokeh walk the whole document's model graph (tens of ms per update)
         self.live_status = pn.widgets.StaticText(value="", visible=False, sizing_mode="stretch_width",
@@ -161,30 +178,30 @@ class ChartPane(pn.viewable.Viewer):
                      active_scroll="wheel_zoom", toolbar_location="above", name=f"regime-chart-{kind}")
         fig.patches("xs", "ys", source=self.src_regions, fill_color="colour", fill_alpha=0.35,
                     hatch_pattern="hatch", hatch_color="colour", hatch_alpha=0.8, hatch_scale=10,
-                    line_color=None)
-        bands = fig.patches("xs", "ys", source=self.src_bands, fill_color="colour", fill_alpha=0.28,
-                            line_color="colour", line_alpha=0.5, line_width=1.0, name="bands")
-        valid = fig.multi_line("xs", "ys", source=self.src_valid, line_color="colour", line_dash="dash",
-                               line_width="width", name="boundaries")
-        invalid = fig.multi_line("xs", "ys", source=self.src_invalid, line_color="colour", line_dash="dotted",
-                                 line_width="width", line_alpha=0.6, name="boundaries-outside-validity")
+                    line_color=None, name="regions")
+        self._keyed(fig, "patches", "bands", self.src_bands, fill_color="colour", fill_alpha=0.28,
+                    line_color="colour", line_alpha=0.5, line_width=1.0)
+        valid = self._keyed(fig, "multi_line", "boundaries", self.src_valid, line_color="colour", line_dash="dash",
+                            line_width="width")
+        invalid = self._keyed(fig, "multi_line", "boundaries-outside-validity", self.src_invalid, line_color="colour",
+                              line_dash="dotted", line_width="width", line_alpha=0.6)
         fig.add_tools(HoverTool(renderers=[valid, invalid], line_policy="nearest",
                                 tooltips=[("model", "@label"), ("source", "@source")]))
         fig.text("x", "y", text="text", source=self.src_region_labels, text_align="align",
                  text_baseline="middle", text_font_size="13px", text_font_style="bold", text_color="#111111",
-                 background_fill_color="white", background_fill_alpha=0.7)
+                 background_fill_color="white", background_fill_alpha=0.7, name="region-labels")
         fig.text("x", "y", text="text", source=self.src_line_labels, text_color="colour", text_font_size="11px",
-                 x_offset=4, y_offset=-4, background_fill_color="white", background_fill_alpha=0.75)
+                 x_offset=4, y_offset=-4, background_fill_color="white", background_fill_alpha=0.75,
+                 name="line-labels")
         # the flow-rate uncertainty box: the true box, solid; when it is smaller than the star, a frame of
         # BOX_MIN_PX around the point says where it is (both in the key)
-        fig.quad(left="left", right="right", bottom="bottom", top="top", source=self.src_box, fill_alpha=0.15,
-                 fill_color=OPERATING_POINT_COLOUR, line_color="#7a2e00", line_width=2.5,
-                 name="uncertainty-box")
-        fig.rect("x", "y", width=BOX_MIN_PX, height=BOX_MIN_PX, width_units="screen", height_units="screen",
-                 source=self.src_box_frame, fill_alpha=0.0, line_color="#7a2e00", line_width=2.0,
-                 line_dash=[5, 3], name="uncertainty-frame")
-        tests = fig.scatter("x", "y", source=self.src_tests, marker="marker", size=11, fill_color="fill",
-                            fill_alpha=0.9, line_color="line", line_width="width", name="test-points")
+        self._keyed(fig, "quad", "uncertainty-box", self.src_box, fill_alpha=0.15, fill_color=OPERATING_POINT_COLOUR,
+                    line_color="#7a2e00", line_width=2.5)
+        self._keyed(fig, "rect", "uncertainty-frame", self.src_box_frame, width=BOX_MIN_PX, height=BOX_MIN_PX,
+                    width_units="screen", height_units="screen", fill_alpha=0.0, line_color="#7a2e00",
+                    line_width=2.0, line_dash=[5, 3])
+        tests = self._keyed(fig, "scatter", "test-points", self.src_tests, marker="marker", size=11, fill_color="fill",
+                            fill_alpha=0.9, line_color="line", line_width="width")
         fig.add_tools(HoverTool(renderers=[tests], tooltips=[("test", "@test_id"), ("observed", "@observed"),
                                                              ("chart says", "@predicted"), ("platform", "@platform")]))
         point = fig.scatter("x", "y", source=self.src_point, marker="star", size=24, fill_color=OPERATING_POINT_COLOUR,
@@ -195,7 +212,7 @@ class ChartPane(pn.viewable.Viewer):
         fig.add_layout(live)
         self._live_labels[kind == "log"] = live
         # every glyph the updates touch, found once here (never searched for on an update)
-        self._renderers[kind == "log"] = {r.name: r for r in fig.renderers if r.name} | {"bands": bands}
+        self._renderers[kind == "log"] = {r.name: r for r in fig.renderers if r.name}
         draw = PointDrawTool(renderers=[point], add=False, drag=True, description="Drag the operating point")
         fig.add_tools(draw)
         fig.toolbar.active_tap = draw
@@ -214,6 +231,21 @@ class ChartPane(pn.viewable.Viewer):
         fig.legend.visible = True
         return fig
 
+    def _keyed(self, fig, method: str, name: str, source, **style):
+        """A glyph renderer that has entries in the key, and its twin that the key draws from.
+
+        The key's entries refer to the twin, which draws nothing in the plot (its rows have no coordinates) and
+        takes its styles from :attr:`src_key`; its visibility follows the key's clicks onto the real glyphs.
+        bokeh's key re-renders its entries (and the page lays the plot out again: ~20 ms a frame in Chromium)
+        whenever a source of a renderer it refers to changes; the twin's source changes only with the key.
+        """
+        coords = _KEY_COORDS[name]
+        at = {c: c for c in coords}
+        real = getattr(fig, method)(**at, source=source, name=name, **style)
+        twin = getattr(fig, method)(**at, source=self.src_key[name], name=f"key: {name}", **style)
+        twin.js_link("visible", real, "visible")
+        return real
+
     def _follow_case(self):
         """A new case revision: redraw, with the axes scale the case says (unless a switch is queued)."""
         s = self.session
@@ -228,8 +260,22 @@ class ChartPane(pn.viewable.Viewer):
             self.refresh_chart()
 
     def _toggle_scale(self):
+        """Show the figure of the axes scale in effect; the hidden one draws from empty stand-in sources.
+
+        A hidden bokeh figure that shares the sources is laid out again on every data change (its panels
+        measure zero, so the page takes their size as changed): 7-10 ms of the page's time per frame of a
+        dragged slider. Switching scale moves the glyphs of both figures onto the other sources.
+        """
         for log, fig in self.figs.items():
-            fig.visible = (log == self.log_axes)
+            shown = log == self.log_axes
+            for r in fig.renderers:
+                shared = self._shared_source.get(r.name)
+                if shared is None:
+                    continue
+                want = shared if shown else self._stand_in[r.name]
+                if r.data_source is not want:
+                    r.data_source = want
+            fig.visible = shown
         self.refresh_chart()
 
     # ----------------------------------------------------------------------------- data
@@ -336,18 +382,33 @@ class ChartPane(pn.viewable.Viewer):
             spec.append((f"frame: uncertainty box under {BOX_MIN_PX} px", "uncertainty-frame", 0))
         for label, index in self._test_items:
             spec.append((label, "test-points", index))
-        if spec == self._key_shown:
+        rows: dict[str, list] = {name: [] for name in _KEY_COORDS}   # rows of the real sources, per twin
+        entries = []
+        for label, rname, index in spec:
+            if index not in rows[rname]:
+                rows[rname].append(index)
+            entries.append((label, rname, rows[rname].index(index)))
+        styles = {name: {c: [self._shared_source[name].data[c][i] for i in rows[name]]
+                         for c in _KEY_STYLES[name]} for name in _KEY_COORDS}
+        if (entries, styles) == self._key_shown:
             return
-        self._key_shown = spec
+        self._key_shown = (entries, styles)
+        for name, coords in _KEY_COORDS.items():
+            n = len(rows[name])
+            empty = [] if coords[0] == "xs" else math.nan
+            data = {c: [empty] * n for c in coords} | styles[name]
+            old = self.src_key[name].data
+            if len(old[coords[0]]) != n or any(list(old[c]) != data[c] for c in _KEY_STYLES[name]):
+                self.src_key[name].data = data
         for log, fig in self.figs.items():
             pool = self._key_pool[log]
-            renderers = self._renderers[log]
-            while len(pool) < len(spec):
+            renderers = {name: self._renderers[log][f"key: {name}"] for name in _KEY_COORDS}
+            while len(pool) < len(entries):
                 pool.append(LegendItem(label="", renderers=[renderers["boundaries"]], index=0, visible=False))
-            for item in pool[len(spec):]:   # unused entries are hidden, not removed (no new list of models)
+            for item in pool[len(entries):]:   # unused entries are hidden, not removed (no new list of models)
                 if item.visible:
                     item.visible = False
-            for item, (label, rname, index) in zip(pool, spec):
+            for item, (label, rname, index) in zip(pool, entries):
                 if not item.visible:
                     item.visible = True
                 # only what changed: a new list of model references makes bokeh walk the whole document
@@ -387,8 +448,11 @@ class ChartPane(pn.viewable.Viewer):
             self._showing_preview = True
             self.refresh_point()
         text = live_label_text(live)
-        for label in self._live_labels.values():
-            label.update(text=text, visible=True)
+        for log, label in self._live_labels.items():   # only the shown figure's (a hidden one is laid out again)
+            if log == self.log_axes:
+                label.update(text=text, visible=True)
+            elif label.visible:
+                label.visible = False
         status = live_html(live, s.doc.settings)
         if self.live_status.value != status or not self.live_status.visible:
             self.live_status.param.update(value=status, visible=True)
@@ -410,12 +474,14 @@ class ChartPane(pn.viewable.Viewer):
         if box:
             x0, y0 = self._to_display(box[0], box[2])
             x1, y1 = self._to_display(box[1], box[3])
-            self.src_box.data = dict(left=[x0], right=[x1], bottom=[y0], top=[y1])
+            drawn = dict(left=[x0], right=[x1], bottom=[y0], top=[y1])
             small = min(self._frame_share(x0, x1, 0), self._frame_share(y0, y1, 1)) * _FRAME_PX < BOX_MIN_PX
-            self.src_box_frame.data = dict(x=[x], y=[y]) if small else dict(x=[], y=[])
+            frame = dict(x=[x], y=[y]) if small else dict(x=[], y=[])
         else:
-            self.src_box.data = dict(left=[], right=[], bottom=[], top=[])
-            self.src_box_frame.data = dict(x=[], y=[])
+            drawn, frame = dict(left=[], right=[], bottom=[], top=[]), dict(x=[], y=[])
+        for src, data in ((self.src_box, drawn), (self.src_box_frame, frame)):
+            if {k: list(v) for k, v in src.data.items()} != data:     # unchanged data is not sent again
+                src.data = data
         if had != (bool(self.src_box.data["left"]), bool(self.src_box_frame.data["x"])):
             self._show_legends()
         self.readout = self._readout_text(s.ql, s.qg, moving=False)

@@ -261,6 +261,14 @@ class LiveSlider(pn.widgets.FloatSlider):
 
     _debounce = 0
 
+    def _update_properties(self, *events, doc):
+        # A value from the page (about 20 a second while dragged) needs none of the theme's parameters, which
+        # panel resolves on every update (about 2 ms each, several per move: paths looked up on disk); they
+        # matter only when the stylesheets change, which then takes panel's own path.
+        if all(e.name in ("value", "value_throttled") for e in events):
+            return self._process_param_change({e.name: e.new for e in events})
+        return super()._update_properties(*events, doc=doc)
+
 
 class FieldSlider:
     """A slider beside a typed field: dragging calls ``on_move(key, text)``, releasing ``on_release(key, text)``

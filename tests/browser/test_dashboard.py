@@ -319,3 +319,64 @@ def test_geometry_slider_and_typed_value_show_the_same_case_and_numbers(page):
     expect(margins).not_to_have_text(before_raw)
     assert _visible_text(margins) == by_slider
     assert _visible_text(page.locator(".point-verdict").first) == verdict
+
+
+# JavaScript: the plot frame of the visible figure on the page, the first line's colour and its key entry text.
+_FRAME_JS = """
+() => {
+  const seen = new Set();
+  let found = null;
+  function walk(v) {
+    if (!v || seen.has(v) || found) return;
+    seen.add(v);
+    if (v.frame && v.canvas_view && v.model && v.model.visible !== false) {
+      const r = v.canvas_view.el.getBoundingClientRect();
+      if (r.width > 0) {
+        const lines = v.model.renderers.find(x => x.name === 'boundaries');
+        const legend = [...v.model.below, ...v.model.center].find(l => l.items !== undefined);
+        const item = legend.items.find(i => i.visible && i.renderers[0].name === 'key: boundaries');
+        found = {x: r.left + v.frame.bbox.left + 2, y: r.top + v.frame.bbox.top + 2,
+                 width: v.frame.bbox.width - 4, height: v.frame.bbox.height - 4,
+                 colour: lines.data_source.data.colour[0], label: item.label.value};
+      }
+    }
+    let kids = [];
+    try { kids = Array.from(v.child_views || []); } catch (e) {}
+    for (const c of kids) walk(c);
+  }
+  for (const v of Object.values(Bokeh.index)) walk(v);
+  return found;
+}
+"""
+
+
+_TWO_FRAMES = "() => new Promise(r => requestAnimationFrame(() => requestAnimationFrame(r)))"
+
+
+def _pixels_of(pg, clip, colour: str) -> int:
+    """Pixels of the screenshot within ``clip`` that have ``colour`` (#rrggbb) to within 3 per channel."""
+    import numpy as np
+    from matplotlib import image
+
+    rgb = image.imread(io.BytesIO(pg.screenshot(clip=clip)), format="png")[..., :3] * 255.0
+    want = np.array([int(colour[i:i + 2], 16) for i in (1, 3, 5)], dtype=float)
+    return int(np.all(np.abs(rgb - want) <= 3, axis=-1).sum())
+
+
+def test_clicking_a_line_in_the_key_hides_the_drawn_lines_and_a_second_click_shows_them(page):
+    # Catches: key entries drawn from stand-in glyphs (they keep the key from being rebuilt on every frame of a
+    # drag) whose clicks no longer reach the lines drawn in the plot.
+    f = page.evaluate(_FRAME_JS)
+    clip = {k: f[k] for k in ("x", "y", "width", "height")}
+    shown = _pixels_of(page, clip, f["colour"])
+    assert shown > 50, shown                       # the line is drawn in its colour
+    entry = next(e for e in page.get_by_text(f["label"], exact=True).all() if e.is_visible())  # the shown figure's
+    entry.click()
+    page.evaluate(_TWO_FRAMES)                     # the plot is repainted on the page's next animation frame
+    expect(entry).to_be_visible()
+    hidden = _pixels_of(page, clip, f["colour"])
+    assert hidden < 0.05 * shown, (shown, hidden)
+    entry.click()
+    page.evaluate(_TWO_FRAMES)
+    again = _pixels_of(page, clip, f["colour"])
+    assert again > 0.8 * shown, (shown, again)
