@@ -522,7 +522,14 @@ def geometry_of(chart, x_points=(), y_points=(), *, keep_going: bool = False) ->
         if holder is None:
             holder = ChartGeometry(chart)
             GEOMETRY_CACHE[chart] = holder
-    return holder, holder.get(chart, coverage(chart, x_points, y_points), keep_going)
+    if getattr(chart, "preview", False) and len(np.ravel(x_points)):
+        # a preview asks for one point's margins: its lines are sampled over that point's window only
+        xs, ys = np.ravel(x_points).astype(float), np.ravel(y_points).astype(float)
+        cov = (float(xs.min()) + WINDOW_LO - 1e-9, float(xs.max()) + WINDOW_HI + 1e-9,
+               float(ys.min()) + WINDOW_LO - 1e-9, float(ys.max()) + WINDOW_HI + 1e-9)
+    else:
+        cov = coverage(chart, x_points, y_points)
+    return holder, holder.get(chart, cov, keep_going)
 
 
 def regime_indices(names, regimes):
