@@ -757,6 +757,18 @@ def test_the_page_has_no_page_wide_busy_spinner():
     # (about 20 a second during a drag), costing the server a theme lookup and the page a relayout each time.
     from lowgmap.app.dashboard import create_app
 
+    import panel as pn
+
+    from lowgmap.app.dashboard.inputs import LiveSlider
+
     page = create_app(sample_case_path("condensate_line"))
     assert page.busy_indicator is None
     page.lowgmap_session.close()
+    w = LiveSlider(start=0.0, end=10.0, step=0.1, value=1.0)
+    counted = []
+    watcher = pn.state.param.watch(lambda e: counted.append(e.new), "_busy_counter")
+    try:
+        w._process_events({"value": 2.0})          # a move from the page: applied, not counted as busy
+    finally:
+        pn.state.param.unwatch(watcher)
+    assert w.value == 2.0 and counted == []
