@@ -117,3 +117,22 @@ def test_preview_lines_stay_within_the_preview_tolerance_of_the_full_lines(name)
             worst = max(worst, line.distance(Point(x, y)))
     assert worst <= limit
     assert len(prev.intersections) == len(full.intersections)
+
+
+@pytest.mark.parametrize("name", CORNER_SAMPLES)
+def test_one_classification_of_all_region_lines_draws_what_one_per_line_draws(name, monkeypatch):
+    # Catches: the side probes of one region line credited to another (an offset when the probes of all the
+    # lines are classified in one call and split again), which draws a boundary where another line separates.
+    import lowgmap.physics.chart.composition as composition
+
+    case = load_case(sample_case_path(name)).case
+    together = Chart.build(case)
+    one_call = composition._active_runs_of
+    monkeypatch.setattr(composition, "_active_runs_of",
+                        lambda lines, classify: [one_call([line], classify)[0] for line in lines])
+    apart = Chart.build(case)
+    assert [c.name for c in together.boundaries] == [c.name for c in apart.boundaries]
+    for a, b in zip(together.boundaries, apart.boundaries):
+        np.testing.assert_array_equal(a.ql, b.ql)
+        np.testing.assert_array_equal(a.qg, b.qg)
+    assert sum(np.isfinite(c.ql).sum() for c in together.boundaries) > 0

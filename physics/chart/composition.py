@@ -113,6 +113,7 @@ _SCHEME_TOL = 2e-4     # chord deviation allowed on partition charts, fraction o
 _SCHEME_N0 = 33        # initial samples of a line piece
 _SCHEME_DEPTH = 22     # refinement passes of a line piece
 _SCHEME_MAX = 6000     # cap on samples per piece
+_PREVIEW_STEP = 1e-4   # a preview locates the ends of a piece's stretches to this share of its parameter range
 #: Chord tolerances of a preview chart (``Chart.build(..., preview=True)``) are this many times the usual ones:
 #: 2e-3 of the chart box on partition charts, about one pixel of a 600-pixel plot.
 PREVIEW_FACTOR = 10.0
@@ -322,7 +323,8 @@ class Chart:
         later evaluations of its models (margins, classification) use the same (:meth:`solves`)
     preview : bool   built at preview resolution for a slider being dragged (:meth:`build` with
         ``preview=True``): the lines of a partition chart drawn to :data:`PREVIEW_FACTOR` times the usual chord
-        tolerance and their crossings left where the chords cross; its margins are computed at preview resolution too
+        tolerance, the ends of their stretches and their crossings of the box edges located to
+        :data:`_PREVIEW_STEP` of the piece's parameter range, and their crossings left where the chords cross; its margins are computed at preview resolution too
         (:data:`lowgmap.physics.chart.lines.PREVIEW_TOL`) and say so. Never the basis of a verdict.
     """
 
@@ -557,8 +559,9 @@ class Chart:
             runs = []
             for piece in _model_pieces(model, case, consts, box):
                 f = _piece_uv(piece, box)
-                t, u, v = _sample_piece(f, piece, _SCHEME_TOL * (PREVIEW_FACTOR if preview else 1.0))
-                runs += _clip_runs(f, t, u, v)
+                t, u, v = (_sample_piece(f, piece, _SCHEME_TOL * PREVIEW_FACTOR, _PREVIEW_STEP) if preview
+                           else _sample_piece(f, piece, _SCHEME_TOL))
+                runs += _clip_runs(f, t, u, v, _PREVIEW_STEP if preview else 1e-14)
             lines.append(runs)
 
         # intersections of every pair, refined on the exact lines ----------------------------------
@@ -582,9 +585,10 @@ class Chart:
 
         # curves: region-defining lines where they separate two regimes; comparison lines whole -------
         curves = []
+        active = _active_runs_of(lines[:n_reg], classify_uv)    # one classification for all region lines
         for k, ((model, consts), runs) in enumerate(zip(ordered, lines)):
             if k < n_reg:
-                runs = _active_runs(runs, classify_uv)
+                runs = active[k]
             ql, qg = _runs_to_flow(runs, box)
             if getattr(model, "validity_uses_constants", False):
                 valid = np.asarray(model.validity_mask(case, ql, qg, **consts), dtype=bool)
@@ -779,14 +783,15 @@ def _piece_uv(piece, box):
     return f
 
 
-def _sample_piece(f, piece, tol):
+def _sample_piece(f, piece, tol, step: float = 1e-10):
     """Adaptive samples (t, u, v) of a piece: chords straight to ``tol`` box units inside the box.
 
-    Chords whose ends and middle lie more than 5 % of the box beyond one of its edges are not refined.
+    Chords whose ends and middle lie more than 5 % of the box beyond one of its edges are not refined; the
+    end of a stretch where the piece has values is located to ``step`` times the piece's parameter range.
     """
     t0, t1 = float(piece.t0), float(piece.t1)
     t, uv = sample_line(f, t0, t1, tol=tol, n_start=_SCHEME_N0, breakpoints=piece.breakpoints,
-                        min_step=1e-10 * (t1 - t0), window=((-0.05, 1.05), (-0.05, 1.05)), window_middle=True,
+                        min_step=step * (t1 - t0), window=((-0.05, 1.05), (-0.05, 1.05)), window_middle=True,
                         max_passes=_SCHEME_DEPTH, max_points=_SCHEME_MAX)
     if not t.size:
         return np.empty(0), np.empty(0), np.empty(0)
@@ -814,8 +819,9 @@ def _snap(u, v):
     return u, v
 
 
-def _clip_runs(f, t, u, v):
-    """Runs (t, u, v) of the samples inside the box; crossings of the box edges found on the line."""
+def _clip_runs(f, t, u, v, xtol: float = 1e-14):
+    """Runs (t, u, v) of the samples inside the box; crossings of the box edges found on the line (to ``xtol``
+    relative in t)."""
     runs = []
     if t.size < 2:
         return runs
@@ -829,7 +835,7 @@ def _clip_runs(f, t, u, v):
         if not (math.isfinite(ha) and math.isfinite(hb)) or ha * hb > 0:
             tt = b if abs(hb) < abs(ha) else a
         else:
-            tt = brentq(h, a, b, xtol=1e-14 * max(1.0, abs(a)), rtol=1e-13)
+            tt = brentq(h, a, b, xtol=xtol * max(1.0, abs(a)), rtol=max(1e-13, xtol))
         uu, vv = f(np.array([tt]))
         su, sv = _snap(float(uu[0]), float(vv[0]))
         return tt, su, sv
@@ -999,7 +1005,14 @@ def _faces(lines, classify_uv, box):
 
 def _active_runs(runs, classify_uv):
     """Parts of the runs that separate two different regimes (side probes at each segment's middle)."""
-    out = []
+    return _active_runs_of([runs], classify_uv)[0]
+
+
+def _active_runs_of(lines, classify_uv):
+    """:func:`_active_runs` of several lines, with one classification of all their probes."""
+    runs = [r for line in lines for r in line]
+    owner = [k for k, line in enumerate(lines) for _ in line]
+    out: list[list] = [[] for _ in lines]
     probes = []
     for r in runs:
         t, u, v, f = r["t"], r["u"], r["v"], r["f"]
@@ -1015,16 +1028,17 @@ def _active_runs(runs, classify_uv):
         probes.append((um + _OFFSET * nu, vm + _OFFSET * nv, um - _OFFSET * nu, vm - _OFFSET * nv))
     if not probes:
         return out
-    a = classify_uv(np.concatenate([p[0] for p in probes]), np.concatenate([p[1] for p in probes]))
-    b = classify_uv(np.concatenate([p[2] for p in probes]), np.concatenate([p[3] for p in probes]))
-    active_all = np.asarray(a) != np.asarray(b)
+    both = classify_uv(np.concatenate([p[0] for p in probes] + [p[2] for p in probes]),
+                       np.concatenate([p[1] for p in probes] + [p[3] for p in probes]))
+    half = len(both) // 2
+    active_all = np.asarray(both[:half]) != np.asarray(both[half:])
     pos = 0
-    for r in runs:
+    for k, r in zip(owner, runs):
         n = len(r["t"]) - 1
         act = active_all[pos:pos + n]
         pos += n
         for i, j in mask_runs(act):            # segments i..j-1 active: samples i..j
-            out.append({"t": r["t"][i:j + 1], "u": r["u"][i:j + 1], "v": r["v"][i:j + 1], "f": r["f"]})
+            out[k].append({"t": r["t"][i:j + 1], "u": r["u"][i:j + 1], "v": r["v"][i:j + 1], "f": r["f"]})
     return out
 
 
