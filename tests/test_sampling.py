@@ -201,3 +201,25 @@ def test_midpoints_that_round_onto_an_end_keep_the_order():
     t, (y,) = sample_line(f, t0, t1, tol=1e-3, n_start=2, min_step=0.0, jump_step=0.0, max_passes=10)
     assert np.all(np.diff(t) >= 0) and t[0] == t0 and t[-1] == t1
     np.testing.assert_array_equal(y, f(t)[0])
+
+
+@pytest.mark.parametrize("tol", [1e-7, 1e-6, 1e-5])
+def test_margin_lines_that_stop_end_within_their_chord_tolerance_of_the_true_end(tol):
+    # Catches: the end of a line whose model stops having values (a domain edge) located more coarsely than the
+    # line's own chords (the end's search step tied to the parameter range alone, or to a fixed share of it),
+    # which shortens the line that the margins measure to by more than the stated sampling error.
+    from lowgmap.physics.chart.lines import _piece_runs
+    from lowgmap.physics.models.regimes import LinePiece
+
+    t_end = 1.2345678912345
+
+    def func(t):
+        t = np.asarray(t, dtype=float)
+        q = np.where(t < t_end, 10.0 ** t, np.nan)
+        return q, 2.0 * q
+
+    runs = _piece_runs(LinePiece(-3.0, 3.0, func), (-4.0, 4.0, -4.0, 4.0), tol, 17)
+    (x, y), = runs
+    assert x[-1] <= t_end and t_end - x[-1] <= tol
+    assert x[0] == pytest.approx(-3.0, abs=1e-12)
+    np.testing.assert_allclose(y - x, np.log10(2.0), atol=1e-12)

@@ -176,6 +176,13 @@ def piece_function(piece):
     return f
 
 
+def _jump_step(tol: float) -> float:
+    """Where a piece stops having values, the share of its parameter range to which the end is located:
+    1 % of the chord tolerance (per decade of parameter), so that the end moves a line by far less than its
+    chords may; 1e-12 at most."""
+    return max(1e-12, 1e-2 * tol)
+
+
 def _piece_runs(piece, cov, tol: float = _TOL, n_start: int = _N_START):
     """Polylines (x, y) of a parametric piece, refined to ``tol``; NaN gaps split runs.
 
@@ -187,7 +194,8 @@ def _piece_runs(piece, cov, tol: float = _TOL, n_start: int = _N_START):
     X0, X1, Y0, Y1 = cov
     t, (x, y) = sample_line(piece_function(piece), t0, t1, tol=tol, n_start=n_start,
                             breakpoints=getattr(piece, "breakpoints", ()) or (), deviation="segment",
-                            min_step=1e-12 * (t1 - t0), window=((X0 - 1, X1 + 1), (Y0 - 1, Y1 + 1)),
+                            min_step=1e-12 * (t1 - t0), jump_step=_jump_step(tol) * (t1 - t0),
+                            window=((X0 - 1, X1 + 1), (Y0 - 1, Y1 + 1)),
                             max_passes=_DEPTH, max_points=_MAX_SAMPLES)
     return [xy for _, xy in finite_runs(t, (x, y))]
 
