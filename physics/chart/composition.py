@@ -822,7 +822,7 @@ def _snap(u, v):
 def _clip_runs(f, t, u, v, xtol: float = 1e-14):
     """Runs (t, u, v) of the samples inside the box; crossings of the box edges found on the line (to ``xtol``
     relative in t)."""
-    runs = []
+    runs: list = []
     if t.size < 2:
         return runs
     fin = np.isfinite(u) & np.isfinite(v)
