@@ -84,6 +84,7 @@ from lowgmap.physics.models.boundary import BoundaryModel, resolve_model
 from lowgmap.physics.models.regimes import (CHAIN, ChainScheme, LinePiece, PartitionScheme, RegimeInfo,
                                             RegimeScheme)
 from lowgmap.physics.properties.groups import conduit_diameter, positive_flows
+from lowgmap.physics.roots import illinois
 
 __all__ = ["BoundaryCurve", "Intersection", "Region", "Axes", "Chart", "AXIS_KINDS", "DEFAULT_MODELS",
            "default_models", "RegimeInfo", "RegimeScheme", "ChainScheme", "PartitionScheme", "CHAIN",
@@ -261,19 +262,56 @@ def _sample(f, x0, x1, tol, extra):
     return x, np.array(y)
 
 
-def _roots(h, x, d):
-    """Roots of the scalar function h between consecutive samples x where the values d change sign."""
-    out = []
-    ok = np.isfinite(d)
-    for i in range(len(x) - 1):
-        if not (ok[i] and ok[i + 1]):
-            continue
-        if d[i] == 0.0:
-            out.append(x[i])
-        elif d[i] * d[i + 1] < 0:
-            out.append(brentq(h, x[i], x[i + 1], xtol=1e-13, rtol=1e-13))
-    if ok[-1] and d[-1] == 0.0:
-        out.append(x[-1])
+def _sign_change_roots(fns, problems, xtol: float = 1e-13, rtol: float = 1e-13):
+    """Roots of many problems at once: ``problems`` are (i, j, level, x, d) with d = f_i(x) - f_j(x)
+    (``j`` None: d = f_i(x) - level) on the samples x; ``fns`` the vectorised line functions. Returns the
+    roots of each problem in increasing x: samples where d is exactly 0, and between consecutive samples
+    where d changes sign the root to ``xtol + rtol |x|`` (:func:`lowgmap.physics.roots.illinois`).
+    """
+    out: list[list] = [[] for _ in problems]
+    brackets = []                              # (problem, slot in its list, end with d < 0, end with d > 0, ...)
+    for p, (_, _, _, x, d) in enumerate(problems):
+        ok = np.isfinite(d)
+        for s in range(len(x) - 1):
+            if not (ok[s] and ok[s + 1]):
+                continue
+            if d[s] == 0.0:
+                out[p].append(x[s])
+            elif d[s] * d[s + 1] < 0:
+                lo, hi = (s, s + 1) if d[s] < 0 else (s + 1, s)
+                out[p].append(math.nan)
+                brackets.append((p, len(out[p]) - 1, x[lo], x[hi], d[lo], d[hi]))
+        if len(x) and ok[-1] and d[-1] == 0.0:
+            out[p].append(x[-1])
+    if not brackets:
+        return out
+    owner = np.array([b[0] for b in brackets])
+    lines: dict[int, list[int]] = {}       # line -> positions of the brackets whose function reads it
+    for q, p in enumerate(owner):
+        i, j = problems[p][0], problems[p][1]
+        lines.setdefault(i, []).append(q)
+        if j is not None:
+            lines.setdefault(j, []).append(q)
+
+    def g(xc, idx):
+        at = dict(zip(idx.tolist(), xc.tolist()))
+        val = {}
+        for k, qs in lines.items():            # each line once, at the points of all its open brackets
+            qs = [q for q in qs if q in at]
+            if qs:
+                v = fns[k](np.array([at[q] for q in qs]))
+                for q, vq in zip(qs, np.asarray(v, dtype=float).tolist()):
+                    val[(k, q)] = vq
+        res = np.empty(len(idx))
+        for n, q in enumerate(idx.tolist()):
+            i, j, level = problems[owner[q]][:3]
+            res[n] = val[(i, q)] - (level if j is None else val[(j, q)])
+        return res
+
+    roots = illinois(g, [b[2] for b in brackets], [b[3] for b in brackets], [b[4] for b in brackets],
+                     [b[5] for b in brackets], iterations=200, xtol=xtol, rtol=rtol, pick="closer")
+    for (p, slot, *_), r in zip(brackets, roots.tolist()):
+        out[p][slot] = r
     return out
 
 
@@ -459,39 +497,41 @@ class Chart:
             fns.append(f)
             samples.append(_sample(f, x0, x1, tol, bp))
 
-        # intersections of every pair ------------------------------------------------------
-        intersections = []
-        crossing_x: list[list[float]] = [[] for _ in ordered]
+        # intersections of every pair, crossings of the range's top and bottom edges -----------
+        # (all the root searches of the chart in one batch: each line is evaluated once per step for all
+        # the brackets that need it, instead of one scalar search per bracket)
+        pairs = []                             # (i, j, x, d), d = None where the two lines coincide
         for i in range(len(ordered)):
             for j in range(i + 1, len(ordered)):
                 xu = np.union1d(samples[i][0], samples[j][0])
                 d = fns[i](xu) - fns[j](xu)
                 fin = d[np.isfinite(d)]
-                if fin.size and np.all(np.abs(fin) < 1e-12):
-                    warnings.append(f"{ordered[i][0].label} and {ordered[j][0].label} coincide on this chart.")
-                    continue
-                fi, fj = fns[i], fns[j]
-                h = _scalar(lambda t, fi=fi, fj=fj: fi(t) - fj(t))
-                for xr in _roots(h, xu, d):
-                    crossing_x[i].append(xr)
-                    crossing_x[j].append(xr)
-                    yr = float(fi(np.array([xr]))[0])
-                    if ylo - 1e-12 <= yr <= yhi + 1e-12:
-                        intersections.append(Intersection(ordered[i][0].name, ordered[j][0].name,
-                                                          10.0 ** xr, 10.0 ** yr))
-                        if i < n_reg and j < n_reg:
-                            warnings.append(
-                                f"Region-defining lines {ordered[i][0].label} and {ordered[j][0].label} cross at "
-                                f"Q_L = {10.0 ** xr:.3g} m^3/s, Q_G = {10.0 ** yr:.3g} m^3/s; past the crossing "
-                                f"the regime of lower gas fraction is kept (sequence rule).")
-
-        # crossings of the range's top and bottom edges -------------------------------------
-        edge_x: list[list[float]] = []
-        for f, (xs, ys) in zip(fns, samples):
-            ex = []
-            for level in (ylo, yhi):
-                ex += _roots(_scalar(lambda t, f=f, level=level: f(t) - level), xs, ys - level)
-            edge_x.append(ex)
+                pairs.append((i, j, xu, None if fin.size and np.all(np.abs(fin) < 1e-12) else d))
+        edges = [(k, level, xs, ys - level) for k, (xs, ys) in enumerate(samples) for level in (ylo, yhi)]
+        found = _sign_change_roots(fns, [(i, j, 0.0, x, d) for i, j, x, d in pairs if d is not None]
+                                   + [(k, None, level, x, d) for k, level, x, d in edges])
+        intersections = []
+        crossing_x: list[list[float]] = [[] for _ in ordered]
+        for i, j, xu, d in pairs:
+            if d is None:
+                warnings.append(f"{ordered[i][0].label} and {ordered[j][0].label} coincide on this chart.")
+                continue
+            fi = fns[i]
+            for xr in found.pop(0):
+                crossing_x[i].append(xr)
+                crossing_x[j].append(xr)
+                yr = float(fi(np.array([xr]))[0])
+                if ylo - 1e-12 <= yr <= yhi + 1e-12:
+                    intersections.append(Intersection(ordered[i][0].name, ordered[j][0].name,
+                                                      10.0 ** xr, 10.0 ** yr))
+                    if i < n_reg and j < n_reg:
+                        warnings.append(
+                            f"Region-defining lines {ordered[i][0].label} and {ordered[j][0].label} cross at "
+                            f"Q_L = {10.0 ** xr:.3g} m^3/s, Q_G = {10.0 ** yr:.3g} m^3/s; past the crossing "
+                            f"the regime of lower gas fraction is kept (sequence rule).")
+        edge_x: list[list[float]] = [[] for _ in ordered]
+        for (k, _, _, _), xs_found in zip(edges, found):
+            edge_x[k] += xs_found
 
         # boundary curves clipped to the chart range ----------------------------------------
         curves = []

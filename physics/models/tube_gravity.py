@@ -66,6 +66,7 @@ from lowgmap.physics.models.boundary import Constant, ExplicitBoundary, Validity
 from lowgmap.physics.models.tube import (ANNULAR, BUBBLE_SLUG_DUKLER_1988, BUBBLES, DUKLER_1988, EOTVOS_LIMIT,
                                          SLUGS, TUBE_MODEL_NAMES, is_circular)
 from lowgmap.physics.properties.groups import conduit_diameter, positive_flows
+from lowgmap.physics.roots import illinois as _illinois
 from lowgmap.physics.validate import positive
 
 __all__ = [
@@ -1164,54 +1165,6 @@ class TaitelDuklerStratified(_TaitelDuklerLine):
 
 
 _TABLES: dict = {}
-
-
-def _illinois(func, a, b, fa, fb, iterations=40, xtol=1e-14, rtol=0.0):
-    """Roots of ``func`` in the brackets [a, b] (fa < 0 <= fb), vectorised (Illinois false position).
-
-    ``func(x, idx)`` evaluates the entries ``idx`` (indices into the brackets) at ``x``. Converges
-    superlinearly where func is smooth; where it jumps inside the bracket (a friction-law switch) the
-    result is the location of the jump. Each entry stops once its bracket is within
-    ``xtol + rtol * max(|a|, |b|)`` (or a value is exactly 0); only the entries still open are evaluated, so one slow entry does not make
-    the others pay for its iterations.
-    """
-    a, b = np.array(a, dtype=float), np.array(b, dtype=float)
-    fa, fb = np.array(fa, dtype=float), np.array(fb, dtype=float)
-    ok = np.isfinite(fa) & np.isfinite(fb)
-    a, b = np.where(ok, a, 0.5), np.where(ok, b, 0.5)
-    fa, fb = np.where(ok, fa, -1.0), np.where(ok, fb, 1.0)
-    side = np.zeros(a.shape, dtype=int)
-    def still_open(idx):
-        return idx[np.abs(b[idx] - a[idx]) > xtol + rtol * np.maximum(np.abs(a[idx]), np.abs(b[idx]))]
-
-    act = still_open(np.arange(a.size))
-    width = np.abs(b - a)                  # bracket width two steps back: an entry whose bracket has not halved
-    for it in range(iterations):           # since then takes a bisection step (a steep end stalls false position)
-        if act.size == 0:
-            break
-        A, B, FA, FB, S = a[act], b[act], fa[act], fb[act], side[act]
-        with np.errstate(invalid="ignore", divide="ignore"):
-            c = B - FB * (B - A) / (FB - FA)
-        bad = ~np.isfinite(c) | (c <= np.minimum(A, B)) | (c >= np.maximum(A, B))
-        if it % 2 == 1:
-            w = np.abs(B - A)
-            bad |= w > 0.5 * width[act]
-            width[act] = w
-        c = np.where(bad, 0.5 * (A + B), c)
-        fc = np.asarray(func(c, act), dtype=float)
-        fc = np.where(np.isfinite(fc), fc, 1.0)
-        neg = fc < 0
-        # keep the bracket [a (negative side), b (non-negative side)]; halve the stale end's value (Illinois)
-        FB = np.where(neg & (S == -1), 0.5 * FB, FB)
-        FA = np.where(~neg & (S == 1), 0.5 * FA, FA)
-        side[act] = np.where(neg, -1, 1)
-        a[act], fa[act] = np.where(neg, c, A), np.where(neg, fc, FA)
-        b[act], fb[act] = np.where(neg, B, c), np.where(neg, FB, fc)
-        hit = fc == 0.0
-        if hit.any():                      # exactly on the root: the bracket closes on it
-            a[act[hit]] = b[act[hit]] = c[hit]
-        act = still_open(act)
-    return 0.5 * (a + b)
 
 
 def _stratified_table(model, rho_l, mu_l, rho_g, mu_g, d, g, beta, re_laminar, case):
