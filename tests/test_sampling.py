@@ -223,3 +223,21 @@ def test_margin_lines_that_stop_end_within_their_chord_tolerance_of_the_true_end
     assert x[-1] <= t_end and t_end - x[-1] <= tol
     assert x[0] == pytest.approx(-3.0, abs=1e-12)
     np.testing.assert_allclose(y - x, np.log10(2.0), atol=1e-12)
+
+
+def test_column_trace_leaves_a_line_far_below_its_window_coarse_but_still_finds_a_wall_through_it():
+    # Catches: the margins' column trace refining a line where it runs far beyond the box its margins can reach
+    # (thousands of evaluations of a costly line for nothing), and the opposite mistake, a window that also
+    # skips the change of side between a column far below and a column without a line that lies below the
+    # line (+inf): that wall crosses the box and must still be located.
+    from lowgmap.physics.chart.lines import _column_trace
+
+    def f(x):                                  # a curved line far below [-1, 1]; no line (+inf) beyond x = 0.3
+        x = np.asarray(x, dtype=float)
+        return np.where(x < 0.3, -20.0 + np.sin(5.0 * x), np.inf)
+
+    x_free, _ = _column_trace(f, -1.0, 1.0, tol=1e-7, n_start=17)
+    x_win, y_win = _column_trace(f, -1.0, 1.0, tol=1e-7, n_start=17, y_window=(-2.0, 2.0))
+    assert x_free.size > 500 and x_win.size < 0.2 * x_free.size     # the curve below the window is not refined
+    wall = x_win[np.flatnonzero(np.diff(np.isfinite(y_win).astype(int)))[0]]
+    assert abs(wall - 0.3) < 1e-10                                   # the wall is located as before

@@ -525,3 +525,28 @@ def test_dispersed_bubble_limit_inverse_lands_on_the_explicit_curve():
     assert np.allclose(back, np.asarray(u_sl)[fin], rtol=1e-9)
     assert np.all(lam1 <= lam[fin] * (1.0 + 1e-9))
     assert np.allclose(lam1[:3], lam[:3], rtol=1e-9)       # small fractions: the rising part of the curve
+
+
+@pytest.mark.parametrize("name", ["lunar_separator", "ground_test_loop"])
+def test_taitel_dukler_breakpoints_straddle_each_jump_of_the_line(name):
+    # Catches: the two samples put around a jump of a Taitel & Dukler line (the liquid friction-law switch, the
+    # drop of the stratified line where the gas friction law switches) placed off the jump: both then lie on
+    # one side and the samplers halve toward the jump again (about 30 evaluations of the line each), or a
+    # jump left out. Internal consistency: each pair brackets a jump, and the line is continuous on each side.
+    from lowgmap.app.files.casefile import load_case, sample_case_path
+
+    case = load_case(sample_case_path(name)).case
+    for model in (tg.STRATIFIED_TAITEL_DUKLER_1976, tg.INTERMITTENT_ANNULAR_TAITEL_DUKLER_1976):
+        bp = np.asarray(model.breakpoints(case), dtype=float)
+        assert bp.size % 2 == 0 and bp.size >= 2
+        lo, hi = bp[0::2], bp[1::2]
+        np.testing.assert_allclose(hi / lo, (1 + 1e-11) / (1 - 1e-11), rtol=1e-12)
+        q = lambda x: np.log10(np.asarray(model.qg_of_ql(case, np.asarray(x, dtype=float)), dtype=float))  # noqa: E731
+        jumped = 0
+        for a, b in zip(lo, hi):
+            ya, yb = q([a * (1 - 1e-7), a, b, b * (1 + 1e-7)]).reshape(2, 2)
+            if np.all(np.isfinite([ya, yb])):
+                assert abs(ya[1] - ya[0]) < 1e-4 and abs(yb[1] - yb[0]) < 1e-4      # continuous on each side
+                jumped += abs(yb[0] - ya[1]) > 1e-3                                   # a jump between them
+        if model is tg.STRATIFIED_TAITEL_DUKLER_1976 and name == "lunar_separator":
+            assert jumped == 2                   # the liquid law switch and the gas law switch's drop

@@ -122,14 +122,18 @@ def column_function(case, model, consts: Mapping[str, float], y_ref: float):
 
 
 def _column_trace(f, x_lo: float, x_hi: float, breakpoints=(), tol: float = _TOL, wall_dx: float = _WALL_DX,
-                  n_start: int = _N_START):
+                  n_start: int = _N_START, y_window=None):
     """Samples (x, y) of y = f(x) on [x_lo, x_hi], y = +-inf in columns without a line.
 
     Refined until chords are within ``tol``; a change of side between columns is located to
-    ``wall_dx`` and made vertical (two samples at the same x).
+    ``wall_dx`` and made vertical (two samples at the same x). ``y_window`` (lo, hi): an interval whose
+    ends and middle all lie below lo, or all above hi, is not refined (a line far beyond the box, or a
+    column without a line on the side where the line runs beyond it: nothing there reaches the box).
     """
+    window = None if y_window is None else (tuple(y_window),)
     x, (y,) = sample_line(lambda t: (f(t),), x_lo, x_hi, tol=tol, n_start=n_start, breakpoints=breakpoints,
-                          min_step=_MIN_DX, jump_step=wall_dx, max_passes=_DEPTH, max_points=_MAX_SAMPLES)
+                          min_step=_MIN_DX, jump_step=wall_dx, window=window, window_middle=True,
+                          max_passes=_DEPTH, max_points=_MAX_SAMPLES)
     y = np.array(y)
     c = np.where(np.isfinite(y), 0, np.sign(y))
     change = np.nonzero(c[:-1] != c[1:])[0]
@@ -231,7 +235,7 @@ def line_runs(case, model, consts, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_
     bp = np.asarray(model.breakpoints(wide, **consts), dtype=float)
     bp = np.log10(bp[bp > 0]) if bp.size else bp
     x, y = _column_trace(column_function(wide, model, consts, _y_ref(case)), cov[0], cov[1], bp, tol, wall_dx,
-                         n_start)
+                         n_start, (cov[2] - 1.0, cov[3] + 1.0))
     return [(x, np.clip(y, cov[2] - _FAR, cov[3] + _FAR))]
 
 
@@ -500,7 +504,8 @@ class ChartGeometry:
                 return g
             if g is not None:
                 cov = (min(cov[0], g.cov[0]), max(cov[1], g.cov[1]), min(cov[2], g.cov[2]), max(cov[3], g.cov[3]))
-            fine = {} if not getattr(chart, "preview", False) else {"tol": PREVIEW_TOL, "n_start": _PREVIEW_N_START}
+            fine = {} if not getattr(chart, "preview", False) else {"tol": PREVIEW_TOL, "n_start": _PREVIEW_N_START,
+                                                                     "wall_dx": 1e-2 * PREVIEW_TOL}
             new = make_geometry(chart, chart.case, [(m, c) for m, c, _ in self.lines], len(chart.region_models), cov,
                                 keep_going=keep_going, **fine)
             if not new.failed:

@@ -1042,6 +1042,21 @@ class _TaitelDuklerLine(_GravityTube):
         f, d, _, _ = self._state(case)
         return _superficial_gradient(f.rho_l, f.mu_l, u_sl, d, re_laminar)
 
+    def breakpoints(self, case, **consts):
+        """Both sides of each jump of the line [m^3/s]: the liquid friction-law switch (superficial Reynolds
+        number ``re_laminar``) and the jumps of :meth:`_jumps`, each as two flows a relative
+        :data:`_JUMP_SIDE` below and above it, so that the samplers put a sample on each side instead of
+        halving toward the jump (about 30 evaluations of the line each)."""
+        c = self.resolve_constants(consts)
+        f, d, area, _ = self._state(case)
+        q = np.array([c["re_laminar"] * f.mu_l / (f.rho_l * d) * area] + list(self._jumps(case, c)), dtype=float)
+        q = q[np.isfinite(q) & (q > 0)]
+        return np.sort(np.concatenate([q * (1.0 - _JUMP_SIDE), q * (1.0 + _JUMP_SIDE)]))
+
+    def _jumps(self, case, c):
+        """Liquid flows [m^3/s] where the line jumps, other than the liquid friction-law switch."""
+        return ()
+
 
 class TaitelDuklerStratified(_TaitelDuklerLine):
     r"""Stratified boundary of horizontal and near-horizontal flow (Taitel & Dukler 1976, criterion F).
@@ -1132,6 +1147,23 @@ class TaitelDuklerStratified(_TaitelDuklerLine):
         return _stratified_table(self, float(f.rho_l), float(f.mu_l), float(f.rho_g), float(f.mu_g), float(d),
                                  float(case.g), float(beta), float(re_laminar), case)
 
+    def _jumps(self, case, c):
+        """Where the gas friction law switches, the liquid flow on the line drops as the level rises (the
+        table of the line at its grid levels has both sides of the switch as adjacent levels); the line,
+        which takes the lowest level that gives the liquid flow, jumps at the flow just before the drop,
+        on the branch of the liquid friction law that applies there."""
+        if case.g <= 0:
+            return ()
+        f, d, area, _ = self._state(case)
+        _, tab_lam, tab_turb = self._table(case, c["re_laminar"])
+        out = []
+        for tab, laminar in ((tab_lam, True), (tab_turb, False)):
+            with np.errstate(invalid="ignore"):
+                k = np.flatnonzero(np.isfinite(tab[:-1]) & np.isfinite(tab[1:]) & (tab[1:] < tab[:-1]))
+            u = np.exp(tab[k])
+            out += [float(v) * area for v in u if (f.rho_l * v * d / f.mu_l < c["re_laminar"]) == laminar]
+        return out
+
     def qg_of_ql(self, case, ql, **consts):
         c = self.resolve_constants(consts)
         f, d, area, _ = self._state(case)
@@ -1165,6 +1197,8 @@ class TaitelDuklerStratified(_TaitelDuklerLine):
 
 
 _TABLES: dict = {}
+#: Relative distance of the two samples put on either side of a jump of a Taitel & Dukler line (breakpoints).
+_JUMP_SIDE = 1e-11
 
 
 def _stratified_table(model, rho_l, mu_l, rho_g, mu_g, d, g, beta, re_laminar, case):
