@@ -6,7 +6,9 @@ per step for all the brackets still open, instead of one scalar root search each
 
 Method: the Illinois variant of false position (Dowell, M. and Jarratt, P., 1971, "A modified regula
 falsi method for computing the root of an equation", BIT Numerical Mathematics 11, 168-174,
-doi:10.1007/BF01934364), with a bisection step wherever a bracket has not halved in two steps.
+doi:10.1007/BF01934364), with a bisection step wherever a bracket has not halved in two steps, and a step
+that lands on an end of its bracket (or within the tolerance of it) moved to the tolerance inside, as in
+Brent's method (Brent, R. P., 1973, Algorithms for Minimization without Derivatives, Prentice-Hall, ch. 4).
 """
 from __future__ import annotations
 
@@ -54,12 +56,17 @@ def illinois(func, a, b, fa, fb, iterations=40, xtol=1e-14, rtol=0.0, pick: str 
         A, B, FA, FB, S = a[act], b[act], fa[act], fb[act], side[act]
         with np.errstate(invalid="ignore", divide="ignore"):
             c = B - FB * (B - A) / (FB - FA)
-        bad = ~np.isfinite(c) | (c <= np.minimum(A, B)) | (c >= np.maximum(A, B))
+        lo, hi = np.minimum(A, B), np.maximum(A, B)
+        bad = ~np.isfinite(c)
         if it % 2 == 1:
-            w = np.abs(B - A)
+            w = hi - lo
             bad |= w > 0.5 * width[act]
             width[act] = w
         c = np.where(bad, 0.5 * (A + B), c)
+        # a step that lands on an end, or within the tolerance of it, moves to the tolerance (as Brent's method
+        # does): at a root next to an end the bracket then closes on it instead of being halved from the far side
+        step = 0.5 * (xtol + rtol * np.maximum(np.abs(A), np.abs(B)))
+        c = np.where(hi - lo > 4.0 * step, np.clip(c, lo + step, hi - step), 0.5 * (A + B))
         fc = np.asarray(func(c, act), dtype=float)
         fc = np.where(np.isfinite(fc), fc, 1.0)
         neg = fc < 0

@@ -30,6 +30,21 @@ def test_illinois_finds_each_root_in_its_own_bracket_whatever_the_ends_order():
     np.testing.assert_allclose(root, np.cbrt(c), rtol=0, atol=1e-13)
 
 
+def test_illinois_closes_on_a_root_that_false_position_finds_at_once():
+    # closed form: a straight line's root is hit by the first false-position step (the crossings of two power
+    # laws in log-log axes are such). Catches a solver that then treats the bracket end lying on the root as a
+    # failed step and halves the bracket from the far side (about 40 evaluations instead of 2 or 3).
+    calls = []
+
+    def f(x, idx):
+        calls.append(len(idx))
+        return 3.0 * (x - np.array([0.1, -2.0 / 3.0, 1.0 / 7.0])[idx])
+    root = illinois(f, [-1.0, -1.0, -1.0], [1.0, 1.0, 1.0], 3.0 * (-1.0 - np.array([0.1, -2 / 3, 1 / 7])),
+                    3.0 * (1.0 - np.array([0.1, -2 / 3, 1 / 7])), iterations=100, xtol=1e-13, rtol=1e-13)
+    np.testing.assert_allclose(root, [0.1, -2.0 / 3.0, 1.0 / 7.0], atol=1e-13)
+    assert len(calls) <= 3, calls
+
+
 def test_illinois_locates_a_jump_inside_the_bracket():
     # closed form: sign(x - 0.3) changes sign only by jumping at 0.3. Catches a false-position step that stalls
     # at one end of a bracket (it never halves) instead of closing on the jump.
