@@ -772,3 +772,17 @@ def test_the_page_has_no_page_wide_busy_spinner():
     finally:
         pn.state.param.unwatch(watcher)
     assert w.value == 2.0 and counted == []
+
+
+def test_a_gas_flow_typed_in_standard_volume_is_named_beside_the_converted_readout(doc):
+    # Catches: the readout showing Q_G = 0.4323 L/min beside a field that says "400 sccm" with nothing to say
+    # that one is the other at the local temperature and pressure (a reviewer reads two different numbers).
+    from lowgmap.app.dashboard.chartpane import ChartPane
+
+    s = _session(doc)
+    pane = ChartPane(s)
+    assert str(s.data["operating_point"]["gas_flow"]) == "400 sccm"       # the sample's operating point
+    text = html.unescape(pane.readout)
+    assert "Q_G typed as 400 sccm (standard volume), shown at the local 22 degC and 101.3 kPa" in text
+    s.edit({"operating_point.gas_flow": "0.5 L/min"}, key="operating_point.gas_flow", label="Gas flow")
+    assert "typed as" not in pane.readout                               # an actual-volume flow needs no note

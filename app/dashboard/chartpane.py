@@ -519,9 +519,26 @@ class ChartPane(pn.viewable.Viewer):
         st = self.session.doc.settings
         regime = self.session.regime_at(ql, qg) or "no regime"
         lead = "moving" if moving else "operating point"
-        return (f"<b>{html.escape(lead)}:</b> Q_L = {convert(ql, 'flow', st.liquid_flow_unit):.4g} "
+        text = (f"<b>{html.escape(lead)}:</b> Q_L = {convert(ql, 'flow', st.liquid_flow_unit):.4g} "
                 f"{html.escape(st.liquid_flow_unit)}, Q_G = {convert(qg, 'flow', st.gas_flow_unit):.4g} "
                 f"{html.escape(st.gas_flow_unit)} → <b>{html.escape(regime)}</b>")
+        typed = "" if moving else self._standard_gas_text()
+        if typed:        # the field keeps the standard volume typed; say why the readout's gas flow differs
+            f = self.session.doc.case.fluid
+            text += (f"<br><span class='standard-flow-note'>Q_G typed as {html.escape(typed)} (standard volume), "
+                     f"shown at the local {f.temperature - 273.15:.4g} degC and {f.pressure / 1e3:.4g} kPa</span>")
+        return text
+
+    def _standard_gas_text(self) -> str:
+        """The operating point's gas flow as typed when it is in a standard-volume unit (sccm, slpm...), else ''."""
+        from lowgmap.app.files.units import STANDARD_FLOW_UNITS
+
+        try:
+            typed = str(self.session.data["operating_point"]["gas_flow"]).strip()
+        except (KeyError, TypeError):
+            return ""
+        unit = typed.split(maxsplit=1)[1].strip().lower() if len(typed.split(maxsplit=1)) == 2 else ""
+        return typed if unit in STANDARD_FLOW_UNITS else ""
 
     # ----------------------------------------------------------------------------- events
     def _on_pan_start(self, event):
