@@ -236,8 +236,8 @@ class ChartPane(pn.viewable.Viewer):
 
         The key's entries refer to the twin, which draws nothing in the plot (its rows have no coordinates) and
         takes its styles from :attr:`src_key`; its visibility follows the key's clicks onto the real glyphs.
-        bokeh's key re-renders its entries (and the page lays the plot out again: ~20 ms a frame in Chromium)
-        whenever a source of a renderer it refers to changes; the twin's source changes only with the key.
+        bokeh's key rebuilds its entries (their elements in the page) whenever a source of a renderer it refers to
+        changes, i.e. on every frame of a drag; the twin's source changes only with the key.
         """
         coords = _KEY_COORDS[name]
         at = {c: c for c in coords}

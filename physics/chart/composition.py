@@ -333,10 +333,6 @@ def _clip(x, y, ylo, yhi):
     return 10.0 ** np.concatenate(qx), 10.0 ** np.concatenate(qy)
 
 
-def _scalar(f):
-    return lambda t: float(f(np.array([t]))[0])
-
-
 # --------------------------------------------------------------------------------------------
 
 @dataclass(frozen=True, eq=False)
@@ -362,7 +358,8 @@ class Chart:
     preview : bool   built at preview resolution for a slider being dragged (:meth:`build` with
         ``preview=True``): the lines of a partition chart drawn to :data:`PREVIEW_FACTOR` times the usual chord
         tolerance, the ends of their stretches and their crossings of the box edges located to
-        :data:`_PREVIEW_STEP` of the piece's parameter range, and their crossings left where the chords cross; its margins are computed at preview resolution too
+        :data:`_PREVIEW_STEP` of the piece's parameter range, and their crossings left where the chords
+        cross; its margins are computed at preview resolution too
         (:data:`lowgmap.physics.chart.lines.PREVIEW_TOL`) and say so. Never the basis of a verdict.
     """
 
