@@ -380,3 +380,28 @@ def test_clicking_a_line_in_the_key_hides_the_drawn_lines_and_a_second_click_sho
     page.evaluate(_TWO_FRAMES)
     again = _pixels_of(page, clip, f["colour"])
     assert again > 0.8 * shown, (shown, again)
+
+
+def test_switching_to_linear_axes_draws_the_lines_on_the_figure_shown(page):
+    # Catches: the figure of the other axes scale left on its empty stand-in sources when it is shown (the
+    # hidden figure draws from stand-ins so that the page does not lay it out again on every frame of a drag):
+    # the switch would show empty axes.
+    before = page.evaluate(_FRAME_JS)
+    assert _pixels_of(page, {k: before[k] for k in ("x", "y", "width", "height")}, before["colour"]) > 50
+    page.get_by_role("button", name="Chart ranges, axes and units").first.click()   # a group shown collapsed
+    box = page.locator(".field-chart-log-axes input").first
+    box.scroll_into_view_if_needed()
+    box.uncheck()
+    page.wait_for_function("""() => {
+      for (const doc of Bokeh.documents) for (const m of doc._all_models.values()) {
+        if (m.type === 'Figure' && m.name === 'regime-chart-linear' && m.visible) {
+          const r = m.renderers.find(x => x.name === 'boundaries');
+          return r.data_source.data.xs.length > 0;
+        }
+      }
+      return false; }""")
+    page.evaluate(_TWO_FRAMES)
+    after = page.evaluate(_FRAME_JS)
+    assert after["colour"] == before["colour"]
+    drawn = _pixels_of(page, {k: after[k] for k in ("x", "y", "width", "height")}, after["colour"])
+    assert drawn > 50, drawn                           # the first line is drawn on the linear axes
