@@ -531,14 +531,13 @@ class ChartPane(pn.viewable.Viewer):
 
     def _standard_gas_text(self) -> str:
         """The operating point's gas flow as typed when it is in a standard-volume unit (sccm, slpm...), else ''."""
-        from lowgmap.app.files.units import STANDARD_FLOW_UNITS
+        from lowgmap.app.files.units import is_standard_flow
 
         try:
             typed = str(self.session.data["operating_point"]["gas_flow"]).strip()
         except (KeyError, TypeError):
             return ""
-        unit = typed.split(maxsplit=1)[1].strip().lower() if len(typed.split(maxsplit=1)) == 2 else ""
-        return typed if unit in STANDARD_FLOW_UNITS else ""
+        return typed if is_standard_flow(typed) else ""
 
     # ----------------------------------------------------------------------------- events
     def _on_pan_start(self, event):

@@ -30,7 +30,7 @@ from lowgmap.physics.validate import InputError
 
 __all__ = [
     "UnitError", "MAX_QUANTITY_CHARS", "ureg", "to_si", "parse_flow", "standard_to_actual_flow", "format_quantity",
-    "STANDARD_TEMPERATURE", "STANDARD_PRESSURE", "KINDS", "STANDARD_FLOW_UNITS",
+    "STANDARD_TEMPERATURE", "STANDARD_PRESSURE", "KINDS", "STANDARD_FLOW_UNITS", "is_standard_flow",
     "parse_gravity", "gravity_names", "parse_orientation", "ORIENTATION_WORDS", "orientation_text",
 ]
 
@@ -201,6 +201,21 @@ def standard_to_actual_flow(q_std_m3_s: float, pressure: float, temperature: flo
     if not (temperature > 0 and math.isfinite(temperature)):
         raise ValueError(f"temperature must be > 0 K for a standard-flow conversion, got {temperature!r}")
     return q_std_m3_s * (p_std / pressure) * (temperature / t_std)
+
+
+def is_standard_flow(value) -> bool:
+    """Whether ``value`` is a flow written in a standard-volume unit (sccm, slpm, ...), as :func:`parse_flow` reads it.
+
+    >>> is_standard_flow("400sccm"), is_standard_flow("0.4 L/min"), is_standard_flow("not a flow")
+    (True, False, False)
+    """
+    if not isinstance(value, str):
+        return False
+    try:
+        _, unit_text = _split(value, "flow")
+    except UnitError:
+        return False
+    return unit_text.strip().lower() in STANDARD_FLOW_UNITS
 
 
 def parse_flow(value, field: str = "flow", *, pressure: float | None = None, temperature: float | None = None,
