@@ -76,7 +76,7 @@ from scipy.optimize import brentq
 
 from lowgmap.physics import surrogates
 from lowgmap.physics.case import ModelChoice
-from lowgmap.physics.chart.lines import piece_function
+from lowgmap.physics.chart.lines import end_samples, piece_function
 from lowgmap.physics.chart.sampling import mask_runs, sample_line
 from lowgmap.physics.models import tube as tube_models
 from lowgmap.physics.models import tube_gravity
@@ -824,10 +824,12 @@ def _sample_piece(f, piece, tol, step: float = 1e-10):
     """Adaptive samples (t, u, v) of a piece: chords straight to ``tol`` box units inside the box.
 
     Chords whose ends and middle lie more than 5 % of the box beyond one of its edges are not refined; the
-    end of a stretch where the piece has values is located to ``step`` times the piece's parameter range.
+    end of a stretch where the piece has values is located to ``step`` times the piece's parameter range. The
+    piece is sampled from the start next to its ends (:func:`lowgmap.physics.chart.lines.end_samples`).
     """
     t0, t1 = float(piece.t0), float(piece.t1)
-    t, uv = sample_line(f, t0, t1, tol=tol, n_start=_SCHEME_N0, breakpoints=piece.breakpoints,
+    bps = np.concatenate([np.asarray(piece.breakpoints or (), dtype=float).ravel(), end_samples(t0, t1, step)])
+    t, uv = sample_line(f, t0, t1, tol=tol, n_start=_SCHEME_N0, breakpoints=bps,
                         min_step=step * (t1 - t0), window=((-0.05, 1.05), (-0.05, 1.05)), window_middle=True,
                         max_passes=_SCHEME_DEPTH, max_points=_SCHEME_MAX)
     if not t.size:

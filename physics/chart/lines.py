@@ -12,7 +12,9 @@ separate (:class:`LineGeometry`):
   +inf above, -inf below); a change of side between columns is located to ``wall_dx`` by bisection
   and drawn as a vertical piece;
 * under a scheme other than the sequence rule the region lines are split where they cross, and
-  every chord is probed on both sides (which regimes it separates).
+  every chord is probed on both sides (which regimes it separates); for regimes that are the
+  intersection of one side of each of their lines (:func:`conjunction_lines`) the studies take those
+  lines whole instead, refined only where the points' margins can lie (``focus``).
 
 Both samplings use the one adaptive sampler of :mod:`lowgmap.physics.chart.sampling`. The lines must
 cover the chart range and the margin window of every point, :data:`WINDOW_LO` .. :data:`WINDOW_HI`
@@ -51,9 +53,9 @@ import numpy as np
 from lowgmap.physics.chart.sampling import finite_runs, sample_line
 
 __all__ = ["MAX_MARGIN", "LN10", "WINDOW_LO", "WINDOW_HI", "GEOMETRY_CACHE", "MODEL_ERRORS", "column_function",
-           "piece_function", "line_runs", "is_chain", "bounding_lines", "LineGeometry", "make_geometry", "coverage",
-           "margin_window", "ChartGeometry", "geometry_of", "regime_indices", "EvaluationGap", "evaluation_gaps",
-           "chart_lines"]
+           "piece_function", "end_samples", "line_runs", "is_chain", "bounding_lines", "conjunction_lines",
+           "FOCUS_MAX_POINTS", "LineGeometry", "make_geometry", "coverage", "margin_window", "ChartGeometry",
+           "geometry_of", "regime_indices", "EvaluationGap", "evaluation_gaps", "chart_lines"]
 
 #: Largest symmetric margin reported; a point with this margin has no boundary within ±99.9 %.
 MAX_MARGIN = 0.999
@@ -70,6 +72,10 @@ _TOL = 1e-7                                   # chord tolerance [decade]
 _WALL_DX = 1e-11                              # width at which a vertical piece is located [decade]
 _MIN_DX = 1e-9                                # narrowest cell refined for curvature [decade]
 _DEPTH = 60                                   # refinement passes
+#: Shares of a piece's parameter range (1e-2, 1e-4 .. 1e-10) at which it is sampled from the start next to each
+#: end: a line that ends on another line (or runs off to infinity) usually bends sharply there, and these samples
+#: let the refinement work on that stretch in a few passes instead of halving toward the end pass by pass.
+_END_STEPS = 10.0 ** -np.arange(2.0, 12.0, 2.0)
 _MAX_SAMPLES = 20000                          # cap on samples per line piece
 _FAR = 8.0                                    # decades beyond the coverage where open columns are closed
 _PROBE = 1e-6                                 # side-probe distance from a chord [decade] (at least 10 tol)
@@ -122,18 +128,19 @@ def column_function(case, model, consts: Mapping[str, float], y_ref: float):
 
 
 def _column_trace(f, x_lo: float, x_hi: float, breakpoints=(), tol: float = _TOL, wall_dx: float = _WALL_DX,
-                  n_start: int = _N_START, y_window=None):
+                  n_start: int = _N_START, y_window=None, settled=None):
     """Samples (x, y) of y = f(x) on [x_lo, x_hi], y = +-inf in columns without a line.
 
     Refined until chords are within ``tol``; a change of side between columns is located to
     ``wall_dx`` and made vertical (two samples at the same x). ``y_window`` (lo, hi): an interval whose
     ends and middle all lie below lo, or all above hi, is not refined (a line far beyond the box, or a
     column without a line on the side where the line runs beyond it: nothing there reaches the box).
+    ``settled``: see :func:`lowgmap.physics.chart.sampling.sample_line` (e.g. :func:`_near_points`).
     """
     window = None if y_window is None else (tuple(y_window),)
     x, (y,) = sample_line(lambda t: (f(t),), x_lo, x_hi, tol=tol, n_start=n_start, breakpoints=breakpoints,
                           min_step=_MIN_DX, jump_step=wall_dx, window=window, window_middle=True,
-                          max_passes=_DEPTH, max_points=_MAX_SAMPLES)
+                          max_passes=_DEPTH, max_points=_MAX_SAMPLES, settled=settled)
     y = np.array(y)
     c = np.where(np.isfinite(y), 0, np.sign(y))
     change = np.nonzero(c[:-1] != c[1:])[0]
@@ -187,20 +194,82 @@ def _jump_step(tol: float) -> float:
     return max(1e-12, 1e-2 * tol)
 
 
-def _piece_runs(piece, cov, tol: float = _TOL, n_start: int = _N_START):
+#: Most points a sampled line is focused on (:func:`_near_points`); with more, the lines are refined everywhere.
+FOCUS_MAX_POINTS = 256
+
+
+def _near_points(focus, tol: float, explicit: bool = False):
+    r"""``settled`` function of the sampler: chords that cannot hold the box margin of any point of ``focus``.
+
+    ``focus`` = (x, y) arrays of points [decade]. A sample (on the line) at offsets (dx, dy) from a point has
+    the box margin :math:`\max(|10^{dx} - 1|, |10^{dy} - 1|)`: the smallest over the samples so far, capped at
+    :data:`MAX_MARGIN`, is an upper bound *u* of the point's margin to the line. The line between two samples
+    lies within :math:`\delta` = 2 dev + ``tol`` of their chord (dev: the deviation of its middle), so inside
+    the chord's x and y ranges widened by :math:`\delta`; every point there has a box margin of at least the
+    larger of the smallest :math:`|10^{dx} - 1|` over the widened x range (0 when it contains the point's x)
+    and the same in y. When that bound exceeds *u* for every point, refining the chord cannot change any
+    point's margin to this line (its smallest value is at least as small elsewhere). The chords that can hold
+    it are refined to ``tol`` as before, so the margin to the line is that of the unfocused sampling; chords
+    outside the box of half-size *u* around every point stay coarse. Only for margins to whole lines (the
+    sequence rule, or a regime that is an intersection of sides: :func:`conjunction_lines`). ``explicit``:
+    the line is y(t) with x = t (column trace).
+    """
+    px = np.asarray(focus[0], dtype=float).ravel()[:, None]
+    py = np.asarray(focus[1], dtype=float).ravel()[:, None]
+
+    def low(a, b, p, delta):
+        lo, hi = np.minimum(a, b)[None, :] - delta, np.maximum(a, b)[None, :] + delta
+        with np.errstate(over="ignore", invalid="ignore"):
+            far = np.minimum(np.abs(np.expm1((lo - p) * LN10)), np.abs(np.expm1((hi - p) * LN10)))
+        return np.where((lo <= p) & (hi >= p), 0.0, far)
+
+    def settled(t, coords, idx, dev, tm, cm):
+        if explicit:
+            x, y, xm, ym = t, coords[0], tm, cm[0]
+        else:
+            (x, y), (xm, ym) = coords, cm
+        ok = np.isfinite(x) & np.isfinite(y)
+        xs = np.concatenate([x[ok], xm])
+        ys = np.concatenate([y[ok], ym])
+        with np.errstate(over="ignore", invalid="ignore"):
+            m = np.maximum(np.abs(np.expm1((xs[None, :] - px) * LN10)), np.abs(np.expm1((ys[None, :] - py) * LN10)))
+        ub = np.minimum(m.min(axis=1, initial=np.inf), MAX_MARGIN)[:, None]
+        delta = 2.0 * np.asarray(dev, dtype=float)[None, :] + tol
+        lb = np.maximum(low(x[idx], x[idx + 1], px, delta), low(y[idx], y[idx + 1], py, delta))
+        return np.all(lb > ub, axis=0)
+
+    return settled
+
+
+def end_samples(t0: float, t1: float, step: float = 0.0) -> np.ndarray:
+    """Parameter values next to both ends of [t0, t1] at the shares :data:`_END_STEPS` of its range (those not
+    below ``step``), sampled from the start by the line samplers.
+
+    >>> [round(float(v), 12) for v in end_samples(0.0, 1.0, 1e-4)]
+    [0.01, 0.0001, 0.99, 0.9999]
+    """
+    span = t1 - t0
+    steps = _END_STEPS[_END_STEPS >= step] * span
+    return np.concatenate([t0 + steps, t1 - steps])
+
+
+def _piece_runs(piece, cov, tol: float = _TOL, n_start: int = _N_START, settled=None):
     """Polylines (x, y) of a parametric piece, refined to ``tol``; NaN gaps split runs.
 
-    Chords more than a decade beyond one edge of the coverage ``cov`` are not refined.
+    Chords more than a decade beyond one edge of the coverage ``cov`` are not refined, nor those
+    ``settled`` leaves alone (:func:`_near_points`).
     """
     t0, t1 = float(piece.t0), float(piece.t1)
     if not (math.isfinite(t0) and math.isfinite(t1) and t1 > t0):
         return []
     X0, X1, Y0, Y1 = cov
+    bps = np.concatenate([np.asarray(getattr(piece, "breakpoints", ()) or (), dtype=float).ravel(),
+                          end_samples(t0, t1)])
     t, (x, y) = sample_line(piece_function(piece), t0, t1, tol=tol, n_start=n_start,
-                            breakpoints=getattr(piece, "breakpoints", ()) or (), deviation="segment",
+                            breakpoints=bps, deviation="segment",
                             min_step=1e-12 * (t1 - t0), jump_step=_jump_step(tol) * (t1 - t0),
                             window=((X0 - 1, X1 + 1), (Y0 - 1, Y1 + 1)),
-                            max_passes=_DEPTH, max_points=_MAX_SAMPLES)
+                            max_passes=_DEPTH, max_points=_MAX_SAMPLES, settled=settled)
     return [xy for _, xy in finite_runs(t, (x, y))]
 
 
@@ -217,25 +286,30 @@ def _widened(case, cov):
     return case.with_(flow_range=FlowRange(10.0 ** X0, 10.0 ** X1, 10.0 ** Y0, 10.0 ** Y1))
 
 
-def line_runs(case, model, consts, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_N_START, wide=None):
+def line_runs(case, model, consts, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_N_START, wide=None, focus=None):
     """Polylines ``[(x, y), ...]`` of one line over the coverage box ``cov`` = (x0, x1, y0, y1) [decade].
 
     From the model's ``line_pieces`` (asked for the case widened to ``cov``, or ``wide``) when it
     has them, else one column trace of ``qg_of_ql`` whose columns without a line lie 8 decades
     beyond the coverage. ``tol`` [decade] chord tolerance, ``wall_dx`` [decade] width at which a
-    vertical piece is located, ``n_start`` initial samples.
+    vertical piece is located, ``n_start`` initial samples. ``focus`` = (x, y) arrays [decade]: only
+    the margins of these points to the whole line are wanted, so chords that cannot hold them are left
+    coarse (:func:`_near_points`; at most :data:`FOCUS_MAX_POINTS` points, else ignored).
     """
     wide = wide if wide is not None else _widened(case, cov)
+    use = focus is not None and 0 < np.size(focus[0]) <= FOCUS_MAX_POINTS
     own = getattr(model, "line_pieces", None)
     if callable(own):
         runs = []
+        near = _near_points(focus, tol) if use else None
         for piece in own(wide, **consts):
-            runs += _piece_runs(piece, cov, tol, n_start)
+            runs += _piece_runs(piece, cov, tol, n_start, near)
         return runs
     bp = np.asarray(model.breakpoints(wide, **consts), dtype=float)
     bp = np.log10(bp[bp > 0]) if bp.size else bp
     x, y = _column_trace(column_function(wide, model, consts, _y_ref(case)), cov[0], cov[1], bp, tol, wall_dx,
-                         n_start, (cov[2] - 1.0, cov[3] + 1.0))
+                         n_start, (cov[2] - 1.0, cov[3] + 1.0),
+                         settled=_near_points(focus, tol, explicit=True) if use else None)
     return [(x, np.clip(y, cov[2] - _FAR, cov[3] + _FAR))]
 
 
@@ -261,6 +335,24 @@ def bounding_lines(chart, regime: str) -> tuple[int, ...]:
     if regime not in names:
         return ()
     return tuple(range(min(names.index(regime) + 1, len(chart.region_models))))
+
+
+def conjunction_lines(chart, regime: str) -> tuple[int, ...] | None:
+    """Indices into ``chart.region_models`` of the lines of which ``regime`` is the intersection of one side each.
+
+    Under the sequence rule every regime is (lines 0..i: :func:`bounding_lines`); under another scheme as
+    its :meth:`~lowgmap.physics.models.regimes.RegimeScheme.conjunction` says (e.g. the corner family's separating
+    regimes: below the ingestion, blow-through and merging lines, above the confinement line and left of the
+    separation line). The margin of a point in such a regime is its smallest margin to any of these lines as
+    a whole. None when the regime is not such an intersection (its bounding parts must then be found by
+    splitting the lines and probing their sides).
+    """
+    scheme = getattr(chart, "scheme", None)
+    if scheme is None or getattr(scheme, "kind", "chain") == "chain":
+        got = bounding_lines(chart, regime)
+        return got if got else None
+    f = getattr(scheme, "conjunction", None)
+    return f(chart.region_models, chart.regime_names, regime) if callable(f) else None
 
 
 def _insert_points(x, y, px, py):
@@ -379,7 +471,7 @@ class LineGeometry:
 
 
 def make_geometry(chart, case, lines, n_region, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_N_START,
-                   only=None, keep_going=False) -> LineGeometry:
+                   only=None, keep_going=False, bounding=None, focus=None) -> LineGeometry:
     """Sample ``lines`` [(model, consts dict)] of ``chart`` over ``cov`` into a :class:`LineGeometry`.
 
     ``case``: the case whose physics the lines follow (the chart's, or a perturbed one);
@@ -388,7 +480,16 @@ def make_geometry(chart, case, lines, n_region, cov, *, tol=_TOL, wall_dx=_WALL_
     [decade]; ``tol``, ``wall_dx``, ``n_start``: sampling (see :func:`line_runs`); ``only``: indices
     of the lines to sample (others are left empty); ``keep_going``: a line whose model raises one of
     :data:`MODEL_ERRORS` is left empty and recorded in ``failed`` instead of raising.
+
+    ``bounding``: {regime index: line indices} for regimes that are intersections of one side of each of
+    their lines (:func:`conjunction_lines`): those lines bound the regime as wholes, so they are neither
+    split at their crossings nor probed (the geometry answers only for those regimes). ``focus`` = (x, y)
+    [decade]: only the margins of these points are wanted (:func:`line_runs`); used only when every line
+    bounds as a whole (the sequence rule or ``bounding``).
     """
+    chain = is_chain(chart) or bounding is not None
+    if not chain:
+        focus = None
     wide = _widened(case, cov)
     runs_all: list[list] = []
     failed: list[tuple[int, str]] = []
@@ -398,13 +499,12 @@ def make_geometry(chart, case, lines, n_region, cov, *, tol=_TOL, wall_dx=_WALL_
             continue
         try:
             runs_all.append(line_runs(case, model, consts, cov, tol=tol, wall_dx=wall_dx, n_start=n_start,
-                                      wide=wide))
+                                      wide=wide, focus=focus))
         except MODEL_ERRORS as exc:
             if not keep_going:
                 raise
             runs_all.append([])
             failed.append((k, f"{type(exc).__name__}: {exc}"))
-    chain = is_chain(chart)
     if not chain and n_region > 1:
         runs_all[:n_region] = _split_at_crossings(runs_all[:n_region])
     parts: dict[str, list] = {k: [] for k in ("xa", "ya", "xb", "yb", "line")}
@@ -440,9 +540,10 @@ def make_geometry(chart, case, lines, n_region, cov, *, tol=_TOL, wall_dx=_WALL_
             half = reg.sum()
             left[reg], right[reg] = sides[:half], sides[half:]
             usable[reg] = left[reg] != right[reg]
-    bounding = {r: bounding_lines(chart, name) for r, name in enumerate(names)}
+    if bounding is None:
+        bounding = {r: bounding_lines(chart, name) for r, name in enumerate(names)}
     return LineGeometry(arr["xa"], arr["ya"], arr["xb"], arr["yb"], line, usable, left, right, len(lines),
-                        n_region, chain, bounding, tuple(cov), tuple(failed))
+                        n_region, chain, dict(bounding), tuple(cov), tuple(failed))
 
 
 def chart_lines(chart):

@@ -92,8 +92,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from lowgmap.physics.chart.lines import (LN10, MAX_MARGIN, MODEL_ERRORS, WINDOW_HI, WINDOW_LO,
-                                         LineGeometry, bounding_lines, evaluation_gaps, geometry_of, is_chain,
-                                         make_geometry, margin_window, regime_indices)
+                                         LineGeometry, bounding_lines, conjunction_lines, evaluation_gaps, geometry_of,
+                                         is_chain, make_geometry, margin_window, regime_indices)
 from lowgmap.physics.surrogates import in_chart_solves
 from lowgmap.physics.validate import finite, positive
 
@@ -399,19 +399,33 @@ def resolve_deferred(pending, m):
 
 
 def uncached_regime_margins(chart, case, x0, y0, ridx, pending=None, ids=None, *, tol=1e-6, wall_dx=1e-8,
-                            n_start=17):
+                            n_start=17, focused=True):
     """Regime margins of points with the region lines of ``chart`` sampled afresh for ``case``.
 
     For a chart whose lines are not worth caching (one Monte Carlo draw, one design of a sweep):
     only the lines that bound the points' regimes are sampled, at the coarser ``tol`` [decade],
     ``wall_dx`` [decade] and ``n_start``, over the windows of the points. Arguments and result as
     :func:`regime_margins`.
+
+    When every regime of the points is the intersection of one side of each of its lines
+    (:func:`lowgmap.physics.chart.lines.conjunction_lines`: every regime of the sequence rule, the separating
+    regimes of the corner family) those lines are sampled as wholes, neither split nor probed, and, with
+    ``focused``, refined to ``tol`` only where they can hold a point's margin
+    (:func:`lowgmap.physics.chart.lines.line_runs`): the margins are those of the lines refined everywhere (to
+    the sampling tolerance), for a fraction of the samples.
     """
     lines = [(m, dict(c)) for m, c in chart.region_models]
     n_region = len(lines)
     cov = (float(np.min(x0)) + WINDOW_LO - 1e-9, float(np.max(x0)) + WINDOW_HI + 1e-9,
            float(np.min(y0)) + WINDOW_LO - 1e-9, float(np.max(y0)) + WINDOW_HI + 1e-9)
     names = list(chart.regime_names)
+    regs = [int(r) for r in np.unique(ridx[ridx >= 0])] if np.size(ridx) else []
+    conj = {r: conjunction_lines(chart, names[r]) for r in regs}
+    if regs and all(v is not None for v in conj.values()):
+        only = set().union(*(set(v) for v in conj.values()))
+        g = make_geometry(chart, case, lines, n_region, cov, tol=tol, wall_dx=wall_dx, n_start=n_start, only=only,
+                          bounding=conj, focus=(x0, y0) if focused else None)
+        return regime_margins(g, x0, y0, ridx, pending, ids)
     only = None
     if is_chain(chart):
         only = set()

@@ -61,7 +61,8 @@ def segment_distance(px, py, ax, ay, bx, by):
     dx, dy = bx - ax, by - ay
     L2 = dx * dx + dy * dy
     with np.errstate(invalid="ignore", divide="ignore"):
-        w = np.clip(np.where(L2 > 0, ((px - ax) * dx + (py - ay) * dy) / np.where(L2 > 0, L2, 1.0), 0.0), 0.0, 1.0)
+        w = np.where(L2 > 0, np.divide((px - ax) * dx + (py - ay) * dy, L2), 0.0)
+    w = np.minimum(np.maximum(w, 0.0), 1.0)
     return np.hypot(ax + w * dx - px, ay + w * dy - py)
 
 
@@ -76,7 +77,8 @@ def _kind(coords) -> np.ndarray:
     kind = np.zeros(coords[0].shape, dtype=np.int8)
     for c in reversed(coords):
         bad = ~np.isfinite(c)
-        kind[bad] = np.where(np.isnan(c[bad]), 2, np.sign(c[bad])).astype(np.int8)
+        if bad.any():
+            kind[bad] = np.where(np.isnan(c[bad]), 2, np.sign(c[bad])).astype(np.int8)
     return kind
 
 
@@ -88,18 +90,24 @@ def _evaluate(f, t, n_coords=None):
     return coords
 
 
-def _beyond(coords, window):
-    """Per side of every coordinate: points strictly beyond that edge of the window, shape (2 n, m)."""
-    rows = []
+def _all_beyond(window, *points) -> np.ndarray:
+    """Where all the ``points`` (tuples of coordinate arrays) lie strictly beyond the same edge of the window."""
+    out = np.zeros(np.shape(points[0][0]), dtype=bool)
     with np.errstate(invalid="ignore"):
-        for c, (lo, hi) in zip(coords, window):
-            rows += [c < lo, c > hi]
-    return np.stack(rows)
+        for k, (lo, hi) in enumerate(window):
+            below = points[0][k] < lo
+            above = points[0][k] > hi
+            for p in points[1:]:
+                below &= p[k] < lo
+                above &= p[k] > hi
+            out |= below | above
+    return out
 
 
 def sample_line(f, t0: float, t1: float, *, tol: float, n_start: int = 33, breakpoints=(),
                 deviation: str = "chord", min_step: float = 0.0, jump_step: float | None = None,
-                window=None, window_middle: bool = False, max_passes: int = 60, max_points: int = 20000):
+                window=None, window_middle: bool = False, max_passes: int = 60, max_points: int = 20000,
+                settled=None):
     r"""Adaptive samples of a parametric line ``t -> (c_1(t), ..., c_k(t))`` on [t0, t1].
 
     .. math:: \text{split } [t_a, t_b] \text{ while }
@@ -126,6 +134,12 @@ def sample_line(f, t0: float, t1: float, *, tol: float, n_start: int = 33, break
     window_middle : bool   with ``window``: the middle sample must lie beyond that edge as well
     max_passes : int   refinement passes (each halves every interval still to refine)
     max_points : int   no pass starts with more samples than this
+    settled : callable, optional   ``settled(t, coords, idx, dev, t_mid, c_mid) -> bool array``: of the
+                       intervals (idx[i], idx[i] + 1), both ends and middle valid, that would be split
+                       only because their chord deviates more than ``tol`` (``dev``: that deviation),
+                       those that may stay as they are (e.g. too far from a point to matter to it);
+                       ``t, coords`` are the samples so far, ``t_mid, c_mid`` the valid middle samples
+                       of this pass
 
     Returns
     -------
@@ -180,9 +194,7 @@ def sample_line(f, t0: float, t1: float, *, tol: float, n_start: int = 33, break
         change = ka != kb
         smooth = both & (dt > min_step)
         if window is not None and not window_middle:
-            far_a = _beyond(tuple(c[cand] for c in coords), window)
-            far_b = _beyond(tuple(c[cand + 1] for c in coords), window)
-            smooth &= ~np.any(far_a & far_b, axis=0)
+            smooth &= ~_all_beyond(window, tuple(c[cand] for c in coords), tuple(c[cand + 1] for c in coords))
         work = smooth | (change & (dt > jump))
         done[cand[~work]] = True
         if not work.any() or t.size > max_points:
@@ -204,9 +216,15 @@ def sample_line(f, t0: float, t1: float, *, tol: float, n_start: int = 33, break
             else:
                 dev = np.sqrt(sum((c - 0.5 * (p + q)) ** 2 for c, p, q in zip(cm, a, b)))
             split = change | (both & ((km != 0) | (dev > tol)))
+        if settled is not None:
+            soft = split & both & (km == 0) & ~change
+            if soft.any():
+                valid = km == 0
+                keep = np.asarray(settled(t, coords, idx[soft], dev[soft], tm[valid], tuple(c[valid] for c in cm)),
+                                  dtype=bool)
+                split[np.flatnonzero(soft)[keep]] = False
         if window is not None and window_middle:
-            fa, fb, fm = _beyond(a, window), _beyond(b, window), _beyond(cm, window)
-            split &= ~(both & np.any(fa & fb & fm, axis=0))
+            split &= ~(both & _all_beyond(window, a, b, cm))
         done[idx[~split]] = True
         s = idx[split]
         if s.size == 0:

@@ -95,6 +95,17 @@ class RegimeScheme:
         """Indices into ``region_models`` of the lines whose crossing can change the regime ``regime``."""
         raise NotImplementedError
 
+    def conjunction(self, region_models, regime_names, regime: str) -> tuple[int, ...] | None:
+        """Indices of the lines whose sides *all* decide ``regime``, when the regime is one side of each of them.
+
+        A regime that is the intersection of one side of each of some lines (and does not depend on the
+        others) is left exactly where the first of those lines is crossed, wherever along it: its margin is
+        the smallest margin to any of those lines as a whole, with no need to find which parts of a line
+        border the regime. None when the regime is not such an intersection (or not a regime of the lines).
+        Default: None.
+        """
+        return None
+
 
 class ChainScheme(RegimeScheme):
     """The sequence rule: lines chained by regime names in order of increasing gas fraction.
@@ -133,6 +144,11 @@ class ChainScheme(RegimeScheme):
         if regime not in names:
             return ()
         return tuple(range(min(names.index(regime) + 1, len(region_models))))
+
+    def conjunction(self, region_models, regime_names, regime):
+        """Regime i of the sequence is above lines 0..i-1 and below line i: always an intersection."""
+        got = self.bounding_indices(region_models, regime_names, regime)
+        return got if got else None
 
 
 #: The sequence rule, used by charts whose models belong to no other scheme.
@@ -180,6 +196,7 @@ class PartitionScheme(RegimeScheme):
         self.rule = rule
         self._notes = notes
         self.description = description
+        self._conjunctions: dict = {}
         names = [r.name for r in self.regimes]
         if len(set(names)) != len(names):
             raise ValueError(f"scheme {name}: regime names repeat: {names}")
@@ -234,6 +251,41 @@ class PartitionScheme(RegimeScheme):
 
     def bounding_indices(self, region_models, regime_names, regime):
         return tuple(range(len(region_models))) if regime in regime_names else ()
+
+    def conjunction(self, region_models, regime_names, regime):
+        """From the rule on every sign pattern of the lines: the regime is an intersection of sides when the
+        patterns giving it fix some lines' signs and leave every combination of the others (a sub-cube).
+
+        >>> import numpy as np
+        >>> class L:                                       # a stand-in line with a name
+        ...     def __init__(self, name): self.name = name
+        >>> rule = lambda v: np.where(v["a"] >= 0, "A", np.where(v["b"] >= 0, "B", "C"))
+        >>> sch = PartitionScheme("demo", ("a", "b"), (RegimeInfo("A"), RegimeInfo("B"), RegimeInfo("C")), rule)
+        >>> lines = ((L("a"), ()), (L("b"), ()))
+        >>> [sch.conjunction(lines, ("A", "B", "C"), r) for r in ("A", "B", "C")]
+        [(0,), (0, 1), (0, 1)]
+        >>> rule2 = lambda v: np.where((v["a"] >= 0) | (v["b"] >= 0), "either", "neither")
+        >>> sch2 = PartitionScheme("demo", ("a", "b"), (RegimeInfo("either"), RegimeInfo("neither")), rule2)
+        >>> sch2.conjunction(lines, ("either", "neither"), "either") is None
+        True
+        """
+        if regime not in regime_names or not region_models:
+            return None
+        names = tuple(m.name for m, _ in region_models)
+        key = (names, regime)
+        got = self._conjunctions.get(key, False)
+        if got is False:
+            n = len(names)
+            bits = (np.arange(2 ** n)[:, None] >> np.arange(n)[None, :]) & 1
+            out = np.asarray(self.rule({nm: bits[:, k] * 2.0 - 1.0 for k, nm in enumerate(names)}))
+            sel = bits[out == regime]
+            got = None
+            if sel.size:
+                fixed = tuple(k for k in range(n) if np.all(sel[:, k] == sel[0, k]))
+                if fixed and len(sel) == 2 ** (n - len(fixed)):
+                    got = fixed
+            self._conjunctions[key] = got
+        return got
 
 
 def _sequence(models: Sequence[BoundaryModel]) -> list[int]:

@@ -26,7 +26,10 @@ How each design is computed (``method``)
     under the sequence rule, each line is one exact chord through the margin window: no sampling,
     so the margins equal those of the full path to rounding (this is what makes tube sweeps fast);
   - ``"draw"``: otherwise the lines near the designs' points are sampled as the Monte Carlo does
-    per property draw (chords within 1e-6 decade, margin error below about 5e-6).
+    per property draw (chords within 1e-6 decade, margin error below about 5e-6); for a point whose
+    regime is the intersection of one side of each of some lines
+    (:func:`lowgmap.physics.chart.lines.conjunction_lines`) only those lines, whole and refined only
+    where the point's margin can lie.
 
 A design whose inputs are invalid (a value out of range, properties unavailable at a temperature,
 a model that does not apply) gives a row with ``status`` holding the message and NaN margins; the
@@ -312,7 +315,7 @@ class DesignEvaluator:
             (a, b), (c, d) = spec.envelope
             xs += [math.log10(a), math.log10(b)]
             ys += [math.log10(c), math.log10(d)]
-        need_all = spec.envelope is not None or not _is_chain(chart)
+        need_all = spec.envelope is not None or _lines.conjunction_lines(chart, reg) is None
         g, method = self._geometry(chart, case, xs, ys, None if need_all else reg)
         row["method"] = method
         lines = [m for m, _ in chart.region_models]
@@ -383,8 +386,16 @@ class DesignEvaluator:
             g = _straight_geometry(chart, case, lines, cov, only)
             if g is not None:
                 return g, "lines"
+        bounding = focus = None
+        if regime is not None and not _is_chain(chart):
+            # the regime is one side of each of some lines: those lines, whole, refined near the point
+            conj = _lines.conjunction_lines(chart, regime)
+            only = set(conj)
+            bounding = {names.index(regime): conj}
+        if regime is not None and self.spec.envelope is None:
+            focus = (np.asarray(xs[:1]), np.asarray(ys[:1]))
         g = _lines.make_geometry(chart, case, lines, len(lines), cov, tol=_DRAW_TOL, wall_dx=_DRAW_WALL_DX,
-                               n_start=_DRAW_N_START, only=only)
+                                 n_start=_DRAW_N_START, only=only, bounding=bounding, focus=focus)
         return g, "draw"
 
 

@@ -16,8 +16,10 @@ for each of 10 000 samples would cost tens of seconds, so the property/geometry 
 K times (K = ceil(N/16) by default, ``chart_draws``) and each draw is shared by N/K consecutive
 samples with their own flow draws. For each draw only what the margins need is recomputed: the
 case, its classification (the nominal chart's models, constants and regime scheme with the drawn
-case) and the region lines near the points (sampled to 1e-6 decade; under schemes other than the
-sequence rule also split at their crossings and probed for the regimes they separate). The
+case) and the region lines near the points (sampled to 1e-6 decade; when the points' regimes are
+intersections of one side of each of their lines, as under the sequence rule or for the corner family's
+separating regimes, those lines whole, refined only where a point's margin can lie; otherwise also split
+at their crossings and probed for the regimes they separate). The
 approximation is in the sampling, not in the physics: every sample is evaluated exactly for its
 draw, but the property part of the variance is sampled K times, not N. The standard error is
 therefore computed from the K groups (ratio-estimator formula), so it stays honest and still falls
