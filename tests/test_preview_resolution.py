@@ -22,7 +22,7 @@ import pytest
 
 from lowgmap.app.files.casefile import load_case, sample_case_path
 from lowgmap.physics.chart.composition import PREVIEW_FACTOR, Chart
-from lowgmap.physics.chart.margins import PREVIEW_CAVEAT, point_margins, symmetric_margins
+from lowgmap.physics.chart.margins import MAX_MARGIN, PREVIEW_CAVEAT, point_margins, preview_margin, symmetric_margins
 
 CORNER_SAMPLES = ("wedge_separator", "cryogenic_groove")
 
@@ -79,6 +79,28 @@ def test_preview_margins_are_within_the_stated_resolution_with_the_same_limiting
     # preview's margin to its own limiting line equals the full chart's to another one, as checked above
     same = lim_full[ok] == lim_prev[ok]
     assert same.mean() >= 0.95, (name, int((~same).sum()))
+
+
+def test_the_margin_a_dragged_slider_shows_is_the_released_one_to_the_preview_resolution(pair):
+    # preview_margin (regime and symmetric margin only, the lines bounding the regime sampled near the point:
+    # whole and focused when the regime is an intersection of sides, split and probed otherwise) against the
+    # full-resolution margins of the released chart, at points spread over the chart and beside every line.
+    # Catches a focused refinement that prunes the chord holding the minimum, a regime taken for an intersection
+    # of sides when it is not (its margin would count lines that do not bound it), the limiting line read from
+    # the wrong list, and a margin shown without its caveat.
+    name, full, prev = pair
+    ql, qg = _points(full, 40, 7)
+    m_full, lim_full, reg_full = symmetric_margins(full, ql, qg)
+    n_lines = 0
+    for a, b, m, k, r in zip(ql, qg, m_full, lim_full, reg_full):
+        got = preview_margin(prev, a, b)
+        assert got.regime == r and got.caveats == (PREVIEW_CAVEAT,)
+        if not np.isfinite(m):
+            continue
+        assert abs(got.symmetric_margin - m) <= 5e-5           # PREVIEW_CAVEAT
+        want = full.region_models[k][0].name if k >= 0 and m < MAX_MARGIN else None
+        n_lines += got.limiting_boundary == want
+    assert n_lines >= 0.95 * np.isfinite(m_full).sum()
 
 
 def test_preview_margins_say_so_and_full_ones_do_not(pair):

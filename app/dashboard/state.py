@@ -37,8 +37,10 @@ per session, and while it runs only the latest value waits (older ones are dropp
 Each preview is published as :attr:`Session.live` (a :class:`Preview`: the case, its chart, the regime
 of the operating point and its margins, computed in the same job). A preview's chart is built at preview
 resolution (``Chart.build(..., preview=True)``: the same physics and surrogates, the lines sampled more
-coarsely, its margins within about 5e-5 of the final ones and carrying a caveat that says so), so that the
-chart, the regime and the margin follow the slider together. On release the value becomes an ordinary
+coarsely), and the operating point's regime and symmetric margin are computed near the point only
+(:func:`lowgmap.physics.chart.margins.preview_margin`: within about 5e-5 of the final margin, with a caveat that
+says so; the margin table and the verdict keep reading the case in effect), so that the chart, the regime and
+the margin follow the slider together. On release the value becomes an ordinary
 edit, exactly as if it had been typed (:meth:`Session.end_preview`, then :meth:`Session.edit`): the chart
 of the released value is built at full resolution and is the one every view reads; previews still running
 are dropped, and :attr:`Session.live` is cleared once the edit is applied. A preview's chart is never
@@ -132,8 +134,9 @@ class Preview:
     doc : CaseDocument or None   the case with that value (None when it is not a valid case)
     chart : Chart or None        its chart
     regime : str or None         regime of the operating point on that chart
-    margins : PointMargins or None   margins of the operating point at preview resolution (None without an
-                                 operating point or when they cannot be computed)
+    margins : PreviewMargin or None  the operating point's regime and symmetric margin at preview resolution
+                                 (:func:`lowgmap.physics.chart.margins.preview_margin`; None without an operating
+                                 point or when they cannot be computed)
     display : object             what the view asked to have prepared off the event loop (its drawing data)
     problem : str                why there is no chart for this value ('' when there is one)
     released : bool              the slider was released: the value is being applied as an edit
@@ -713,7 +716,7 @@ def _preview_work(req: Preview, data, source, base_dir, point, exact: bool, memo
     the edit path, which does). ``memo``: the session's {"data": ..., "plain": ...} holder of the case data as
     plain Python objects (unwrapping the case-file document costs far more than copying plain data; one
     preview job runs at a time, so the holder is not shared between threads)."""
-    from lowgmap.physics.chart.margins import point_margins
+    from lowgmap.physics.chart.margins import preview_margin
 
     if memo is not None:
         if memo.get("data") is not data:
@@ -728,8 +731,8 @@ def _preview_work(req: Preview, data, source, base_dir, point, exact: bool, memo
     chart = Chart.build(new.case, exact=exact, preview=True)
     regime = margins = None
     if point[0] is not None and chart.regime_names:
-        try:
-            margins = point_margins(chart, *point)
+        try:                                # the label shows the regime and the margin, nothing else
+            margins = preview_margin(chart, *point)
             regime = margins.regime
         except _BUILD_ERRORS:               # the label then says the margin is not available
             regime = str(chart.regime_at(*point))

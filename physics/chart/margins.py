@@ -91,7 +91,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from lowgmap.physics.chart.lines import (LN10, MAX_MARGIN, MODEL_ERRORS, WINDOW_HI, WINDOW_LO,
+from lowgmap.physics.chart.lines import (LN10, MAX_MARGIN, MODEL_ERRORS, PREVIEW_TOL, WINDOW_HI, WINDOW_LO,
                                          LineGeometry, bounding_lines, conjunction_lines, evaluation_gaps, geometry_of,
                                          is_chain, make_geometry, margin_window, regime_indices)
 from lowgmap.physics.surrogates import in_chart_solves
@@ -101,7 +101,7 @@ __all__ = ["MAX_MARGIN", "DIRECTIONS", "BoundaryMargin", "PointMargins", "point_
            "CornerCheck", "EnvelopeLine", "EnvelopeCheck", "envelope_check", "RobustPoint", "robust_point",
            "Verdict", "margin_verdict", "REGIME_STATUSES", "MARGIN_STATUSES",
            "regime_index", "box_margin_on_segments", "regime_margins", "resolve_deferred",
-           "uncached_regime_margins", "check_point", "PREVIEW_CAVEAT"]
+           "uncached_regime_margins", "check_point", "PREVIEW_CAVEAT", "PreviewMargin", "preview_margin"]
 
 #: The four axis directions of :attr:`PointMargins.limits`.
 DIRECTIONS = ("ql_up", "ql_down", "qg_up", "qg_down")
@@ -992,6 +992,62 @@ def symmetric_margins(chart, ql, qg, *, regime=None):
         m = np.where(regimes == regime, m, -m)
     return m.reshape(shape), lim.reshape(shape), regimes.reshape(shape)
 
+
+
+@dataclass(frozen=True)
+class PreviewMargin:
+    """The regime of one point and its symmetric margin at preview resolution: what the label of a dragged slider
+    shows (:func:`preview_margin`; the released value gets :func:`point_margins`).
+
+    ql, qg : float             the point [m^3/s]
+    regime : str               its regime ('' where the classification gives none)
+    symmetric_margin : float or None   [fraction], capped at :data:`MAX_MARGIN`; None without a regime
+    limiting_boundary : str or None    name of the line that sets it (None: none within the ±MAX_MARGIN box)
+    caveats : tuple of str     :data:`PREVIEW_CAVEAT`
+    """
+
+    ql: float
+    qg: float
+    regime: str
+    symmetric_margin: float | None
+    limiting_boundary: str | None
+    caveats: tuple = (PREVIEW_CAVEAT,)
+
+
+def preview_margin(chart, ql: float, qg: float) -> PreviewMargin:
+    """Regime and symmetric margin of one point, with the lines sampled to :data:`lowgmap.physics.chart.lines.PREVIEW_TOL`
+    near it only: the frame of a slider being dragged, which shows nothing else.
+
+    The same margin as :func:`point_margins` on a preview chart (the same definition, the lines sampled to the
+    same tolerance; within about 5e-5 of the released value, :data:`PREVIEW_CAVEAT`), without what only the margin
+    table and the verdict read (per-line factors and distances, the evidence that the margin is established):
+    the lines that bound the regime are sampled afresh for the point's window, whole and refined only near the
+    point when the regime is the intersection of one side of each of them
+    (:func:`lowgmap.physics.chart.lines.conjunction_lines`), split and probed otherwise
+    (:func:`uncached_regime_margins`). A line that cannot be evaluated there raises the model's error (the caller
+    then shows no margin).
+
+    Parameters
+    ----------
+    chart : Chart
+    ql, qg : float   flow rates [m^3/s], > 0
+
+    Returns
+    -------
+    PreviewMargin
+    """
+    ql = positive("ql", ql, "m^3/s")
+    qg = positive("qg", qg, "m^3/s")
+    regime = str(np.asarray(chart.classify(np.array([ql]), np.array([qg]))).ravel()[0])
+    names = list(chart.regime_names)
+    if regime not in names:
+        return PreviewMargin(ql, qg, regime, None, None)
+    x0, y0 = np.array([math.log10(ql)]), np.array([math.log10(qg)])
+    m, lim = uncached_regime_margins(chart, chart.case, x0, y0, np.array([names.index(regime)]), tol=PREVIEW_TOL,
+                                     wall_dx=1e-2 * PREVIEW_TOL, n_start=17)
+    k = int(lim[0])
+    limiting = chart.region_models[k][0].name if k >= 0 and m[0] < MAX_MARGIN else None
+    return PreviewMargin(ql, qg, regime, float(min(m[0], MAX_MARGIN)), limiting)
 
 
 

@@ -10,9 +10,9 @@ load on a shared machine), then ``revisit`` frames go back over values seen more
 (the old in-memory caches held 64 entries). Target: median <= 50 ms per frame. Asserts nothing.
 
 Two kinds of frame are measured for each input: the *preview* frame the dashboard computes while a slider is
-dragged (``build_chart(..., preview=True)``, the operating point's regime and margins at preview resolution,
-the display data) and the *released* frame computed for the value released (full resolution), which is
-the one every view reads afterwards.
+dragged (``build_chart(..., preview=True)``, the operating point's regime and symmetric margin at preview
+resolution (:func:`lowgmap.physics.chart.margins.preview_margin`), the display data) and the *released*
+frame computed for the value released (full resolution), which is the one every view reads afterwards.
 
 Options:
   --exact            full solves (``build_chart(..., exact=True)``): the path before the surrogates
@@ -48,7 +48,7 @@ if str(ROOT) not in sys.path:
 from lowgmap.app.files.casefile import load_case, sample_case_path  # noqa: E402
 from lowgmap.app.outputs.chartview import chart_view  # noqa: E402
 from lowgmap.physics.chart.composition import build_chart  # noqa: E402
-from lowgmap.physics.chart.margins import point_margins  # noqa: E402
+from lowgmap.physics.chart.margins import point_margins, preview_margin  # noqa: E402
 from lowgmap.physics.studies.design_space import apply_changes  # noqa: E402
 
 CASES = ("wedge_separator", "cryogenic_groove", "condensate_line", "drop_tower_silicone", "ground_test_loop",
@@ -85,9 +85,10 @@ def frame(case, exact: bool, preview: bool = False):
     ch = build_chart(case, exact=exact, preview=preview)
     op = case.operating_point
     if op is not None:
-        if preview:
-            ch.regime_at(op.ql, op.qg)
-        point_margins(ch, op.ql, op.qg)
+        if preview:                     # what the dashboard's preview job computes: regime and margin only
+            preview_margin(ch, op.ql, op.qg)
+        else:
+            point_margins(ch, op.ql, op.qg)
     chart_view(ch)
     return ch
 
