@@ -97,8 +97,13 @@ def test_focused_whole_lines_give_the_margins_of_split_and_probed_lines(sample, 
         # chords within 1e-6 decade of the lines: margins within ln(10) x 1e-6 x (1 + m) of each other
         assert m == pytest.approx(m_a, abs=5e-6)
         assert lim.tolist() == lim_a.tolist()
-    # the focused path answers with the same chords near the points and fewer elsewhere
+    # the focused path answers with the same chords near the points and fewer elsewhere; a line of constant
+    # flow ratio (straight in log-log axes) taken whole is one chord per piece (catches the flag lost on the way)
     assert g.xa.size < 0.5 * probed.xa.size
+    for k, (model, consts) in enumerate(lines):
+        if getattr(model, "shape", "") == "ratio" and k in set().union(*conj.values()):
+            n_pieces = len(model.line_pieces(L._widened(case, cov), **consts))
+            assert int(np.sum(g.line == k)) == n_pieces >= 1
 
 
 def test_uncached_margins_focus_only_regimes_made_of_whole_lines(wedge_chart):

@@ -825,7 +825,9 @@ def _sample_piece(f, piece, tol, step: float = 1e-10):
 
     Chords whose ends and middle lie more than 5 % of the box beyond one of its edges are not refined; the
     end of a stretch where the piece has values is located to ``step`` times the piece's parameter range. The
-    piece is sampled from the start next to its ends (:func:`lowgmap.physics.chart.lines.end_samples`).
+    piece is sampled from the start next to its ends (:func:`lowgmap.physics.chart.lines.end_samples`). A
+    ``straight`` piece is sampled too: its samples are where the lines ending on it meet it and where the
+    regimes on its sides change, which the regions and the drawn boundary parts need.
     """
     t0, t1 = float(piece.t0), float(piece.t1)
     bps = np.concatenate([np.asarray(piece.breakpoints or (), dtype=float).ravel(), end_samples(t0, t1, step)])

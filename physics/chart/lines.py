@@ -253,15 +253,20 @@ def end_samples(t0: float, t1: float, step: float = 0.0) -> np.ndarray:
     return np.concatenate([t0 + steps, t1 - steps])
 
 
-def _piece_runs(piece, cov, tol: float = _TOL, n_start: int = _N_START, settled=None):
+def _piece_runs(piece, cov, tol: float = _TOL, n_start: int = _N_START, settled=None, whole: bool = False):
     """Polylines (x, y) of a parametric piece, refined to ``tol``; NaN gaps split runs.
 
     Chords more than a decade beyond one edge of the coverage ``cov`` are not refined, nor those
-    ``settled`` leaves alone (:func:`_near_points`).
+    ``settled`` leaves alone (:func:`_near_points`). With ``whole`` (the line bounds its regimes as a whole:
+    its chords are neither split at crossings nor probed) a ``straight`` piece is its two ends.
     """
     t0, t1 = float(piece.t0), float(piece.t1)
     if not (math.isfinite(t0) and math.isfinite(t1) and t1 > t0):
         return []
+    if whole and getattr(piece, "straight", False):
+        x, y = piece_function(piece)(np.array([t0, t1]))
+        if np.all(np.isfinite(x) & np.isfinite(y)):
+            return [(x, y)]
     X0, X1, Y0, Y1 = cov
     bps = np.concatenate([np.asarray(getattr(piece, "breakpoints", ()) or (), dtype=float).ravel(),
                           end_samples(t0, t1)])
@@ -286,7 +291,8 @@ def _widened(case, cov):
     return case.with_(flow_range=FlowRange(10.0 ** X0, 10.0 ** X1, 10.0 ** Y0, 10.0 ** Y1))
 
 
-def line_runs(case, model, consts, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_N_START, wide=None, focus=None):
+def line_runs(case, model, consts, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_N_START, wide=None, focus=None,
+              whole=False):
     """Polylines ``[(x, y), ...]`` of one line over the coverage box ``cov`` = (x0, x1, y0, y1) [decade].
 
     From the model's ``line_pieces`` (asked for the case widened to ``cov``, or ``wide``) when it
@@ -294,7 +300,9 @@ def line_runs(case, model, consts, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_
     beyond the coverage. ``tol`` [decade] chord tolerance, ``wall_dx`` [decade] width at which a
     vertical piece is located, ``n_start`` initial samples. ``focus`` = (x, y) arrays [decade]: only
     the margins of these points to the whole line are wanted, so chords that cannot hold them are left
-    coarse (:func:`_near_points`; at most :data:`FOCUS_MAX_POINTS` points, else ignored).
+    coarse (:func:`_near_points`; at most :data:`FOCUS_MAX_POINTS` points, else ignored). ``whole``: the line
+    bounds regimes as a whole (sequence rule, or a regime that is an intersection of sides), so a straight
+    piece needs no samples between its ends.
     """
     wide = wide if wide is not None else _widened(case, cov)
     use = focus is not None and 0 < np.size(focus[0]) <= FOCUS_MAX_POINTS
@@ -303,7 +311,7 @@ def line_runs(case, model, consts, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_
         runs = []
         near = _near_points(focus, tol) if use else None
         for piece in own(wide, **consts):
-            runs += _piece_runs(piece, cov, tol, n_start, near)
+            runs += _piece_runs(piece, cov, tol, n_start, near, whole)
         return runs
     bp = np.asarray(model.breakpoints(wide, **consts), dtype=float)
     bp = np.log10(bp[bp > 0]) if bp.size else bp
@@ -499,7 +507,7 @@ def make_geometry(chart, case, lines, n_region, cov, *, tol=_TOL, wall_dx=_WALL_
             continue
         try:
             runs_all.append(line_runs(case, model, consts, cov, tol=tol, wall_dx=wall_dx, n_start=n_start,
-                                      wide=wide, focus=focus))
+                                      wide=wide, focus=focus, whole=chain))
         except MODEL_ERRORS as exc:
             if not keep_going:
                 raise

@@ -1323,7 +1323,7 @@ class _CornerModel(BoundaryModel):
         x0, x1 = math.log10(fr.ql_min), math.log10(fr.ql_max)
         out = []
         for r in self.ratio_roots(case, **c):
-            out.append(LinePiece(x0, x1, lambda t, r=r: (10.0 ** t, r * 10.0 ** t)))
+            out.append(LinePiece(x0, x1, lambda t, r=r: (10.0 ** t, r * 10.0 ** t), straight=True))
         return out
 
     # -- validity: squeezing law at the injector; bubble Bond number with buoyancy -------------

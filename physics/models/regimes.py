@@ -51,13 +51,15 @@ class LinePiece:
     where the piece has no point). The chart samples t adaptively (refining until chords in log-log
     axes are straight to a small fraction of the chart) and includes ``breakpoints`` (kinks) exactly.
     Lines of constant flow ratio are typically parametrised by t = log10 Q_L, lines Q_L = F(Q_G/Q_L)
-    by t = log10(Q_G/Q_L).
+    by t = log10(Q_G/Q_L). ``straight``: the piece is a straight segment in log-log axes from end to
+    end (a line of constant ratio, t = log10 Q_L): the samplers take its two ends and nothing else.
     """
 
     t0: float
     t1: float
     func: Callable
     breakpoints: tuple = ()
+    straight: bool = False
 
 
 class RegimeScheme:
