@@ -202,3 +202,35 @@ def test_the_drawn_chart_samples_piece_ends_from_the_start_too():
     calls.clear()
     t, u, v = C._sample_piece(C._piece_uv(piece, box), piece, C._SCHEME_TOL * C.PREVIEW_FACTOR, C._PREVIEW_STEP)
     assert np.all(np.isin(1.0 + 2.0 * np.array([1e-2, 1e-4]), t)) and not np.any(np.isin(1.0 + 2e-6, t))
+
+
+@pytest.mark.parametrize("sample", ["wedge_separator", "cryogenic_groove"])
+def test_probed_lines_refined_only_within_the_points_boxes_keep_the_regime_margins(sample):
+    # Points in regimes that are not intersections of sides ("carried through"): the lines are split and
+    # probed, and with the focus refined only within the ±MAX_MARGIN box of a point (margins are capped there).
+    # Same margins and limiting lines as the lines refined everywhere, with far fewer chords (fewer than 30 %).
+    # Catches a cap below MAX_MARGIN (chords that hold a margin left coarse) and the focus lost on this path.
+    case = load_case(sample_case_path(sample)).case
+    chart = Chart.build(case)
+    op = case.operating_point
+    rng = np.random.default_rng(5)
+    ql = op.ql * 10.0 ** rng.uniform(-0.3, 1.2, 200)
+    qg = op.qg * 10.0 ** rng.uniform(-0.6, 0.6, 200)
+    reg = np.asarray(chart.classify(ql, qg))
+    keep = np.array([str(r) in (cm.ISOLATED_CARRIED, cm.MERGING_CARRIED) for r in reg])
+    x0, y0 = np.log10(ql[keep])[:30], np.log10(qg[keep])[:30]
+    assert x0.size >= 10
+    names = list(chart.regime_names)
+    ridx = L.regime_indices(names, reg[keep][:30])
+    assert all(L.conjunction_lines(chart, names[int(r)]) is None for r in np.unique(ridx))
+    lines = [(m, dict(c)) for m, c in chart.region_models]
+    cov = (x0.min() + L.WINDOW_LO, x0.max() + L.WINDOW_HI, y0.min() + L.WINDOW_LO, y0.max() + L.WINDOW_HI)
+    every = L.make_geometry(chart, case, lines, len(lines), cov, tol=TOL, wall_dx=1e-8, n_start=17)
+    m_a, lim_a = mg.regime_margins(every, x0, y0, ridx)
+    for pts in ((x0, y0), (x0[:1], y0[:1])):            # a Monte Carlo block of points; one sweep design
+        near = L.make_geometry(chart, case, lines, len(lines), cov, tol=TOL, wall_dx=1e-8, n_start=17, focus=pts)
+        m_b, lim_b = mg.regime_margins(near, x0, y0, ridx)
+        sel = slice(None) if pts[0].size > 1 else slice(0, 1)
+        assert m_b[sel] == pytest.approx(m_a[sel], abs=5e-6)
+        assert lim_b[sel].tolist() == lim_a[sel].tolist()
+        assert near.xa.size < 0.3 * every.xa.size

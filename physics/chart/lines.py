@@ -198,7 +198,14 @@ def _jump_step(tol: float) -> float:
 FOCUS_MAX_POINTS = 256
 
 
-def _near_points(focus, tol: float, explicit: bool = False):
+def _box_margins(xs, ys, px, py):
+    """Box margins max(|10^dx - 1|, |10^dy - 1|) of samples (xs, ys) seen from points (px, py) [decade]: (points,
+    samples)."""
+    with np.errstate(over="ignore", invalid="ignore"):
+        return np.maximum(np.abs(np.expm1((xs[None, :] - px) * LN10)), np.abs(np.expm1((ys[None, :] - py) * LN10)))
+
+
+def _near_points(focus, tol: float, explicit: bool = False, cap=None, own: bool = True):
     r"""``settled`` function of the sampler: chords that cannot hold the box margin of any point of ``focus``.
 
     ``focus`` = (x, y) arrays of points [decade]. A sample (on the line) at offsets (dx, dy) from a point has
@@ -213,9 +220,16 @@ def _near_points(focus, tol: float, explicit: bool = False):
     outside the box of half-size *u* around every point stay coarse. Only for margins to whole lines (the
     sequence rule, or a regime that is an intersection of sides: :func:`conjunction_lines`). ``explicit``:
     the line is y(t) with x = t (column trace).
+
+    ``cap``: an upper bound of every point's margin known beforehand (:data:`MAX_MARGIN`, where margins are
+    capped), used when it is smaller; with ``own`` False the line's own samples are not used (a line split and
+    probed bounds the regime only in parts: a sample on another part says nothing about the margin), so only
+    chords beyond ``cap`` stay coarse.
     """
     px = np.asarray(focus[0], dtype=float).ravel()[:, None]
     py = np.asarray(focus[1], dtype=float).ravel()[:, None]
+    cap_ = np.minimum(np.broadcast_to(np.asarray(MAX_MARGIN if cap is None else cap, dtype=float), px.shape),
+                      MAX_MARGIN)
 
     def low(a, b, p, delta):
         lo, hi = np.minimum(a, b)[None, :] - delta, np.maximum(a, b)[None, :] + delta
@@ -228,12 +242,12 @@ def _near_points(focus, tol: float, explicit: bool = False):
             x, y, xm, ym = t, coords[0], tm, cm[0]
         else:
             (x, y), (xm, ym) = coords, cm
-        ok = np.isfinite(x) & np.isfinite(y)
-        xs = np.concatenate([x[ok], xm])
-        ys = np.concatenate([y[ok], ym])
-        with np.errstate(over="ignore", invalid="ignore"):
-            m = np.maximum(np.abs(np.expm1((xs[None, :] - px) * LN10)), np.abs(np.expm1((ys[None, :] - py) * LN10)))
-        ub = np.minimum(m.min(axis=1, initial=np.inf), MAX_MARGIN)[:, None]
+        ub = cap_
+        if own:
+            ok = np.isfinite(x) & np.isfinite(y)
+            xs = np.concatenate([x[ok], xm])
+            ys = np.concatenate([y[ok], ym])
+            ub = np.minimum(_box_margins(xs, ys, px, py).min(axis=1, initial=np.inf)[:, None], cap_)
         delta = 2.0 * np.asarray(dev, dtype=float)[None, :] + tol
         lb = np.maximum(low(x[idx], x[idx + 1], px, delta), low(y[idx], y[idx + 1], py, delta))
         return np.all(lb > ub, axis=0)
@@ -292,7 +306,7 @@ def _widened(case, cov):
 
 
 def line_runs(case, model, consts, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_N_START, wide=None, focus=None,
-              whole=False):
+              whole=False, cap=None, own=True):
     """Polylines ``[(x, y), ...]`` of one line over the coverage box ``cov`` = (x0, x1, y0, y1) [decade].
 
     From the model's ``line_pieces`` (asked for the case widened to ``cov``, or ``wide``) when it
@@ -302,14 +316,14 @@ def line_runs(case, model, consts, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_
     the margins of these points to the whole line are wanted, so chords that cannot hold them are left
     coarse (:func:`_near_points`; at most :data:`FOCUS_MAX_POINTS` points, else ignored). ``whole``: the line
     bounds regimes as a whole (sequence rule, or a regime that is an intersection of sides), so a straight
-    piece needs no samples between its ends.
+    piece needs no samples between its ends. ``cap``, ``own``: see :func:`_near_points`.
     """
     wide = wide if wide is not None else _widened(case, cov)
     use = focus is not None and 0 < np.size(focus[0]) <= FOCUS_MAX_POINTS
     own = getattr(model, "line_pieces", None)
     if callable(own):
         runs = []
-        near = _near_points(focus, tol) if use else None
+        near = _near_points(focus, tol, cap=cap, own=own) if use else None
         for piece in own(wide, **consts):
             runs += _piece_runs(piece, cov, tol, n_start, near, whole)
         return runs
@@ -317,7 +331,7 @@ def line_runs(case, model, consts, cov, *, tol=_TOL, wall_dx=_WALL_DX, n_start=_
     bp = np.log10(bp[bp > 0]) if bp.size else bp
     x, y = _column_trace(column_function(wide, model, consts, _y_ref(case)), cov[0], cov[1], bp, tol, wall_dx,
                          n_start, (cov[2] - 1.0, cov[3] + 1.0),
-                         settled=_near_points(focus, tol, explicit=True) if use else None)
+                         settled=_near_points(focus, tol, explicit=True, cap=cap, own=own) if use else None)
     return [(x, np.clip(y, cov[2] - _FAR, cov[3] + _FAR))]
 
 
@@ -492,26 +506,24 @@ def make_geometry(chart, case, lines, n_region, cov, *, tol=_TOL, wall_dx=_WALL_
     ``bounding``: {regime index: line indices} for regimes that are intersections of one side of each of
     their lines (:func:`conjunction_lines`): those lines bound the regime as wholes, so they are neither
     split at their crossings nor probed (the geometry answers only for those regimes). ``focus`` = (x, y)
-    [decade]: only the margins of these points are wanted (:func:`line_runs`); used only when every line
-    bounds as a whole (the sequence rule or ``bounding``).
+    [decade]: only the regime margins of these points are wanted (:func:`line_runs`): when every line bounds
+    as a whole (the sequence rule or ``bounding``) each line is refined where it can hold a point's margin to
+    it; otherwise (lines split and probed) only where it comes within the ±:data:`MAX_MARGIN` box of a point
+    (a chord farther out cannot change a margin, which is capped there).
     """
     chain = is_chain(chart) or bounding is not None
-    if not chain:
-        focus = None
     wide = _widened(case, cov)
-    runs_all: list[list] = []
+    runs_all: list[list] = [[] for _ in lines]
     failed: list[tuple[int, str]] = []
     for k, (model, consts) in enumerate(lines):
         if only is not None and k not in only:
-            runs_all.append([])
             continue
         try:
-            runs_all.append(line_runs(case, model, consts, cov, tol=tol, wall_dx=wall_dx, n_start=n_start,
-                                      wide=wide, focus=focus, whole=chain))
+            runs_all[k] = line_runs(case, model, consts, cov, tol=tol, wall_dx=wall_dx, n_start=n_start, wide=wide,
+                                    focus=focus, whole=chain, cap=None if chain else MAX_MARGIN, own=chain)
         except MODEL_ERRORS as exc:
             if not keep_going:
                 raise
-            runs_all.append([])
             failed.append((k, f"{type(exc).__name__}: {exc}"))
     if not chain and n_region > 1:
         runs_all[:n_region] = _split_at_crossings(runs_all[:n_region])

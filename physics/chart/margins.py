@@ -412,7 +412,8 @@ def uncached_regime_margins(chart, case, x0, y0, ridx, pending=None, ids=None, *
     regimes of the corner family) those lines are sampled as wholes, neither split nor probed, and, with
     ``focused``, refined to ``tol`` only where they can hold a point's margin
     (:func:`lowgmap.physics.chart.lines.line_runs`): the margins are those of the lines refined everywhere (to
-    the sampling tolerance), for a fraction of the samples.
+    the sampling tolerance), for a fraction of the samples. Otherwise the lines are split and probed, and with
+    ``focused`` refined only within the ±:data:`MAX_MARGIN` box of a point.
     """
     lines = [(m, dict(c)) for m, c in chart.region_models]
     n_region = len(lines)
@@ -431,7 +432,12 @@ def uncached_regime_margins(chart, case, x0, y0, ridx, pending=None, ids=None, *
         only = set()
         for r in np.unique(ridx[ridx >= 0]):
             only |= set(bounding_lines(chart, names[int(r)]))
-    g = make_geometry(chart, case, lines, n_region, cov, tol=tol, wall_dx=wall_dx, n_start=n_start, only=only)
+    focus = None
+    if focused and regs:
+        keep = np.asarray(ridx) >= 0
+        focus = (np.asarray(x0)[keep], np.asarray(y0)[keep])
+    g = make_geometry(chart, case, lines, n_region, cov, tol=tol, wall_dx=wall_dx, n_start=n_start, only=only,
+                      focus=focus)
     return regime_margins(g, x0, y0, ridx, pending, ids)
 
 

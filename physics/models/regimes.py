@@ -271,6 +271,14 @@ class PartitionScheme(RegimeScheme):
         >>> sch2.conjunction(lines, ("either", "neither"), "either") is None
         True
         """
+        got = self._patterns(region_models, regime_names, regime)
+        if got is None:
+            return None
+        fixed, n_sel, n = got
+        return fixed if fixed and n_sel == 2 ** (n - len(fixed)) else None
+
+    def _patterns(self, region_models, regime_names, regime):
+        """(lines with one sign over the regime's sign patterns, number of those patterns, number of lines)."""
         if regime not in regime_names or not region_models:
             return None
         names = tuple(m.name for m, _ in region_models)
@@ -283,9 +291,7 @@ class PartitionScheme(RegimeScheme):
             sel = bits[out == regime]
             got = None
             if sel.size:
-                fixed = tuple(k for k in range(n) if np.all(sel[:, k] == sel[0, k]))
-                if fixed and len(sel) == 2 ** (n - len(fixed)):
-                    got = fixed
+                got = (tuple(k for k in range(n) if np.all(sel[:, k] == sel[0, k])), len(sel), n)
             self._conjunctions[key] = got
         return got
 

@@ -29,7 +29,8 @@ How each design is computed (``method``)
     per property draw (chords within 1e-6 decade, margin error below about 5e-6); for a point whose
     regime is the intersection of one side of each of some lines
     (:func:`lowgmap.physics.chart.lines.conjunction_lines`) only those lines, whole and refined only
-    where the point's margin can lie.
+    where the point's margin can lie; for another regime every line, split and probed, refined only
+    within the point's ±99.9 % box.
 
 A design whose inputs are invalid (a value out of range, properties unavailable at a temperature,
 a model that does not apply) gives a row with ``status`` holding the message and NaN margins; the
@@ -315,7 +316,7 @@ class DesignEvaluator:
             (a, b), (c, d) = spec.envelope
             xs += [math.log10(a), math.log10(b)]
             ys += [math.log10(c), math.log10(d)]
-        need_all = spec.envelope is not None or _lines.conjunction_lines(chart, reg) is None
+        need_all = spec.envelope is not None
         g, method = self._geometry(chart, case, xs, ys, None if need_all else reg)
         row["method"] = method
         lines = [m for m, _ in chart.region_models]
@@ -387,13 +388,13 @@ class DesignEvaluator:
             if g is not None:
                 return g, "lines"
         bounding = focus = None
-        if regime is not None and not _is_chain(chart):
-            # the regime is one side of each of some lines: those lines, whole, refined near the point
+        if regime is not None and regime in names and not _is_chain(chart):
             conj = _lines.conjunction_lines(chart, regime)
-            only = set(conj)
-            bounding = {names.index(regime): conj}
-        if regime is not None and self.spec.envelope is None:
-            focus = (np.asarray(xs[:1]), np.asarray(ys[:1]))
+            if conj is not None:        # one side of each of some lines: those lines, whole, refined near the point
+                only = set(conj)
+                bounding = {names.index(regime): conj}
+        if regime is not None and regime in names and self.spec.envelope is None:
+            focus = (np.asarray(xs[:1]), np.asarray(ys[:1]))     # else split, probed and refined near the point
         g = _lines.make_geometry(chart, case, lines, len(lines), cov, tol=_DRAW_TOL, wall_dx=_DRAW_WALL_DX,
                                  n_start=_DRAW_N_START, only=only, bounding=bounding, focus=focus)
         return g, "draw"

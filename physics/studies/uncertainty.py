@@ -19,7 +19,8 @@ case, its classification (the nominal chart's models, constants and regime schem
 case) and the region lines near the points (sampled to 1e-6 decade; when the points' regimes are
 intersections of one side of each of their lines, as under the sequence rule or for the corner family's
 separating regimes, those lines whole, refined only where a point's margin can lie; otherwise also split
-at their crossings and probed for the regimes they separate). The
+at their crossings and probed for the regimes they separate, refined only within the points' ±99.9 %
+boxes). The
 approximation is in the sampling, not in the physics: every sample is evaluated exactly for its
 draw, but the property part of the variance is sampled K times, not N. The standard error is
 therefore computed from the K groups (ratio-estimator formula), so it stays honest and still falls
