@@ -1021,8 +1021,9 @@ class PreviewMargin:
 
 
 def preview_margin(chart, ql: float, qg: float) -> PreviewMargin:
-    """Regime and symmetric margin of one point, with the lines sampled to :data:`lowgmap.physics.chart.lines.PREVIEW_TOL`
-    near it only: the frame of a slider being dragged, which shows nothing else.
+    """Regime and symmetric margin of one point, with the lines sampled to
+    :data:`lowgmap.physics.chart.lines.PREVIEW_TOL` near it only: the frame of a slider being dragged, which shows
+    nothing else.
 
     The same margin as :func:`point_margins` on a preview chart (the same definition, the lines sampled to the
     same tolerance; within about 5e-5 of the released value, :data:`PREVIEW_CAVEAT`), without what only the margin
