@@ -234,3 +234,34 @@ def test_probed_lines_refined_only_within_the_points_boxes_keep_the_regime_margi
         assert m_b[sel] == pytest.approx(m_a[sel], abs=5e-6)
         assert lim_b[sel].tolist() == lim_a[sel].tolist()
         assert near.xa.size < 0.3 * every.xa.size
+
+
+def test_a_preview_margin_is_not_available_where_a_bounding_line_cannot_be_evaluated():
+    # A line whose model raises below Q_L = 1e-6 m^3/s (outside its domain) while the point's ±99.9 % box
+    # reaches 1e-8: the dragged slider's label must say the margin is not available, not stop the preview
+    # (the full point margins report such a margin as not established). Catches a model error escaping the
+    # preview job (it would show "no chart" for a value that has one).
+    from lowgmap.physics.case import Case, FlowRange, ModelChoice
+    from lowgmap.physics.geometry.sections import Circle
+    from lowgmap.physics.models.boundary import PowerLawBoundary
+    from lowgmap.physics.properties.fluids import FluidPair
+    from lowgmap.physics.properties.wetting import Wetting
+
+    class Partial(PowerLawBoundary):
+        def qg_of_ql(self, case, ql, **consts):
+            if np.any(np.asarray(ql) < 1e-6):
+                raise RuntimeError("outside the model's domain")
+            return super().qg_of_ql(case, ql, **consts)
+
+    line = Partial("partial_line", 1.0, 1.0, "below it", "above it")
+    fluid = FluidPair("water", "air", 293.15, 101325.0, 998.2, 1.0e-3, 0.0727, 1.2, 1.8e-5, "user", "user")
+    case = Case(fluid, Circle(0.01), Wetting(0.0), 1.0, 1e-5, FlowRange(1e-6, 1e-3, 1e-6, 1e-3), None,
+                models=(ModelChoice(line.name),), extra=(("custom_boundaries", (line,)),))
+    chart = Chart.build(case, preview=True)
+    got = mg.preview_margin(chart, 1e-5, 2e-5)
+    assert got.regime == "above it" and got.symmetric_margin is None and got.limiting_boundary is None
+    assert not mg.point_margins(chart, 1e-5, 2e-5).established
+    # a point whose box stays above 1e-6: Q_G = 2 Q_L against the line Q_G = Q_L, (1 + m)/(1 - m) = 2, m = 1/3
+    # (margins module notes, closed form)
+    ok = mg.preview_margin(chart, 1e-2, 2e-2)
+    assert ok.symmetric_margin == pytest.approx(1.0 / 3.0, abs=1e-12) and ok.limiting_boundary == "partial_line"

@@ -1007,7 +1007,8 @@ class PreviewMargin:
 
     ql, qg : float             the point [m^3/s]
     regime : str               its regime ('' where the classification gives none)
-    symmetric_margin : float or None   [fraction], capped at :data:`MAX_MARGIN`; None without a regime
+    symmetric_margin : float or None   [fraction], capped at :data:`MAX_MARGIN`; None without a regime or where a
+                               line bounding it cannot be evaluated near the point
     limiting_boundary : str or None    name of the line that sets it (None: none within the ±MAX_MARGIN box)
     caveats : tuple of str     :data:`PREVIEW_CAVEAT`
     """
@@ -1031,8 +1032,8 @@ def preview_margin(chart, ql: float, qg: float) -> PreviewMargin:
     the lines that bound the regime are sampled afresh for the point's window, whole and refined only near the
     point when the regime is the intersection of one side of each of them
     (:func:`lowgmap.physics.chart.lines.conjunction_lines`), split and probed otherwise
-    (:func:`uncached_regime_margins`). A line that cannot be evaluated there raises the model's error (the caller
-    then shows no margin).
+    (:func:`uncached_regime_margins`). Where a line bounding the regime cannot be evaluated near the point (its
+    model raises) the margin is None: the label then says that it is not available.
 
     Parameters
     ----------
@@ -1050,8 +1051,13 @@ def preview_margin(chart, ql: float, qg: float) -> PreviewMargin:
     if regime not in names:
         return PreviewMargin(ql, qg, regime, None, None)
     x0, y0 = np.array([math.log10(ql)]), np.array([math.log10(qg)])
-    m, lim = uncached_regime_margins(chart, chart.case, x0, y0, np.array([names.index(regime)]), tol=PREVIEW_TOL,
-                                     wall_dx=1e-2 * PREVIEW_TOL, n_start=17)
+    try:
+        m, lim = uncached_regime_margins(chart, chart.case, x0, y0, np.array([names.index(regime)]), tol=PREVIEW_TOL,
+                                         wall_dx=1e-2 * PREVIEW_TOL, n_start=17)
+    except MODEL_ERRORS:                # a bounding line cannot be evaluated near the point: no margin to show
+        return PreviewMargin(ql, qg, regime, None, None)
+    if not math.isfinite(float(m[0])):
+        return PreviewMargin(ql, qg, regime, None, None)
     k = int(lim[0])
     limiting = chart.region_models[k][0].name if k >= 0 and m[0] < MAX_MARGIN else None
     return PreviewMargin(ql, qg, regime, float(min(m[0], MAX_MARGIN)), limiting)
