@@ -26,7 +26,8 @@ coalesced, latest value wins, computed on a worker thread); on release the value
 as if it had been typed into the field (same text, same edit, same numbers). A typed value moves the
 slider. During a drag the slider shows its value itself (formatted in the page, no server round trip)
 and the typed field follows at most every :data:`FIELD_FOLLOW_S` seconds (a changed text box makes the
-browser lay out the whole page again, tens of ms each), then exactly on release.
+browser lay out the whole page again, tens of ms each), with the last value shown once that time has passed
+when the drag pauses (:class:`FieldFollow`), then exactly on release.
 
 Gravity level and orientation: a named level (orbit, lunar surface, Martian surface, ground), the
 typed residual acceleration and a log slider from 1e-6 g0 to 1 g0 all write ``conduit.residual_acceleration``;
@@ -76,6 +77,46 @@ _QUANTITY = re.compile(r"\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\
 _DEGREES = ("deg", "degree", "degrees", "°", "")
 #: While a slider is dragged, the typed field shows its value at most this often [s] (and on release).
 FIELD_FOLLOW_S = 0.4
+
+
+class FieldFollow:
+    """The typed field beside a dragged slider: shown at most every :data:`FIELD_FOLLOW_S` seconds, and when the
+    drag pauses, the last value offered is shown once that time has passed (a trailing update, so the field never
+    stays on an older value than the slider and the label in the plot). ``show(text)``: shows a text in the field.
+    """
+
+    def __init__(self, show: Callable[[str], object]):
+        self.show = show
+        self.shown_at = 0.0         # when the field last showed a dragged value (time.monotonic)
+        self.latest: str | None = None
+        self.pending = False
+
+    def offer(self, text: str) -> None:
+        """A new dragged value: shown now, or after the rest of :data:`FIELD_FOLLOW_S` unless a newer one comes."""
+        now = time.monotonic()
+        if now - self.shown_at >= FIELD_FOLLOW_S:
+            self.shown_at, self.latest = now, None
+            self.show(text)
+            return
+        self.latest = text
+        if self.pending:
+            return
+        doc = pn.state.curdoc
+        if doc is None or getattr(doc, "session_context", None) is None:
+            return                  # no server session (a script or a test): nothing to schedule on
+        self.pending = True
+        doc.add_timeout_callback(self._trail, max(1, int(1000.0 * (FIELD_FOLLOW_S - (now - self.shown_at))) + 1))
+
+    def _trail(self) -> None:
+        self.pending = False
+        if self.latest is not None:
+            text, self.latest = self.latest, None
+            self.shown_at = time.monotonic()
+            self.show(text)
+
+    def stop(self) -> None:
+        """The slider was released: the release shows the exact value, nothing trails behind it."""
+        self.latest = None
 
 #: Style of the message line under a field.
 FIELD_CSS = """
@@ -291,7 +332,6 @@ class FieldSlider:
                                              sizing_mode="stretch_width",
                                              css_classes=["geometry-slider", f"slider-{_css_key(key)}"],
                                              margin=(0, 10, 6, 10))
-        self.shown_at = 0.0     # when the typed field last showed the dragged value (time.monotonic)
         self._pushing = False
         self._on_move, self._on_release = on_move, on_release
         self.widget.param.watch(self._moved, "value")
@@ -422,13 +462,14 @@ class SetupPanel(pn.viewable.Viewer):
             spec = self.specs[key]
             self.sliders[key] = FieldSlider(key, kind, spec.obj.param[spec.name].label, self._slider_moved,
                                             self._slider_released)
+        self._follow = {key: FieldFollow(lambda t, k=key: self.fields[k].show(t)) for key in self.sliders}
         # the gravity level on a log scale beside the typed field (10^-6 g0 to 1 g0)
         self.gravity_slider = LiveSlider(label="Gravity level, log10(g/g0)", start=LOG_G_RANGE[0],
                                                      end=LOG_G_RANGE[1], step=LOG_G_STEP, value=LOG_G_RANGE[0],
                                                      sizing_mode="stretch_width", css_classes=["gravity-slider"],
                                                      format="0.00")
         self._slider_pushing = False
-        self._gravity_shown_at = 0.0
+        self._gravity_follow = FieldFollow(lambda t: self.fields["conduit.residual_acceleration"].show(t))
         self.gravity_slider.param.watch(self._slid, "value_throttled")
         self.gravity_slider.param.watch(self._gravity_moved, "value")
         self._model_rows: dict[str, dict] = {}
@@ -533,11 +574,7 @@ class SetupPanel(pn.viewable.Viewer):
         spec = self.specs[key]
         if self.section_draft or self.fields[key].dirty:
             return
-        slider = self.sliders[key]
-        now = time.monotonic()
-        if now - slider.shown_at >= FIELD_FOLLOW_S:
-            slider.shown_at = now
-            self.fields[key].show(text)
+        self._follow[key].offer(text)
         if text == str(self.session.get(spec.path)):
             self.session.cancel_preview()          # back at the value in effect: the chart in effect is drawn
             return
@@ -548,6 +585,7 @@ class SetupPanel(pn.viewable.Viewer):
         """A slider released: its value is applied exactly as if it had been typed into the field."""
         if self.section_draft:
             return
+        self._follow[key].stop()
         self.fields[key].show(text)
         self.session.end_preview()
         self._commit(key, text)
@@ -557,10 +595,7 @@ class SetupPanel(pn.viewable.Viewer):
             return
         text = f"{10.0 ** float(event.new):.3g} g0"
         key = "conduit.residual_acceleration"
-        now = time.monotonic()
-        if now - self._gravity_shown_at >= FIELD_FOLLOW_S:
-            self._gravity_shown_at = now
-            self.fields[key].show(text)
+        self._gravity_follow.offer(text)
         if text == str(self.session.get(key)):
             self.session.cancel_preview()
             return
@@ -592,6 +627,7 @@ class SetupPanel(pn.viewable.Viewer):
         if self._slider_pushing or event.new is None:
             return
         text = f"{10.0 ** float(event.new):.3g} g0"
+        self._gravity_follow.stop()
         self.fields["conduit.residual_acceleration"].show(text)
         self.session.end_preview()
         self.session.edit({"conduit.residual_acceleration": text}, key="conduit.residual_acceleration",

@@ -321,6 +321,31 @@ def test_geometry_slider_and_typed_value_show_the_same_case_and_numbers(page):
     assert _visible_text(page.locator(".point-verdict").first) == verdict
 
 
+def test_a_paused_drag_shows_the_sliders_value_in_the_typed_field(page):
+    # Catches (issue 17): the typed field left on an older value than the slider while the drag pauses (it follows
+    # at most every 0.4 s to spare the page a layout per mouse event; the last value of a burst of moves was
+    # then shown only on release), so the field, the slider and the label in the plot named three values.
+    field = page.locator(".field-section-diameter input").first
+    field.wait_for()
+    handle = page.locator(".slider-section-diameter .noUi-handle").first
+    handle.scroll_into_view_if_needed()
+    box = handle.bounding_box()
+    x0, y0 = box["x"] + box["width"] / 2, box["y"] + box["height"] / 2
+    page.mouse.move(x0, y0)
+    page.mouse.down()
+    for k in range(1, 13):                         # a burst of moves, well within 0.4 s, then the hand stops
+        page.mouse.move(x0 - 3 * k, y0)
+    readout = page.locator(".slider-section-diameter .noUi-tooltip").first
+    shown = readout.inner_text().strip()
+    assert shown.endswith(" mm") and float(shown.split()[0]) < 12.7
+    expect(field).to_have_value(shown)             # while the button is still down
+    label = page.locator(".live-status-pane").first
+    expect(label).to_contain_text("Preview while Diameter is dragged")
+    page.mouse.up()
+    expect(label).to_be_hidden()
+    assert field.input_value() == shown
+
+
 # JavaScript: the plot frame of the visible figure on the page, the first line's colour and its key entry text.
 _FRAME_JS = """
 () => {
