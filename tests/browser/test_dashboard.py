@@ -283,6 +283,17 @@ def _visible_text(locator) -> str:
     return re.sub(r"\s+", " ", locator.inner_text()).strip()
 
 
+def _grab(page, slider_css: str) -> tuple[float, float]:
+    """Press the mouse button on a slider's handle; returns where (the drag moves from there)."""
+    handle = page.locator(f".{slider_css} .noUi-handle").first
+    handle.scroll_into_view_if_needed()
+    box = handle.bounding_box()
+    x0, y0 = box["x"] + box["width"] / 2, box["y"] + box["height"] / 2
+    page.mouse.move(x0, y0)
+    page.mouse.down()
+    return x0, y0
+
+
 def test_geometry_slider_and_typed_value_show_the_same_case_and_numbers(page):
     # Catches (issue 17): a slider whose released value is not applied as the typed value would be (another text,
     # rounding, a preview's numbers left on screen as if in effect), a chart that does not follow the drag, and a
@@ -293,12 +304,7 @@ def test_geometry_slider_and_typed_value_show_the_same_case_and_numbers(page):
     field = page.locator(".field-section-diameter input").first
     before, before_raw = _visible_text(margins), margins.text_content()   # raw: for waiting on a change
     assert "We_SG = 1" in before
-    handle = page.locator(".slider-section-diameter .noUi-handle").first
-    handle.scroll_into_view_if_needed()
-    box = handle.bounding_box()
-    x0, y0 = box["x"] + box["width"] / 2, box["y"] + box["height"] / 2
-    page.mouse.move(x0, y0)
-    page.mouse.down()
+    x0, y0 = _grab(page, "slider-section-diameter")
     for k in range(1, 16):
         page.mouse.move(x0 - 4 * k, y0)            # smaller bore (log scale)
     status = page.locator(".live-status-pane").first
@@ -327,12 +333,7 @@ def test_a_paused_drag_shows_the_sliders_value_in_the_typed_field(page):
     # then shown only on release), so the field, the slider and the label in the plot named three values.
     field = page.locator(".field-section-diameter input").first
     field.wait_for()
-    handle = page.locator(".slider-section-diameter .noUi-handle").first
-    handle.scroll_into_view_if_needed()
-    box = handle.bounding_box()
-    x0, y0 = box["x"] + box["width"] / 2, box["y"] + box["height"] / 2
-    page.mouse.move(x0, y0)
-    page.mouse.down()
+    x0, y0 = _grab(page, "slider-section-diameter")
     for k in range(1, 13):                         # a burst of moves, well within 0.4 s, then the hand stops
         page.mouse.move(x0 - 3 * k, y0)
     readout = page.locator(".slider-section-diameter .noUi-tooltip").first
