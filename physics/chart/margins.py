@@ -421,21 +421,21 @@ def uncached_regime_margins(chart, case, x0, y0, ridx, pending=None, ids=None, *
            float(np.min(y0)) + WINDOW_LO - 1e-9, float(np.max(y0)) + WINDOW_HI + 1e-9)
     names = list(chart.regime_names)
     regs = [int(r) for r in np.unique(ridx[ridx >= 0])] if np.size(ridx) else []
+    focus = None
+    if focused and regs:                  # the points with a regime (the others get no margin)
+        keep = np.asarray(ridx) >= 0
+        focus = (np.asarray(x0)[keep], np.asarray(y0)[keep])
     conj = {r: conjunction_lines(chart, names[r]) for r in regs}
     if regs and all(v is not None for v in conj.values()):
         only = set().union(*(set(v) for v in conj.values()))
         g = make_geometry(chart, case, lines, n_region, cov, tol=tol, wall_dx=wall_dx, n_start=n_start, only=only,
-                          bounding=conj, focus=(x0, y0) if focused else None)
+                          bounding=conj, focus=focus)
         return regime_margins(g, x0, y0, ridx, pending, ids)
     only = None
     if is_chain(chart):
         only = set()
-        for r in np.unique(ridx[ridx >= 0]):
-            only |= set(bounding_lines(chart, names[int(r)]))
-    focus = None
-    if focused and regs:
-        keep = np.asarray(ridx) >= 0
-        focus = (np.asarray(x0)[keep], np.asarray(y0)[keep])
+        for r in regs:
+            only |= set(bounding_lines(chart, names[r]))
     g = make_geometry(chart, case, lines, n_region, cov, tol=tol, wall_dx=wall_dx, n_start=n_start, only=only,
                       focus=focus)
     return regime_margins(g, x0, y0, ridx, pending, ids)

@@ -216,10 +216,8 @@ class PartitionScheme(RegimeScheme):
     def regime_names(self, region_models):
         if not region_models:
             return ()
-        names = [m.name for m, _ in region_models]
-        n = len(names)
-        combos = ((np.arange(2 ** n)[:, None] >> np.arange(n)[None, :]) & 1) * 2.0 - 1.0
-        got = set(np.asarray(self.rule({nm: combos[:, k] for k, nm in enumerate(names)})).tolist())
+        _, out = self._on_patterns(tuple(m.name for m, _ in region_models))
+        got = set(out.tolist())
         return tuple(r.name for r in self.regimes if r.name in got)
 
     def classify(self, case, region_models, regime_names, ql, qg):
@@ -271,29 +269,23 @@ class PartitionScheme(RegimeScheme):
         >>> sch2.conjunction(lines, ("either", "neither"), "either") is None
         True
         """
-        got = self._patterns(region_models, regime_names, regime)
-        if got is None:
-            return None
-        fixed, n_sel, n = got
-        return fixed if fixed and n_sel == 2 ** (n - len(fixed)) else None
-
-    def _patterns(self, region_models, regime_names, regime):
-        """(lines with one sign over the regime's sign patterns, number of those patterns, number of lines)."""
         if regime not in regime_names or not region_models:
             return None
         names = tuple(m.name for m, _ in region_models)
         key = (names, regime)
-        got = self._conjunctions.get(key, False)
-        if got is False:
-            n = len(names)
-            bits = (np.arange(2 ** n)[:, None] >> np.arange(n)[None, :]) & 1
-            out = np.asarray(self.rule({nm: bits[:, k] * 2.0 - 1.0 for k, nm in enumerate(names)}))
+        if key not in self._conjunctions:
+            bits, out = self._on_patterns(names)
             sel = bits[out == regime]
-            got = None
-            if sel.size:
-                got = (tuple(k for k in range(n) if np.all(sel[:, k] == sel[0, k])), len(sel), n)
-            self._conjunctions[key] = got
-        return got
+            fixed = tuple(k for k in range(len(names)) if sel.size and np.all(sel[:, k] == sel[0, k]))
+            self._conjunctions[key] = fixed if fixed and len(sel) == 2 ** (len(names) - len(fixed)) else None
+        return self._conjunctions[key]
+
+    def _on_patterns(self, names: tuple):
+        """(bits, regimes): every sign pattern of the lines ``names`` (bit 1: on or above the line) and the regime
+        the rule gives it."""
+        n = len(names)
+        bits = (np.arange(2 ** n)[:, None] >> np.arange(n)[None, :]) & 1
+        return bits, np.asarray(self.rule({nm: bits[:, k] * 2.0 - 1.0 for k, nm in enumerate(names)}))
 
 
 def _sequence(models: Sequence[BoundaryModel]) -> list[int]:
