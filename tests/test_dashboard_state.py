@@ -11,6 +11,7 @@ from __future__ import annotations
 import copy
 import gc
 import html
+import threading
 import weakref
 
 import param
@@ -668,6 +669,81 @@ def test_worst_case_and_bands_come_from_the_background_and_stale_results_are_dro
     assert pane.src_bands.data["xs"] == []
 
 
+class _WaitSpy:
+    """Stands in for the session's "nothing urgent runs" event and says when a job starts waiting on it."""
+
+    def __init__(self, event):
+        self.event, self.waiting = event, threading.Event()
+
+    def __getattr__(self, name):
+        return getattr(self.event, name)
+
+    def wait(self, timeout=None):
+        if not self.event.is_set():
+            self.waiting.set()
+        return self.event.wait(timeout)
+
+
+def _in_thread(runner):
+    """Run the runner's first job on another thread (as the server's pool does); returns the thread."""
+    t = threading.Thread(target=runner.step, daemon=True)
+    t.start()
+    return t
+
+
+def test_background_jobs_pause_during_a_drag_and_stop_when_their_study_is_gone(doc):
+    # Catches: a worst case that keeps computing while a slider is dragged (it takes seconds and halves the
+    # previews drawn per second), a paused job that never resumes after the release, a job for a study no
+    # longer shown that finishes anyway (seconds of work for nothing) or whose stop is reported as a failure,
+    # and a paused job left waiting after the session closed.
+    from lowgmap.physics.chart.bands import worst_case_margins
+    from lowgmap.physics.pacing import Abandoned
+
+    runner = StepRunner()
+    runner.concurrent = True
+    s = _session(doc, runner)
+    spy = s._calm = _WaitSpy(s._calm)
+    s.want_worst_case()
+    assert len(runner.jobs) == 1 and s.worst_case_state == "computing"
+    s.preview({"section.diameter": "13 mm"}, key="section.diameter", label="Diameter", text="13 mm")
+    job = _in_thread(runner)                           # the worst case (the preview job waits its turn)
+    assert spy.waiting.wait(60)                        # paused at its first pause point
+    assert job.is_alive() and s.worst_case is None
+    s.end_preview()                                    # released: it resumes and finishes
+    job.join(120)
+    assert not job.is_alive() and s.worst_case_state == "ready"
+    assert s.worst_case.worst_case == worst_case_margins(s.chart, s.ql, s.qg).worst_case
+    # the next study's worst case, paused by a drag, then the point moves: it stops instead of finishing
+    runner.step()                                      # the preview asked for before the release: dropped
+    assert not runner.jobs
+    s.move_point(5e-5, 1e-5)
+    runner.step()                                      # the move is applied; its worst case is queued
+    assert len(runner.jobs) == 1 and s.worst_case_state == "computing"
+    stale_study = s.study
+    spy.waiting.clear()
+    s.preview({"section.diameter": "14 mm"}, key="section.diameter", label="Diameter", text="14 mm")
+    preview_job = runner.jobs.pop()
+    got = []
+    work, done = runner.jobs.pop(0)
+    runner.jobs.append((work, lambda result, error: (got.append(error), done(result, error))))
+    job = _in_thread(runner)
+    assert spy.waiting.wait(60)
+    runner.jobs.append(preview_job)
+    runner.step()                                      # the preview is drawn meanwhile
+    s.move_point(6e-5, 1e-5)
+    runner.step()                                      # another study is shown: the paused job stops
+    job.join(120)
+    assert not job.is_alive() and isinstance(got[0], Abandoned) and s.study is not stale_study
+    assert s.worst_case_state == "computing" and not s.extras_problem and len(runner.jobs) == 1
+    # a job paused when the session closes stops too
+    spy.waiting.clear()
+    job = _in_thread(runner)
+    assert spy.waiting.wait(60)
+    s.close()
+    job.join(120)
+    assert not job.is_alive()
+
+
 def test_a_new_chart_changes_the_data_of_the_same_sources_and_key_items(doc):
     # Catches: a redraw that replaces glyphs, sources or key entries (bokeh then sends whole new models and the
     # page relayouts: the 0.8-1.2 s per change of issue 17) instead of new data in place.
@@ -786,3 +862,29 @@ def test_a_gas_flow_typed_in_standard_volume_is_named_beside_the_converted_reado
     assert "Q_G typed as 400 sccm (standard volume), shown at the local 22 degC and 101.3 kPa" in text
     s.edit({"operating_point.gas_flow": "0.5 L/min"}, key="operating_point.gas_flow", label="Gas flow")
     assert "typed as" not in pane.readout                               # an actual-volume flow needs no note
+
+
+def test_a_preview_draws_the_regions_in_flat_colour_and_the_released_chart_hatched(doc):
+    # Catches: the hatching left off after the release (the chart in effect would lose what tells its regions
+    # apart in print and for colour-blind readers) or kept on during a drag (the page's slowest fill, redone on
+    # every frame), and a preview whose regions lose their colours or names with the hatching.
+    from lowgmap.app.dashboard.chartpane import ChartPane
+
+    runner = StepRunner()
+    s = _session(doc, runner)
+    pane = ChartPane(s)
+    hatched = list(pane.src_regions.data["hatch"])
+    assert any(h.strip() for h in hatched)
+    s.preview({"section.diameter": "13 mm"}, key="section.diameter", label="Diameter", text="13 mm",
+              display=pane.preview_frame)                # as a slider asks for it
+    runner.step()
+    drawn = pane.src_regions.data
+    want = pane.frame_of(s.live.doc, s.live.chart)["regions"]
+    assert s.live.text == "13 mm" and all(h == " " for h in drawn["hatch"])
+    assert list(drawn["colour"]) == list(want["colour"]) and list(drawn["name"]) == list(want["name"])
+    s.end_preview()
+    s.edit({"section.diameter": "13 mm"}, key="section.diameter", label="Diameter")
+    runner.step()
+    assert s.live is None
+    assert list(pane.src_regions.data["hatch"]) == list(pane.frame_of(s.doc, s.chart)["regions"]["hatch"])
+    assert any(h.strip() for h in pane.src_regions.data["hatch"])

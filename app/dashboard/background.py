@@ -51,6 +51,7 @@ class InlineRunner:
     """Run each job at once in the calling thread, then call ``done`` (no server needed)."""
 
     closed = False
+    concurrent = False      # jobs run in the caller's thread: they must never wait for it
 
     def submit(self, work, done) -> None:
         try:
@@ -70,6 +71,8 @@ class DocumentRunner:
     ----------
     doc : bokeh.document.Document   the session's document (``pn.state.curdoc`` in the app factory)
     """
+
+    concurrent = True       # jobs run on other threads: a background job may wait for the session's thread
 
     def __init__(self, doc):
         self.doc = doc

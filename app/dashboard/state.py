@@ -53,7 +53,10 @@ The worst-case margin of the operating point over the constants' bands (:attr:`S
 when :attr:`Session.show_bands` is on, the band of every line (:attr:`Study.bands`) are computed on a
 worker thread after each new study (one such job at a time; a result for a study that is no longer
 shown is dropped and the latest study is done next): :attr:`Session.worst_case`,
-:attr:`Session.bands` and their states ("computing", "ready", "none", "failed").
+:attr:`Session.bands` and their states ("computing", "ready", "none", "failed"). These jobs take
+seconds and give way to what the person waits for (:mod:`lowgmap.physics.pacing`): while a slider is
+dragged or an edit is applied they pause at their next pause point, and a job whose study is no longer
+shown stops there instead of finishing a result nobody will see.
 """
 from __future__ import annotations
 
@@ -61,6 +64,7 @@ import copy
 import dataclasses
 import logging
 import math
+import threading
 import weakref
 from dataclasses import dataclass, field
 from typing import Any, Callable
@@ -69,6 +73,7 @@ import param
 import tomlkit
 
 from lowgmap.physics.chart.composition import Chart
+from lowgmap.physics.pacing import Abandoned, paced
 from lowgmap.physics.studies.study import Study, run_study
 
 from lowgmap.app.files.casefile import CaseDocument, CaseFileError, build_case, dumps_case, loads_case
@@ -77,6 +82,10 @@ from lowgmap.app.files.units import UnitError, convert, parse_flow
 __all__ = ["Session", "Edit", "Preview", "CompareSettings", "GROUPS", "group_of", "build_chart", "live_sessions"]
 
 _LOG = logging.getLogger("lowgmap.dashboard")
+
+#: How often a paused background job looks whether its result is still wanted [s] (it resumes at once when
+#: the drag or the edit it gave way to ends: the wait is on an event).
+_PACE_POLL_S = 0.25
 
 #: Input groups as an engineer thinks of them: (key, title, case-file tables/keys in the group).
 GROUPS = (
@@ -310,6 +319,8 @@ class Session(param.Parameterized):
         self._preview_busy = False
         self._plain_memo: dict = {}     # the case data as plain objects, for the preview jobs (see _preview_work)
         self._previewing = False        # a slider is being dragged
+        self._calm = threading.Event()  # set while nothing urgent runs: no drag, no edit in flight (see _pace_extras)
+        self._calm.set()
         self._extras_busy = False
         self._want_worst = False
         self.param.watch(lambda *_: self._bands_switched(), ["show_bands"])
@@ -379,6 +390,7 @@ class Session(param.Parameterized):
         batch = list(self._queue.values())
         self._in_flight = dict(self._queue)
         self._queue = {}
+        self._update_calm()
         snap = _Snapshot(self.data, self.doc, self.study, (self.ql, self.qg), self.test_points,
                          self.source_name, self.base_dir, self.compare, self.exact)
         self.activity = _activity_words(batch)
@@ -388,6 +400,7 @@ class Session(param.Parameterized):
     def _finished(self, outcome: _Outcome | None, error: BaseException | None) -> None:
         batch = list(self._in_flight.values())
         self._in_flight = {}
+        self._update_calm()
         if self._closed:
             return
         fp = {k: v for k, v in self.field_problems.items() if k not in {e.key for e in batch}}
@@ -469,6 +482,7 @@ class Session(param.Parameterized):
         self._closed = True
         self._queue.clear()
         self._in_flight.clear()
+        self._calm.set()                # a paused background job wakes, sees the session closed and stops
         self._preview_want = None
         self.live = None
         self.bands = None
@@ -500,6 +514,7 @@ class Session(param.Parameterized):
             return
         self._preview_seq += 1
         self._previewing = True
+        self._update_calm()
         self._preview_want = Preview(key=key, label=label or key, text=text, seq=self._preview_seq,
                                      changes=dict(changes), display=display)
         self._preview_kick()
@@ -509,6 +524,7 @@ class Session(param.Parameterized):
         self._preview_dropped = self._preview_seq
         self._preview_want = None
         self._previewing = False
+        self._update_calm()
         if self.live is not None and not self.live.released:
             self.live = dataclasses.replace(self.live, released=True)
 
@@ -532,6 +548,8 @@ class Session(param.Parameterized):
         self._preview_busy = False
         if self._closed or self.runner is None:
             return
+        if getattr(self.runner, "concurrent", False):
+            self._preview_kick()                       # the next value is computed while this one is drawn
         if req.seq > self._preview_dropped:            # not released since it was asked for
             if error is not None:
                 old = self.live
@@ -575,16 +593,45 @@ class Session(param.Parameterized):
         else:
             return
         self._extras_busy = True
-        self.runner.submit(lambda: getattr(study, what),
+        paced_job = getattr(self.runner, "concurrent", False)   # an inline job cannot wait for this thread
+        self.runner.submit(lambda: self._extras_work(study, what, paced_job),
                            lambda result, error: self._extras_done(study, what, result, error))
+
+    def _extras_current(self, study, what: str) -> bool:
+        """Whether a background result for ``study`` would still be shown (bands: while the chart is the same)."""
+        shown = self.study
+        return shown is study or (what == "bands" and shown is not None and shown.chart is study.chart)
+
+    def _extras_work(self, study, what: str, paced_job: bool = True):
+        """The background job: ``study.bands`` or ``study.worst_case``, paced by :meth:`_pace_extras`."""
+        with paced((lambda: self._pace_extras(study, what)) if paced_job else None):
+            return getattr(study, what)
+
+    def _pace_extras(self, study, what: str) -> None:
+        """Pacer of a background job (:mod:`lowgmap.physics.pacing`), called at its pause points.
+
+        The job gives way to what the person is waiting for: while a slider is dragged or an edit is being
+        applied it waits (releasing the processor, so each preview is drawn as fast as when nothing runs
+        beside it); it is abandoned once its result would no longer be shown (another study, or the session
+        ended). A result still wanted is finished after the drag, from where it stopped.
+        """
+        while True:
+            if self._closed or not self._extras_current(study, what):
+                raise Abandoned(f"the {what.replace('_', ' ')} of a study no longer shown")
+            if self._calm.wait(_PACE_POLL_S):
+                return
+
+    def _update_calm(self) -> None:
+        if self._closed or not (self._previewing or self._in_flight):
+            self._calm.set()
+        else:
+            self._calm.clear()
 
     def _extras_done(self, study, what: str, result, error) -> None:
         self._extras_busy = False
         if self._closed:
             return
-        current = self.study is study or (what == "bands" and self.study is not None
-                                          and self.study.chart is study.chart)
-        if current:                                    # a result for a study no longer shown is dropped
+        if self._extras_current(study, what):          # a result for a study no longer shown is dropped
             state = "failed" if error is not None else ("none" if result is None else "ready")
             if error is not None:
                 _LOG.warning("dashboard %s failed", what, exc_info=(type(error), error, error.__traceback__))

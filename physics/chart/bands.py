@@ -60,6 +60,9 @@ worst constants (:meth:`Chart.build` with (model, constants) pairs) and
 The limiting constant is the one whose move alone, to its worst value, lowers the margin most.
 
 Results are cached per chart (weakly: they die with it); a worst-case margin is cached per point.
+Each evaluation of a line with other constants and each margin evaluation is a pause point
+(:func:`lowgmap.physics.pacing.checkpoint`): a caller running a band or a worst case in the background
+can hold it while more urgent work runs, or abandon it (nothing half-done is cached).
 
 Examples
 --------
@@ -88,6 +91,7 @@ from lowgmap.physics.chart import lines as _lines
 from lowgmap.physics.chart import margins as _mg
 from lowgmap.physics.chart.sampling import mask_runs
 from lowgmap.physics.models.boundary import ConstantBand, case_bands
+from lowgmap.physics.pacing import checkpoint
 from lowgmap.physics.surrogates import in_chart_solves
 
 __all__ = ["BAND_SAMPLES", "Band", "boundary_band", "chart_bands", "chart_constant_bands", "BandVariable",
@@ -321,6 +325,7 @@ def _column_values(case, model, consts, names, y_ref):
     Raises one of :data:`lowgmap.physics.chart.lines.MODEL_ERRORS` for combinations the model rejects.
     """
     def f(values, x):
+        checkpoint()
         c = dict(consts)
         c.update({k: float(v) for k, v in zip(names, values)})
         c = model.resolve_constants(c)
@@ -797,6 +802,7 @@ class _MarginObjective:
 
     def __call__(self, changes: dict[int, dict]) -> tuple[float, str]:
         """(signed margin, regime) with ``changes`` = {region line index: {constant: value}}; NaN if rejected."""
+        checkpoint()
         self.count += 1
         consts = [dict(c) for c in self.nominal]
         for k, ch in changes.items():
