@@ -888,3 +888,35 @@ def test_a_preview_draws_the_regions_in_flat_colour_and_the_released_chart_hatch
     assert s.live is None
     assert list(pane.src_regions.data["hatch"]) == list(pane.frame_of(s.doc, s.chart)["regions"]["hatch"])
     assert any(h.strip() for h in pane.src_regions.data["hatch"])
+
+
+def test_background_results_go_to_their_own_pool_and_the_jobs_a_person_waits_for_do_not(doc):
+    # Catches: the bands or the worst case sent to the worker pool, where a job paused during a drag holds a
+    # thread that a preview needs (with as many dragging sessions as threads, no preview would be drawn), and
+    # a preview or an edit sent to the background pool (it would wait behind seconds of band searches).
+    class PoolRunner(StepRunner):
+        concurrent = True
+
+        def submit_background(self, work, done):
+            self.jobs.append((work, done))
+            self.background.append(len(self.jobs) - 1)
+
+    runner = PoolRunner()
+    runner.background = []
+    s = _session(doc, runner)
+    s.want_worst_case()
+    assert runner.background == [0] and len(runner.jobs) == 1 and s.worst_case_state == "computing"
+    runner.step()                                                  # nothing urgent runs: not paused
+    assert s.worst_case_state == "ready"
+    runner.background.clear()
+    s.preview({"section.diameter": "13 mm"}, key="section.diameter", label="Diameter", text="13 mm")
+    s.end_preview()
+    s.edit({"section.diameter": "13 mm"}, key="section.diameter", label="Diameter")
+    assert runner.background == [] and len(runner.jobs) == 2       # the preview and the edit
+    runner.step()                                                  # the preview (dropped: released)
+    runner.step()                                                  # the edit: a new study
+    assert runner.background == [0] and len(runner.jobs) == 1 and s.worst_case_state == "computing"
+    runner.background.clear()
+    runner.step()
+    s.show_bands = True                                            # the bands: background too
+    assert runner.background == [0] and len(runner.jobs) == 1 and s.bands_state == "computing"

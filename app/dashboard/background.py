@@ -17,8 +17,12 @@ state may be changed. Two runners:
   locked). After :meth:`DocumentRunner.close` (the session was destroyed) results are dropped and
   jobs still waiting for a thread are not run.
 
-The pool is the only module-level object and holds no session data: a few threads shared by all
-sessions, so a session that closes leaves nothing behind but idle threads.
+Two pools: the *worker* pool for what a person waits for (edits, previews, uploads) and a smaller
+*background* pool for results shown when they are ready (the bands and the worst case, seconds each;
+:meth:`DocumentRunner.submit_background`). A background job pauses while its session's slider is dragged
+(:mod:`lowgmap.physics.pacing`): on its own pool a paused job never holds a thread that a preview needs,
+however many sessions drag at once. The pools are the only module-level objects and hold no session
+data: threads shared by all sessions, so a session that closes leaves nothing behind but idle threads.
 """
 from __future__ import annotations
 
@@ -27,13 +31,18 @@ import threading
 from concurrent.futures import ThreadPoolExecutor
 from functools import partial
 
-__all__ = ["WORKER_THREADS", "worker_pool", "InlineRunner", "DocumentRunner"]
+__all__ = ["WORKER_THREADS", "BACKGROUND_THREADS", "worker_pool", "background_pool", "InlineRunner",
+           "DocumentRunner"]
 
 #: Worker threads shared by all sessions (long jobs of one session never hold up the event loop;
 #: with more sessions than threads, jobs wait their turn).
 WORKER_THREADS = 4
 
+#: Threads for background results (bands, worst case) shared by all sessions.
+BACKGROUND_THREADS = 2
+
 _POOL: ThreadPoolExecutor | None = None
+_BACKGROUND: ThreadPoolExecutor | None = None
 _POOL_LOCK = threading.Lock()
 _LOG = logging.getLogger("lowgmap.dashboard")
 
@@ -45,6 +54,15 @@ def worker_pool() -> ThreadPoolExecutor:
         if _POOL is None:
             _POOL = ThreadPoolExecutor(max_workers=WORKER_THREADS, thread_name_prefix="lowgmap-work")
         return _POOL
+
+
+def background_pool() -> ThreadPoolExecutor:
+    """The shared pool of :data:`BACKGROUND_THREADS` threads for background results (created on first use)."""
+    global _BACKGROUND
+    with _POOL_LOCK:
+        if _BACKGROUND is None:
+            _BACKGROUND = ThreadPoolExecutor(max_workers=BACKGROUND_THREADS, thread_name_prefix="lowgmap-background")
+        return _BACKGROUND
 
 
 class InlineRunner:
@@ -79,9 +97,16 @@ class DocumentRunner:
         self.closed = False
 
     def submit(self, work, done) -> None:
+        self._submit(worker_pool(), work, done)
+
+    def submit_background(self, work, done) -> None:
+        """As :meth:`submit`, on the background pool (a result shown when ready; it may pause, see module)."""
+        self._submit(background_pool(), work, done)
+
+    def _submit(self, pool, work, done) -> None:
         if self.closed:
             return
-        future = worker_pool().submit(self._run, work)
+        future = pool.submit(self._run, work)
         future.add_done_callback(partial(self._hand_back, done))
 
     def _run(self, work):

@@ -594,8 +594,9 @@ class Session(param.Parameterized):
             return
         self._extras_busy = True
         paced_job = getattr(self.runner, "concurrent", False)   # an inline job cannot wait for this thread
-        self.runner.submit(lambda: self._extras_work(study, what, paced_job),
-                           lambda result, error: self._extras_done(study, what, result, error))
+        submit = getattr(self.runner, "submit_background", self.runner.submit)
+        submit(lambda: self._extras_work(study, what, paced_job),
+               lambda result, error: self._extras_done(study, what, result, error))
 
     def _extras_current(self, study, what: str) -> bool:
         """Whether a background result for ``study`` would still be shown (bands: while the chart is the same)."""
