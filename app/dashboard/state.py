@@ -548,8 +548,6 @@ class Session(param.Parameterized):
         self._preview_busy = False
         if self._closed or self.runner is None:
             return
-        if getattr(self.runner, "concurrent", False):
-            self._preview_kick()                       # the next value is computed while this one is drawn
         if req.seq > self._preview_dropped:            # not released since it was asked for
             if error is not None:
                 old = self.live
