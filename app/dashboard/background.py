@@ -41,28 +41,27 @@ WORKER_THREADS = 4
 #: Threads for background results (bands, worst case) shared by all sessions.
 BACKGROUND_THREADS = 2
 
-_POOL: ThreadPoolExecutor | None = None
-_BACKGROUND: ThreadPoolExecutor | None = None
+_POOLS: dict[str, ThreadPoolExecutor] = {}
 _POOL_LOCK = threading.Lock()
 _LOG = logging.getLogger("lowgmap.dashboard")
 
 
+def _shared_pool(prefix: str, threads: int) -> ThreadPoolExecutor:
+    with _POOL_LOCK:
+        pool = _POOLS.get(prefix)
+        if pool is None:
+            pool = _POOLS[prefix] = ThreadPoolExecutor(max_workers=threads, thread_name_prefix=prefix)
+        return pool
+
+
 def worker_pool() -> ThreadPoolExecutor:
     """The shared pool of :data:`WORKER_THREADS` worker threads (created on first use)."""
-    global _POOL
-    with _POOL_LOCK:
-        if _POOL is None:
-            _POOL = ThreadPoolExecutor(max_workers=WORKER_THREADS, thread_name_prefix="lowgmap-work")
-        return _POOL
+    return _shared_pool("lowgmap-work", WORKER_THREADS)
 
 
 def background_pool() -> ThreadPoolExecutor:
     """The shared pool of :data:`BACKGROUND_THREADS` threads for background results (created on first use)."""
-    global _BACKGROUND
-    with _POOL_LOCK:
-        if _BACKGROUND is None:
-            _BACKGROUND = ThreadPoolExecutor(max_workers=BACKGROUND_THREADS, thread_name_prefix="lowgmap-background")
-        return _BACKGROUND
+    return _shared_pool("lowgmap-background", BACKGROUND_THREADS)
 
 
 class InlineRunner:
