@@ -51,7 +51,7 @@ Full solves and bands
 :attr:`Session.exact` builds every chart with the full solves (``Chart.build(case, exact=True)``).
 The worst-case margin of the operating point over the constants' bands (:attr:`Study.worst_case`) and,
 when :attr:`Session.show_bands` is on, the band of every line (:attr:`Study.bands`) are computed on a
-worker thread after each new study (one such job at a time; a result for a study that is no longer
+background thread (a pool of their own) after each new study (one such job at a time; a result for a study that is no longer
 shown is dropped and the latest study is done next): :attr:`Session.worst_case`,
 :attr:`Session.bands` and their states ("computing", "ready", "none", "failed"). These jobs take
 seconds and give way to what the person waits for (:mod:`lowgmap.physics.pacing`): while a slider is
