@@ -1210,9 +1210,27 @@ def _roots(fun, lo, hi, n=241):
     return out
 
 
+class _ShapeOf:
+    """A case standing for what a ratio line depends on (its section and contact angle): equal and hashed by
+    that alone, so that designs differing only in the conduit length, the gravity level or the fluid share
+    their ratio lines' roots."""
+
+    __slots__ = ("key", "case")
+
+    def __init__(self, case):
+        self.key = (case.section, float(case.wetting.contact_angle))
+        self.case = case
+
+    def __eq__(self, other):
+        return isinstance(other, _ShapeOf) and self.key == other.key
+
+    def __hash__(self):
+        return hash(self.key)
+
+
 @functools.lru_cache(maxsize=512)
-def _cached_roots(model, case, items, lo, hi, n):
-    return tuple(10.0 ** x for x, _ in _roots(model._phi(case, dict(items)), lo, hi, n))
+def _cached_roots(model, shape, items, lo, hi, n):
+    return tuple(10.0 ** x for x, _ in _roots(model._phi(shape.case, dict(items)), lo, hi, n))
 
 
 class _CornerModel(BoundaryModel):
@@ -1259,8 +1277,8 @@ class _CornerModel(BoundaryModel):
         c = self._c(consts)
         lo, hi = self._r_range(case)
         try:
-            return list(_cached_roots(self, case, tuple(sorted(c.items())), lo, hi, 241))
-        except TypeError:                       # unhashable case (e.g. a stand-in object)
+            return list(_cached_roots(self, _ShapeOf(case), tuple(sorted(c.items())), lo, hi, 241))
+        except (TypeError, AttributeError):     # unhashable section, or a stand-in object without one
             return [10.0 ** x for x, _ in _roots(self._phi(case, c), lo, hi)]
 
     def qg_of_ql(self, case, ql, **consts):
