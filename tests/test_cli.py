@@ -120,11 +120,10 @@ def _variants(tmp_path):
         _variant(tmp_path, "bad_constant_name", "[operating_point]\n", models + "constants = { alpha = 0.4 }\n\n[operating_point]\n"),
         _variant(tmp_path, "bad_band", "[operating_point]\n", models + "bands = { alpha_c = [0.2, 0.99] }\n\n[operating_point]\n"),
         _variant(tmp_path, "bad_model", "[operating_point]\n", '\n[[models]]\nname = "no_such_model"\n\n[operating_point]\n'),
-        _variant(tmp_path, "bad_intended", 'required_margin = "30 %"', 'required_margin = "30 %"\nintended_regime = "foam"'),
+        _variant(tmp_path, "bad_intended", 'intended_regime = "dispersed bubbles"', 'intended_regime = "foam"'),
         _variant(tmp_path, "good_band", "[operating_point]\n", models + "bands = { alpha_c = [0.40, 0.50] }\n\n[operating_point]\n"),
         _variant(tmp_path, "good_upflow", g, 'residual_acceleration = "ground"\norientation = "vertical upward flow"'),
-        _variant(tmp_path, "good_intended", 'required_margin = "30 %"',
-                 'required_margin = "30 %"\nintended_regime = "dispersed bubbles"'),
+        _variant(tmp_path, "good_no_intended", 'intended_regime = "dispersed bubbles"\n', ""),
     ]
 
 

@@ -8,6 +8,7 @@ import json
 import os
 import subprocess
 import sys
+from pathlib import Path
 
 import pytest
 
@@ -70,11 +71,16 @@ def test_command_help_loads_only_that_command():
     assert not top_level(modules) & {"numpy", "pint", "CoolProp", "matplotlib", "panel"}
 
 
-def test_check_loads_no_plotting_dashboard_or_solver():
+def test_check_loads_no_plotting_dashboard_or_solver(tmp_path):
     # check needs pint (units) and the fluid properties (CoolProp, unless the table cache has them), not
     # matplotlib, panel, pandas or scipy's solvers; pint itself imports the top-level scipy and dask
-    # packages when they are installed
-    proc, modules = run_and_list_modules("check", SAMPLE)
+    # packages when they are installed. The file states no intended regime: naming one makes check build the
+    # chart to see that the chart has that regime (tests/test_cli.py, "bad_intended"), which needs the solvers.
+    text = Path(SAMPLE).read_text(encoding="utf-8")
+    assert 'intended_regime = "dispersed bubbles"\n' in text
+    plain = tmp_path / "no_intended_regime.toml"
+    plain.write_text(text.replace('intended_regime = "dispersed bubbles"\n', ""), encoding="utf-8")
+    proc, modules = run_and_list_modules("check", str(plain))
     assert proc.returncode == 0 and "valid" in proc.stdout
     assert "pint" in top_level(modules)
     assert not top_level(modules) & {"matplotlib", "panel", "bokeh", "param", "pandas", "shapely", "skfem"}

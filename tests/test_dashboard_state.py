@@ -431,14 +431,17 @@ def test_label_mapping_and_observation_length_reach_the_agreement_as_in_compare(
 
 
 def test_intended_regime_select_reaches_the_verdict(doc):
-    # Catches: the intended regime chosen in the page not written into the case (verdict and exports would
-    # still say "no intended regime stated"), and "none" not removing it.
+    # Catches: the select not showing the file's intended regime (an edit of another input would then drop it),
+    # the intended regime chosen in the page not written into the case (verdict and exports would still name
+    # the old one), and "none" not removing it.
     from lowgmap.app.dashboard.chartpane import ChartPane
     from lowgmap.app.dashboard.panels import PointPanel, VerdictPanel
 
     s = _session(doc)
     point, verdict = PointPanel(s, ChartPane(s)), VerdictPanel(s)
-    assert point.intended.options == ["none", *s.chart.regime_names] and point.intended.value == "none"
+    assert point.intended.options == ["none", *s.chart.regime_names]
+    assert point.intended.value == "dispersed bubbles" == s.doc.settings.intended_regime     # the sample's
+    assert (s.verdict().regime_status, s.verdict().margin_status) == ("in the intended regime", "met")
     point.intended.value = "annular (gas core)"
     assert s.doc.settings.intended_regime == "annular (gas core)"
     v = s.verdict()

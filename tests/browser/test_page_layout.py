@@ -210,8 +210,11 @@ def test_intended_regime_and_search_range_are_settable_and_the_verdict_says_so_i
     # Catches: an intended regime that does not reach the verdict (it would stay "no intended regime stated"),
     # failing words not in red, and a robust-point search that ignores the range typed.
     intended = page.locator(".intended-regime select").first
-    intended.select_option("annular (gas core)")
     verdict = page.locator(".point-verdict").first
+    expect(intended).to_have_value("dispersed bubbles")                  # the sample file's intended regime
+    expect(verdict).to_contain_text("dispersed bubbles")
+    expect(verdict).not_to_contain_text("no intended regime stated")
+    intended.select_option("annular (gas core)")
     expect(verdict).to_contain_text("NOT IN THE INTENDED REGIME: annular (gas core)")
     expect(verdict).to_contain_text("NOT MET")
     red = verdict.locator(".status.fail").first.evaluate("e => getComputedStyle(e).color")
