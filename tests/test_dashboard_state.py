@@ -893,6 +893,35 @@ def test_a_preview_draws_the_regions_in_flat_colour_and_the_released_chart_hatch
     assert any(h.strip() for h in pane.src_regions.data["hatch"])
 
 
+def test_the_key_reaches_no_source_a_frame_fills_and_its_clicks_reach_the_drawn_glyphs(doc):
+    # Catches: a link from a key entry's stand-in glyph to the glyph drawn in the plot (e.g. a js_link of their
+    # visibility): bokeh's key rebuilds all its entries, their elements and canvases in the page, whenever any
+    # model reachable from an entry changes, i.e. on every frame of a drag, since the drawn glyph leads to the
+    # sources the frames fill. And a key whose clicks no longer reach the drawn glyphs (tests/browser checks
+    # the pixels).
+    from lowgmap.app.dashboard.chartpane import ChartPane
+
+    runner = StepRunner()
+    s = _session(doc, runner)
+    pane = ChartPane(s)
+    filled = {pane.src_regions, pane.src_region_labels, pane.src_valid, pane.src_invalid, pane.src_line_labels,
+              pane.src_bands}
+    s.preview({"section.diameter": "13 mm"}, key="section.diameter", label="Diameter", text="13 mm",
+              display=pane.preview_frame)
+    runner.step()
+    for fig in pane.figs.values():
+        legend = fig.legend[0]
+        shown = [item for item in legend.items if item.visible]
+        assert shown                                          # the key has entries for the lines
+        reach = set().union(*(item.references() for item in legend.items))
+        assert not reach & filled
+        drawn = {r.name: r for r in fig.renderers}
+        cb, = legend.js_event_callbacks["legend_item_click"]
+        pairs = dict(zip((t.name for t in cb.args["twins"]), cb.args["reals"]))
+        assert {item.renderers[0].name for item in shown} <= set(pairs)
+        assert all(pairs[f"key: {name}"] is drawn[name] for name in ("boundaries", "bands", "test-points"))
+
+
 def test_background_results_go_to_their_own_pool_and_the_jobs_a_person_waits_for_do_not(doc):
     # Catches: the bands or the worst case sent to the worker pool, where a job paused during a drag holds a
     # thread that a preview needs (with as many dragging sessions as threads, no preview would be drawn), and

@@ -31,7 +31,8 @@ import panel as pn
 import param
 from bokeh.events import Pan, PanEnd, PanStart
 from bokeh.core.properties import value
-from bokeh.models import (ColumnDataSource, HoverTool, Label, Legend, LegendItem, PointDrawTool, Range1d)
+from bokeh.models import (ColumnDataSource, CustomJS, HoverTool, Label, Legend, LegendItem, PointDrawTool,
+                          Range1d)
 from bokeh.plotting import figure
 
 from lowgmap.app.outputs.chartview import BAND_KEY_TEXT, chart_view, line_label_positions
@@ -60,6 +61,18 @@ _KEY_COORDS = {"boundaries": ("xs", "ys"), "boundaries-outside-validity": ("xs",
 _KEY_STYLES = {"boundaries": ("colour", "dash", "width"), "boundaries-outside-validity": ("colour", "width"),
                "bands": ("colour",), "uncertainty-box": (), "uncertainty-frame": (),
                "test-points": ("marker", "fill", "line", "width")}
+
+#: A click on a key entry hides (or shows) the entry's stand-in glyph (the key's click policy "hide"); the glyph
+#: drawn in the plot takes the same visibility once the click is handled (a microtask: after bokeh toggled it).
+_KEY_CLICK_JS = """
+const item = cb_obj.item;
+queueMicrotask(() => {
+  for (const r of item.renderers) {
+    const k = twins.indexOf(r);
+    if (k >= 0) reals[k].visible = r.visible;
+  }
+});
+"""
 
 LIVE_CSS = """
 .live-status {background: #e8f1fa; border: 1px solid #1f3b57; color: #1f3b57; padding: 3px 8px;
@@ -102,6 +115,7 @@ class ChartPane(pn.viewable.Viewer):
         self._showing_preview = False
         self._drawn_preview = -1
         self._live_labels: dict = {}
+        self._key_pairs: dict = {}      # figure name -> [(twin, real)] of the key's glyphs (see _keyed)
         self.x_range = Range1d(1, 10)
         self.y_range = Range1d(1, 10)
         self.figs = {True: self._figure("log"), False: self._figure("linear")}
@@ -230,21 +244,26 @@ class ChartPane(pn.viewable.Viewer):
                         margin=4)
         fig.add_layout(legend, "below")
         fig.legend.visible = True
+        twins, reals = zip(*self._key_pairs[fig.name])
+        legend.js_on_event("legend_item_click", CustomJS(args=dict(twins=list(twins), reals=list(reals)),
+                                                         code=_KEY_CLICK_JS))
         return fig
 
     def _keyed(self, fig, method: str, name: str, source, **style):
         """A glyph renderer that has entries in the key, and its twin that the key draws from.
 
         The key's entries refer to the twin, which draws nothing in the plot (its rows have no coordinates) and
-        takes its styles from :attr:`src_key`; its visibility follows the key's clicks onto the real glyphs.
-        bokeh's key rebuilds its entries (their elements in the page) whenever a source of a renderer it refers to
-        changes, i.e. on every frame of a drag; the twin's source changes only with the key.
+        takes its styles from :attr:`src_key`; the key's clicks reach the real glyph through the key's own click
+        event (:data:`_KEY_CLICK_JS`, set in :meth:`_figure`). bokeh's key rebuilds its entries (their elements
+        and canvases in the page) whenever any model reachable from its entries changes, i.e. on every frame of a
+        drag if an entry led to a source the frames fill: so nothing reachable from the twin refers to the real
+        glyph (a link from the twin's visibility to it would), and the twin's source changes only with the key.
         """
         coords = _KEY_COORDS[name]
         at = {c: c for c in coords}
         real = getattr(fig, method)(**at, source=source, name=name, **style)
         twin = getattr(fig, method)(**at, source=self.src_key[name], name=f"key: {name}", **style)
-        twin.js_link("visible", real, "visible")
+        self._key_pairs.setdefault(fig.name, []).append((twin, real))
         return real
 
     def _follow_case(self):
