@@ -871,6 +871,8 @@ def test_a_preview_draws_the_regions_in_flat_colour_and_the_released_chart_hatch
     # Catches: the hatching left off after the release (the chart in effect would lose what tells its regions
     # apart in print and for colour-blind readers) or kept on during a drag (the page's slowest fill, redone on
     # every frame), and a preview whose regions lose their colours or names with the hatching.
+    from bokeh.core.properties import field, value
+
     from lowgmap.app.dashboard.chartpane import ChartPane
 
     runner = StepRunner()
@@ -885,12 +887,16 @@ def test_a_preview_draws_the_regions_in_flat_colour_and_the_released_chart_hatch
     want = pane.frame_of(s.live.doc, s.live.chart)["regions"]
     assert s.live.text == "13 mm" and all(h == " " for h in drawn["hatch"])
     assert list(drawn["colour"]) == list(want["colour"]) and list(drawn["name"]) == list(want["name"])
+    # the glyphs draw one blank pattern (bokeh makes no pattern canvas per region and frame), not the column
+    glyphs = [r["regions"].glyph for r in pane._renderers.values()]
+    assert all(g.hatch_pattern == value(" ") for g in glyphs)
     s.end_preview()
     s.edit({"section.diameter": "13 mm"}, key="section.diameter", label="Diameter")
     runner.step()
     assert s.live is None
     assert list(pane.src_regions.data["hatch"]) == list(pane.frame_of(s.doc, s.chart)["regions"]["hatch"])
     assert any(h.strip() for h in pane.src_regions.data["hatch"])
+    assert all(g.hatch_pattern == field("hatch") for g in glyphs)             # the hatch column again
 
 
 def test_the_key_reaches_no_source_a_frame_fills_and_its_clicks_reach_the_drawn_glyphs(doc):
