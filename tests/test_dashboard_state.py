@@ -869,34 +869,36 @@ def test_a_gas_flow_typed_in_standard_volume_is_named_beside_the_converted_reado
 
 def test_a_preview_draws_the_regions_in_flat_colour_and_the_released_chart_hatched(doc):
     # Catches: the hatching left off after the release (the chart in effect would lose what tells its regions
-    # apart in print and for colour-blind readers) or kept on during a drag (the page's slowest fill, redone on
-    # every frame), and a preview whose regions lose their colours or names with the hatching.
-    from bokeh.core.properties import field, value
-
+    # apart in print and for colour-blind readers) or kept on during a drag (the page's slowest fill, and bokeh
+    # makes a pattern canvas per region and glyph variant on every frame), the hatching glyph refilled on every
+    # frame of a drag, and a preview whose regions lose their colours or names with the hatching.
     from lowgmap.app.dashboard.chartpane import ChartPane
 
     runner = StepRunner()
     s = _session(doc, runner)
     pane = ChartPane(s)
-    hatched = list(pane.src_regions.data["hatch"])
-    assert any(h.strip() for h in hatched)
-    s.preview({"section.diameter": "13 mm"}, key="section.diameter", label="Diameter", text="13 mm",
-              display=pane.preview_frame)                # as a slider asks for it
-    runner.step()
-    drawn = pane.src_regions.data
-    want = pane.frame_of(s.live.doc, s.live.chart)["regions"]
-    assert s.live.text == "13 mm" and all(h == " " for h in drawn["hatch"])
-    assert list(drawn["colour"]) == list(want["colour"]) and list(drawn["name"]) == list(want["name"])
-    # the glyphs draw one blank pattern (bokeh makes no pattern canvas per region and frame), not the column
-    glyphs = [r["regions"].glyph for r in pane._renderers.values()]
-    assert all(g.hatch_pattern == value(" ") for g in glyphs)
+    assert any(h.strip() for h in pane.src_region_hatch.data["hatch"])
+    assert pane.src_region_hatch.data["xs"] == pane.src_regions.data["xs"]
+    sent = []
+    pane.src_region_hatch.on_change("data", lambda attr, old, new: sent.append(new))
+    for i, text in enumerate(("13 mm", "13.5 mm")):             # two frames of one drag, as a slider asks for them
+        s.preview({"section.diameter": text}, key="section.diameter", label="Diameter", text=text,
+                  display=pane.preview_frame)
+        runner.step()
+        drawn = pane.src_regions.data
+        want = pane.frame_of(s.live.doc, s.live.chart)["regions"]
+        assert s.live.text == text and pane.src_region_hatch.data["xs"] == []       # nothing hatched
+        assert list(drawn["colour"]) == list(want["colour"]) and list(drawn["name"]) == list(want["name"])
+        assert list(drawn["xs"]) == list(want["xs"])
+    assert len(sent) == 1                                       # emptied once, not on every frame
     s.end_preview()
-    s.edit({"section.diameter": "13 mm"}, key="section.diameter", label="Diameter")
+    s.edit({"section.diameter": "13.5 mm"}, key="section.diameter", label="Diameter")
     runner.step()
     assert s.live is None
-    assert list(pane.src_regions.data["hatch"]) == list(pane.frame_of(s.doc, s.chart)["regions"]["hatch"])
-    assert any(h.strip() for h in pane.src_regions.data["hatch"])
-    assert all(g.hatch_pattern == field("hatch") for g in glyphs)             # the hatch column again
+    final = pane.frame_of(s.doc, s.chart)["regions"]
+    assert list(pane.src_region_hatch.data["hatch"]) == list(final["hatch"])
+    assert list(pane.src_region_hatch.data["xs"]) == list(final["xs"]) == list(pane.src_regions.data["xs"])
+    assert any(h.strip() for h in pane.src_region_hatch.data["hatch"])
 
 
 def test_the_key_reaches_no_source_a_frame_fills_and_its_clicks_reach_the_drawn_glyphs(doc):

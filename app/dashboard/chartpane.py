@@ -30,7 +30,7 @@ import numpy as np
 import panel as pn
 import param
 from bokeh.events import Pan, PanEnd, PanStart
-from bokeh.core.properties import field, value
+from bokeh.core.properties import value
 from bokeh.models import (ColumnDataSource, CustomJS, HoverTool, Label, Legend, LegendItem, PointDrawTool,
                           Range1d)
 from bokeh.plotting import figure
@@ -93,7 +93,9 @@ class ChartPane(pn.viewable.Viewer):
         self.session = session
         self.log_axes = session.doc.settings.log_axes
         self._dragging = False
-        self.src_regions = ColumnDataSource(dict(xs=[], ys=[], colour=[], hatch=[], name=[]))
+        self.src_regions = ColumnDataSource(dict(xs=[], ys=[], colour=[], name=[]))
+        #: the regions' hatching, a glyph of its own: empty while a slider is dragged (see :meth:`preview_frame`)
+        self.src_region_hatch = ColumnDataSource(dict(xs=[], ys=[], colour=[], hatch=[]))
         self.src_region_labels = ColumnDataSource(dict(x=[], y=[], text=[], align=[]))
         self.src_valid = ColumnDataSource(dict(xs=[], ys=[], colour=[], dash=[], width=[], label=[], source=[]))
         self.src_invalid = ColumnDataSource(dict(xs=[], ys=[], colour=[], width=[], label=[], source=[]))
@@ -116,7 +118,6 @@ class ChartPane(pn.viewable.Viewer):
         self._drawn_preview = -1
         self._live_labels: dict = {}
         self._key_pairs: dict = {}      # figure name -> [(twin, real)] of the key's glyphs (see _keyed)
-        self._hatched = True            # the regions' glyphs fill with the hatch column (see _hatch_regions)
         self.x_range = Range1d(1, 10)
         self.y_range = Range1d(1, 10)
         self.figs = {True: self._figure("log"), False: self._figure("linear")}
@@ -192,9 +193,10 @@ class ChartPane(pn.viewable.Viewer):
                      height=CHART_HEIGHT, sizing_mode="stretch_width", min_width=300,
                      tools="pan,wheel_zoom,box_zoom,reset,save",
                      active_scroll="wheel_zoom", toolbar_location="above", name=f"regime-chart-{kind}")
-        fig.patches("xs", "ys", source=self.src_regions, fill_color="colour", fill_alpha=0.35,
-                    hatch_pattern="hatch", hatch_color="colour", hatch_alpha=0.8, hatch_scale=10,
-                    line_color=None, name="regions")
+        fig.patches("xs", "ys", source=self.src_regions, fill_color="colour", fill_alpha=0.35, line_color=None,
+                    name="regions")
+        fig.patches("xs", "ys", source=self.src_region_hatch, fill_color=None, hatch_pattern="hatch",
+                    hatch_color="colour", hatch_alpha=0.8, hatch_scale=10, line_color=None, name="region-hatching")
         self._keyed(fig, "patches", "bands", self.src_bands, fill_color="colour", fill_alpha=0.28,
                     line_color="colour", line_alpha=0.5, line_width=1.0)
         valid = self._keyed(fig, "multi_line", "boundaries", self.src_valid, line_color="colour", line_dash="dash",
@@ -366,12 +368,12 @@ class ChartPane(pn.viewable.Viewer):
         the page about a sixth of its time per frame on a machine that draws without a graphics processor
         (15-16 against 18 frames per second on the wedge sample, 18 against 22 on the tube sample, measured
         with tests/perf/bench_morph.py). Their colours and names stay; the hatching comes back with the chart
-        in effect on release. (:meth:`_show_live` also sets the glyphs' pattern to one blank value while a preview
-        is drawn, see :meth:`_hatch_regions`; the blank column keeps the frame's data true to what is drawn.)
+        in effect on release. The hatching is a glyph of its own, emptied once when a drag starts: bokeh makes a
+        pattern canvas for every region and every variant of a hatched glyph (selected, not selected, muted,
+        decimated) whenever its data change, which a blank column or a blank pattern of the glyph alone does
+        not avoid.
         """
-        frame = self.frame_of(doc, chart)
-        frame["regions"] = dict(frame["regions"], hatch=[" "] * len(frame["regions"]["hatch"]))
-        return frame
+        return dict(self.frame_of(doc, chart), flat=True)
 
     def refresh_chart(self):
         """Draw the session's chart (with its bands when they are shown)."""
@@ -380,28 +382,20 @@ class ChartPane(pn.viewable.Viewer):
             return
         bands = s.bands if s.show_bands and s.bands_state == "ready" else None
         self._apply_frame(self.frame_of(s.doc, s.chart, bands))
-        self._hatch_regions(True)
         self._showing_preview = False
         self._drawn_preview = -1
         self.refresh_point()
 
-    def _hatch_regions(self, on: bool) -> None:
-        """Fill the regions with their hatching (the chart in effect) or without (while a slider is dragged).
-
-        Without, the glyph's pattern is one blank value rather than a column of blanks: bokeh then makes no
-        pattern canvas for the regions when their data change, which it otherwise does for every region on
-        every frame of a drag (about 2 ms of the page's time per frame on the wedge sample).
-        """
-        if self._hatched == on:
-            return
-        for renderers in self._renderers.values():
-            renderers["regions"].glyph.hatch_pattern = field("hatch") if on else value(" ")
-        self._hatched = on
-
     def _apply_frame(self, f: dict) -> None:
         """Put a frame on the chart: new data in the existing sources, the key entries updated in place."""
         self._view = f["view"]
-        for src, name in ((self.src_regions, "regions"), (self.src_region_labels, "region_labels"),
+        regions = f["regions"]
+        self.src_regions.data = {k: regions[k] for k in ("xs", "ys", "colour", "name")}
+        if not f.get("flat"):
+            self.src_region_hatch.data = {k: regions[k] for k in ("xs", "ys", "colour", "hatch")}
+        elif self.src_region_hatch.data["xs"]:            # a preview: no hatching (emptied once per drag)
+            self.src_region_hatch.data = {k: [] for k in ("xs", "ys", "colour", "hatch")}
+        for src, name in ((self.src_region_labels, "region_labels"),
                           (self.src_valid, "valid"), (self.src_invalid, "invalid"),
                           (self.src_line_labels, "line_labels"), (self.src_bands, "bands")):
             src.data = f[name]
@@ -491,7 +485,6 @@ class ChartPane(pn.viewable.Viewer):
             self._apply_frame(frame)
             self._drawn_preview = live.seq
             self._showing_preview = True
-            self._hatch_regions(False)
             self.refresh_point()
         text = live_label_text(live)
         for log, label in self._live_labels.items():   # only the shown figure's (a hidden one is laid out again)
