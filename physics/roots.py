@@ -1,4 +1,5 @@
-"""Roots of many scalar functions at once, each in its own bracket (vectorised false position).
+"""Roots of many scalar functions at once, each in its own bracket (vectorised false position), and one
+bracketed root whose end values the caller already has.
 
 Used where many bracketed roots of cheap vectorised functions are needed together (the inverse of the
 stratified-flow line per liquid flow; the crossings of the lines of one chart): one vectorised evaluation
@@ -14,7 +15,35 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["illinois"]
+__all__ = ["brentq_known", "illinois"]
+
+
+def brentq_known(func, a, b, fa, fb, **kwargs):
+    """``scipy.optimize.brentq(func, a, b, **kwargs)`` for a caller that has already computed fa = func(a) and
+    fb = func(b): those two are not computed again.
+
+    Brent's method (Brent, R. P., 1973, Algorithms for Minimization without Derivatives, Prentice-Hall, ch. 4;
+    scipy's implementation) starts by evaluating the function at both ends; each call here answers those two
+    from the values given (matched by the exact end values) and evaluates ``func`` for every other point, so
+    the root is the one ``brentq`` returns, for two evaluations fewer per root. The values must be the
+    function's own at those ends (a sign change, fa * fb < 0, as brentq requires).
+
+    Examples
+    --------
+    >>> calls = []
+    >>> f = lambda x: calls.append(x) or x * x - 2.0
+    >>> r = brentq_known(f, 1.0, 2.0, -1.0, 2.0, xtol=1e-15)
+    >>> round(r, 12), 1.0 in calls or 2.0 in calls
+    (1.414213562373, False)
+    """
+    from scipy.optimize import brentq
+
+    known = {float(a): float(fa), float(b): float(fb)}
+
+    def f(x):
+        v = known.pop(x, None)
+        return func(x) if v is None else v
+    return brentq(f, a, b, **kwargs)
 
 
 def illinois(func, a, b, fa, fb, iterations=40, xtol=1e-14, rtol=0.0, pick: str = "middle"):

@@ -17,7 +17,24 @@ from scipy.optimize import brentq
 from lowgmap.app.files.casefile import load_case, sample_case_path
 from lowgmap.physics.chart import composition
 from lowgmap.physics.chart.composition import Chart, _sign_change_roots
-from lowgmap.physics.roots import illinois
+from lowgmap.physics.roots import brentq_known, illinois
+
+
+def test_brentq_with_known_ends_is_brentq_with_two_evaluations_fewer():
+    # closed form: x^3 = c has the root c^(1/3). Catches a wrapper that answers an end with the other end's
+    # value (the bracket's signs swapped: another root, or an error), one that still evaluates the ends
+    # (nothing saved), and one that keeps answering from the given values after the first two calls.
+    for c, lo, hi in ((2.0, 1.0, 2.0), (10.0, 3.0, 2.0), (0.5, 0.1, 1.0)):
+        f_calls, k_calls = [], []
+
+        def f(x, calls):
+            calls.append(x)
+            return x ** 3 - c
+        ref = brentq(lambda x: f(x, f_calls), lo, hi, xtol=1e-15, rtol=1e-15)
+        got = brentq_known(lambda x: f(x, k_calls), lo, hi, lo ** 3 - c, hi ** 3 - c, xtol=1e-15, rtol=1e-15)
+        assert got == ref and abs(got - c ** (1 / 3)) < 1e-14
+        assert len(k_calls) == len(f_calls) - 2 and lo not in k_calls and hi not in k_calls
+        assert k_calls == f_calls[2:]
 
 
 def test_illinois_finds_each_root_in_its_own_bracket_whatever_the_ends_order():

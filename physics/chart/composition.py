@@ -72,7 +72,6 @@ from dataclasses import dataclass
 from typing import Callable, Mapping
 
 import numpy as np
-from scipy.optimize import brentq
 
 from lowgmap.physics import surrogates
 from lowgmap.physics.case import ModelChoice
@@ -84,7 +83,7 @@ from lowgmap.physics.models.boundary import BoundaryModel, resolve_model
 from lowgmap.physics.models.regimes import (CHAIN, ChainScheme, LinePiece, PartitionScheme, RegimeInfo,
                                             RegimeScheme)
 from lowgmap.physics.properties.groups import conduit_diameter, positive_flows
-from lowgmap.physics.roots import illinois
+from lowgmap.physics.roots import brentq_known, illinois
 
 __all__ = ["BoundaryCurve", "Intersection", "Region", "Axes", "Chart", "AXIS_KINDS", "DEFAULT_MODELS",
            "default_models", "RegimeInfo", "RegimeScheme", "ChainScheme", "PartitionScheme", "CHAIN",
@@ -876,7 +875,7 @@ def _clip_runs(f, t, u, v, xtol: float = 1e-14):
         if not (math.isfinite(ha) and math.isfinite(hb)) or ha * hb > 0:
             tt = b if abs(hb) < abs(ha) else a
         else:
-            tt = brentq(h, a, b, xtol=xtol * max(1.0, abs(a)), rtol=max(1e-13, xtol))
+            tt = brentq_known(h, a, b, ha, hb, xtol=xtol * max(1.0, abs(a)), rtol=max(1e-13, xtol))
         uu, vv = f(np.array([tt]))
         su, sv = _snap(float(uu[0]), float(vv[0]))
         return tt, su, sv
@@ -982,7 +981,7 @@ def _refine_crossing(runs, other, case, box, pu, pv):
     ta, tb = float(t[k]), float(t[k + 1])
     ga, gb = g(ta), g(tb)
     if math.isfinite(ga) and math.isfinite(gb) and ga * gb < 0:
-        tt = brentq(g, ta, tb, xtol=1e-14 * max(1.0, abs(ta)), rtol=1e-13)
+        tt = brentq_known(g, ta, tb, ga, gb, xtol=1e-14 * max(1.0, abs(ta)), rtol=1e-13)
         uu, vv = f(np.array([tt]))
         nu, nv = float(uu[0]), float(vv[0])
         if not (math.isfinite(nu) and math.isfinite(nv)) or _outside(nu, nv) > 1e-9:

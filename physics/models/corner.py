@@ -74,13 +74,13 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy.interpolate import CubicSpline, PchipInterpolator
-from scipy.optimize import brentq
 
 from lowgmap.physics import cache, surrogates
 from lowgmap.physics.models import bubbles as bb
 from lowgmap.physics.models.boundary import BoundaryModel, Constant, register
 from lowgmap.physics.models.regimes import LinePiece, PartitionScheme, RegimeInfo
 from lowgmap.physics.properties.groups import positive_flows
+from lowgmap.physics.roots import brentq_known
 
 __all__ = [
     "ISOLATED_CARRIED", "ISOLATED_SEPARATED", "MERGING_SEPARATED", "MERGING_CARRIED", "BLOW_THROUGH",
@@ -1205,7 +1205,7 @@ def _roots(fun, lo, hi, n=241):
         if a == 0.0:
             out.append((float(x[i]), b > 0))
         else:
-            xr = brentq(lambda t: float(fun(np.array([t]))[0]), x[i], x[i + 1], xtol=1e-14, rtol=1e-13)
+            xr = brentq_known(lambda t: float(fun(np.array([t]))[0]), x[i], x[i + 1], a, b, xtol=1e-14, rtol=1e-13)
             out.append((xr, b > a))
     return out
 
