@@ -94,7 +94,7 @@ class ChartPane(pn.viewable.Viewer):
         self.log_axes = session.doc.settings.log_axes
         self._dragging = False
         self.src_regions = ColumnDataSource(dict(xs=[], ys=[], colour=[], name=[]))
-        #: the regions' hatching, a glyph of its own: empty while a slider is dragged (see :meth:`preview_frame`)
+        #: the regions' hatching, a glyph of its own: hidden while a slider is dragged (see :meth:`preview_frame`)
         self.src_region_hatch = ColumnDataSource(dict(xs=[], ys=[], colour=[], hatch=[]))
         self.src_region_labels = ColumnDataSource(dict(x=[], y=[], text=[], align=[]))
         self.src_valid = ColumnDataSource(dict(xs=[], ys=[], colour=[], dash=[], width=[], label=[], source=[]))
@@ -368,10 +368,12 @@ class ChartPane(pn.viewable.Viewer):
         the page about a sixth of its time per frame on a machine that draws without a graphics processor
         (15-16 against 18 frames per second on the wedge sample, 18 against 22 on the tube sample, measured
         with tests/perf/bench_morph.py). Their colours and names stay; the hatching comes back with the chart
-        in effect on release. The hatching is a glyph of its own, emptied once when a drag starts: bokeh makes a
-        pattern canvas for every region and every variant of a hatched glyph (selected, not selected, muted,
-        decimated) whenever its data change, which a blank column or a blank pattern of the glyph alone does
-        not avoid.
+        in effect on release. The hatching is a glyph of its own, hidden when a drag starts and left with the
+        data of the chart in effect until the release: bokeh makes a pattern canvas for every region and every
+        variant of a hatched glyph (selected, not selected, muted, decimated) whenever its data change, which a
+        blank column or a blank pattern of the glyph alone does not avoid. (Emptying its data instead makes
+        bokeh 3.9 fail while painting, "Out of bounds: 0 <= 0 < 0", and leave the title and tick labels
+        unpainted.)
         """
         return dict(self.frame_of(doc, chart), flat=True)
 
@@ -391,10 +393,13 @@ class ChartPane(pn.viewable.Viewer):
         self._view = f["view"]
         regions = f["regions"]
         self.src_regions.data = {k: regions[k] for k in ("xs", "ys", "colour", "name")}
-        if not f.get("flat"):
+        flat = bool(f.get("flat"))
+        if not flat:
             self.src_region_hatch.data = {k: regions[k] for k in ("xs", "ys", "colour", "hatch")}
-        elif self.src_region_hatch.data["xs"]:            # a preview: no hatching (emptied once per drag)
-            self.src_region_hatch.data = {k: [] for k in ("xs", "ys", "colour", "hatch")}
+        for renderers in self._renderers.values():     # a preview: the hatching hidden (once per drag), unchanged
+            hatching = renderers["region-hatching"]
+            if hatching.visible == flat:
+                hatching.visible = not flat
         for src, name in ((self.src_region_labels, "region_labels"),
                           (self.src_valid, "valid"), (self.src_invalid, "invalid"),
                           (self.src_line_labels, "line_labels"), (self.src_bands, "bands")):

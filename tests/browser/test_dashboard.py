@@ -347,6 +347,68 @@ def test_a_paused_drag_shows_the_sliders_value_in_the_typed_field(page):
     assert field.input_value() == shown
 
 
+# JavaScript: the strips of the visible figure's canvas above its plot frame (the title) and left of it (the tick
+# labels and the axis label), in page coordinates.
+_STRIPS_JS = """
+() => {
+  const seen = new Set();
+  let found = null;
+  function walk(v) {
+    if (!v || seen.has(v) || found) return;
+    seen.add(v);
+    if (v.frame && v.canvas_view && v.model && v.model.visible !== false) {
+      const r = v.canvas_view.el.getBoundingClientRect();
+      const f = v.frame.bbox;
+      if (r.width > 0) {
+        found = {title: {x: r.left + f.left, y: r.top + 2, width: f.width, height: Math.max(f.top - 30, 8)},
+                 axis: {x: r.left + 2, y: r.top + f.top, width: f.left - 4, height: f.height}};
+      }
+    }
+    let kids = [];
+    try { kids = Array.from(v.child_views || []); } catch (e) {}
+    for (const c of kids) walk(c);
+  }
+  for (const v of Object.values(Bokeh.index)) walk(v);
+  return found;
+}
+"""
+
+
+def _dark_pixels(pg, clip) -> int:
+    """Pixels of the screenshot within ``clip`` darker than mid-grey (text)."""
+    from matplotlib import image
+
+    rgb = image.imread(io.BytesIO(pg.screenshot(clip=clip)), format="png")[..., :3]
+    return int((rgb.mean(axis=-1) < 0.4).sum())
+
+
+def test_a_drag_and_its_release_raise_no_script_error_and_leave_the_title_and_tick_labels_drawn(page):
+    # Catches: a chart update that makes bokeh fail while painting (an emptied hatched glyph did: "Out of bounds:
+    # 0 <= 0 < 0"), which leaves the plot's title and tick labels unpainted for the rest of the drag and after
+    # the release, with no message on the page.
+    errors: list[str] = []
+    page.on("pageerror", lambda e: errors.append(str(e)))
+
+    def painted() -> tuple[int, int]:
+        page.evaluate(_TWO_FRAMES)
+        strips = page.evaluate(_STRIPS_JS)
+        return _dark_pixels(page, strips["title"]), _dark_pixels(page, strips["axis"])
+
+    before = painted()
+    assert min(before) > 30, before                # the title and the tick labels are drawn at the start
+    x0, y0 = _grab(page, "slider-section-diameter")
+    label = page.locator(".live-status-pane").first
+    for k in range(1, 9):
+        page.mouse.move(x0 - 4 * k, y0)
+    expect(label).to_contain_text("Preview while Diameter is dragged")
+    during = painted()
+    page.mouse.up()
+    expect(label).to_be_hidden()
+    after = painted()
+    assert not errors, errors
+    assert min(during) > 0.5 * min(before) and min(after) > 0.5 * min(before), (before, during, after)
+
+
 # JavaScript: the plot frame of the visible figure on the page, the first line's colour and its key entry text.
 _FRAME_JS = """
 () => {
