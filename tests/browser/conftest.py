@@ -74,13 +74,18 @@ def browser():
 
 @pytest.fixture()
 def page(browser, server):
+    """A fresh page on the served sample; a script error raised in it during the test fails the test (bokeh
+    stops painting the plot where it fails, with no message on the page)."""
     ctx = browser.new_context(viewport={"width": 1600, "height": 1100}, accept_downloads=True)
     pg = ctx.new_page()
+    errors: list[str] = []
+    pg.on("pageerror", lambda e: errors.append(str(e)))
     pg.set_default_timeout(30_000)
     pg.goto(server)
     wait_ready(pg)
     yield pg
     ctx.close()
+    assert not errors, f"script errors in the page: {errors}"
 
 
 def wait_ready(pg):
