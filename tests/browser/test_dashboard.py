@@ -347,9 +347,10 @@ def test_a_paused_drag_shows_the_sliders_value_in_the_typed_field(page):
     assert field.input_value() == shown
 
 
-# JavaScript: the strips of the visible figure's canvas above its plot frame (the title) and left of it (the tick
-# labels and the axis label), in page coordinates.
-_STRIPS_JS = """
+def _on_visible_plot(body: str) -> str:
+    """JavaScript giving ``body(v, r)`` for the figure shown on the page: ``v`` its plot view, ``r`` its canvas's
+    rectangle in the page (``body`` is a JavaScript function)."""
+    return """
 () => {
   const seen = new Set();
   let found = null;
@@ -358,11 +359,7 @@ _STRIPS_JS = """
     seen.add(v);
     if (v.frame && v.canvas_view && v.model && v.model.visible !== false) {
       const r = v.canvas_view.el.getBoundingClientRect();
-      const f = v.frame.bbox;
-      if (r.width > 0) {
-        found = {title: {x: r.left + f.left, y: r.top + 2, width: f.width, height: Math.max(f.top - 30, 8)},
-                 axis: {x: r.left + 2, y: r.top + f.top, width: f.left - 4, height: f.height}};
-      }
+      if (r.width > 0) found = (BODY)(v, r);
     }
     let kids = [];
     try { kids = Array.from(v.child_views || []); } catch (e) {}
@@ -371,7 +368,16 @@ _STRIPS_JS = """
   for (const v of Object.values(Bokeh.index)) walk(v);
   return found;
 }
-"""
+""".replace("BODY", body)
+
+
+# JavaScript: the strips of the visible figure's canvas above its plot frame (the title) and left of it (the tick
+# labels and the axis label), in page coordinates.
+_STRIPS_JS = _on_visible_plot("""(v, r) => {
+  const f = v.frame.bbox;
+  return {title: {x: r.left + f.left, y: r.top + 2, width: f.width, height: Math.max(f.top - 30, 8)},
+          axis: {x: r.left + 2, y: r.top + f.top, width: f.left - 4, height: f.height}};
+}""")
 
 
 def _dark_pixels(pg, clip) -> int:
@@ -410,32 +416,14 @@ def test_a_drag_and_its_release_raise_no_script_error_and_leave_the_title_and_ti
 
 
 # JavaScript: the plot frame of the visible figure on the page, the first line's colour and its key entry text.
-_FRAME_JS = """
-() => {
-  const seen = new Set();
-  let found = null;
-  function walk(v) {
-    if (!v || seen.has(v) || found) return;
-    seen.add(v);
-    if (v.frame && v.canvas_view && v.model && v.model.visible !== false) {
-      const r = v.canvas_view.el.getBoundingClientRect();
-      if (r.width > 0) {
-        const lines = v.model.renderers.find(x => x.name === 'boundaries');
-        const legend = [...v.model.below, ...v.model.center].find(l => l.items !== undefined);
-        const item = legend.items.find(i => i.visible && i.renderers[0].name === 'key: boundaries');
-        found = {x: r.left + v.frame.bbox.left + 2, y: r.top + v.frame.bbox.top + 2,
-                 width: v.frame.bbox.width - 4, height: v.frame.bbox.height - 4,
-                 colour: lines.data_source.data.colour[0], label: item.label.value};
-      }
-    }
-    let kids = [];
-    try { kids = Array.from(v.child_views || []); } catch (e) {}
-    for (const c of kids) walk(c);
-  }
-  for (const v of Object.values(Bokeh.index)) walk(v);
-  return found;
-}
-"""
+_FRAME_JS = _on_visible_plot("""(v, r) => {
+  const lines = v.model.renderers.find(x => x.name === 'boundaries');
+  const legend = [...v.model.below, ...v.model.center].find(l => l.items !== undefined);
+  const item = legend.items.find(i => i.visible && i.renderers[0].name === 'key: boundaries');
+  return {x: r.left + v.frame.bbox.left + 2, y: r.top + v.frame.bbox.top + 2,
+          width: v.frame.bbox.width - 4, height: v.frame.bbox.height - 4,
+          colour: lines.data_source.data.colour[0], label: item.label.value};
+}""")
 
 
 _TWO_FRAMES = "() => new Promise(r => requestAnimationFrame(() => requestAnimationFrame(r)))"
