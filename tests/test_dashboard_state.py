@@ -17,6 +17,7 @@ import weakref
 import param
 import pytest
 
+from lowgmap.app.dashboard.display import is_shown
 from lowgmap.app.files.casefile import dumps_case, load_case, loads_case, sample_case_path
 from lowgmap.physics.chart.composition import Chart
 from lowgmap.physics.chart.margins import point_margins
@@ -243,10 +244,10 @@ def test_point_outside_the_chart_range_is_stated_in_words(doc):
 
     s = _session(doc)
     table = MarginTable(s)
-    assert not table.outside.visible
+    assert not is_shown(table.outside)
     s.move_point(3e-3 / 60, 500e-3 / 60)                                  # Q_G 500 L/min; range ends at 100
     assert s.margins.outside_chart
-    assert table.outside.visible
+    assert is_shown(table.outside)
     assert ("The operating point lies outside the drawn chart range (Q_G above 100 L/min): margins are "
             "computed on lines sampled around the point; widen the chart range to see it.") in table.outside.value
 
@@ -651,14 +652,15 @@ def test_worst_case_and_bands_come_from_the_background_and_stale_results_are_dro
     s = _session(doc, runner)
     s.move_point(5e-5, 1e-5)                            # job 1: the move
     table = MarginTable(s)                              # job 2: the worst case of the study before the move
-    assert s.worst_case_state == "computing" and "computing worst case" in table.worst_notice.value
+    assert s.worst_case_state == "computing" and "computing worst case" in table.worst_notice.value \
+        and is_shown(table.worst_notice)
     assert "worst-case" not in table.pane.value
     runner.step()
     runner.step()                                       # a result for the old point: dropped, the new one next
     assert s.worst_case is None and s.worst_case_state == "computing" and len(runner.jobs) == 1
     runner.step()
     want = worst_case_margins(s.chart, 5e-5, 1e-5)
-    assert s.worst_case_state == "ready" and not table.worst_notice.visible
+    assert s.worst_case_state == "ready" and not is_shown(table.worst_notice)
     assert f"data-worst-margin='{want.worst_case:.9g}'" in table.pane.value
     pane = ChartPane(s)
     s.show_bands = True
@@ -961,3 +963,54 @@ def test_background_results_go_to_their_own_pool_and_the_jobs_a_person_waits_for
     runner.step()
     s.show_bands = True                                            # the bands: background too
     assert runner.background == [0] and len(runner.jobs) == 1 and s.bands_state == "computing"
+
+
+#: Properties whose change makes bokeh lay out the whole page again (LayoutDOMView in bokeh 3.9).
+_RELAYOUT_PROPS = {"visible", "css_classes", "stylesheets", "width", "height", "min_width", "min_height",
+                   "max_width", "max_height", "margin", "sizing_mode", "width_policy", "height_policy",
+                   "aspect_ratio", "flow_mode", "resizable", "children"}
+
+
+def test_a_drag_its_release_and_the_background_work_lay_out_no_part_of_the_page_again():
+    # Catches: a status line shown or hidden by `visible` (the preview status, the "working" line and its spinner,
+    # the worst-case notice), or a pane whose update changes its stylesheets (the chart warnings as an Alert):
+    # in the page, each such change lays the whole page out again (85-150 ms each in Chromium on a 2-core
+    # machine; ten of them followed every release before, most of the release-to-final time). The lines must
+    # still come and go as a person sees them (shown and hidden by style).
+    import gc
+
+    from bokeh.document import Document
+    from bokeh.models import LayoutDOM
+
+    from lowgmap.app.dashboard import create_app
+    from lowgmap.app.dashboard.chartpane import ChartPane
+
+    page = create_app(sample_case_path("wedge_separator"))
+    bokeh_doc = Document()
+    page.server_doc(bokeh_doc)
+    s = page.lowgmap_session
+    pane = next(o for o in gc.get_objects() if isinstance(o, ChartPane) and o.session is s)
+
+    def by_class(css):
+        found = [m for m in bokeh_doc.models if css in getattr(m, "css_classes", ())]
+        assert len(found) == 1, css
+        return found[0]
+    live, working, worst = by_class("live-status-pane"), by_class("session-activity"), by_class("worst-case-notice")
+    changed, working_shown = [], []
+
+    def on_change(event):
+        if isinstance(getattr(event, "model", None), LayoutDOM) and getattr(event, "attr", None) in _RELAYOUT_PROPS:
+            changed.append((type(event.model).__name__, event.attr, event.model.css_classes))
+        working_shown.append(is_shown(working))
+    bokeh_doc.on_change(on_change)
+    for text in ("6.5 deg", "7 deg"):                           # two frames of a drag of the half-angle slider
+        s.preview({"section.half_angle": text}, key="section.half_angle", label="Corner half-angle", text=text,
+                  display=pane.preview_frame)
+        assert is_shown(live) and "Preview while Corner half-angle" in live.text
+    s.end_preview()                                             # released: the value is applied as an edit
+    s.edit({"section.half_angle": "7 deg"}, key="section.half_angle", label="Corner half-angle")
+    assert s.live is None and s.get("section.half_angle") == "7 deg" and s.worst_case_state == "ready"
+    assert changed == []
+    assert any(working_shown) and "Applying Corner half-angle" in working.text   # the working line came ...
+    assert not is_shown(working) and not is_shown(live) and not is_shown(worst)  # ... and all three are gone
+    assert "worst-case" in by_class("margin-pane").text

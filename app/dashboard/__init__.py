@@ -43,6 +43,7 @@ from pathlib import Path
 import panel as pn
 
 from lowgmap.app import CAUTION, __version__
+from lowgmap.app.dashboard.display import HIDDEN, set_shown
 
 from lowgmap.app.files.casefile import load_case, sample_case_path
 
@@ -87,6 +88,8 @@ def _requested_case(default: Path | None):
 _LAYOUT_CSS = """
 .lowgmap-caution {background: #fff3cd; border: 2px solid #8B0000; color: #8B0000; font-weight: bold;
                   padding: 3px 8px; border-radius: 4px; font-size: 12px;}
+.lowgmap-warnings {background: #fff3cd; border: 1px solid #f0d68a; color: #664d03; border-radius: 4px;
+                   margin: 0; padding: 10px 12px 10px 30px; font-size: 13px; line-height: 1.45;}
 """
 
 #: Accessible names for the controls of the page whose widgets draw none themselves (bokeh's checkbox,
@@ -170,8 +173,12 @@ def create_app(case_path: str | Path | None = None):
     margins = MarginTable(session)
     points = TestPointsPanel(session, chart)
     export = ExportPanel(session, points)
-    warnings = pn.pane.Alert("", alert_type="warning", sizing_mode="stretch_width", css_classes=["chart-warnings"])
+    # a text widget shown and hidden by style: its words change with most edits, and a pane's change (or a
+    # change of `visible`) lays the whole page out again (display.py)
+    warnings = pn.widgets.StaticText(value="", sizing_mode="stretch_width", css_classes=["chart-warnings"],
+                                     stylesheets=[_LAYOUT_CSS], styles=dict(HIDDEN), margin=(6, 10))
     activity = Working("session-activity")
+    chart.add_status(activity)
     unexpected = pn.pane.Alert("", alert_type="danger", visible=False, sizing_mode="stretch_width",
                                css_classes=["unexpected-problem"])
 
@@ -179,8 +186,12 @@ def create_app(case_path: str | Path | None = None):
         if session.closed:
             return
         w = session.chart.warnings
-        warnings.object = "\n".join(f"- {x}" for x in w)
-        warnings.visible = bool(w)
+        if w:
+            text = "".join(f"<li>{html.escape(x)}</li>" for x in w)
+            text = f"<ul class='lowgmap-warnings'>{text}</ul>"
+            if warnings.value != text:
+                warnings.value = text
+        set_shown(warnings, bool(w))
 
     def show_activity(*_):
         activity.show(session.activity if session.busy else "")
@@ -196,7 +207,7 @@ def create_app(case_path: str | Path | None = None):
     # the chart takes the width the point column leaves; the margin table and test points run the full
     # width below it, so nothing is wider than a 1280 px window
     chart_tab = pn.Column(
-        pn.Row(pn.Column(activity, chart, warnings, sizing_mode="stretch_width", min_width=360),
+        pn.Row(pn.Column(chart, warnings, sizing_mode="stretch_width", min_width=360),
                pn.Column(verdict, point, width=330, css_classes=["point-column"]), sizing_mode="stretch_width"),
         margins,
         pn.Row(pn.Column(points, sizing_mode="stretch_width", min_width=300),

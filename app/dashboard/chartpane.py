@@ -35,6 +35,7 @@ from bokeh.models import (ColumnDataSource, CustomJS, HoverTool, Label, Legend, 
                           Range1d)
 from bokeh.plotting import figure
 
+from lowgmap.app.dashboard.display import HIDDEN, set_shown
 from lowgmap.app.outputs.chartview import BAND_KEY_TEXT, chart_view, line_label_positions
 from lowgmap.app.outputs.styles import DISAGREE_COLOUR, OPERATING_POINT_COLOUR, platform_marker
 from lowgmap.app.files.units import convert
@@ -50,6 +51,8 @@ BOX_MIN_PX = 36
 _FRAME_PX = 600
 #: Most key entries shown in one column (a longer key takes two, so the plot keeps its height).
 LEGEND_ONE_COLUMN = 8
+#: Height kept above the plot for the status lines [px]: one preview status line or one "working" line.
+STATUS_SLOT_PX = 30
 #: Height of the chart with its key [px]: it fits an 800 px window below the header, caution line and tabs.
 CHART_HEIGHT = 620
 
@@ -128,22 +131,27 @@ class ChartPane(pn.viewable.Viewer):
                           for name, src in self._shared_source.items()}
         # texts that change with every frame are widgets: a widget sends only its changed property, while
         # a pane update makes bokeh walk the whole document's model graph (tens of ms per update)
-        self.live_status = pn.widgets.StaticText(value="", visible=False, sizing_mode="stretch_width",
+        # shown and hidden by style, not by `visible` (which lays the whole page out again: display.py)
+        self.live_status = pn.widgets.StaticText(value="", styles=dict(HIDDEN), sizing_mode="stretch_width",
                                                  stylesheets=[LIVE_CSS], css_classes=["live-status-pane"],
                                                  margin=(2, 10))
         self.bands_toggle = pn.widgets.Checkbox(label="Show uncertainty bands of the lines", value=session.show_bands,
                                                 css_classes=["bands-toggle"])
         self.exact_toggle = pn.widgets.Checkbox(label="Full solves (exact, slower)", value=session.exact,
                                                 css_classes=["exact-toggle"])
-        self.extras_notice = pn.widgets.StaticText(value="", visible=False, stylesheets=[LIVE_CSS],
+        self.extras_notice = pn.widgets.StaticText(value="", styles=dict(HIDDEN), stylesheets=[LIVE_CSS],
                                                    css_classes=["bands-notice"], margin=(2, 10))
         self.bands_toggle.param.watch(lambda e: setattr(session, "show_bands", bool(e.new)), "value")
         self.exact_toggle.param.watch(self._exact_switched, "value")
         # the chart takes the width the point column leaves, and a height that fits a 800 px window
         # below the header, caution line and tabs
+        # one line kept for the status lines above the plot (the preview status and the page's "working" line,
+        # :meth:`add_status`), so the plot does not move when one comes or goes
+        self.status_slot = pn.Column(self.live_status, min_height=STATUS_SLOT_PX, sizing_mode="stretch_width",
+                                     margin=0, css_classes=["chart-status-slot"])
         self._layout = pn.Column(pn.Row(self.bands_toggle, self.exact_toggle, self.extras_notice,
                                         sizing_mode="stretch_width", margin=(0, 0)),
-                                 self.live_status,
+                                 self.status_slot,
                                  pn.pane.Bokeh(self.figs[True], sizing_mode="stretch_width"),
                                  pn.pane.Bokeh(self.figs[False], sizing_mode="stretch_width"),
                                  sizing_mode="stretch_width")
@@ -156,6 +164,11 @@ class ChartPane(pn.viewable.Viewer):
         self.param.watch(lambda *_: self._held(self._toggle_scale), ["log_axes"])
         self.src_point.on_change("data", self._on_point_released)
         self._toggle_scale()
+
+    def add_status(self, viewable) -> None:
+        """Put a status line of the page (shown and hidden by :func:`~lowgmap.app.dashboard.display.set_shown`)
+        in the line kept above the plot, before the preview status."""
+        self.status_slot.insert(0, viewable)
 
     def _exact_switched(self, event):
         if bool(event.new) != self.session.exact:
@@ -172,8 +185,9 @@ class ChartPane(pn.viewable.Viewer):
         notice = "computing bands…" if s.show_bands and s.bands_state == "computing" else (
             "no line of this chart has a banded constant" if s.show_bands and s.bands_state == "none" else (
                 s.extras_problem if s.show_bands and s.bands_state == "failed" else ""))
-        self.extras_notice.value = f"<span class='extras-notice'>{html.escape(notice)}</span>" if notice else ""
-        self.extras_notice.visible = bool(notice)
+        if notice:
+            self.extras_notice.value = f"<span class='extras-notice'>{html.escape(notice)}</span>"
+        set_shown(self.extras_notice, bool(notice))
         if self.bands_toggle.value != s.show_bands:
             self.bands_toggle.value = s.show_bands
         drawn = bool(self.src_bands.data["xs"])
@@ -476,7 +490,7 @@ class ChartPane(pn.viewable.Viewer):
             return
         live = s.live
         if live is None:
-            self.live_status.param.update(value="", visible=False)
+            set_shown(self.live_status, False)   # the words stay while hidden: hiding sends one style
             for label in self._live_labels.values():
                 label.visible = False
             if self._showing_preview:
@@ -498,8 +512,9 @@ class ChartPane(pn.viewable.Viewer):
             elif label.visible:
                 label.visible = False
         status = live_html(live, s.doc.settings)
-        if self.live_status.value != status or not self.live_status.visible:
-            self.live_status.param.update(value=status, visible=True)
+        if self.live_status.value != status:
+            self.live_status.value = status
+        set_shown(self.live_status, True)
 
     def refresh_point(self):
         s = self.session

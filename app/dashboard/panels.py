@@ -24,6 +24,7 @@ import panel as pn
 
 from lowgmap.app.dashboard import uploads
 from lowgmap.app.dashboard.background import worker_pool
+from lowgmap.app.dashboard.display import HIDDEN, set_shown
 from lowgmap.app.dashboard.inputs import FIELD_CSS, FieldView
 from lowgmap.app.files.units import UnitError, convert, parse_flow
 from lowgmap.app.outputs.tables import MARGIN_CSS, margin_table_html
@@ -49,20 +50,36 @@ _NOTE_CSS = """
 """
 
 
+#: The "working" line: a turning ring drawn by CSS before the words (no widget of its own to show and hide).
+WORKING_CSS = """
+.working-spinner {display: inline-block; box-sizing: border-box; width: 13px; height: 13px; margin-right: 7px;
+                  vertical-align: -2px; border: 2px solid #c9d6e3; border-top-color: #1f3b57; border-radius: 50%;
+                  animation: lowgmap-turn 0.9s linear infinite;}
+@keyframes lowgmap-turn {to {transform: rotate(360deg);}}
+"""
+
+
 class Working(pn.viewable.Viewer):
-    """A "working…" line: a spinner and what is being done (hidden when idle)."""
+    """A "working…" line: a turning ring and what is being done (hidden when idle).
+
+    One text element shown and hidden through its ``display`` style (:mod:`~lowgmap.app.dashboard.display`):
+    the line comes and goes with every edit, and a change of ``visible`` would lay the whole page out again.
+    """
 
     def __init__(self, css: str, **params):
         super().__init__(**params)
-        self.spinner = pn.indicators.LoadingSpinner(value=False, size=18, visible=False, margin=(4, 6))
-        self.text = pn.widgets.StaticText(value="", visible=False, css_classes=[css], margin=(4, 0))
+        self.text = pn.widgets.StaticText(value="", css_classes=[css], stylesheets=[WORKING_CSS],
+                                          styles=dict(HIDDEN), margin=(4, 6), sizing_mode="stretch_width")
 
     def show(self, text: str) -> None:
-        self.text.param.update(value=f"<span>{html.escape(text)}</span>" if text else "", visible=bool(text))
-        self.spinner.value = self.spinner.visible = bool(text)
+        if text:
+            value = f"<span class='working-spinner'></span><span>{html.escape(text)}</span>"
+            if self.text.value != value:
+                self.text.value = value
+        set_shown(self.text, bool(text))      # the words stay while hidden: hiding sends one style
 
     def __panel__(self):
-        return pn.Row(self.spinner, self.text, sizing_mode="stretch_width")
+        return self.text
 
 
 def outside_chart_words(margins, doc) -> str:
@@ -435,9 +452,10 @@ class MarginTable(pn.viewable.Viewer):
         self.pane = pn.widgets.StaticText(value="", sizing_mode="stretch_width", css_classes=["margin-pane"],
                                           stylesheets=[MARGIN_CSS])
         self.outside = pn.widgets.StaticText(value="", sizing_mode="stretch_width", css_classes=["outside-chart-pane"],
-                                             stylesheets=[_NOTE_CSS], visible=False)
-        self.worst_notice = pn.widgets.StaticText(value="", sizing_mode="stretch_width",
-                                                  css_classes=["worst-case-notice"], visible=False, margin=(0, 10))
+                                             stylesheets=[_NOTE_CSS], styles=dict(HIDDEN))
+        # shown and hidden by style: the notice comes and goes after every edit (display.py)
+        self.worst_notice = pn.widgets.StaticText(value="", sizing_mode="stretch_width", styles=dict(HIDDEN),
+                                                  css_classes=["worst-case-notice"], margin=(0, 10))
         session.param.watch(lambda *_: self.refresh(), ["margins", "required_margin", "worst_case",
                                                         "worst_case_state"])
         session.want_worst_case()     # the worst case over the bands, computed in the background
@@ -454,10 +472,13 @@ class MarginTable(pn.viewable.Viewer):
             notice = "computing worst case… (the margin to the near edge of each line's band, in the background)"
         elif s.worst_case_state == "failed":
             notice = s.extras_problem
-        self.worst_notice.param.update(value=f"<i>{html.escape(notice)}</i>" if notice else "", visible=bool(notice))
+        if notice:
+            self.worst_notice.value = f"<i>{html.escape(notice)}</i>"
+        set_shown(self.worst_notice, bool(notice))      # the words stay while hidden: hiding sends one style
         words = outside_chart_words(s.margins, s.doc)
-        self.outside.param.update(value=f"<div class='outside-chart'>{html.escape(words)}</div>" if words else "",
-                                  visible=bool(words))
+        if words:
+            self.outside.value = f"<div class='outside-chart'>{html.escape(words)}</div>"
+        set_shown(self.outside, bool(words))
 
     def __panel__(self):
         return pn.Column(pn.pane.Markdown("#### Margins to every boundary", margin=(0, 10)), self.outside, self.pane,
