@@ -587,6 +587,43 @@ def test_slider_path_and_typed_path_give_the_same_case_and_the_same_numbers():
                                         f"{preview.regime}, ±{format_percent(preview.margins.symmetric_margin)}")
 
 
+def test_the_next_preview_is_computed_while_one_is_drawn_and_an_older_one_never_covers_a_newer(doc):
+    # Catches: the next value's chart asked for only after the last one is drawn (the server then draws a frame
+    # in the sum of the two times instead of the longer: about 13 instead of 16 frames a second for the wedge),
+    # and, once the next job starts first, an older result drawn over a newer one that a runner finished
+    # meanwhile (a runner working inline finishes the next job before returning).
+    runner = StepRunner()
+    s = _session(doc, runner)
+    queued_when_drawn = []
+    s.param.watch(lambda e: queued_when_drawn.append((e.new.text, len(runner.jobs))) if e.new else None, "live")
+
+    def ask(mm):
+        s.preview({"section.diameter": f"{mm} mm"}, key="section.diameter", label="Diameter", text=f"{mm} mm")
+    ask(13)
+    ask(14)                                            # asked for while 13 mm is computed
+    runner.step()
+    assert queued_when_drawn == [("13 mm", 1)]         # 14 mm was on its way when 13 mm was drawn
+    runner.step()
+    assert s.live.text == "14 mm"
+
+    class InlineAfterFirst(StepRunner):
+        """Keeps the first job for the test; runs every later one at once (as an inline runner does)."""
+        def submit(self, work, done):
+            if self.jobs or getattr(self, "kept", False):
+                result = work()
+                done(result, None)
+            else:
+                self.kept = True
+                super().submit(work, done)
+
+    runner = InlineAfterFirst()
+    s = _session(doc, runner)
+    ask(13)
+    ask(15)
+    runner.step()                                      # 13 mm done; 15 mm computed and drawn inside that step
+    assert s.live.text == "15 mm" and abs(s.live.chart.case.section.diameter - 0.015) < 1e-12
+
+
 def test_previews_are_coalesced_the_latest_value_wins_and_stale_ones_are_dropped(doc):
     # Catches: previews queued one per mouse event (the chart lagging seconds behind the slider), a stale
     # result drawn after a newer one or after the release, margins lagging behind the chart drawn, a

@@ -548,14 +548,18 @@ class Session(param.Parameterized):
         self._preview_busy = False
         if self._closed or self.runner is None:
             return
-        if req.seq > self._preview_dropped:            # not released since it was asked for
+        # the next value (if one was asked for meanwhile) is computed while this one is drawn: a frame then
+        # takes the longer of the two, not their sum. A runner that works inline has drawn that newer value
+        # by now, and this older one is not drawn over it.
+        self._preview_kick()
+        newer = self.live is not None and self.live.seq > req.seq
+        if req.seq > self._preview_dropped and not newer:     # not released since it was asked for
             if error is not None:
                 old = self.live
                 self.live = dataclasses.replace(req, doc=None, display=old.display if old else None,
                                                 chart=None, problem=_preview_problem(req, error))
             else:
                 self.live = result
-        self._preview_kick()
 
     # ------------------------------------------------------------------------------- full solves, bands
     def set_exact(self, on: bool, on_done=None) -> None:

@@ -77,8 +77,9 @@ _WORST_DONE_JS = """
 () => {
   let busy = false;
   const walk = (r) => r.querySelectorAll('*').forEach(e => {
+    // the words are drawn in the element's shadow root (its own text is empty)
     if (e.classList && e.classList.contains('worst-case-notice') && e.getClientRects().length
-        && (e.innerText || '').includes('computing')) busy = true;
+        && ((e.shadowRoot ? e.shadowRoot.textContent : e.textContent) || '').includes('computing')) busy = true;
     if (e.shadowRoot) walk(e.shadowRoot); });
   walk(document);
   return !busy;
