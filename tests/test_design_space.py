@@ -200,6 +200,30 @@ def test_adaptive_map_refines_only_cells_crossing_zero():
     assert gaps.min() < 0.3 / 4                                      # resolved below the start spacing
 
 
+def test_adaptive_map_resolves_the_required_margin_contour_when_asked():
+    """With margin = length - 1.1 and contours (0, 0.45), designs are added next to length 1.1 and next to 1.55
+    (the required-margin contour), and only there. Catches a map that refines the zero contour only (the
+    required-margin line then drawn across coarse cells, zigzagging by a start spacing) or that accepts a
+    non-numeric contour."""
+    import numpy as np
+
+    from lowgmap.physics.studies.design_space import adaptive_map
+
+    case = example_case(point=(1e-5, 1e-6))
+    f = lambda ds: np.array([d["length"] - 1.1 for d in ds])       # noqa: E731
+    m = adaptive_map(case, "length", (0.5, 1.7), "size", (0.005, 0.02), n_max=300, start=5, evaluate=f,
+                     contours=(0.0, 0.45))
+    added = m.x[m.levels > 0]
+    near = np.minimum(np.abs(added - 1.1), np.abs(added - 1.55))
+    assert np.all(near <= 0.3 + 1e-12)                               # within the start cells the lines cross
+    for line in (1.1, 1.55):
+        assert np.abs(m.x - line).min() < 0.3 / 4                      # resolved below the start spacing
+    only_zero = adaptive_map(case, "length", (0.5, 1.7), "size", (0.005, 0.02), n_max=300, start=5, evaluate=f)
+    assert np.abs(only_zero.x - 1.55).min() > 0.1                     # the default refines the zero contour only
+    with pytest.raises(ValueError, match="contours"):
+        adaptive_map(case, "length", (0.5, 1.7), "size", (0.005, 0.02), evaluate=f, contours=(float("nan"),))
+
+
 def test_adaptive_map_errors():
     """Catches silent acceptance of an empty or reversed range and a bad budget."""
     from lowgmap.physics.studies.design_space import adaptive_map

@@ -1,15 +1,17 @@
-"""Design tab of the dashboard: a small sweep over two case inputs and its margin map.
+"""Design tab of the dashboard: the margin of the operating point over two case inputs, refined near its contours.
 
 :class:`DesignTab` is a self-contained view: two inputs of the current case with ranges (text with
-units, defaults ±50 % around the case's values), a grid of at most 12 x 12 designs, a Run button,
-progress, and the margin map (matplotlib PNG, filled contours with the required-margin line and the
-current design marked) with the result table for download. The numbers come from
-:func:`lowgmap.physics.studies.sweep.sweep`'s engine, as for ``lowgmap sweep``.
+units, defaults ±50 % around the case's values), the number of designs to evaluate (25 to 400), a Run
+button, progress, and the margin map (matplotlib PNG: filled contours with the zero and required-margin
+lines, every evaluated design and the current design marked with its margin) with the result table for
+download. The map is :func:`lowgmap.physics.studies.sweep.sweep_map`: a starting grid that has the
+current design as a node, refined where the zero or the required-margin contour crosses a cell, each
+design evaluated by the engine of ``lowgmap sweep``. So the map's value at the current design is the
+margin table's, and a contour is drawn between designs on either side of it at the final spacing, not
+interpolated across a line between coarse grid nodes.
 
-The sweep runs in worker threads, a few designs at a time (``asyncio.to_thread``), so the server
-keeps answering other sessions; the progress bar moves between chunks. Open-section inputs that
-change the corner shape (half-angle, contact angle) build new open-channel tables (about 1.5 s per
-new value), so such a map takes some tens of seconds the first time.
+The map runs on a worker thread (``asyncio.to_thread``), so the server keeps answering other
+sessions; the progress bar follows the designs evaluated.
 """
 from __future__ import annotations
 
@@ -24,10 +26,12 @@ import param
 
 from lowgmap.app.files.units import UnitError, convert, to_si
 
-__all__ = ["DesignTab", "MAX_STEPS", "design_inputs"]
+__all__ = ["DesignTab", "MAX_DESIGNS", "MIN_DESIGNS", "design_inputs"]
 
-#: Largest number of grid points per variable.
-MAX_STEPS = 12
+#: Most designs of one map (and the default).
+MAX_DESIGNS = 400
+#: Fewest designs of one map (a 3 x 3 starting grid and room to refine it).
+MIN_DESIGNS = 25
 
 #: Inputs offered, with their quantity kind and display unit.
 _INPUTS = {
@@ -38,7 +42,10 @@ _INPUTS = {
     "residual_acceleration": ("residual acceleration", "acceleration", "g0"),
     "temperature": ("temperature", "temperature", "degC"),
 }
-_CHUNK = 6          # designs per worker-thread call
+
+
+class _Superseded(Exception):
+    """A newer map (or a change of the case) replaced the one being computed: stop it."""
 
 
 def design_inputs(case) -> dict[str, tuple[str, str, str, float]]:
@@ -87,14 +94,14 @@ class DesignTab(pn.viewable.Viewer):
         self.session = session
         self.result = None          # DataFrame of the last map
         self._task_token = 0
-        self.x_var = pn.widgets.Select(label="first input (x axis)", css_classes=["design-x"])
-        self.y_var = pn.widgets.Select(label="second input (y axis)", css_classes=["design-y"])
-        self.x_from = pn.widgets.TextInput(label="x from", css_classes=["design-x-from"], width=130)
-        self.x_to = pn.widgets.TextInput(label="x to", css_classes=["design-x-to"], width=130)
-        self.y_from = pn.widgets.TextInput(label="y from", css_classes=["design-y-from"], width=130)
-        self.y_to = pn.widgets.TextInput(label="y to", css_classes=["design-y-to"], width=130)
-        self.steps = pn.widgets.IntSlider(label="grid points per input", start=3, end=MAX_STEPS, value=8,
-                                          css_classes=["design-steps"])
+        self.x_var = pn.widgets.Select(label="first input (x axis)", css_classes=["design-x"], width=270)
+        self.y_var = pn.widgets.Select(label="second input (y axis)", css_classes=["design-y"], width=270)
+        self.x_from = pn.widgets.TextInput(label="x from", css_classes=["design-x-from"], width=115)
+        self.x_to = pn.widgets.TextInput(label="x to", css_classes=["design-x-to"], width=115)
+        self.y_from = pn.widgets.TextInput(label="y from", css_classes=["design-y-from"], width=115)
+        self.y_to = pn.widgets.TextInput(label="y to", css_classes=["design-y-to"], width=115)
+        self.budget = pn.widgets.IntSlider(label="designs to evaluate (refined near the contours)", start=MIN_DESIGNS,
+                                           end=MAX_DESIGNS, step=25, value=MAX_DESIGNS, css_classes=["design-budget"])
         self.run_button = pn.widgets.Button(label="Run design map", color="primary", css_classes=["design-run"])
         self.progress = pn.indicators.Progress(value=0, max=100, visible=False, sizing_mode="stretch_width",
                                                css_classes=["design-progress"])
@@ -142,25 +149,28 @@ class DesignTab(pn.viewable.Viewer):
             self.x_var.value, self.y_var.value = keep
             self.x_from.value, self.x_to.value, self.y_from.value, self.y_to.value = texts
 
-    def designs(self) -> list[dict]:
-        """The grid of designs (SI) from the form; ValueError/UnitError with a plain message."""
-        from lowgmap.physics.studies.sweep import grid
-
+    def ranges(self) -> dict:
+        """The two inputs and their ranges (SI) from the form: {name: (low, high)}; ValueError/UnitError with a
+        plain message."""
         xv, yv = self.x_var.value, self.y_var.value
         if xv == yv:
             raise ValueError("choose two different inputs")
-        n = int(self.steps.value)
-        if not 2 <= n <= MAX_STEPS:
-            raise ValueError(f"grid points per input must be within [2, {MAX_STEPS}], got {n}")
-        values = {}
+        n = int(self.budget.value)
+        if not MIN_DESIGNS <= n <= MAX_DESIGNS:
+            raise ValueError(f"designs to evaluate must be within [{MIN_DESIGNS}, {MAX_DESIGNS}], got {n}")
+        out = {}
         for name, lo_t, hi_t in ((xv, self.x_from.value, self.x_to.value), (yv, self.y_from.value, self.y_to.value)):
             _, kind, _, _ = self.inputs[name]
             lo = to_si(lo_t, kind, f"{name} from")
             hi = to_si(hi_t, kind, f"{name} to")
             if not hi > lo:
                 raise ValueError(f"{name}: 'to' must be above 'from' (got {lo_t!r} to {hi_t!r})")
-            values[name] = [float(v) for v in np.linspace(lo, hi, n)]
-        return grid(values)
+            out[name] = (float(lo), float(hi))
+        return out
+
+    def _log(self, name: str, rng) -> bool:
+        """Geometric spacing for a residual acceleration spanning more than a decade."""
+        return name == "residual_acceleration" and rng[0] > 0 and rng[1] / rng[0] > 10.0
 
     def _spec_args(self):
         s = self.session
@@ -174,27 +184,29 @@ class DesignTab(pn.viewable.Viewer):
         return doc, dict(point=point, regime=regime, required_margin=float(s.required_margin))
 
     # ----------------------------------------------------------------------------------- running
-    def run_sync(self):
-        """Compute the map in this thread (tests, scripts); returns the result DataFrame."""
-        from lowgmap.physics.studies.sweep import sweep
+    def _compute(self, ranges, doc, kw, progress=None):
+        """The map (worker thread): (DesignMap, DataFrame) of :func:`~lowgmap.physics.studies.sweep.sweep_map`."""
+        from lowgmap.physics.studies.sweep import sweep_map
 
         from lowgmap.app.files.studyfiles import fluid_spec
 
-        designs = self.designs()
+        (xv, xr), (yv, yr) = ranges.items()
+        return sweep_map(doc.case, xv, xr, yv, yr, n_max=int(self.budget.value), log_x=self._log(xv, xr),
+                         log_y=self._log(yv, yr), progress=progress, fluid_spec=fluid_spec(doc), **kw)
+
+    def run_sync(self):
+        """Compute the map in this thread (tests, scripts); returns the result DataFrame."""
+        ranges = self.ranges()
         doc, kw = self._spec_args()
-        df = sweep(doc.case, designs, fluid_spec=fluid_spec(doc), **kw)
-        self._show(df, kw)
+        _, df = self._compute(ranges, doc, kw)
+        self._show(df, kw, ranges)
         return df
 
     async def _on_run(self, event=None):
-        from lowgmap.physics.studies.sweep import SweepSpec, DesignEvaluator, tidy_results
-
-        from lowgmap.app.files.studyfiles import fluid_spec
-
         if self.running:
             return
         try:
-            designs = self.designs()
+            ranges = self.ranges()
         except (ValueError, UnitError) as exc:
             self.status.object = f"<p class='design-error' style='color:#8B0000'>{html.escape(str(exc))}</p>"
             return
@@ -204,24 +216,27 @@ class DesignTab(pn.viewable.Viewer):
         self.running = True
         self.run_button.disabled = True
         self.progress.value, self.progress.visible = 0, True
-        self.status.object = f"<p>Running {len(designs)} designs…</p>"
-        try:
-            spec = SweepSpec(doc.case, fluid_spec=fluid_spec(doc), **kw)
-            ev = DesignEvaluator(spec)
-            parts = []
-            for a in range(0, len(designs), _CHUNK):
-                part = await asyncio.to_thread(ev.evaluate_many, designs[a:a + _CHUNK], None, a)
-                if token != self._task_token:
-                    return
-                parts.append(part)
-                self.progress.value = int(100 * min(len(designs), a + _CHUNK) / len(designs))
-            import pandas as pd
+        self.status.object = f"<p>Running up to {int(self.budget.value)} designs…</p>"
+        done = [0, 1]
 
-            df = tidy_results(pd.concat(parts, ignore_index=True), designs, spec)
-            png = await asyncio.to_thread(self._map_png, df, kw)   # matplotlib off the event loop too
+        def progress(k, n):
+            if token != self._task_token:
+                raise _Superseded()
+            done[:] = [k, n]
+        try:
+            job = asyncio.ensure_future(asyncio.to_thread(self._compute, ranges, doc, kw, progress))
+            while not job.done():               # the progress bar follows the designs evaluated so far
+                await asyncio.wait({job}, timeout=0.25)
+                self.progress.value = int(100 * min(done[0], done[1]) / max(done[1], 1))
+            _, df = job.result()
             if token != self._task_token:
                 return
-            self._show(df, kw, png)
+            png = await asyncio.to_thread(self._map_png, df, kw, ranges)   # matplotlib off the event loop too
+            if token != self._task_token:
+                return
+            self._show(df, kw, ranges, png)
+        except _Superseded:
+            return
         except Exception as exc:  # shown in the page, never as a traceback
             self.status.object = f"<p class='design-error' style='color:#8B0000'>{html.escape(str(exc))}</p>"
         finally:
@@ -229,7 +244,7 @@ class DesignTab(pn.viewable.Viewer):
             self.run_button.disabled = False
             self.progress.visible = False
 
-    def _map_png(self, df, kw) -> bytes:
+    def _map_png(self, df, kw, ranges) -> bytes:
         """The margin map as PNG bytes (matplotlib; may run on a worker thread)."""
         from lowgmap.physics.studies.design import nominal_design_value
 
@@ -240,26 +255,42 @@ class DesignTab(pn.viewable.Viewer):
         units = {n: self.inputs[n][2] for n in (xv, yv)}
         case = self.session.doc.case
         base = (nominal_design_value(case, xv), nominal_design_value(case, yv))
+        log = tuple(self._log(n, r) for n, r in ranges.items())
         return margin_map_png(df, xv, yv, column="margin", required=kw["required_margin"], kinds=kinds,
-                              units=units, title=f"{case.title}: margin at the operating point", base=base)
+                              units=units, title=f"{case.title}: margin at the operating point", base=base, log=log)
 
-    def _show(self, df, kw, png: bytes | None = None):
+    def _show(self, df, kw, ranges, png: bytes | None = None):
         self.result = df
         xv, yv = self.x_var.value, self.y_var.value
         kinds = {n: self.inputs[n][1] for n in (xv, yv)}
         units = {n: self.inputs[n][2] for n in (xv, yv)}
-        self.image.object = png if png is not None else self._map_png(df, kw)
+        words = {n: self.inputs[n][0] for n in (xv, yv)}
+        self.image.object = png if png is not None else self._map_png(df, kw, ranges)
         ok = df[df["status"] == "ok"]
         meets = int(df["meets_required"].sum()) if "meets_required" in df else 0
         best = ok.loc[ok["margin"].idxmax()] if len(ok) and ok["margin"].notna().any() else None
+        added = int((df["level"] > 0).sum()) if "level" in df else 0
         text = (f"<div class='design-summary' data-designs='{len(df)}' data-meets='{meets}'>"
-                f"{len(df)} designs, {len(ok)} evaluated; <b>{meets}</b> keep the point in "
+                f"{len(df)} designs ({len(df) - added} on the starting grid, {added} added where a contour crosses "
+                f"a cell), {len(ok)} evaluated; <b>{meets}</b> keep the point in "
                 f"<i>{html.escape(str(kw['regime'] or 'its own regime'))}</i> with at least "
                 f"±{100 * kw['required_margin']:.0f} %.")
+        from lowgmap.physics.studies.design import nominal_design_value
+
+        case = self.session.doc.case
+        bx, by = nominal_design_value(case, xv), nominal_design_value(case, yv)
+        here = df[(df[xv] == bx) & (df[yv] == by)]
+        if len(here) and np.isfinite(here["margin"].iloc[0]):
+            m = float(here["margin"].iloc[0])
+            text += (f"<br>Current design ({words[xv]} {_text(bx, kinds[xv], units[xv])}, {words[yv]} "
+                     f"{_text(by, kinds[yv], units[yv])}): <span class='design-current'>{100 * m:+.1f} %</span> "
+                     f"(the margin table's margin; negative: outside the wanted regime).")
         if best is not None:
-            text += (f"<br>Best: {xv} {_text(best[xv], kinds[xv], units[xv])}, {yv} "
+            lines = {b.name: b.label for b in self.session.chart.boundaries}
+            limiting = lines.get(str(best["limiting"]), str(best["limiting"]))
+            text += (f"<br>Best: {words[xv]} {_text(best[xv], kinds[xv], units[xv])}, {words[yv]} "
                      f"{_text(best[yv], kinds[yv], units[yv])} → ±{100 * best['margin']:.1f} % "
-                     f"(limited by {html.escape(str(best['limiting']))}).")
+                     f"(limited by {html.escape(limiting)}).")
         bad = df[df["status"] != "ok"]
         if len(bad):
             text += f"<br>{len(bad)} designs could not be evaluated: {html.escape(str(bad.iloc[0]['status']))}"
@@ -277,6 +308,7 @@ class DesignTab(pn.viewable.Viewer):
                              "(other inputs as in the case)."),
             pn.Row(self.x_var, self.x_from, self.x_to),
             pn.Row(self.y_var, self.y_from, self.y_to),
-            self.steps, pn.Row(self.run_button, self.download), self.progress, self.status,
+            self.budget, pn.Row(self.run_button, self.download), self.progress, self.status,
             width=520)
-        return pn.Row(form, self.image, sizing_mode="stretch_width")
+        # the map under the form, as wide as it reads well (beside the form it was too small to read at 1280 px)
+        return pn.Column(form, self.image, sizing_mode="stretch_width")

@@ -12,13 +12,15 @@ line; PNG files are written at 300 dpi (:func:`figure_file_bytes`).
 from __future__ import annotations
 
 import math
+import textwrap
 from dataclasses import replace
 
 import numpy as np
 
 from lowgmap.app.files.studyfiles import to_display
 
-__all__ = ["margin_map_figure", "margin_map_png", "design_chart_bytes", "variable_label", "figure_file_bytes"]
+__all__ = ["margin_map_figure", "margin_map_png", "design_chart_bytes", "variable_label", "figure_file_bytes",
+           "map_triangles"]
 
 
 #: Design variables in words (keys of :data:`lowgmap.physics.studies.design_space.VARIABLES`).
@@ -119,6 +121,8 @@ def margin_map_figure(df, xvar: str, yvar: str | None, *, column: str = "margin"
         if log[0]:
             ax.set_xscale("log")
         ax.legend(fontsize=8, loc="best")
+    elif "level" in df.columns:
+        _scattered_map(fig, ax, df, xvar, yvar, column, required, disp, what, log)
     else:
         xs = np.unique(df[xvar].to_numpy(dtype=float))
         ys = np.unique(df[yvar].to_numpy(dtype=float))
@@ -147,20 +151,89 @@ def margin_map_figure(df, xvar: str, yvar: str | None, *, column: str = "margin"
             ax.scatter(X[~finite], Y[~finite], s=40, marker="x", color="#888888", zorder=3,
                        label="no margin (design invalid)")
             ax.legend(fontsize=8, loc="best")
+    if yvar is not None:
         if base is not None:
             bx, by = base
             if bx is not None and by is not None:
+                here = df[(df[xvar] == bx) & (df[yvar] == by)][column].to_numpy(dtype=float)
+                words = (f"current design: {100 * here[0]:+.1f} %" if here.size and np.isfinite(here[0])
+                         else "current design")
                 ax.scatter(disp(xvar, [bx]), disp(yvar, [by]), marker="*", s=200, color="#D55E00",
-                           edgecolor="black", zorder=4)
+                           edgecolor="black", zorder=4, label=words)
+        if "level" in df.columns:
+            ax.legend(fontsize=7.5, loc="upper left", bbox_to_anchor=(0.0, -0.09), ncols=2, frameon=False)
         ax.set_xlabel(label(xvar))
         ax.set_ylabel(label(yvar))
         if log[0]:
             ax.set_xscale("log")
         if log[1]:
             ax.set_yscale("log")
-    ax.set_title(title or f"{what} by design", fontsize=11, loc="left")
+    ax.set_title(textwrap.fill(title or f"{what} by design", 80), fontsize=11, loc="left")   # long case titles wrap
     add_footer(fig, fontsize=6.5)
     return fig
+
+
+def map_triangles(x, y, log=(False, False)) -> np.ndarray:
+    """Triangles (index triples) joining the designs of a refined map: a Delaunay triangulation of the points
+    scaled to the unit square of their ranges (geometric for a log axis), so that inputs of different units
+    and sizes give well-shaped triangles.
+
+    >>> map_triangles([0.0, 1.0, 0.0, 1.0], [0.0, 0.0, 10.0, 10.0]).shape
+    (2, 3)
+    """
+    from scipy.spatial import Delaunay
+
+    pts = []
+    for v, lg in zip((x, y), log):
+        v = np.log10(np.asarray(v, dtype=float)) if lg else np.asarray(v, dtype=float)
+        span = float(v.max() - v.min()) or 1.0
+        pts.append((v - v.min()) / span)
+    return Delaunay(np.column_stack(pts)).simplices
+
+
+def _scattered_map(fig, ax, df, xvar, yvar, column, required, disp, what, log) -> None:
+    """Filled contours of a map refined near its contours (designs not on a grid; ``level`` column present).
+
+    The margin is interpolated linearly on triangles joining the evaluated designs
+    (:func:`map_triangles`), so every design's own value is drawn at it, and a contour runs between two
+    designs of opposite sign only, at the final spacing of the refinement there.
+    """
+    from matplotlib.tri import Triangulation
+
+    x = df[xvar].to_numpy(dtype=float)
+    y = df[yvar].to_numpy(dtype=float)
+    P = 100 * df[column].to_numpy(dtype=float)
+    finite = np.isfinite(P)
+    X, Y = disp(xvar, x), disp(yvar, y)
+    lim = max(1.0, float(np.nanmax(np.abs(P)))) if finite.any() else 100.0
+    lim = 10.0 * math.ceil(lim / 10.0)
+    levels = np.linspace(-lim, lim, 21)
+    if finite.sum() >= 3:
+        tri = Triangulation(X[finite], Y[finite], map_triangles(x[finite], y[finite], log))
+        Pf = P[finite]
+        cs = ax.tricontourf(tri, Pf, levels=levels, cmap="RdBu", extend="both")
+        cb = fig.colorbar(cs, ax=ax)
+        cb.set_label(f"{what} [%] (negative: outside the wanted regime)")
+        texts = []
+        if required is not None and Pf.min() < 100 * required < Pf.max():
+            c1 = ax.tricontour(tri, Pf, levels=[100 * required], colors="black", linewidths=2.0, zorder=4)
+            texts += ax.clabel(c1, fmt=lambda _v: f"required ±{100 * required:.0f} %", fontsize=8)
+        if Pf.min() < 0 < Pf.max():
+            c0 = ax.tricontour(tri, Pf, levels=[0.0], colors="#444444", linewidths=1.2, linestyles="dashed",
+                               zorder=4)
+            texts += ax.clabel(c0, fmt=lambda _v: "0 (boundary)", fontsize=8)
+        for t in texts:                       # readable over the designs packed along the contours
+            t.set_bbox(dict(facecolor="white", alpha=0.8, edgecolor="none", pad=0.6))
+            t.set_zorder(5)
+    refined = finite & (df["level"].to_numpy() > 0)
+    ax.scatter(X[finite & ~refined], Y[finite & ~refined], s=6, color="#222222", zorder=3,
+               label="design of the starting grid")
+    if refined.any():
+        ax.scatter(X[refined], Y[refined], s=2, color="#555555", alpha=0.6, zorder=3,
+                   label="design added near a contour")
+    if (~finite).any():
+        ax.scatter(X[~finite], Y[~finite], s=40, marker="x", color="#888888", zorder=3,
+                   label="no margin (design invalid)")
 
 
 def figure_file_bytes(fig, fmt: str = "png") -> bytes:

@@ -467,16 +467,17 @@ def _axis_nodes(lo: float, hi: float, n: int, log: bool, current: float | None) 
 
 def adaptive_map(base, x_name: str, x_range, y_name: str, y_range, *, n_max: int = 400, start: int = 9,
                  regime: str | None = None, log_x: bool = False, log_y: bool = False, evaluate=None,
-                 **sweep_options) -> DesignMap:
+                 contours: Sequence[float] = (0.0,), **sweep_options) -> DesignMap:
     r"""Margin map over two inputs: a coarse grid refined where the margin changes sign.
 
     .. math:: m(x, y) = \pm\max\{m : [(1-m)Q_L, (1+m)Q_L] \times [(1-m)Q_G, (1+m)Q_G] \subset R\}
 
     A ``start`` x ``start`` grid (with the base case's own values as nodes, so the current design is a
-    design of the map) is evaluated; then every cell whose corners do not all have the same sign of the
-    margin (or where one failed) is split in four, smallest level first within the remaining budget, until
-    no such cell is left or ``n_max`` designs are used. The zero contour (and the required-margin contour
-    when asked for) is then resolved to the final cell size instead of being interpolated across a line.
+    design of the map) is evaluated; then every cell whose corners lie on both sides of one of the
+    ``contours`` (default: the zero margin only; or where one failed) is split in four, smallest level first
+    within the remaining budget, until no such cell is left or ``n_max`` designs are used. Those contours (the
+    zero contour, and the required margin when it is one of them) are then resolved to the final cell size
+    instead of being interpolated across a line.
 
     Parameters
     ----------
@@ -489,6 +490,7 @@ def adaptive_map(base, x_name: str, x_range, y_name: str, y_range, *, n_max: int
     log_x, log_y : bool    geometric spacing (positive ranges only)
     evaluate : callable, optional   ``evaluate(list of change dicts) -> array of signed margins``;
         default: :func:`lowgmap.physics.studies.sweep.sweep` with ``sweep_options``
+    contours : sequence of float   margin values (fractions) whose contours are resolved (default (0.0,))
     **sweep_options : passed to :func:`~lowgmap.physics.studies.sweep.sweep` (``fluid_spec``, ``client`` ...)
 
     Returns
@@ -536,6 +538,7 @@ def adaptive_map(base, x_name: str, x_range, y_name: str, y_range, *, n_max: int
             df = sweep(base, designs, regime=regime, **sweep_options)
             return df["margin"].to_numpy(dtype=float)
 
+    resolved = sorted({float(finite("contours", c)) for c in contours}) or [0.0]
     xs = _axis_nodes(*ranges[0], start, log_x, xc)
     ys = _axis_nodes(*ranges[1], start, log_y, yc)
     done: dict[tuple[float, float], tuple[float, int]] = {}
@@ -559,8 +562,9 @@ def adaptive_map(base, x_name: str, x_range, y_name: str, y_range, *, n_max: int
         flagged = []
         for (x0, x1), (y0, y1), lev in cells:
             corners = [done.get(p, (math.nan, 0))[0] for p in ((x0, y0), (x1, y0), (x0, y1), (x1, y1))]
-            signs = {(v > 0) for v in corners if not math.isnan(v)}
-            if len(signs) > 1 or (any(math.isnan(v) for v in corners) and signs):
+            known = [v for v in corners if not math.isnan(v)]
+            crossed = any(len({v > c for v in known}) > 1 for c in resolved)
+            if crossed or (len(known) < 4 and known):
                 flagged.append(((x0, x1), (y0, y1), lev))
         if not flagged:
             break

@@ -65,7 +65,7 @@ from lowgmap.physics.studies.envelope import (MarginBatch, envelope_margin, queu
 from lowgmap.physics.validate import InputError, finite, positive
 
 __all__ = ["VARIABLES", "FLUID_KEYS", "METHODS", "MAX_DESIGNS", "MAX_MC_SAMPLES", "MAX_ENVELOPE_GRID", "grid", "zipped", "apply_changes", "DesignEvaluator",
-           "SweepSpec", "sweep", "envelope_margin", "RESULT_COLUMNS", "tidy_results"]
+           "SweepSpec", "sweep", "sweep_map", "map_start", "envelope_margin", "RESULT_COLUMNS", "tidy_results"]
 
 #: Accepted values of ``method``.
 METHODS = ("auto", "full")
@@ -586,6 +586,79 @@ def sweep(base, designs: Sequence[Mapping], *, point=None, envelope=None, regime
     df = df.sort_values("design", kind="stable").reset_index(drop=True)
     df = tidy_results(df, designs, spec)
     return df
+
+
+def map_start(n_max: int) -> int:
+    """Nodes a side of the starting grid of a margin map of ``n_max`` designs: about half the budget on the
+    starting grid, the rest for refinement near the contours; 3 to 9 a side.
+
+    >>> [map_start(n) for n in (25, 50, 100, 200, 400)]
+    [3, 5, 7, 9, 9]
+    """
+    return max(3, min(9, int(math.sqrt(n_max / 2.0))))
+
+
+def sweep_map(base, x_name: str, x_range, y_name: str, y_range, *, n_max: int = 400, log_x: bool = False,
+              log_y: bool = False, regime: str | None = None, progress: Callable | None = None,
+              **spec_options) -> tuple:
+    r"""Margin map over two inputs, refined near its contours, with every design's row of the sweep.
+
+    :func:`~lowgmap.physics.studies.design_space.adaptive_map` (a starting grid of :func:`map_start` nodes a
+    side with the current design as a node, cells that the zero contour or the required-margin contour
+    crosses split until ``n_max`` designs are used) evaluated by this module's engine, the same as :func:`sweep`: each design's
+    regime, signed symmetric margin, limiting line and (with ``required_margin``) whether it meets it.
+
+    Parameters
+    ----------
+    base : Case
+    x_name, y_name : str        inputs (keys accepted by :func:`apply_changes`)
+    x_range, y_range : (float, float)   ranges [SI], low < high
+    n_max : int                 most designs evaluated (default 400)
+    log_x, log_y : bool         geometric spacing
+    regime : str, optional      intended regime (default: the case's, else the regime of the current design)
+    progress : callable(done, n_max), optional   called after each batch; an exception it raises stops the map
+    **spec_options : as for :func:`sweep` (``point``, ``required_margin``, ``fluid_spec``, ``method``)
+
+    Returns
+    -------
+    (DesignMap, pandas.DataFrame)   the map, and the sweep's table of its designs in the order they were
+    evaluated, with a column ``level`` (0: the starting grid)
+    """
+    from lowgmap.physics.studies.design_space import adaptive_map
+
+    if regime is None:
+        regime = getattr(base, "intended_regime", "") or None
+    if regime is None:
+        from lowgmap.physics.chart.composition import build_chart
+
+        point = spec_options.get("point") or (None if base.operating_point is None
+                                              else (base.operating_point.ql, base.operating_point.qg))
+        if point is None:
+            raise ValueError("the case has no operating point: give one (the map measures its margin)")
+        regime = str(build_chart(base).classify(*point))
+    spec = SweepSpec(base, regime=regime, **spec_options)
+    evaluator = DesignEvaluator(spec)
+    parts: list = []
+    designs: list = []
+
+    for key in (x_name, y_name):
+        check_key(key, base)
+
+    def evaluate(batch):
+        part = evaluator.evaluate_many(batch, None, start=len(designs))
+        parts.append(part)
+        designs.extend(batch)
+        if progress is not None:
+            progress(len(designs), n_max)
+        return part["margin"].to_numpy(dtype=float)
+
+    required = spec_options.get("required_margin")
+    contours = (0.0,) if required is None else (0.0, float(required))
+    m = adaptive_map(base, x_name, x_range, y_name, y_range, n_max=n_max, start=map_start(n_max), regime=regime,
+                     log_x=log_x, log_y=log_y, evaluate=evaluate, contours=contours)
+    df = tidy_results(pd.concat(parts, ignore_index=True), designs, spec)
+    df["level"] = m.levels                      # the map's designs are those evaluated, in the same order
+    return m, df
 
 
 def _run_on(client, spec, designs, chunks, progress, n):

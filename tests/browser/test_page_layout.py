@@ -135,7 +135,7 @@ def test_every_control_has_an_accessible_name(sized):
     assert len(controls) > 30                       # the tree was read (inputs, selects, buttons, links)
     assert _unnamed(pg) == []
     pg.locator(".bk-tab", has_text="Design map").first.click()    # the other tab's controls too
-    pg.locator(".design-steps").first.wait_for()
+    pg.locator(".design-budget").first.wait_for()
     _wait_named(pg)
     assert _unnamed(pg) == []
 
