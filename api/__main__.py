@@ -3,4 +3,5 @@ import sys
 
 from lowgmap.app.cli import main
 
-sys.exit(main())
+if __name__ == "__main__":    # a worker process started with "spawn" imports this module again: run nothing then
+    sys.exit(main())

@@ -237,9 +237,10 @@ def create_app(case_path: str | Path | None = None):
         name="Regime chart", sizing_mode="stretch_width")
     design = pn.Column(design_tab, name="Design map", sizing_mode="stretch_width")
     gravity = pn.Column(GravityTab(session), name="Two gravity levels", sizing_mode="stretch_width")
-    main = pn.Column(caution, unexpected, pn.Tabs(chart_tab, design, gravity, sizing_mode="stretch_width",
-                                                  css_classes=["main-tabs"]),
-                     sizing_mode="stretch_width")
+    tabs = pn.Tabs(chart_tab, design, gravity, sizing_mode="stretch_width", css_classes=["main-tabs"])
+    # the design map's worker processes start while the person sets up the map
+    tabs.param.watch(lambda e: design_tab.prepare() if e.new == 1 else None, "active")
+    main = pn.Column(caution, unexpected, tabs, sizing_mode="stretch_width")
     template = pn.template.BootstrapTemplate(
         title=f"lowgmap {__version__} — low-gravity regime charts", sidebar=[invented, setup], main=[main],
         sidebar_width=300, header_background="#1f3b57",

@@ -65,7 +65,7 @@ from lowgmap.physics.studies.envelope import (MarginBatch, envelope_margin, queu
 from lowgmap.physics.validate import InputError, finite, positive
 
 __all__ = ["VARIABLES", "FLUID_KEYS", "METHODS", "MAX_DESIGNS", "MAX_MC_SAMPLES", "MAX_ENVELOPE_GRID", "grid", "zipped", "apply_changes", "DesignEvaluator",
-           "SweepSpec", "sweep", "sweep_map", "map_start", "envelope_margin", "RESULT_COLUMNS", "tidy_results"]
+           "SweepSpec", "sweep", "sweep_map", "map_start", "map_pools", "warm_map_pools", "envelope_margin", "RESULT_COLUMNS", "tidy_results"]
 
 #: Accepted values of ``method``.
 METHODS = ("auto", "full")
@@ -588,6 +588,99 @@ def sweep(base, designs: Sequence[Mapping], *, point=None, envelope=None, regime
     return df
 
 
+_MAP_POOLS: list = []
+_MAP_POOLS_LOCK = threading.Lock()
+
+
+def map_pools(workers: int) -> list:
+    """``workers`` worker processes for margin maps, each its own single-process executor, started on first use
+    and kept (shared by every map of this process). One executor per process lets a map send the designs of one
+    input value to the process that already holds that value's tables (a new corner half-angle costs a new
+    shape's tables: the similarity curve, the migration table, the ratio lines' roots).
+
+    Started with "spawn" (the dashboard's server runs threads: a forked child would inherit their locks).
+    """
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    workers = int(workers)
+    if workers < 1:
+        raise ValueError(f"workers must be >= 1, got {workers}")
+    with _MAP_POOLS_LOCK:
+        while len(_MAP_POOLS) < workers:
+            _MAP_POOLS.append(ProcessPoolExecutor(max_workers=1, mp_context=multiprocessing.get_context("spawn"),
+                                                  initializer=_exit_with_parent))
+        return _MAP_POOLS[:workers]
+
+
+def _exit_with_parent() -> None:
+    """In a map worker: end this process as soon as the process that started it has ended (a server stopped by
+    a signal runs no exit handlers, and its idle workers would otherwise live on)."""
+    import multiprocessing
+    import multiprocessing.connection
+    import os
+
+    parent = multiprocessing.parent_process()
+    if parent is None:
+        return
+
+    def watch():
+        multiprocessing.connection.wait([parent.sentinel])
+        os._exit(0)
+    threading.Thread(target=watch, name="lowgmap-parent-watch", daemon=True).start()
+
+
+def _ready() -> bool:
+    """Run in a map worker to start it (imports) before the first map."""
+    return True
+
+
+def warm_map_pools(workers: int) -> None:
+    """Start the map worker processes and load the engine in them (a first map then pays no start-up)."""
+    for f in [pool.submit(_ready) for pool in map_pools(workers)]:
+        f.result()
+
+
+def _parallel_evaluate(spec, workers: int, x_name: str):
+    """An ``evaluate(batch, start)`` for :func:`sweep_map` that splits each batch over the map worker processes.
+
+    The designs of one ``x_name`` value go to one process, the same one for every batch of the map (its
+    tables stay in that process); values not seen before go to the process with the least work in the batch.
+    Rows come back in the batch's order, numbered as :meth:`DesignEvaluator.evaluate_many` numbers them.
+    """
+    pools = map_pools(workers)
+    owner: dict = {}
+
+    def evaluate(batch, start):
+        groups: dict = {}
+        for i, d in enumerate(batch):
+            groups.setdefault(d[x_name], []).append(i)
+        load = [0] * len(pools)
+        for x, idx in groups.items():
+            if x in owner:
+                load[owner[x]] += len(idx)
+        for x, idx in sorted(((x, idx) for x, idx in groups.items() if x not in owner), key=lambda g: -len(g[1])):
+            w = min(range(len(pools)), key=load.__getitem__)
+            owner[x] = w
+            load[w] += len(idx)
+        jobs = []
+        for w, pool in enumerate(pools):
+            idx = [i for x, ii in groups.items() if owner[x] == w for i in ii]
+            if idx:
+                jobs.append((idx, pool.submit(_run_chunk, spec, [batch[i] for i in idx], 0)))
+        order = np.empty(len(batch), dtype=int)
+        parts, at = [], 0
+        for idx, fut in jobs:
+            part = fut.result()
+            parts.append(part)
+            order[np.asarray(idx)] = np.arange(at, at + len(idx))
+            at += len(idx)
+        df = pd.concat(parts, ignore_index=True).iloc[order].reset_index(drop=True)
+        df["design"] = np.arange(start, start + len(batch))
+        return df
+    return evaluate
+
+
 def map_start(n_max: int) -> int:
     """Nodes a side of the starting grid of a margin map of ``n_max`` designs: about half the budget on the
     starting grid, the rest for refinement near the contours; 3 to 9 a side.
@@ -599,7 +692,7 @@ def map_start(n_max: int) -> int:
 
 
 def sweep_map(base, x_name: str, x_range, y_name: str, y_range, *, n_max: int = 400, log_x: bool = False,
-              log_y: bool = False, regime: str | None = None, progress: Callable | None = None,
+              log_y: bool = False, regime: str | None = None, progress: Callable | None = None, workers: int = 1,
               **spec_options) -> tuple:
     r"""Margin map over two inputs, refined near its contours, with every design's row of the sweep.
 
@@ -617,6 +710,9 @@ def sweep_map(base, x_name: str, x_range, y_name: str, y_range, *, n_max: int = 
     log_x, log_y : bool         geometric spacing
     regime : str, optional      intended regime (default: the case's, else the regime of the current design)
     progress : callable(done, n_max), optional   called after each batch; an exception it raises stops the map
+    workers : int               1: in this process; more: each batch split over that many worker processes
+                                (:func:`map_pools`; the designs of one ``x_name`` value stay in one process),
+                                the same table
     **spec_options : as for :func:`sweep` (``point``, ``required_margin``, ``fluid_spec``, ``method``)
 
     Returns
@@ -637,15 +733,20 @@ def sweep_map(base, x_name: str, x_range, y_name: str, y_range, *, n_max: int = 
             raise ValueError("the case has no operating point: give one (the map measures its margin)")
         regime = str(build_chart(base).classify(*point))
     spec = SweepSpec(base, regime=regime, **spec_options)
-    evaluator = DesignEvaluator(spec)
     parts: list = []
     designs: list = []
-
     for key in (x_name, y_name):
         check_key(key, base)
+    if int(workers) > 1:
+        run = _parallel_evaluate(spec, int(workers), x_name)
+    else:
+        evaluator = DesignEvaluator(spec)
+
+        def run(batch, start):
+            return evaluator.evaluate_many(batch, None, start=start)
 
     def evaluate(batch):
-        part = evaluator.evaluate_many(batch, None, start=len(designs))
+        part = run(batch, len(designs))
         parts.append(part)
         designs.extend(batch)
         if progress is not None:
