@@ -304,6 +304,17 @@ def test_design_map_shows_the_margin_table_value_at_the_current_design_and_draws
     tri = Triangulation(x, y, map_triangles(x, y))
     drawn = float(LinearTriInterpolator(tri, m)(bx, by))
     assert abs(drawn - want) < 1e-9 and drawn > 0.25                # the star sits in the "met" colour band
+    tab.x_from.value, tab.x_to.value = "7 deg", "9 deg"             # ranges that leave the current design out
+    tab.budget.value = 25
+    df = tab.run_sync()
+    assert "lies outside the map's ranges" in tab.status.object and "Current design (" not in tab.status.object
+    assert df["half_angle"].min() >= math.radians(7.0) - 1e-12      # the map stays within its ranges
+    from lowgmap.app.outputs.maps import margin_map_figure
+
+    fig = margin_map_figure(df, "half_angle", "length", required=0.25, base=(bx, by))
+    labels = [t.get_text() for t in fig.axes[0].get_legend().get_texts()]
+    assert "design of the starting grid" in labels and not any("current design" in t for t in labels)
+    assert fig.axes[0].get_xlim()[0] >= math.radians(7.0) - 0.01    # no star drawn out there, widening the axes
 
 
 def _run_coroutine(coro):

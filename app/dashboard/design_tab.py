@@ -306,6 +306,11 @@ class DesignTab(pn.viewable.Viewer):
             text += (f"<br>Current design ({words[xv]} {_text(bx, kinds[xv], units[xv])}, {words[yv]} "
                      f"{_text(by, kinds[yv], units[yv])}): <span class='design-current'>{100 * m:+.1f} %</span> "
                      f"(the margin table's margin; negative: outside the wanted regime).")
+        elif len(here):
+            text += f"<br>The current design has no margin: {html.escape(str(here['status'].iloc[0]))}"
+        else:
+            text += (f"<br>The current design ({words[xv]} {_text(bx, kinds[xv], units[xv])}, {words[yv]} "
+                     f"{_text(by, kinds[yv], units[yv])}) lies outside the map's ranges: not on the map.")
         if best is not None:
             lines = {b.name: b.label for b in self.session.chart.boundaries}
             limiting = lines.get(str(best["limiting"]), str(best["limiting"]))

@@ -154,7 +154,10 @@ def margin_map_figure(df, xvar: str, yvar: str | None, *, column: str = "margin"
     if yvar is not None:
         if base is not None:
             bx, by = base
-            if bx is not None and by is not None:
+            inside = bx is not None and by is not None and (
+                "level" not in df.columns or (df[xvar].min() <= bx <= df[xvar].max()
+                                              and df[yvar].min() <= by <= df[yvar].max()))
+            if inside:                  # a refined map marks the current design only within its ranges
                 here = df[(df[xvar] == bx) & (df[yvar] == by)][column].to_numpy(dtype=float)
                 words = (f"current design: {100 * here[0]:+.1f} %" if here.size and np.isfinite(here[0])
                          else "current design")
