@@ -1022,7 +1022,7 @@ def test_a_drag_its_release_and_the_background_work_lay_out_no_part_of_the_page_
     from lowgmap.app.dashboard import create_app
     from lowgmap.app.dashboard.chartpane import ChartPane
 
-    page = create_app(sample_case_path("wedge_separator"))
+    page = create_app(sample_case_path("condensate_line"))
     bokeh_doc = Document()
     page.server_doc(bokeh_doc)
     s = page.lowgmap_session
@@ -1040,14 +1040,14 @@ def test_a_drag_its_release_and_the_background_work_lay_out_no_part_of_the_page_
             changed.append((type(event.model).__name__, event.attr, event.model.css_classes))
         working_shown.append(is_shown(working))
     bokeh_doc.on_change(on_change)
-    for text in ("6.5 deg", "7 deg"):                           # two frames of a drag of the half-angle slider
-        s.preview({"section.half_angle": text}, key="section.half_angle", label="Corner half-angle", text=text,
+    for text in ("13 mm", "13.5 mm"):                           # two frames of a drag of the diameter slider
+        s.preview({"section.diameter": text}, key="section.diameter", label="Diameter", text=text,
                   display=pane.preview_frame)
-        assert is_shown(live) and "Preview while Corner half-angle" in live.text
+        assert is_shown(live) and "Preview while Diameter" in live.text
     s.end_preview()                                             # released: the value is applied as an edit
-    s.edit({"section.half_angle": "7 deg"}, key="section.half_angle", label="Corner half-angle")
-    assert s.live is None and s.get("section.half_angle") == "7 deg" and s.worst_case_state == "ready"
+    s.edit({"section.diameter": "13.5 mm"}, key="section.diameter", label="Diameter")
+    assert s.live is None and s.get("section.diameter") == "13.5 mm" and s.worst_case_state == "ready"
     assert changed == []
-    assert any(working_shown) and "Applying Corner half-angle" in working.text   # the working line came ...
+    assert any(working_shown) and "Applying Diameter" in working.text   # the working line came ...
     assert not is_shown(working) and not is_shown(live) and not is_shown(worst)  # ... and all three are gone
     assert "worst-case" in by_class("margin-pane").text
