@@ -26,7 +26,7 @@ from lowgmap.physics.validate import InputError, angle_deg_in_range, finite, pos
 
 __all__ = ["VARIABLES", "FLUID_KEYS", "MAX_DESIGNS", "MAX_VALUES", "grid", "zipped", "check_key", "variable_unit",
            "check_flow_range", "fluid_from_spec", "default_fluid_spec", "model_choices", "apply_changes",
-           "DesignMap", "adaptive_map"]
+           "DesignMap", "adaptive_map", "map_regime"]
 
 #: Most designs of one sweep: the product of the value counts of a grid, the common length of paired values.
 MAX_DESIGNS = 100_000
@@ -465,6 +465,21 @@ def _axis_nodes(lo: float, hi: float, n: int, log: bool, current: float | None) 
     return nodes
 
 
+def map_regime(base, regime: str | None = None, point=None) -> str:
+    """The regime a margin map measures its margins in: ``regime``, else the case's intended regime, else the
+    regime of ``point`` (default: the case's operating point) on the case's chart."""
+    regime = regime or getattr(base, "intended_regime", "") or None
+    if regime is not None:
+        return regime
+    from lowgmap.physics.chart.composition import build_chart
+
+    op = base.operating_point
+    point = point or (None if op is None else (op.ql, op.qg))
+    if point is None:
+        raise ValueError("the case has no operating point: give one (the map measures its margin)")
+    return str(build_chart(base).classify(*point))
+
+
 def adaptive_map(base, x_name: str, x_range, y_name: str, y_range, *, n_max: int = 400, start: int = 9,
                  regime: str | None = None, log_x: bool = False, log_y: bool = False, evaluate=None,
                  contours: Sequence[float] = (0.0,), **sweep_options) -> DesignMap:
@@ -526,13 +541,7 @@ def adaptive_map(base, x_name: str, x_range, y_name: str, y_range, *, n_max: int
     if evaluate is None:
         from lowgmap.physics.studies.sweep import sweep
 
-        if regime is None:
-            from lowgmap.physics.chart.composition import build_chart
-
-            op = base.operating_point
-            if op is None:
-                raise ValueError("the case has no operating point: give one (the map measures its margin)")
-            regime = str(build_chart(base).classify(op.ql, op.qg))
+        regime = map_regime(base, regime)
 
         def evaluate(designs):
             df = sweep(base, designs, regime=regime, **sweep_options)

@@ -722,16 +722,9 @@ def sweep_map(base, x_name: str, x_range, y_name: str, y_range, *, n_max: int = 
     """
     from lowgmap.physics.studies.design_space import adaptive_map
 
-    if regime is None:
-        regime = getattr(base, "intended_regime", "") or None
-    if regime is None:
-        from lowgmap.physics.chart.composition import build_chart
+    from lowgmap.physics.studies.design_space import map_regime
 
-        point = spec_options.get("point") or (None if base.operating_point is None
-                                              else (base.operating_point.ql, base.operating_point.qg))
-        if point is None:
-            raise ValueError("the case has no operating point: give one (the map measures its margin)")
-        regime = str(build_chart(base).classify(*point))
+    regime = map_regime(base, regime, spec_options.get("point"))
     spec = SweepSpec(base, regime=regime, **spec_options)
     parts: list = []
     designs: list = []
