@@ -514,7 +514,7 @@ class TestPointsPanel(pn.viewable.Viewer):
         self.mapping_box = pn.Column(sizing_mode="stretch_width", visible=False)
         # as `lowgmap compare --map LABEL=REGIME --length L`
         self.label_map = pn.widgets.TextAreaInput(
-            name="Label mapping (one per line: label in the file = chart regime)", rows=3, sizing_mode="stretch_width",
+            label="Label mapping (one per line: label in the file = chart regime)", rows=3, sizing_mode="stretch_width",
             placeholder="e.g. bubbly = dispersed bubbles", css_classes=["label-map"])
         self.obs_length = pn.widgets.TextInput(label="Observation length (inlet to where the regime was seen)",
                                                sizing_mode="stretch_width", css_classes=["observation-length"])
