@@ -154,6 +154,21 @@ def test_taper_path_of_a_shallow_rectangular_slot():
     assert np.allclose(p.gap, math.sqrt(2.0) * p.s, rtol=1e-12, atol=1e-15)
 
 
+def test_contact_angles_that_leave_the_same_apex_corners_share_one_path_and_others_get_their_own():
+    # the path is kept per set of corners that hold liquid (so a contact-angle draw reuses the reach diameter
+    # and the migration nodes kept per path): catches a path cached across contact angles that change the apex
+    # (corner 0, half-angle 71 deg, holds liquid below a 19 deg contact angle; corner 1, 65.3 deg, below 24.7 deg)
+    poly = Polygon([(0, 0), (2.2, 0), (2.8, 0.7), (-2.3, 1.8)], open_edges=(2,))
+    a = bb.taper_path(poly, contact_angle=math.radians(5.0))
+    assert bb.taper_path(poly, contact_angle=math.radians(15.0)) is a
+    b = bb.taper_path(poly, contact_angle=math.radians(21.0))
+    assert (a.corner_index, b.corner_index) == (0, 1)
+    fresh = bb._taper_path_among.__wrapped__(poly, len(b.s), (1,))      # built afresh from corner 1 alone
+    assert np.array_equal(b.gap, fresh.gap) and b.length == fresh.length
+    assert bb.taper_path(poly, contact_angle=math.radians(23.0)) is b
+    assert bb.taper_path(poly, contact_angle=math.radians(26.0)) is None
+
+
 def test_closed_sections_have_no_taper_path():
     assert bb.taper_path(Circle(0.01)) is None
     assert bb.taper_path(Polygon([(0, 0), (1, 0), (1, 1), (0, 1)])) is None

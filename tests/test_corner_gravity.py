@@ -471,3 +471,26 @@ def test_transverse_bond_number_flags_the_ingestion_line():
     # at 1e-6 g0 the number is 7e-4, far below the limit
     assert cm.transverse_bond(clean.case) == pytest.approx(want / math.cos(math.radians(30.0)) * 1e-6, rel=1e-12)
     assert np.array_equal(ing(clean.case), ing(wedge_case(g=0.0)))            # no axial share: the same line
+
+
+def test_where_the_separation_line_ends_follows_the_length_only_with_an_axial_drift():
+    # the ends of the separation line are kept per corner shape when nothing along the axis acts (designs of
+    # other lengths share them); with an axial drift the line ends where the drift outruns the migration,
+    # which depends on the length. Catches the kept ends reused for a drifting case of another length, and
+    # kept ends that differ from a fresh computation.
+    def spans(case):
+        return [(p.t0, p.t1) for p in cm.CORNER_SEPARATION.line_pieces(case, **SAMPLE)]
+
+    def fresh(case):
+        c = cm.CORNER_SEPARATION.resolve_constants(SAMPLE)
+        lo, hi = cm.CORNER_SEPARATION._r_range(case)
+        d_low = cm._table_for(case, cm.corner_geometry(case), c)[2]
+        return list(cm._separation_spans(case, c, lo, hi, math.log(d_low))[0])
+
+    still = [wedge_case(g=1e-5, length=L) for L in (0.01, 0.2)]
+    assert spans(still[0]) == spans(still[1]) == fresh(still[1])
+    up = [wedge_case(g=0.2, orientation=Orientation.vertical_up(), length=L) for L in (0.01, 0.04, 0.2)]
+    got = [spans(c) for c in up]
+    assert got == [fresh(c) for c in up]
+    starts = [s[0][0] for s in got]
+    assert starts[0] > starts[1] > starts[2]          # a shorter conduit loses the slow-migrating bubbles sooner

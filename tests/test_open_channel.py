@@ -12,6 +12,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy.integrate import quad
 from scipy.optimize import minimize_scalar
 
@@ -609,3 +611,69 @@ def test_gravity_errors():
         critical_flow_rate(pp, 0.05, 1000.0, 1e-3, 0.07, streamwise_curvature=True, g_axial=1.0)
     with pytest.raises(ValueError, match="g_axial"):
         critical_flow_rate(pp, 0.05, 1000.0, 1e-3, 0.07, g_axial=float("nan"))
+
+
+# ---------------------------------------------------------------------------------------------
+# scalar path of the root searches, and the section tables' splines
+# ---------------------------------------------------------------------------------------------
+def _channel(kind, theta):
+    if kind == "plates":
+        return ParallelPlates(0.002, 0.005, theta)
+    if kind == "groove":
+        return RectangularGroove(0.002, 0.003, theta)
+    return WedgeChannel(math.radians(8.0), 0.01, theta)
+
+
+@settings(max_examples=150, deadline=None)
+@given(kind=st.sampled_from(["plates", "groove", "wedge"]), share=st.floats(0.0, 3.0),
+       theta_deg=st.floats(0.0, 30.0))
+def test_scalar_area_and_slope_equal_the_array_path(kind, share, theta_deg):
+    # catches a slip in the scalar path of the fold search (a series coefficient, the half chord squared for
+    # cubed, the corner-filament tail taken inside the pinned range): it must give area_at and dA_dkappa
+    ch = _channel(kind, math.radians(theta_deg))
+    k = share * ch.kappa_pinned if kind == "wedge" else min(share, 1.0) * ch.kappa_max
+    A, Ak = ch.area_slope(k)
+    assert A == pytest.approx(float(ch.area_at(k)), rel=1e-12, abs=0.0)
+    assert Ak == pytest.approx(float(ch.dA_dkappa(k)), rel=1e-12, abs=0.0)
+
+
+@pytest.mark.parametrize("kind", ["plates", "groove", "wedge"])
+def test_scalar_area_near_a_flat_surface_is_the_segment_closed_form(kind):
+    # catches a wrong series below the switch (1e-2 rad): A = flat area - n * segment(R, 2c), closed form above
+    ch = _channel(kind, 0.0)
+    c = ch.half_chord
+    for beta in (1e-4, 5e-3, 0.02, 0.3):
+        k = math.sin(beta) / c
+        A, _ = ch.area_slope(k)
+        assert A == pytest.approx(ch.flat_area - ch.n_surfaces * segment(1.0 / k, 2.0 * c), rel=1e-12, abs=0.0)
+
+
+@pytest.mark.parametrize("kind", ["plates", "groove", "wedge"])
+def test_section_tables_splines_are_the_resistance_and_the_integrands(kind):
+    # the three splines share one fit (K, the integrands of I1 and I2): catches two columns swapped or the
+    # antiderivative of the wrong one. At the grid nodes K is the resistance and dI1/dbeta, dI2/dbeta are
+    # A^2 cos(beta)/(c K) and -dA/dbeta/(A K) (definitions of SectionTables)
+    ch = _channel(kind, math.radians(3.0))
+    tab = tables.SectionTables(ch, None)
+    c = ch.half_chord
+    k = tab.kgrid[1:-1:37]
+    beta = np.arcsin(k * c)
+    K = tab.K(k)
+    A = ch.area_at(k)
+    dA_db = ch.dA_dkappa(k) * np.cos(beta) / c
+    from scipy.interpolate import BarycentricInterpolator
+    nodes, Kn = tables.stokes_table(ch.normalized())
+    inside = beta <= min(float(nodes[-1]), ch.table_end(tables.TABLE_END_MARGIN))
+    assert inside.sum() >= 5
+    assert np.allclose(K[inside], BarycentricInterpolator(nodes, Kn)(beta[inside]), rtol=1e-9)
+    assert np.allclose(tab.I1.derivative()(beta), A * A * np.cos(beta) / (c * K), rtol=1e-9)
+    assert np.allclose(tab.I2.derivative()(beta), -dA_db / (A * K), rtol=1e-9)
+
+
+def test_scalar_segment_factors_equal_the_array_functions_on_both_sides_of_the_series_switch():
+    # catches the scalar copy drifting from segment_area_factor / segment_slope_factor (a series term, the
+    # switch at 1e-2 rad): the two paths must agree to rounding from 1e-6 rad to a half disc
+    for b in np.concatenate([np.geomspace(1e-6, 0.5 * math.pi, 300), [9.999e-3, 1e-2, 1.0001e-2]]):
+        saf, ssf = geometry._segment_factors_scalar(float(b))
+        assert saf == pytest.approx(float(geometry.segment_area_factor(b)), rel=1e-14, abs=0.0)
+        assert ssf == pytest.approx(float(geometry.segment_slope_factor(b)), rel=1e-14, abs=0.0)

@@ -973,11 +973,25 @@ def taper_path(section, n: int = _PATH_POINTS, *, contact_angle=None) -> TaperPa
     try:
         return _taper_path(section, int(n), theta)
     except TypeError:                      # unhashable section: no cache
-        return _taper_path.__wrapped__(section, int(n), theta)
+        return _taper_path_among.__wrapped__(section, int(n), _apex_candidates(section, theta))
 
 
 @functools.lru_cache(maxsize=64)
 def _taper_path(section, n, theta=None):
+    return _taper_path_among(section, n, _apex_candidates(section, theta))
+
+
+def _apex_candidates(section, theta):
+    """Indices of the corners that can be the apex: all of them, or with a contact angle those that hold liquid
+    (Concus–Finn)."""
+    return tuple(c.index for c in getattr(section, "corners", ())
+                 if theta is None or theta + c.half_angle < 0.5 * math.pi - 1e-12)
+
+
+@functools.lru_cache(maxsize=64)
+def _taper_path_among(section, n, candidates):
+    """The path from the best apex among the corners ``candidates`` (one object for every contact angle that
+    leaves the same corners: the reach diameter, the travel set-up and the migration nodes are kept per path)."""
     import shapely
     from shapely.geometry import LineString, MultiLineString
 
@@ -992,7 +1006,7 @@ def _taper_path(section, n, theta=None):
     span = float(np.max(v.max(axis=0) - v.min(axis=0)))
     best = None
     for c in section.corners:
-        if theta is not None and not theta + c.half_angle < 0.5 * math.pi - 1e-12:
+        if c.index not in candidates:
             continue                      # Concus–Finn fails: the corner holds no liquid
         i = c.index
         d = _bisector(v, i)

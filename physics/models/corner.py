@@ -1524,34 +1524,55 @@ class CornerSeparation(_CornerModel):
         geom = corner_geometry(case)
         lo, hi = self._r_range(case)
         logd_reach = math.log(max(_table_for(case, geom, c)[2], 1e-300))       # reach or stall diameter
-        d_touch = 2.0 * float(np.interp(c["injection_position"] * geom.depth, geom.path.s, geom.path.open_distance))
-
-        drifts = _a_z(case) != 0.0
-
-        def reach(x):
-            *_, d_eff = _sizes(geom, 10.0 ** np.asarray(x, dtype=float), c)
-            out = np.minimum(np.log(d_eff) - logd_reach, math.log(d_touch) - np.log(d_eff))
-            if drifts:               # the line exists while the migration outruns the drift: l/(s_f t) > q
-                with np.errstate(all="ignore"):
-                    t = _t_mig(case, geom, d_eff, c)
-                    u = case.length / (c["safety_factor"] * t)
-                    q = _drift(case, geom, d_eff, c)
-                    cond = np.where(q > 0, np.log(u / np.where(q > 0, q, 1.0)), np.inf)
-                    out = np.where(np.isnan(cond), out, np.minimum(out, cond))
-            return out
-        ends = [lo] + [x for x, _ in _roots(reach, lo, hi)] + [hi]
-        kinks = tuple(x for x, _ in _roots(CORNER_MERGING._phi(case, c), lo, hi))
+        if _a_z(case) != 0.0:      # the drift along the axis ends the line too: it depends on the length and g
+            spans, kinks = _separation_spans(case, c, lo, hi, logd_reach)
+        else:
+            try:
+                spans, kinks = _cached_separation_spans(_ShapeOf(case), tuple(sorted(c.items())), lo, hi, logd_reach)
+            except (TypeError, AttributeError):     # unhashable section, or a stand-in object without one
+                spans, kinks = _separation_spans(case, c, lo, hi, logd_reach)
         out = []
-        for a, b in zip(ends[:-1], ends[1:]):
-            if not b > a or not float(reach(np.array([0.5 * (a + b)]))[0]) > 0:
-                continue
-
+        for a, b in spans:
             def func(t):
                 r = 10.0 ** np.asarray(t, dtype=float)
                 q = _sep_ql(case, geom, r, c)
                 return q, r * q
             out.append(LinePiece(a, b, func, kinks))
         return out
+
+
+def _separation_spans(case, c, lo, hi, logd_reach):
+    """Ranges (a, b) of log10 r over which the separation line exists (the bubble reaches the open side without
+    touching it at injection, and, with an axial drift, migrates faster than the drift carries it along), and
+    the line's kinks (where the merging line meets it: log10 r)."""
+    geom = corner_geometry(case)
+    d_touch = 2.0 * float(np.interp(c["injection_position"] * geom.depth, geom.path.s, geom.path.open_distance))
+    drifts = _a_z(case) != 0.0
+
+    def reach(x):
+        *_, d_eff = _sizes(geom, 10.0 ** np.asarray(x, dtype=float), c)
+        out = np.minimum(np.log(d_eff) - logd_reach, math.log(d_touch) - np.log(d_eff))
+        if drifts:               # the line exists while the migration outruns the drift: l/(s_f t) > q
+            with np.errstate(all="ignore"):
+                t = _t_mig(case, geom, d_eff, c)
+                u = case.length / (c["safety_factor"] * t)
+                q = _drift(case, geom, d_eff, c)
+                cond = np.where(q > 0, np.log(u / np.where(q > 0, q, 1.0)), np.inf)
+                out = np.where(np.isnan(cond), out, np.minimum(out, cond))
+        return out
+    ends = [lo] + [x for x, _ in _roots(reach, lo, hi)] + [hi]
+    kinks = tuple(x for x, _ in _roots(CORNER_MERGING._phi(case, c), lo, hi))
+    spans = tuple((a, b) for a, b in zip(ends[:-1], ends[1:])
+                  if b > a and float(reach(np.array([0.5 * (a + b)]))[0]) > 0)
+    return spans, kinks
+
+
+@functools.lru_cache(maxsize=512)
+def _cached_separation_spans(shape, items, lo, hi, logd_reach):
+    """:func:`_separation_spans` without an axial drift: it depends only on the section, the contact angle, the
+    constants, the range and the smallest arriving size, so designs differing in the length, g or the fluid
+    (with the same smallest arriving size) share it."""
+    return _separation_spans(shape.case, dict(items), lo, hi, logd_reach)
 
 
 class OpenChannelIngestion(_CornerModel):

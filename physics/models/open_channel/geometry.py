@@ -123,6 +123,18 @@ def segment_slope_factor(beta):
     return np.where(small, series, direct)
 
 
+def _segment_factors_scalar(b: float) -> tuple[float, float]:
+    """(:func:`segment_area_factor`, :func:`segment_slope_factor`) of one arc half-angle, with the math module
+    (the same series below 1e-2 rad)."""
+    b2 = b * b
+    if abs(b) < 1e-2:
+        return ((2.0 / 3.0) * b * (1.0 + b2 * (2.0 / 15.0 + b2 * 2.0 / 105.0)),
+                (1.0 / 3.0 + b2 * (0.3 + b2 * 47.0 / 280.0)) * math.cos(b))
+    g = b - 0.5 * math.sin(2.0 * b)
+    sb = math.sin(b)
+    return g / sb**2, 1.0 - g * math.cos(b) / sb**3
+
+
 def corner_area_factor(alpha, theta) -> float:
     r"""Corner meniscus area factor F = A/R1^2 as a float, from :func:`lowgmap.physics.geometry.corner.meniscus_area_factor`.
 
@@ -174,6 +186,11 @@ class OpenChannel(ABC):
     @abstractmethod
     def dA_dkappa(self, kappa):
         """dA/dkappa [m^3] (negative)."""
+
+    def area_slope(self, kappa: float) -> tuple[float, float]:
+        """(:meth:`area_at`, :meth:`dA_dkappa`) at one curvature, as floats (the scalar path of root searches:
+        sub-classes compute it with the math module, tens of times faster than a numpy call on one value)."""
+        return float(self.area_at(kappa)), float(self.dA_dkappa(kappa))
 
     # ---- public geometry ------------------------------------------------------------------
     @property
@@ -299,6 +316,14 @@ class PinnedChannel(OpenChannel):
         b = self.arc_angle(kappa)
         with np.errstate(divide="ignore"):
             return -self.n_surfaces * 2.0 * self.half_chord**3 * segment_slope_factor(b) / np.cos(b)
+
+    def area_slope(self, kappa: float) -> tuple[float, float]:
+        c = self.half_chord
+        b = math.asin(min(max(float(kappa) * c, -1.0), 1.0))
+        saf, ssf = _segment_factors_scalar(b)
+        cb = math.cos(b)
+        slope = -self.n_surfaces * 2.0 * c**3 * ssf / cb if cb != 0.0 else -math.inf
+        return self.flat_area - self.n_surfaces * c**2 * saf, slope
 
     def centre_depth(self, R1):
         """Depth of the surface on its symmetry line below the edge chord [m] (c tan(beta/2))."""
@@ -631,6 +656,13 @@ class WedgeChannel(PinnedChannel):
         kt = self.kappa_pinned
         tail = -2.0 * self.area_factor / np.maximum(k, kt) ** 3
         return np.where(k <= kt, PinnedChannel.dA_dkappa(self, np.minimum(k, kt)), tail)
+
+    def area_slope(self, kappa: float) -> tuple[float, float]:
+        k = float(kappa)
+        kt = self.kappa_pinned
+        if k <= kt:
+            return PinnedChannel.area_slope(self, k)
+        return self.area_factor / k**2, -2.0 * self.area_factor / k**3
 
     def _q(self):
         a, t = self.half_angle, self.contact_angle

@@ -158,7 +158,9 @@ class SteadyFlow:
             Q = math.sqrt(self.sigma * float(self._H(k)) / self.rho)
             self._fold = (k, Q)
             return self._fold
-        G = lambda k: float(ch.area_at(k) + 2.0 * ch.dA_dkappa(k) * (k - self.k0))
+        def G(k):
+            A, Ak = ch.area_slope(k)
+            return A + 2.0 * Ak * (k - self.k0)
         kmax = ch.kappa_max
         if math.isfinite(kmax):
             if G(kmax) >= 0:                               # inlet flow still rising at the smallest radius

@@ -472,11 +472,11 @@ def _kappa_choke_vec(tab, ch, kin, target):
     kin = np.asarray(kin, dtype=float)
     target = np.asarray(target, dtype=float)
     out = np.empty_like(kin)
-    H_in = tab.H(kin)
+    kt = tab.kt
+    both = np.asarray(tab.H(np.append(kin, kt)), dtype=float)        # one call (its cost is per call, not per value)
+    H_in, H_kt = both[:-1], float(both[-1])
     done = H_in <= target
     out[done] = kin[done]
-    kt = tab.kt
-    H_kt = float(tab.H(kt))
     pinned = ~done & (target >= H_kt)                  # crossing in the pinned part
     if np.any(pinned):
         kg, Hg = tab.kgrid, tab.Hgrid
@@ -485,10 +485,11 @@ def _kappa_choke_vec(tab, ch, kin, target):
         # H decreases with kappa: interpolate kappa against -ln H, then Newton-polish on the exact H
         k = np.interp(-np.log(target[pinned]), -lh, kg)
         k = np.clip(k, kin[pinned], kt)
+        n = k.size
         for _ in range(4):
-            h = np.asarray(tab.H(k), dtype=float)
             dk = 1e-7 * np.maximum(k, 1e-12)
-            h2 = np.asarray(tab.H(np.minimum(k + dk, kt)), dtype=float)
+            hh = np.asarray(tab.H(np.concatenate([k, np.minimum(k + dk, kt)])), dtype=float)
+            h, h2 = hh[:n], hh[n:]
             slope = (np.log(h2) - np.log(h)) / np.maximum(np.minimum(k + dk, kt) - k, 1e-300)
             with np.errstate(divide="ignore", invalid="ignore"):
                 step = (np.log(target[pinned]) - np.log(h)) / slope

@@ -23,7 +23,7 @@ import math
 from functools import lru_cache
 
 import numpy as np
-from scipy.interpolate import BarycentricInterpolator, CubicSpline
+from scipy.interpolate import BarycentricInterpolator, CubicSpline, PPoly
 from scipy.optimize import brentq
 
 from lowgmap.physics import cache, surrogates
@@ -98,6 +98,18 @@ def _stokes_table_of_shape(shape, exact: bool):
     arrays = cache.cached_arrays("open_channel.stokes_table.v2", (shape, TABLE_NODES, TABLE_END_MARGIN),
                                  lambda: build_stokes_table(shape))
     return arrays["nodes"], arrays["K"]
+
+
+def stokes_interpolant(norm):
+    """:func:`stokes_table` as its barycentric interpolant of K against the arc half-angle (built once per table:
+    channels that differ only in the contact angle share it)."""
+    return _stokes_interpolant_of_shape(norm.stokes_shape(), surrogates.exact_requested())
+
+
+@lru_cache(maxsize=1024)
+def _stokes_interpolant_of_shape(shape, exact: bool):
+    nodes, K = _stokes_table_of_shape(shape, exact)
+    return nodes, BarycentricInterpolator(nodes, K)
 
 
 def build_stokes_table(norm) -> dict:
@@ -191,11 +203,15 @@ class SectionTables:
         K = self._K_pinned(beta, kap)
         if not np.all(np.isfinite(K)) or np.any(K <= 0):
             raise ValueError("resistance must return finite values > 0 over the channel's radius range")
-        self.Kspl = CubicSpline(beta, K)
         i1 = A * A / K * np.cos(beta) / c
         i2 = -dA_db / (A * K)
-        self.I1 = CubicSpline(beta, i1).antiderivative()
-        self.I2 = CubicSpline(beta, i2).antiderivative()
+        # one spline of three columns: the same cubic of each (the banded system is solved for the three
+        # right-hand sides at once), split into K and the antiderivatives of i1 and i2
+        spl = CubicSpline(beta, np.column_stack([K, i1, i2]))
+        anti = spl.antiderivative()
+        self.Kspl = _column(spl, 0)
+        self.I1 = _column(anti, 1)
+        self.I2 = _column(anti, 2)
         # choke function H = A^3/(-A_kappa) on the grid (decreasing), for the S = 1 search
         with np.errstate(divide="ignore"):
             self.Hgrid = A**3 / (channel.n_surfaces * 2.0 * c**3 * segment_slope_factor(beta) / np.cos(beta))
@@ -209,8 +225,7 @@ class SectionTables:
             with np.errstate(divide="ignore"):
                 R = np.where(kap > 0, 1.0 / np.maximum(kap, 1e-300), np.inf)
             return np.asarray(self._Kfun(R), dtype=float) * np.ones_like(beta)
-        nodes, Kn = stokes_table(ch.normalized())
-        f = BarycentricInterpolator(nodes, Kn)
+        nodes, f = stokes_interpolant(ch.normalized())
         bend = min(float(nodes[-1]), ch.table_end(TABLE_END_MARGIN))     # this contact angle's end
         out = f(np.minimum(beta, bend))
         if isinstance(ch, WedgeChannel) and ch.arc_angle_max > bend:
@@ -290,6 +305,11 @@ class SectionTables:
         # corner-filament part: H = F^2 / (2 kappa^3). For a wedge with theta > 0 the speed index
         # jumps up where the contact lines leave the edges, so the choke may sit at kt itself.
         return max((self.F**2 / (2.0 * target)) ** (1.0 / 3.0), float(k_from), float(self.kt))
+
+
+def _column(pp, j):
+    """Column j of a piecewise polynomial with vector values, as a scalar-valued PPoly (same coefficients)."""
+    return PPoly.construct_fast(np.ascontiguousarray(pp.c[:, :, j]), pp.x, pp.extrapolate)
 
 
 @lru_cache(maxsize=256)
