@@ -726,3 +726,20 @@ def test_sign_change_scan_finds_every_root_and_exact_zeros():
     nan_gap = cm._roots(lambda x: np.where(np.abs(np.asarray(x)) < 0.6, np.nan, np.sin(np.pi * np.asarray(x))),
                         -2.3, 2.2, n=46)
     assert np.allclose([x for x, _ in nan_gap], [-2.0, -1.0, 1.0, 2.0], atol=1e-12)
+
+
+@settings(max_examples=200, deadline=None)
+@given(r=st.floats(1e-9, 1e9), width=st.floats(0.01, 0.5), a=st.floats(0.0, 5.0), k_m=st.floats(1.0, 5.0),
+       d_ratio=st.sampled_from([0.0, 0.05, 0.3]))
+def test_one_ratio_gives_the_bubble_sizes_of_the_array_path(r, width, a, k_m, d_ratio):
+    # root searches polish the ratio lines one ratio at a time through a scalar copy of the bubble-size
+    # formulas: catches the copy drifting from the array path (max(1, N) taken as N, a plug length for a sphere,
+    # the squeezing law without its a r term)
+    geom = cm.corner_geometry(make_case())
+    c = cm.CORNER_SEPARATION.resolve_constants({"injector_width_ratio": width, "squeeze_a": a,
+                                                "merge_length_ratio": k_m, "bubble_diameter_ratio": d_ratio})
+    one = cm._sizes(geom, np.array([r]), c)
+    many = cm._sizes(geom, np.array([r, r]), c)
+    for x, y in zip(one, many):
+        assert x.shape == (1,)
+        assert x[0] == pytest.approx(y[0], rel=1e-14, abs=0.0)
