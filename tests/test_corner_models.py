@@ -239,26 +239,32 @@ def test_confinement_line_closed_form_with_the_squeezing_law():
 
 
 def test_ratio_roots_are_shared_by_shape_only():
-    # The roots of a ratio line are cached by what the line depends on (section, contact angle, constants,
-    # flow range), so designs of a sweep that differ only in length or gravity share them. Bugs caught: a key
-    # that drops the contact angle or the section (a wedge of another angle or wetting would reuse stale roots),
-    # or a key that still holds the whole case (no sharing: the sweep pays for every design again).
+    # The roots of a ratio line are kept per migration path (the section and its apex corner) and constants,
+    # found once over a wide ratio range and cut to the range asked for, so designs of a sweep that differ only in
+    # length, gravity or a contact angle that keeps the apex (a Monte Carlo draw) share them. Bugs caught: a key
+    # that drops the section (a wedge of another angle would reuse stale roots), a key that still holds the whole
+    # case (no sharing: the sweep pays for every design again), and roots of the wide scan that differ from a
+    # search over the range itself (a root missed or polished elsewhere).
     m = get_model("corner_confinement")
     consts = dict(injector_width_ratio=0.22, squeeze_a=1.5, merge_length_ratio=1.0)
     base = make_case(theta=math.radians(5.0), length=0.05)
 
-    def direct(case):          # the uncached root search on the case itself
+    def direct(case):          # the uncached root search on the case's own ratio range
         c = m.resolve_constants(consts)
         lo, hi = m._r_range(case)
         return [10.0 ** x for x, _ in cm._roots(m._phi(case, c), lo, hi)]
 
     first = m.ratio_roots(base, **consts)
-    assert m.ratio_roots(make_case(theta=math.radians(25.0)), **consts) == direct(make_case(theta=math.radians(25.0)))
+    assert first and first == pytest.approx(direct(base), rel=1e-12)
+    wetter = make_case(theta=math.radians(25.0))
+    assert m.ratio_roots(wetter, **consts) == pytest.approx(direct(wetter), rel=1e-12)
     wider = make_case(section=Groove(1.5 * ALPHA, DEPTH), theta=math.radians(5.0))
-    assert m.ratio_roots(wider, **consts) == direct(wider) != first
+    got = m.ratio_roots(wider, **consts)
+    assert got == pytest.approx(direct(wider), rel=1e-12) and got != pytest.approx(first, rel=1e-6)
     hits = cm._cached_roots.cache_info().hits
     assert m.ratio_roots(make_case(theta=math.radians(5.0), length=0.3, g=1e-3), **consts) == first
-    assert cm._cached_roots.cache_info().hits == hits + 1
+    assert m.ratio_roots(make_case(theta=math.radians(15.0)), **consts) == first
+    assert cm._cached_roots.cache_info().hits == hits + 2
 
 
 def fade_integral(x0, x1):

@@ -1236,14 +1236,18 @@ def _roots(fun, lo, hi, n=241):
 
 
 class _ShapeOf:
-    """A case standing for what a ratio line depends on (its section and contact angle): equal and hashed by
-    that alone, so that designs differing only in the conduit length, the gravity level or the fluid share
-    their ratio lines' roots."""
+    """A case standing for what the ratio lines and the separation line's ends depend on: the migration path
+    (the section and its apex corner; the bubble sizes, the reach diameter and the touching size follow from it
+    and the constants). Equal and hashed by that path alone, so that designs differing only in the conduit
+    length, the gravity level, the fluid, or a contact angle that leaves the same apex corners (a Monte Carlo
+    draw, a slider) share them. A case without a path is keyed by its section and contact angle."""
 
     __slots__ = ("key", "case")
 
     def __init__(self, case):
-        self.key = (case.section, float(case.wetting.contact_angle))
+        path = corner_geometry(case).path
+        # TaperPath compares by identity: one object per section and set of apex corners (bubbles.taper_path)
+        self.key = (path,) if path is not None else (case.section, float(case.wetting.contact_angle))
         self.case = case
 
     def __eq__(self, other):
@@ -1253,9 +1257,21 @@ class _ShapeOf:
         return hash(self.key)
 
 
+#: Range of log10 r scanned once per shape for the roots of the ratio lines and the ends of the separation line,
+#: and its scan points (0.02 decade apart: finer than a chart's own scan of 241 points over its ratio range).
+#: A range asked for (the chart's, or a margin window's) is cut out of it; one beyond it is scanned directly.
+_ALL_RATIOS = (-14.0, 14.0)
+_ALL_RATIOS_N = 1401
+
+
+def _within_all(lo, hi) -> bool:
+    return _ALL_RATIOS[0] <= lo and hi <= _ALL_RATIOS[1]
+
+
 @functools.lru_cache(maxsize=512)
-def _cached_roots(model, shape, items, lo, hi, n):
-    return tuple(10.0 ** x for x, _ in _roots(model._phi(shape.case, dict(items)), lo, hi, n))
+def _cached_roots(model, shape, items):
+    """log10 r of every root of the ratio line over :data:`_ALL_RATIOS`, kept per shape and constants."""
+    return tuple(x for x, _ in _roots(model._phi(shape.case, dict(items)), *_ALL_RATIOS, _ALL_RATIOS_N))
 
 
 class _CornerModel(BoundaryModel):
@@ -1301,10 +1317,13 @@ class _CornerModel(BoundaryModel):
         """Flow ratios r = Q_G/Q_L [-] where this line lies (ratio lines), over the chart's range."""
         c = self._c(consts)
         lo, hi = self._r_range(case)
-        try:
-            return list(_cached_roots(self, _ShapeOf(case), tuple(sorted(c.items())), lo, hi, 241))
-        except (TypeError, AttributeError):     # unhashable section, or a stand-in object without one
-            return [10.0 ** x for x, _ in _roots(self._phi(case, c), lo, hi)]
+        if _within_all(lo, hi):
+            try:
+                return [10.0 ** x for x in _cached_roots(self, _ShapeOf(case), tuple(sorted(c.items())))
+                        if lo <= x <= hi]
+            except (TypeError, AttributeError):     # unhashable section, or a stand-in object without one
+                pass
+        return [10.0 ** x for x, _ in _roots(self._phi(case, c), lo, hi)]
 
     def qg_of_ql(self, case, ql, **consts):
         """Gas flow on the line [m^3/s]: the lowest crossing from below to above at each Q_L (NaN if none)."""
@@ -1549,13 +1568,18 @@ class CornerSeparation(_CornerModel):
         geom = corner_geometry(case)
         lo, hi = self._r_range(case)
         logd_reach = math.log(max(_table_for(case, geom, c)[2], 1e-300))       # reach or stall diameter
-        if _a_z(case) != 0.0:      # the drift along the axis ends the line too: it depends on the length and g
-            spans, kinks = _separation_spans(case, c, lo, hi, logd_reach)
-        else:
+        spans = None
+        # without a drift along the axis the ends depend on the shape alone; with it also on the length and g
+        if _a_z(case) == 0.0 and _within_all(lo, hi):
             try:
-                spans, kinks = _cached_separation_spans(_ShapeOf(case), tuple(sorted(c.items())), lo, hi, logd_reach)
+                every, kinks = _cached_separation_spans(_ShapeOf(case), tuple(sorted(c.items())), logd_reach)
             except (TypeError, AttributeError):     # unhashable section, or a stand-in object without one
-                spans, kinks = _separation_spans(case, c, lo, hi, logd_reach)
+                pass
+            else:                                   # the part within the range asked for
+                spans = tuple((max(a, lo), min(b, hi)) for a, b in every if min(b, hi) > max(a, lo))
+                kinks = tuple(x for x in kinks if lo <= x <= hi)
+        if spans is None:
+            spans, kinks = _separation_spans(case, c, lo, hi, logd_reach)
         out = []
         for a, b in spans:
             def func(t):
@@ -1566,7 +1590,7 @@ class CornerSeparation(_CornerModel):
         return out
 
 
-def _separation_spans(case, c, lo, hi, logd_reach):
+def _separation_spans(case, c, lo, hi, logd_reach, n=241):
     """Ranges (a, b) of log10 r over which the separation line exists (the bubble reaches the open side without
     touching it at injection, and, with an axial drift, migrates faster than the drift carries it along), and
     the line's kinks (where the merging line meets it: log10 r)."""
@@ -1585,19 +1609,19 @@ def _separation_spans(case, c, lo, hi, logd_reach):
                 cond = np.where(q > 0, np.log(u / np.where(q > 0, q, 1.0)), np.inf)
                 out = np.where(np.isnan(cond), out, np.minimum(out, cond))
         return out
-    ends = [lo] + [x for x, _ in _roots(reach, lo, hi)] + [hi]
-    kinks = tuple(x for x, _ in _roots(CORNER_MERGING._phi(case, c), lo, hi))
+    ends = [lo] + [x for x, _ in _roots(reach, lo, hi, n)] + [hi]
+    kinks = tuple(x for x, _ in _roots(CORNER_MERGING._phi(case, c), lo, hi, n))
     spans = tuple((a, b) for a, b in zip(ends[:-1], ends[1:])
                   if b > a and float(reach(np.array([0.5 * (a + b)]))[0]) > 0)
     return spans, kinks
 
 
 @functools.lru_cache(maxsize=512)
-def _cached_separation_spans(shape, items, lo, hi, logd_reach):
-    """:func:`_separation_spans` without an axial drift: it depends only on the section, the contact angle, the
-    constants, the range and the smallest arriving size, so designs differing in the length, g or the fluid
-    (with the same smallest arriving size) share it."""
-    return _separation_spans(shape.case, dict(items), lo, hi, logd_reach)
+def _cached_separation_spans(shape, items, logd_reach):
+    """:func:`_separation_spans` over :data:`_ALL_RATIOS` without an axial drift: it depends only on the migration
+    path, the constants and the smallest arriving size, so designs differing in the length, g, the fluid or a
+    contact angle that keeps the apex corner (with the same smallest arriving size) share it."""
+    return _separation_spans(shape.case, dict(items), *_ALL_RATIOS, logd_reach, n=_ALL_RATIOS_N)
 
 
 class OpenChannelIngestion(_CornerModel):
