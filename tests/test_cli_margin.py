@@ -154,3 +154,17 @@ def test_uncertainty_json_reproducible(capsys):
     assert code == 0 and "Probability of staying in it: 0.0000" in out and out.rstrip().endswith(CAUTION)
     code, _, err = run(capsys, "uncertainty", SAMPLE, "--samples", "1")
     assert code == 2 and "--samples" in err
+    code, _, err = run(capsys, "uncertainty", SAMPLE, "--samples", "10", "--workers", "0")
+    assert code == 2 and "--workers" in err
+
+
+def test_uncertainty_with_workers_prints_the_same_result(capsys):
+    # catches --workers not passed on, or a result that depends on how many processes computed the draws
+    # (40 draws: two blocks, one per worker)
+    argv = ("uncertainty", str(sample_case_path("wedge_separator")), "--samples", "120", "--seed", "2",
+            "--chart-draws", "40")
+    _, one, _ = run(capsys, *argv, "--json")
+    code, two, _ = run(capsys, *argv, "--json", "--workers", "2")
+    assert code == 0 and json.loads(two) == json.loads(one) and json.loads(one)["chart_draws"] == 40
+    _, text, _ = run(capsys, *argv, "--workers", "2")
+    assert "40 property/geometry draws (computed in 2 worker processes)" in text

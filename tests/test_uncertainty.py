@@ -187,6 +187,28 @@ def test_sample_case_uncertainties_run():
     assert set(res.to_dict()) >= {"probability", "std_error", "margin_quantiles", "sensitivity", "n"}
 
 
+def test_draws_shared_out_to_worker_processes_give_the_same_samples_and_numbers():
+    # the half-angle draws of the groove sample (each its own corner shape) computed in two worker processes,
+    # in blocks of 32 draws: catches a block written back at the wrong samples or given the wrong draws (an
+    # off-by-one at a block edge), a draw computed twice or left out, progress that does not reach N, and workers
+    # asked for but not used
+    doc = load_case(sample_case_path("cryogenic_groove"))
+    assert "half_angle" in {u.target for u in doc.uncertainties}
+    chart = Chart.build(doc.case)
+    kw = dict(n=700, seed=5, chart=chart, chart_draws=70)          # blocks of 32, 32 and 6 draws
+    one = monte_carlo(doc.case, doc.uncertainties, **kw)
+    seen = []
+    two = monte_carlo(doc.case, doc.uncertainties, workers=2, progress=lambda d, t: seen.append((d, t)), **kw)
+    assert (one.processes, two.processes) == (1, 2)
+    assert np.array_equal(one.margins, two.margins, equal_nan=True)
+    assert np.unique(np.round(one.margins, 12)).size > 70          # the samples of one draw differ (their flows)
+    assert (two.probability, two.std_error, two.sensitivity, two.regime_counts, two.margin_quantiles) == \
+        (one.probability, one.std_error, one.sensitivity, one.regime_counts, one.margin_quantiles)
+    assert seen[-1] == (700, 700) and all(a[0] < b[0] for a, b in zip(seen, seen[1:]))
+    with pytest.raises(ValueError, match="workers must be >= 1, got 0"):
+        monte_carlo(doc.case, doc.uncertainties, workers=0, **kw)
+
+
 def test_monte_carlo_errors():
     case = make_case()
     chart = line_chart(case)

@@ -62,6 +62,7 @@ from lowgmap.physics.studies.design_space import (FLUID_KEYS, MAX_DESIGNS, VARIA
                                                   check_key, grid, variable_unit, zipped)
 from lowgmap.physics.studies.envelope import (MarginBatch, envelope_margin, queue_envelope_margin,
                                               queue_point_margin)
+from lowgmap.physics.studies import workers as _workers
 from lowgmap.physics.validate import InputError, finite, positive
 
 __all__ = ["VARIABLES", "FLUID_KEYS", "METHODS", "MAX_DESIGNS", "MAX_MC_SAMPLES", "MAX_ENVELOPE_GRID", "grid", "zipped", "apply_changes", "DesignEvaluator",
@@ -588,57 +589,14 @@ def sweep(base, designs: Sequence[Mapping], *, point=None, envelope=None, regime
     return df
 
 
-_MAP_POOLS: list = []
-_MAP_POOLS_LOCK = threading.Lock()
-
-
 def map_pools(workers: int) -> list:
-    """``workers`` worker processes for margin maps, each its own single-process executor, started on first use
-    and kept (shared by every map of this process). One executor per process lets a map send the designs of one
-    input value to the process that already holds that value's tables (a new corner half-angle costs a new
-    shape's tables: the similarity curve, the migration table, the ratio lines' roots).
-
-    Started with "spawn" (the dashboard's server runs threads: a forked child would inherit their locks).
-    """
-    import multiprocessing
-    from concurrent.futures import ProcessPoolExecutor
-
-    workers = int(workers)
-    if workers < 1:
-        raise ValueError(f"workers must be >= 1, got {workers}")
-    with _MAP_POOLS_LOCK:
-        while len(_MAP_POOLS) < workers:
-            _MAP_POOLS.append(ProcessPoolExecutor(max_workers=1, mp_context=multiprocessing.get_context("spawn"),
-                                                  initializer=_exit_with_parent))
-        return _MAP_POOLS[:workers]
-
-
-def _exit_with_parent() -> None:
-    """In a map worker: end this process as soon as the process that started it has ended (a server stopped by
-    a signal runs no exit handlers, and its idle workers would otherwise live on)."""
-    import multiprocessing
-    import multiprocessing.connection
-    import os
-
-    parent = multiprocessing.parent_process()
-    if parent is None:
-        return
-
-    def watch():
-        multiprocessing.connection.wait([parent.sentinel])
-        os._exit(0)
-    threading.Thread(target=watch, name="lowgmap-parent-watch", daemon=True).start()
-
-
-def _ready() -> bool:
-    """Run in a map worker to start it (imports) before the first map."""
-    return True
+    """The worker processes of margin maps and Monte Carlo studies (:func:`lowgmap.physics.studies.workers.pools`)."""
+    return _workers.pools(workers)
 
 
 def warm_map_pools(workers: int) -> None:
-    """Start the map worker processes and load the engine in them (a first map then pays no start-up)."""
-    for f in [pool.submit(_ready) for pool in map_pools(workers)]:
-        f.result()
+    """Start the worker processes before a first map (:func:`lowgmap.physics.studies.workers.warm`)."""
+    _workers.warm(workers)
 
 
 def _parallel_evaluate(spec, workers: int, x_name: str):

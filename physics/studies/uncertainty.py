@@ -102,6 +102,10 @@ _CHART_FIELDS = ("fluid", "section", "wetting", "length", "g", "flow_range", "mo
 _MC_TOL = 1e-6          # chord tolerance of the lines sampled per property/geometry draw [decade]
 _MC_WALL_DX = 1e-8      # location of vertical pieces per draw [decade]
 _MC_N_START = 17        # initial samples per line per draw
+#: Property/geometry draws computed together (their margins' closed-form step in one batch): in this process
+#: block after block, or with ``workers`` the blocks shared out to worker processes. The blocks do not depend on
+#: the number of workers, so neither do the numbers.
+_DRAWS_PER_BLOCK = 32
 
 
 @dataclass(frozen=True)
@@ -297,6 +301,7 @@ class MonteCarloResult:
     model : ModelUncertaintyResult or None   the same with the model constants drawn (constants alone,
                                and with the inputs), when ``model_uncertainty`` was asked for; the
                                fields above are always the input-only result
+    processes : int            processes that computed the property/geometry draws (``workers``)
     """
 
     probability: float
@@ -315,6 +320,7 @@ class MonteCarloResult:
     probability_required: float | None
     seed: int
     model: "ModelUncertaintyResult | None" = None
+    processes: int = 1
 
     def to_dict(self) -> dict:
         """JSON-ready summary (without the per-sample margins)."""
@@ -416,7 +422,8 @@ def _light_chart(chart, case):
 def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, intended_regime: str | None = None,
                 progress: Callable[[int, int], None] | None = None, *, chart=None, point=None,
                 chart_draws: int | None = None, required_margin: float | None = None,
-                model_uncertainty: bool | Sequence[str] = False, model_draws: int | None = None) -> MonteCarloResult:
+                model_uncertainty: bool | Sequence[str] = False, model_draws: int | None = None,
+                workers: int = 1) -> MonteCarloResult:
     r"""Probability of staying in the intended regime, margin distribution and sensitivities.
 
     .. math:: P = \frac{1}{N} \sum_{j=1}^{N} [\,\mathrm{regime}(x_j) = R\,], \qquad
@@ -441,6 +448,10 @@ def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, i
     model_draws : int, optional   constant draws K_m of the constants-only study (default: K when an
         input moves the lines, else ceil(N/16)); the joint study shares one constant draw per
         property/geometry draw (or per block of N/K_m flow draws)
+    workers : int   processes that compute the property/geometry draws (default 1: this process); with more,
+        the draws are shared out in blocks to the study worker processes
+        (:func:`lowgmap.physics.studies.workers.pools`, started on first use and kept): the same samples and the
+        same numbers, in less time on a machine with the cores (the model-uncertainty study stays in this process)
 
     Returns
     -------
@@ -527,6 +538,10 @@ def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, i
     regimes = np.full(n, "", dtype=object)
     m = np.full(n, np.nan)
 
+    workers = int(workers)
+    if workers < 1:
+        raise ValueError(f"workers must be >= 1, got {workers}")
+    processes = 1
     nominal_m, _, _ = _mg.symmetric_margins(chart, ql0, qg0, regime=intended_regime)
     names = list(chart.regime_names)
     if k == 1 and not case_uncs:
@@ -542,27 +557,24 @@ def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, i
                 progress(min(n, s + step), n)
     else:
         starts = np.searchsorted(block, np.arange(k + 1))
-        every = max(1, k // 50)
-        pending: list = []
-        for b in range(k):
-            sl = np.arange(starts[b], starts[b + 1])
-            values = {u.target: float(u.values(nominal[u.target], unit[u.target][b:b + 1])[0]) for u in case_uncs}
-            try:
-                case_b = perturbed_case(case, values)
-            except (ValueError, TypeError):
-                valid[sl] = False
-                continue
-            sl = sl[valid[sl]]
-            if sl.size:
-                light = _light_chart(chart, case_b)
-                reg = np.asarray(light.classify(ql[sl], qg[sl]))
-                regimes[sl] = reg
-                m[sl], _ = _mg.uncached_regime_margins(light, case_b, np.log10(ql[sl]), np.log10(qg[sl]),
-                                             _lines.regime_indices(names, reg), pending, sl, tol=_MC_TOL,
-                                             wall_dx=_MC_WALL_DX, n_start=_MC_N_START)
-            if progress is not None and ((b + 1) % every == 0 or b + 1 == k):
-                progress(int(starts[b + 1]), n)
-        _mg.resolve_deferred(pending, m)
+        draws = [{u.target: float(u.values(nominal[u.target], unit[u.target][b:b + 1])[0]) for u in case_uncs}
+                 for b in range(k)]
+        light0 = _light_chart(chart, case)
+        edges = list(range(0, k, _DRAWS_PER_BLOCK)) + [k]
+        if workers > 1 and k > 1:
+            processes = _draws_in_workers(light0, case, draws, starts, edges, ql, qg, valid, regimes, m, workers,
+                                          progress, n)
+        else:
+            every = max(1, k // 50)
+            for b0, b1 in zip(edges[:-1], edges[1:]):
+                s0, s1 = int(starts[b0]), int(starts[b1])
+
+                def done(j, b0=b0):
+                    b = b0 + j
+                    if progress is not None and ((b + 1) % every == 0 or b + 1 == k):
+                        progress(int(starts[b + 1]), n)
+                regimes[s0:s1], m[s0:s1], valid[s0:s1] = _run_draws(light0, case, draws[b0:b1], starts[b0:b1 + 1],
+                                                                    ql[s0:s1], qg[s0:s1], valid[s0:s1], done)
 
     ok = valid & np.isfinite(m)
     inside = regimes == intended_regime
@@ -589,7 +601,75 @@ def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, i
                              valid_flows=np.isfinite(ql) & np.isfinite(qg) & (ql > 0) & (qg > 0),
                              seed=int(seed), model_draws=model_draws, required_margin=required_margin)
     return MonteCarloResult(p, se, ci, signed, quant, sens, n, int(n - n_ok), intended_regime, counts, k,
-                            float(nominal_m), required_margin, p_req, int(seed), model)
+                            float(nominal_m), required_margin, p_req, int(seed), model, processes)
+
+
+def _run_draws(light0, case, draws, bounds, ql, qg, valid, done=None):
+    """Regimes, margins and validity of the samples of the property/geometry draws ``draws`` (dicts of drawn
+    values; draw j holds the samples bounds[j] - bounds[0] .. bounds[j + 1] - bounds[0] of ``ql``, ``qg``,
+    ``valid``, which hold only these samples). ``light0``: the nominal chart without its curves; ``done(j)`` is
+    called after each draw. Runs in this process or in a worker (:func:`_draws_in_workers`)."""
+    size = len(ql)
+    regimes = np.full(size, "", dtype=object)
+    m = np.full(size, np.nan)
+    valid = np.array(valid, dtype=bool)
+    names = list(light0.regime_names)
+    pending: list = []
+    for j, values in enumerate(draws):
+        sl = np.arange(bounds[j] - bounds[0], bounds[j + 1] - bounds[0])
+        try:
+            case_b = perturbed_case(case, values)
+        except (ValueError, TypeError):
+            valid[sl] = False
+            continue
+        sl = sl[valid[sl]]
+        if sl.size:
+            light = replace(light0, case=case_b)
+            reg = np.asarray(light.classify(ql[sl], qg[sl]))
+            regimes[sl] = reg
+            m[sl], _ = _mg.uncached_regime_margins(light, case_b, np.log10(ql[sl]), np.log10(qg[sl]),
+                                                   _lines.regime_indices(names, reg), pending, sl, tol=_MC_TOL,
+                                                   wall_dx=_MC_WALL_DX, n_start=_MC_N_START)
+        if done is not None:
+            done(j)
+    _mg.resolve_deferred(pending, m)       # the closed-form step of the block's draws in one batch
+    return regimes, m, valid
+
+
+def _draws_in_worker(light0, case, draws, bounds, ql, qg, valid):
+    """:func:`_run_draws` in a worker process, with the worker's process id."""
+    import os
+
+    return _run_draws(light0, case, draws, bounds, ql, qg, valid) + (os.getpid(),)
+
+
+def _draws_in_workers(light0, case, draws, starts, edges, ql, qg, valid, regimes, m, workers, progress, n) -> int:
+    """Share the blocks of draws (``edges``: the draw numbers where blocks start, then K) out to the study workers,
+    round robin, and fill ``regimes``, ``m`` and ``valid`` in place; returns the number of processes that
+    computed draws."""
+    from concurrent.futures import as_completed
+
+    from lowgmap.physics.studies import workers as _workers
+
+    pools = _workers.pools(workers)
+    n_blocks = len(edges) - 1
+    jobs = {}
+    for i in range(n_blocks):
+        b0, b1 = edges[i], edges[i + 1]
+        s0, s1 = int(starts[b0]), int(starts[b1])
+        fut = pools[i % workers].submit(_draws_in_worker, light0, case, draws[b0:b1], starts[b0:b1 + 1],
+                                        ql[s0:s1], qg[s0:s1], valid[s0:s1])
+        jobs[fut] = (s0, s1)
+    pids = set()
+    finished = 0
+    for fut in as_completed(jobs):
+        s0, s1 = jobs[fut]
+        regimes[s0:s1], m[s0:s1], valid[s0:s1], pid = fut.result()
+        pids.add(pid)
+        finished += s1 - s0
+        if progress is not None:
+            progress(finished, n)
+    return len(pids)
 
 
 def _probability(inside, ok, block, k):

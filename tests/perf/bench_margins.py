@@ -8,7 +8,9 @@ Measures, on one core:
 - margins of one point (point_margins) on a built chart, warm (line samples cached) and cold (first
   point on a fresh chart); target <= 2 ms;
 - vectorised symmetric margins of 10 000 points;
-- Monte Carlo of 10 000 samples with the case's own uncertainties; target <= 1 s;
+- Monte Carlo of 10 000 samples with the case's own uncertainties; target <= 1 s; where the case's draws
+  move the lines, also with the draws shared out to 2 worker processes (``monte_carlo(workers=2)``, the
+  workers started before timing);
 - the robust point and an envelope check;
 - a brute-force reference: the symmetric margin found by classifying a dense grid of the ±m box
   (bisection on m, 101 x 101 points per box), to show the speed ratio and the agreement.
@@ -142,6 +144,12 @@ def main(names=()) -> None:
             if draws is None else None
         k = res.chart_draws if res is not None else draws
         print(f"  {name:<24} {ms(t)}  ({k} property/geometry draws; inputs: {inputs})")
+        if shared and draws is None:          # the draws shared out to two worker processes (started before timing)
+            from lowgmap.physics.studies import workers
+            workers.warm(2)
+            t2 = median_time(lambda: monte_carlo(doc.case, doc.uncertainties, n=10_000, seed=0, chart=chart,
+                                                 workers=2), repeat=3)
+            print(f"  {name:<24} {ms(t2)}  (the same draws in 2 worker processes)")
 
     print("\nRobust point and envelope")
     for name, doc in docs.items():
