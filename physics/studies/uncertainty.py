@@ -543,7 +543,6 @@ def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, i
         raise ValueError(f"workers must be >= 1, got {workers}")
     processes = 1
     nominal_m, _, _ = _mg.symmetric_margins(chart, ql0, qg0, regime=intended_regime)
-    names = list(chart.regime_names)
     if k == 1 and not case_uncs:
         step = 2500
         for s in range(0, n, step):
