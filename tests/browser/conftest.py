@@ -14,6 +14,13 @@ from pathlib import Path
 
 import pytest
 
+# Assertions on the page wait for their condition up to 30 s (playwright's default is 5 s): the suite runs two
+# test processes, so two servers and two browsers share the machine's cores; a condition that never holds still
+# fails, and one that holds returns at once.
+from playwright.sync_api import expect  # noqa: E402
+
+expect.set_options(timeout=30_000)
+
 ROOT = Path(__file__).resolve().parents[2]
 ARTIFACTS = ROOT / "test-artifacts"
 CHROMIUM = os.environ.get("LOWGMAP_CHROMIUM", "/usr/bin/chromium")
