@@ -267,6 +267,20 @@ def test_ratio_roots_are_shared_by_shape_only():
     assert cm._cached_roots.cache_info().hits == hits + 2
 
 
+def test_a_narrow_ratio_range_keeps_two_close_roots_its_own_scan_resolves():
+    # the shared scan of a shape steps 0.02 decade; a chart or margin window under 4.8 decades of flow ratio scans
+    # finer on its own, so it must not take the shared scan's roots: catches two roots 0.006 decade apart (the
+    # merging line of these constants) lost in a narrow window, where the window's own scan finds both
+    m = get_model("corner_merging")
+    consts = dict(injector_width_ratio=0.266943734842, squeeze_a=1.0, merge_length_ratio=1.0)
+    case = make_case(theta=math.radians(5.0)).with_(flow_range=FlowRange(1e-6, 1e-5, 1.5e-6, 1.5e-5))
+    lo, hi = m._r_range(case)
+    assert hi - lo == pytest.approx(4.0)
+    direct = [10.0 ** x for x, _ in cm._roots(m._phi(case, m.resolve_constants(consts)), lo, hi)]
+    assert len(direct) == 2 and math.log10(direct[1] / direct[0]) < 0.01
+    assert m.ratio_roots(case, **consts) == pytest.approx(direct, rel=1e-12)
+
+
 def fade_integral(x0, x1):
     """Closed form of the integral of dx/(1 - x^3) (partial fractions), the fading push of a wedge."""
     G = lambda x: (-math.log(1 - x) / 3 + math.log(x * x + x + 1) / 6  # noqa: E731

@@ -281,3 +281,23 @@ def test_partition_scheme_draws_closed_form():
     signed = np.where(k < 1, (1 - k) / (1 + k), -(k - 1) / (k + 1))
     ok = qg > 0
     assert np.allclose(res.margins[ok], signed[ok], atol=1e-5)
+
+
+def test_worker_processes_use_the_full_solves_when_the_caller_asks_for_them(monkeypatch):
+    # catches the choice of full solves (`--exact`) lost in the worker processes: it is a setting of the calling
+    # context, which a process does not inherit, and their margins would come from the surrogate tables instead
+    # (about 5e-6 away at this point, where the ingestion line limits the margin)
+    from lowgmap.physics import surrogates
+    from lowgmap.physics.studies import uncertainty as unc
+
+    doc = load_case(sample_case_path("wedge_separator"))
+    monkeypatch.setattr(unc, "DRAWS_PER_BLOCK", 1)              # two draws: two blocks, one per worker
+    kw = dict(n=4, seed=1, chart_draws=2, point=(5e-6, 2e-8))
+    with surrogates.exact():
+        chart = Chart.build(doc.case)
+        one = monte_carlo(doc.case, doc.uncertainties, chart=chart, **kw)
+        two = monte_carlo(doc.case, doc.uncertainties, chart=chart, workers=2, **kw)
+    fast = monte_carlo(doc.case, doc.uncertainties, chart=Chart.build(doc.case), **kw)
+    assert (one.processes, two.processes) == (1, 2)
+    assert np.array_equal(one.margins, two.margins)
+    assert not np.allclose(one.margins, fast.margins, rtol=1e-7, atol=0.0)     # the two modes differ here

@@ -115,7 +115,7 @@ def model_lines(res, pct=format_percent) -> list[str]:
 def run(args) -> int:
     from lowgmap.physics.studies.uncertainty import monte_carlo
 
-    from lowgmap.physics.studies.uncertainty import FLOWS_PER_CHART_DRAW, POINT_TARGETS
+    from lowgmap.physics.studies.uncertainty import DRAWS_PER_BLOCK, FLOWS_PER_CHART_DRAW, POINT_TARGETS
 
     if args.samples < 2:
         raise common.CliError(f"--samples must be >= 2, got {args.samples}")
@@ -156,7 +156,7 @@ def run(args) -> int:
         t0 = time.perf_counter()
         with common.input_errors("uncertainty"):
             monte_carlo(doc.case, doc.uncertainties, n=2, chart_draws=1, **kw)
-        share = min(workers, blocks) if per_draw else 1
+        share = min(workers, -(-blocks // DRAWS_PER_BLOCK)) if per_draw else 1     # blocks of draws shared out
         print(estimate_text(args.samples, "samples" + (f" ({blocks:,} property/geometry draws)" if per_draw else "")
                             + (f" in {share} processes" if share > 1 else ""),
                             (time.perf_counter() - t0) * blocks / share), file=sys.stderr, flush=True)

@@ -1258,14 +1258,16 @@ class _ShapeOf:
 
 
 #: Range of log10 r scanned once per shape for the roots of the ratio lines and the ends of the separation line,
-#: and its scan points (0.02 decade apart: finer than a chart's own scan of 241 points over its ratio range).
-#: A range asked for (the chart's, or a margin window's) is cut out of it; one beyond it is scanned directly.
+#: and its scan points (0.02 decade apart). A range asked for (the chart's, or a margin window's) is cut out of
+#: it when its own scan of 241 points would be no finer (a range of 4.8 decades or more); a narrower range, or
+#: one beyond it, is scanned directly, so no pair of close roots that its own scan resolves is lost.
 _ALL_RATIOS = (-14.0, 14.0)
 _ALL_RATIOS_N = 1401
 
 
 def _within_all(lo, hi) -> bool:
-    return _ALL_RATIOS[0] <= lo and hi <= _ALL_RATIOS[1]
+    step = (_ALL_RATIOS[1] - _ALL_RATIOS[0]) / (_ALL_RATIOS_N - 1)
+    return _ALL_RATIOS[0] <= lo and hi <= _ALL_RATIOS[1] and (hi - lo) / 240.0 >= step
 
 
 @functools.lru_cache(maxsize=512)

@@ -65,7 +65,7 @@ from lowgmap.physics.validate import finite, non_negative
 
 __all__ = ["Uncertainty", "TARGETS", "POINT_TARGETS", "DISTRIBUTIONS", "MonteCarloResult", "monte_carlo",
            "nominal_value", "perturbed_case", "FLOWS_PER_CHART_DRAW", "QUANTILES", "ModelUncertaintyResult",
-           "model_variables"]
+           "model_variables", "DRAWS_PER_BLOCK"]
 
 #: Inputs that can carry an uncertainty, with what they mean (SI unit of an absolute size).
 TARGETS: dict[str, str] = {
@@ -105,7 +105,7 @@ _MC_N_START = 17        # initial samples per line per draw
 #: Property/geometry draws computed together (their margins' closed-form step in one batch): in this process
 #: block after block, or with ``workers`` the blocks shared out to worker processes. The blocks do not depend on
 #: the number of workers, so neither do the numbers.
-_DRAWS_PER_BLOCK = 32
+DRAWS_PER_BLOCK = 32
 
 
 @dataclass(frozen=True)
@@ -559,8 +559,8 @@ def monte_carlo(case, uncertainties: Sequence, n: int = 10_000, seed: int = 0, i
         draws = [{u.target: float(u.values(nominal[u.target], unit[u.target][b:b + 1])[0]) for u in case_uncs}
                  for b in range(k)]
         light0 = _light_chart(chart, case)
-        edges = list(range(0, k, _DRAWS_PER_BLOCK)) + [k]
-        if workers > 1 and k > 1:
+        edges = list(range(0, k, DRAWS_PER_BLOCK)) + [k]
+        if workers > 1 and len(edges) > 2:          # two blocks or more (one block: no gain from a worker)
             processes = _draws_in_workers(light0, case, draws, starts, edges, ql, qg, valid, regimes, m, workers,
                                           progress, n)
         else:
@@ -635,11 +635,15 @@ def _run_draws(light0, case, draws, bounds, ql, qg, valid, done=None):
     return regimes, m, valid
 
 
-def _draws_in_worker(light0, case, draws, bounds, ql, qg, valid):
-    """:func:`_run_draws` in a worker process, with the worker's process id."""
+def _draws_in_worker(light0, case, draws, bounds, ql, qg, valid, exact):
+    """:func:`_run_draws` in a worker process under the caller's choice of full solves or surrogates (a setting of
+    the calling context, which a worker does not inherit), with the worker's process id."""
     import os
 
-    return _run_draws(light0, case, draws, bounds, ql, qg, valid) + (os.getpid(),)
+    from lowgmap.physics import surrogates
+
+    with surrogates.exact(exact):
+        return _run_draws(light0, case, draws, bounds, ql, qg, valid) + (os.getpid(),)
 
 
 def _draws_in_workers(light0, case, draws, starts, edges, ql, qg, valid, regimes, m, workers, progress, n) -> int:
@@ -648,16 +652,18 @@ def _draws_in_workers(light0, case, draws, starts, edges, ql, qg, valid, regimes
     computed draws."""
     from concurrent.futures import as_completed
 
+    from lowgmap.physics import surrogates
     from lowgmap.physics.studies import workers as _workers
 
     pools = _workers.pools(workers)
     n_blocks = len(edges) - 1
+    exact = surrogates.exact_requested()
     jobs = {}
     for i in range(n_blocks):
         b0, b1 = edges[i], edges[i + 1]
         s0, s1 = int(starts[b0]), int(starts[b1])
         fut = pools[i % workers].submit(_draws_in_worker, light0, case, draws[b0:b1], starts[b0:b1 + 1],
-                                        ql[s0:s1], qg[s0:s1], valid[s0:s1])
+                                        ql[s0:s1], qg[s0:s1], valid[s0:s1], exact)
         jobs[fut] = (s0, s1)
     pids = set()
     finished = 0
