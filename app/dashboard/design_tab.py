@@ -42,6 +42,18 @@ MIN_DESIGNS = 25
 MAP_WORKERS = min(2, os.cpu_count() or 1)
 _WARMED = threading.Event()
 
+
+def _warm(warm_map_pools, case) -> None:
+    """Warm the map workers with the case's chart; a case whose chart fails there only loses the head start (the
+    map itself reports its own errors)."""
+    try:
+        warm_map_pools(MAP_WORKERS, case)
+    except Exception:           # noqa: BLE001 - a background head start, never an error shown
+        try:
+            warm_map_pools(MAP_WORKERS)
+        except Exception:       # noqa: BLE001
+            pass
+
 #: Inputs offered, with their quantity kind and display unit.
 _INPUTS = {
     "half_angle": ("corner half-angle", "angle", "deg"),
@@ -204,15 +216,15 @@ class DesignTab(pn.viewable.Viewer):
                          log_y=self._log(yv, yr), progress=progress, fluid_spec=fluid_spec(doc),
                          workers=MAP_WORKERS, **kw)
 
-    @staticmethod
-    def prepare() -> None:
-        """Start the map's worker processes in the background (once per server), so that a first map does not
-        wait for them: called when the tab is first shown."""
+    def prepare(self) -> None:
+        """Start the map's worker processes in the background (once per server), each building the chart of the
+        case in effect once (tables and code loaded), so that a first map does not wait for them: called when the
+        tab is first shown."""
         from lowgmap.physics.studies.sweep import warm_map_pools
 
         if MAP_WORKERS > 1 and not _WARMED.is_set():
             _WARMED.set()
-            threading.Thread(target=warm_map_pools, args=(MAP_WORKERS,), name="lowgmap-map-start",
+            threading.Thread(target=_warm, args=(warm_map_pools, self.session.doc.case), name="lowgmap-map-start",
                              daemon=True).start()
 
     def run_sync(self):

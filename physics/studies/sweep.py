@@ -594,9 +594,10 @@ def map_pools(workers: int) -> list:
     return _workers.pools(workers)
 
 
-def warm_map_pools(workers: int) -> None:
-    """Start the worker processes before a first map (:func:`lowgmap.physics.studies.workers.warm`)."""
-    _workers.warm(workers)
+def warm_map_pools(workers: int, case=None) -> None:
+    """Start the worker processes before a first map, with the case's chart built in each when a case is given
+    (:func:`lowgmap.physics.studies.workers.warm`)."""
+    _workers.warm(workers, case)
 
 
 def _parallel_evaluate(spec, workers: int, x_name: str):
