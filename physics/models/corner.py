@@ -443,10 +443,7 @@ def _sizes(geom, r, c):
             d_b = np.full(r.shape, c["bubble_diameter_ratio"] * S)
             V_b = math.pi * d_b ** 3 / 6.0
         else:
-            w = c["injector_width_ratio"] * S
-            a = c["squeeze_a"]
-            if not (0.0 < w < math.inf and 0.0 <= a < math.inf):   # checked constants; else say which
-                bb.squeezing_volume(1.0, 1.0, w, a=a)
+            w, a = _injector(c, S)
             V_b = bb.squeezing_volume_at_ratio(r, w, a)     # w^3 (1 + a r)
             d_b = np.cbrt(6.0 * V_b / math.pi)
         ell = np.maximum(d_b, V_b / A)                    # streamwise bubble length: a sphere, or a plug
@@ -459,16 +456,23 @@ def _sizes(geom, r, c):
 _FLOAT_MAX = float(np.finfo(float).max)
 
 
+def _injector(c, S):
+    """(injector width w [m], squeezing coefficient a) of the squeezing law for constants c and depth S; constants
+    out of range raise the squeezing law's own message naming them."""
+    w = c["injector_width_ratio"] * S
+    a = c["squeeze_a"]
+    if not (0.0 < w < math.inf and 0.0 <= a < math.inf):   # checked constants; else say which
+        bb.squeezing_volume(1.0, 1.0, w, a=a)
+    return w, a
+
+
 def _sizes_one(S, A, r, c):
     """:func:`_sizes` for one ratio 0 < r < inf, as floats (tests/test_corner_models.py checks the two agree)."""
     if c["bubble_diameter_ratio"] > 0:
         d_b = c["bubble_diameter_ratio"] * S
         V_b = math.pi * d_b ** 3 / 6.0
     else:
-        w = c["injector_width_ratio"] * S
-        a = c["squeeze_a"]
-        if not (0.0 < w < math.inf and 0.0 <= a < math.inf):   # checked constants; else say which
-            bb.squeezing_volume(1.0, 1.0, w, a=a)
+        w, a = _injector(c, S)
         V_b = w * w * w * (1.0 + a * r)
         d_b = math.cbrt(6.0 * V_b / math.pi)
     ell = max(d_b, V_b / A)
